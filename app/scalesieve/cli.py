@@ -1,0 +1,141 @@
+"""The ``scalesieve`` command line (shared/CONTRACT.md).
+
+``bands``, ``clean``, ``events``, ``batch`` and ``--version`` never import Qt.
+Exit status: 0 success, 2 bad input or usage (one line on stderr), 1 an
+unexpected failure (a short message and the path of a log with details).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import importlib.util
+import sys
+
+from scalesieve import __version__
+from scalesieve.errors import ScalesieveError
+
+PROG = "scalesieve"
+# subcommand -> module with configure(parser) and run(args) -> int
+COMMANDS = {
+    "bands": ("scalesieve.commands.bands", "per-band table of a recording"),
+    "clean": ("scalesieve.commands.clean", "apply a recipe or quick edits and write the result"),
+    "events": ("scalesieve.commands.events", "find and time-stamp transients at fine scales"),
+    "batch": ("scalesieve.commands.batch", "apply one recipe to many recordings"),
+}
+WINDOW = "scalesieve.commands.window"
+
+
+class UsageError(Exception):
+    pass
+
+
+class Parser(argparse.ArgumentParser):
+    """argparse with one-line errors in our format."""
+
+    def error(self, message):  # noqa: D401 - argparse API
+        raise UsageError(message)
+
+
+def _version_text() -> str:
+    return f"{PROG} {__version__}"
+
+
+def _module(name: str):
+    if importlib.util.find_spec(name) is None:
+        return None
+    return importlib.import_module(name)
+
+
+def build_parser(command: str | None) -> tuple[argparse.ArgumentParser, object]:
+    if command is None:
+        mod = _module(WINDOW)
+        p = Parser(prog=PROG, description=(
+            "Scalesieve: see a recording at each time scale and clean it. "
+            "Without a subcommand, opens the desktop window on FILE (or on the demo "
+            "recording). Subcommands: " + ", ".join(COMMANDS) +
+            f"; '{PROG} SUBCOMMAND --help' tells more."))
+        p.add_argument("--version", action="version", version=_version_text())
+        p.add_argument("--debug", action="store_true", help="show full tracebacks")
+        mod.configure(p)
+        return p, mod
+    modname, help_text = COMMANDS[command]
+    mod = _module(modname)
+    if mod is None:
+        raise UsageError(f"the '{command}' command is not available in this build")
+    p = Parser(prog=f"{PROG} {command}", description=mod.__doc__.strip().splitlines()[0]
+               if mod.__doc__ else help_text)
+    p.add_argument("--debug", action="store_true", help="show full tracebacks")
+    mod.configure(p)
+    return p, mod
+
+
+def _log_failure(exc: BaseException) -> str:
+    import datetime
+    import os
+    import traceback
+
+    try:
+        from platformdirs import user_log_dir
+
+        folder = user_log_dir("scalesieve", appauthor=False)
+    except Exception:  # platformdirs missing or broken: fall back to a temp folder
+        import tempfile
+
+        folder = os.path.join(tempfile.gettempdir(), "scalesieve-logs")
+    os.makedirs(folder, exist_ok=True)
+    stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S")
+    path = os.path.join(folder, f"failure-{stamp}-{os.getpid()}.log")
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write(f"{_version_text()}\nargv: {sys.argv!r}\n\n")
+        fh.write("".join(traceback.format_exception(type(exc), exc, exc.__traceback__)))
+    return path
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    debug = "--debug" in argv
+    command = argv[0] if argv and argv[0] in COMMANDS else None
+    rest = argv[1:] if command else argv
+    try:
+        if command is None and rest and rest[0] in ("--version", "-V"):
+            print(_version_text())
+            return 0
+        if command is None and rest and rest[0] in ("-h", "--help") and _module(WINDOW) is None:
+            print(f"usage: {PROG} {{{','.join(COMMANDS)}}} ...")
+            return 0
+        parser, mod = build_parser(command)
+        args = parser.parse_args(rest)
+        return int(mod.run(args) or 0)
+    except UsageError as exc:
+        print(f"{PROG}: error: {exc}", file=sys.stderr)
+        return 2
+    except ScalesieveError as exc:
+        if debug:
+            raise
+        print(f"{PROG}: error: {exc.one_line()}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"{PROG}: interrupted", file=sys.stderr)
+        return 130
+    except MemoryError as exc:
+        if debug:
+            raise
+        print(f"{PROG}: error: not enough memory for this recording ({exc}); "
+              f"try --channel K or a shorter file", file=sys.stderr)
+        return 2
+    except Exception as exc:  # the last line of defence: a log, not a traceback
+        if debug:
+            raise
+        try:
+            path = _log_failure(exc)
+            where = f"; details in {path}"
+        except OSError:
+            where = ""
+        print(f"{PROG}: unexpected failure: {type(exc).__name__}: {exc}{where}",
+              file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

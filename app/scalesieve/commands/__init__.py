@@ -1,0 +1,1 @@
+"""One module per command: ``configure(parser)`` and ``run(args) -> int``."""

@@ -1,0 +1,77 @@
+"""Options shared by the commands: transform, input, and how they combine."""
+
+from __future__ import annotations
+
+import argparse
+
+from scalesieve.errors import ScalesieveError
+
+
+def _positive_float(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not (v > 0 and v < float("inf")):
+        raise argparse.ArgumentTypeError(f"{text!r} must be a positive number")
+    return v
+
+
+def _level(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"level {v} must be at least 1")
+    return v
+
+
+def _channel(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a channel number") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError("channels are numbered from 0")
+    return v
+
+
+def add_transform_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("transform")
+    g.add_argument("--transform", choices=("dwt", "swt"), default=None,
+                   help="dwt (decimated, default) or swt (undecimated)")
+    g.add_argument("--wavelet", default=None, metavar="NAME",
+                   help="any discrete PyWavelets wavelet (default db4)")
+    g.add_argument("--level", type=_level, default=None, metavar="N",
+                   help="decomposition depth (default: two short of the deepest the data allow, at most 12)")
+    g.add_argument("--mode", default=None, metavar="MODE",
+                   help="boundary mode as PyWavelets names it (default symmetric)")
+
+
+def add_input_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("input")
+    g.add_argument("--rate", type=_positive_float, default=None, metavar="HZ",
+                   help="sample rate, needed for a CSV/TXT without a time column")
+    g.add_argument("--channel", type=_channel, default=None, metavar="K",
+                   help="use only channel K (0-based; default all)")
+    g.add_argument("--fill-gaps", choices=("linear",), default=None, dest="fill_gaps",
+                   help="fill empty or NaN cells of a text file by linear interpolation")
+
+
+def load_input(args, path: str):
+    from scalesieve import api
+
+    return api.load(path, rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps)
+
+
+def transform_from(args, recipe_spec=None):
+    from scalesieve import api
+    from scalesieve.core.transforms import MODES, discrete_wavelets
+
+    if args.wavelet is not None and args.wavelet not in discrete_wavelets():
+        raise ScalesieveError(f"--wavelet {args.wavelet!r} is not a discrete PyWavelets wavelet "
+                              f"(for example db4, sym8, coif3, bior3.5, haar)")
+    if args.mode is not None and args.mode not in MODES:
+        raise ScalesieveError(f"--mode {args.mode!r} is not one of {', '.join(MODES)}")
+    return api.merge_transform(recipe_spec, args.transform, args.wavelet, args.level, args.mode)

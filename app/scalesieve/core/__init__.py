@@ -1,0 +1,1 @@
+"""Headless numerical core: numpy and PyWavelets only, no Qt."""

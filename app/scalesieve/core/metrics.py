@@ -1,0 +1,45 @@
+"""Band statistics and before/after metrics (pure functions)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+
+def energy(a: np.ndarray) -> float:
+    a = np.asarray(a, dtype=np.float64)
+    return float(np.dot(a, a))
+
+
+def pearson_kurtosis(a: np.ndarray) -> float | None:
+    """E[(x - mean)^4] / var^2 (3 for Gaussian noise); None for a constant band."""
+    a = np.asarray(a, dtype=np.float64)
+    if a.size < 2:
+        return None
+    d = a - a.mean()
+    m2 = float(np.mean(d * d))
+    if m2 <= 0.0 or not math.isfinite(m2):
+        return None
+    d2 = d * d
+    return float(np.mean(d2 * d2) / (m2 * m2))
+
+
+def rms(a: np.ndarray) -> float:
+    a = np.asarray(a, dtype=np.float64)
+    return float(math.sqrt(np.dot(a, a) / a.size)) if a.size else 0.0
+
+
+def peak(a: np.ndarray) -> float:
+    a = np.asarray(a)
+    return float(np.max(np.abs(a))) if a.size else 0.0
+
+
+def snr_db(original: np.ndarray, removed: np.ndarray) -> float | None:
+    """10 log10(energy of the original / energy of what was removed); None when nothing was."""
+    eo, er = energy(original), energy(removed)
+    if er == 0.0:
+        return None
+    if eo == 0.0:
+        return float("-inf")
+    return 10.0 * math.log10(eo / er)

@@ -1,0 +1,310 @@
+"""Forward and inverse wavelet transforms, band names, band frequency ranges.
+
+A decomposition of one channel is a list of bands, ordered as PyWavelets
+orders them: ``[a_J, d_J, ..., d_1]``.  Band keys are ``"a"`` for the
+approximation and the integer level for details (1 is the finest).
+
+References
+----------
+S. Mallat, *A Wavelet Tour of Signal Processing*, 3rd ed. (orthonormal DWT,
+energy preservation).  D. B. Percival and A. T. Walden, *Wavelet Methods for
+Time Series Analysis*, 2000 (normalised undecimated transform, energy split
+by level).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from functools import lru_cache
+
+import numpy as np
+import pywt
+
+KINDS = ("dwt", "swt")
+MODES = tuple(pywt.Modes.modes)
+DEFAULT_WAVELET = "db4"
+DEFAULT_MODE = "symmetric"
+# Deepest default level: the approximation of a 1 kHz logger then ends near 0.1 Hz.
+MAX_DEFAULT_LEVEL = 12
+
+
+def discrete_wavelets() -> list[str]:
+    return pywt.wavelist(kind="discrete")
+
+
+@dataclass(frozen=True)
+class TransformSpec:
+    """What transform to run.  ``level=None`` means "choose for the data"."""
+
+    kind: str = "dwt"
+    wavelet: str = DEFAULT_WAVELET
+    level: int | None = None
+    mode: str = DEFAULT_MODE
+
+    def validate(self) -> "TransformSpec":
+        if self.kind not in KINDS:
+            raise ValueError(f"transform kind {self.kind!r} is not one of {', '.join(KINDS)}")
+        if self.wavelet not in discrete_wavelets():
+            raise ValueError(
+                f"wavelet {self.wavelet!r} is not a discrete PyWavelets wavelet "
+                f"(for example db4, sym8, coif3, bior3.5, haar)")
+        if self.mode not in MODES:
+            raise ValueError(f"boundary mode {self.mode!r} is not one of {', '.join(MODES)}")
+        if self.level is not None:
+            if isinstance(self.level, bool) or not isinstance(self.level, (int, np.integer)):
+                raise ValueError(f"level {self.level!r} is not a whole number")
+            if self.level < 1:
+                raise ValueError(f"level {self.level} must be at least 1")
+        return self
+
+    def resolved(self, n: int) -> "TransformSpec":
+        """The same spec with ``level`` filled in and checked against ``n`` samples."""
+        self.validate()
+        top = max_level(n, self.wavelet)
+        if top < 1:
+            raise ValueError(
+                f"{n} samples are too few for wavelet {self.wavelet} "
+                f"(filter length {filter_length(self.wavelet)}); "
+                f"use a shorter wavelet such as haar or a longer recording")
+        if self.level is None:
+            return replace(self, level=default_level(n, self.wavelet))
+        if self.level > top:
+            raise ValueError(
+                f"level {self.level} is deeper than {n} samples allow for {self.wavelet} "
+                f"(at most {top})")
+        return self
+
+    def to_json(self) -> dict:
+        d = {"kind": self.kind, "wavelet": self.wavelet, "mode": self.mode}
+        if self.level is not None:
+            d["level"] = int(self.level)
+        return {k: d[k] for k in ("kind", "wavelet", "level", "mode") if k in d}
+
+
+def filter_length(wavelet: str) -> int:
+    return pywt.Wavelet(wavelet).dec_len
+
+
+def max_level(n: int, wavelet: str) -> int:
+    """Deepest level at which the filter still fits the data (PyWavelets' rule)."""
+    return pywt.dwt_max_level(n, filter_length(wavelet))
+
+
+def default_level(n: int, wavelet: str) -> int:
+    """Two levels short of the deepest the data allow, at most 12, at least 1.
+
+    Two short of ``pywt.dwt_max_level`` leaves the coarsest band about four
+    filter lengths of coefficients, so it is not all boundary effect.
+    """
+    return int(max(1, min(max_level(n, wavelet) - 2, MAX_DEFAULT_LEVEL)))
+
+
+def band_keys(level: int) -> list:
+    """Band keys in PyWavelets order: ``["a", J, J-1, ..., 1]``."""
+    return ["a"] + list(range(level, 0, -1))
+
+
+def band_name(key, level: int) -> str:
+    return f"a{level}" if key == "a" else f"d{key}"
+
+
+def band_index(key, level: int) -> int:
+    """Position of a band key in the PyWavelets coefficient list."""
+    return 0 if key == "a" else level - int(key) + 1
+
+
+def band_range_hz(key, level: int, rate: float) -> tuple[float, float]:
+    """Nominal frequency range of a band (common practice: dyadic halving).
+
+    Detail level j spans fs/2^(j+1) ... fs/2^j; the approximation at level J
+    spans 0 ... fs/2^(J+1).
+    """
+    if key == "a":
+        return 0.0, rate / 2 ** (level + 1)
+    j = int(key)
+    return rate / 2 ** (j + 1), rate / 2 ** j
+
+
+def describe_wavelet(name: str) -> str:
+    """One line for a user: family, vanishing moments, filter length, orthogonality."""
+    w = pywt.Wavelet(name)
+    bits = [f"{w.family_name}"]
+    if w.vanishing_moments_psi is not None:
+        bits.append(f"{w.vanishing_moments_psi} vanishing moments")
+    bits.append(f"filter length {w.dec_len}")
+    if w.orthogonal:
+        bits.append("orthogonal")
+    elif w.biorthogonal:
+        bits.append("biorthogonal (not orthogonal)")
+    bits.append("symmetric" if w.symmetry == "symmetric" else
+                "near symmetric" if w.symmetry == "near symmetric" else "asymmetric")
+    return ", ".join(bits)
+
+
+# --------------------------------------------------------------------------
+# forward / inverse
+
+
+def swt_padded_length(n: int, level: int) -> int:
+    step = 2 ** level
+    return int(math.ceil(n / step) * step)
+
+
+def _swt_pad_mode(mode: str) -> str:
+    # pywt.pad knows every signal-extension mode except periodization.
+    return "periodic" if mode == "periodization" else mode
+
+
+def forward(x: np.ndarray, spec: TransformSpec) -> list[np.ndarray]:
+    """Decompose one channel; ``spec`` must be resolved (level set)."""
+    x = np.asarray(x, dtype=np.float64)
+    if spec.kind == "dwt":
+        return pywt.wavedec(x, spec.wavelet, mode=spec.mode, level=spec.level)
+    n = x.shape[0]
+    total = swt_padded_length(n, spec.level)
+    if total != n:
+        x = pywt.pad(x, (0, total - n), _swt_pad_mode(spec.mode))
+    return pywt.swt(x, spec.wavelet, level=spec.level, trim_approx=True, norm=True)
+
+
+def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray:
+    """Reconstruct ``n`` samples from a coefficient list of ``forward``."""
+    if spec.kind == "dwt":
+        out = pywt.waverec(coeffs, spec.wavelet, mode=spec.mode)
+    else:
+        out = pywt.iswt(coeffs, spec.wavelet, norm=True)
+    return np.ascontiguousarray(out[:n])
+
+
+def band_lengths(n: int, spec: TransformSpec) -> list[int]:
+    """Coefficient count of each band, in PyWavelets order."""
+    if spec.kind == "swt":
+        return [swt_padded_length(n, spec.level)] * (spec.level + 1)
+    L = filter_length(spec.wavelet)
+    lengths = []
+    m = n
+    for _ in range(spec.level):
+        m = pywt.dwt_coeff_len(m, L, spec.mode)
+        lengths.append(int(m))
+    return [lengths[-1]] + lengths[::-1]
+
+
+def band_component(coeffs: list[np.ndarray], key, spec: TransformSpec, n: int,
+                   values: np.ndarray | None = None) -> np.ndarray:
+    """Time-domain component of one band (the band alone, others zero).
+
+    ``values`` replaces that band's coefficients (for an edited band).
+    """
+    level = spec.level
+    idx = band_index(key, level)
+    band = coeffs[idx] if values is None else values
+    if spec.kind == "swt":
+        zeros = [np.zeros_like(coeffs[0]) if i != idx else band for i in range(len(coeffs))]
+        return inverse(zeros, spec, n)
+    w = pywt.Wavelet(spec.wavelet)
+    # Start at the band's own level and carry an approximation downwards:
+    # cheaper than a full waverec with zeros, and the same numbers.
+    if key == "a":
+        a = pywt.idwt(band, None, w, spec.mode)
+        start = level
+    else:
+        a = pywt.idwt(None, band, w, spec.mode)
+        start = int(key)
+    for j in range(start - 1, 0, -1):
+        target = coeffs[band_index(j, level)].shape[0]
+        if a.shape[0] > target:
+            a = a[:target]
+        a = pywt.idwt(a, None, w, spec.mode)
+    return np.ascontiguousarray(a[:n])
+
+
+# --------------------------------------------------------------------------
+# time positions and local synthesis (DWT)
+
+
+def _offset(wavelet: str, mode: str) -> int:
+    """Index offset of PyWavelets' synthesis: out[m] = sum_k c[k] f[m - 2k + off]."""
+    L = filter_length(wavelet)
+    return L // 2 - 1 if mode == "periodization" else L - 2
+
+
+def coefficient_positions(key, spec: TransformSpec, count: int) -> np.ndarray:
+    """Sample position (centre of the synthesis function) of each coefficient.
+
+    For the DWT the centre follows from the synthesis formula, level by
+    level; for the SWT coefficient k sits at sample k shifted by the
+    filters' centre of energy at that level.
+    """
+    level = spec.level
+    j = level if key == "a" else int(key)
+    if spec.kind == "dwt":
+        L = filter_length(spec.wavelet)
+        s = (L - 1) / 2 - _offset(spec.wavelet, spec.mode)
+        return (2 ** j) * np.arange(count, dtype=np.float64) + s * (2 ** j - 1)
+    shift = _swt_shift(spec.wavelet, j, key == "a")
+    return np.arange(count, dtype=np.float64) + shift
+
+
+@lru_cache(maxsize=256)
+def _swt_shift(wavelet: str, j: int, approx: bool) -> float:
+    """Centre of energy of an SWT synthesis function at level j, minus its index."""
+    L = filter_length(wavelet)
+    n = 2 ** (j + 1) * max(8, L)
+    zeros = [np.zeros(n) for _ in range(j + 1)]
+    k = n // 2
+    zeros[0 if approx else 1][k] = 1.0
+    r = pywt.iswt(zeros, wavelet, norm=True)
+    e = r * r
+    centre = float(np.sum(np.arange(n) * e) / np.sum(e))
+    return centre - k
+
+
+def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
+                    spec: TransformSpec, n: int) -> tuple[int, np.ndarray]:
+    """Time-domain effect of DWT coefficients ``values`` at indices k0.. of one band.
+
+    Returns ``(start, segment)``: the samples ``start .. start+len(segment)``
+    of the inverse transform of a coefficient set that is zero except for
+    this window.  Cost follows the window, not the recording.
+    ``coeffs_lengths`` are the band lengths in PyWavelets order.
+    """
+    w = pywt.Wavelet(spec.wavelet)
+    level = spec.level
+    off = _offset(spec.wavelet, spec.mode)
+    periodic = spec.mode == "periodization"
+    rec_lo = np.asarray(w.rec_lo)
+    filt = rec_lo if key == "a" else np.asarray(w.rec_hi)
+    j = level if key == "a" else int(key)
+    band_len = coeffs_lengths[band_index(key, level)]
+    seg = np.asarray(values, dtype=np.float64)
+    start = int(k0)
+    for lev in range(j, 0, -1):
+        # length of the next finer approximation (or the signal)
+        out_len = n if lev == 1 else coeffs_lengths[band_index(lev - 1, level)]
+        full_len = 2 * band_len if periodic else 2 * band_len - len(filt) + 2
+        up = np.zeros(2 * seg.shape[0] - 1)
+        up[::2] = seg
+        conv = np.convolve(up, filt)
+        m0 = 2 * start - off
+        if periodic:
+            idx = (np.arange(conv.shape[0]) + m0) % full_len
+            lo, hi = int(idx.min()), int(idx.max()) + 1
+            if m0 >= 0 and m0 + conv.shape[0] <= full_len:
+                seg, start = conv, m0
+            else:
+                # wrapped: fold into the whole level (rare: a window at an edge)
+                acc = np.zeros(full_len)
+                np.add.at(acc, idx, conv)
+                seg, start = acc[lo:hi], lo
+        else:
+            seg, start = conv, m0
+        # keep what lies inside the (trimmed) next level
+        a, b = max(start, 0), min(start + seg.shape[0], out_len)
+        if b <= a:
+            return 0, np.zeros(0)
+        seg = seg[a - start:b - start]
+        start = a
+        filt = rec_lo
+        band_len = out_len
+    return start, seg

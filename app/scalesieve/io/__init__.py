@@ -1,0 +1,1 @@
+"""Readers and writers; every input problem becomes a ScalesieveError."""
