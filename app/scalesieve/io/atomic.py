@@ -1,0 +1,201 @@
+"""Replace a file atomically: write beside it, fsync, then rename into place.
+
+Nothing the user had is lost: an existing target is replaced only with
+``force``, an input file (``protect``) never, and a failed write leaves the old
+target untouched and no temporary file behind.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import errno
+import os
+import tempfile
+from collections.abc import Callable, Iterable, Iterator
+from typing import Any, TypeVar
+
+from scalesieve.errors import ScalesieveError
+
+T = TypeVar("T")
+
+
+def _same_file(a: str, b: str) -> bool:
+    """True when ``a`` and ``b`` name the same file (hard links and symlinks too)."""
+    try:
+        if os.path.samefile(a, b):
+            return True
+    except OSError:
+        pass
+    return os.path.normcase(os.path.realpath(a)) == os.path.normcase(os.path.realpath(b))
+
+
+def check_target(path: str | os.PathLike[str], *, force: bool = False,
+                 protect: Iterable[str | os.PathLike[str]] = ()) -> str:
+    """Check that ``path`` may be written; return it as ``str``.
+
+    Raises
+    ------
+    ScalesieveError
+        When ``path`` is one of ``protect`` (even with ``force``), is a folder,
+        lies in a folder that does not exist, or exists and ``force`` is false.
+    """
+    target = os.fspath(path)
+    if isinstance(target, bytes):  # pragma: no cover - bytes paths are not used
+        target = os.fsdecode(target)
+    if not target:
+        raise ScalesieveError("no output file name given")
+    for p in protect or ():
+        if p is None or p == "":
+            continue
+        if _same_file(target, os.fspath(p)):
+            raise ScalesieveError(
+                "is an input file; it is never overwritten (choose another output name)",
+                source=target)
+    if os.path.isdir(target):
+        raise ScalesieveError("is a folder; give an output file name", source=target)
+    folder = os.path.dirname(os.path.abspath(target))
+    if not os.path.isdir(folder):
+        raise ScalesieveError(f"folder {folder} does not exist", source=target)
+    if os.path.lexists(target) and not force:
+        raise ScalesieveError("exists; use --force to replace it", source=target)
+    return target
+
+
+def _temp_name(target: str) -> str:
+    """Create an empty temporary file beside ``target`` with the same suffix."""
+    folder = os.path.dirname(os.path.abspath(target))
+    base = os.path.basename(target)
+    stem, suffix = os.path.splitext(base)
+    # Keep the suffix so that soundfile and numpy infer the format from the name.
+    fd, tmp = tempfile.mkstemp(prefix=f".{stem}.tmp-", suffix=suffix, dir=folder)
+    os.close(fd)
+    return tmp
+
+
+def _final_mode(target: str) -> int:
+    """Mode for the new file: the old target's, else what the umask allows."""
+    try:
+        return os.stat(target).st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
+
+
+def _fsync_file(path: str) -> None:
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
+def _fsync_folder(folder: str) -> None:
+    # Makes the rename itself durable; not every platform can open a folder.
+    try:
+        fd = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def _os_message(exc: OSError) -> str:
+    if exc.errno == errno.ENOSPC:
+        return "not enough disk space to write it"
+    if exc.errno in (errno.EACCES, errno.EPERM):
+        return "cannot write here (permission denied)"
+    if exc.errno == errno.EROFS:
+        return "cannot write here (read-only file system)"
+    return f"cannot write: {exc.strerror or exc}"
+
+
+def _publish(tmp: str, target: str, force: bool) -> None:
+    """Move the finished temporary file onto ``target``."""
+    if not force:
+        # A hard link fails if the target appeared meanwhile, so a file created
+        # by someone else between the check and now is not clobbered.
+        try:
+            os.link(tmp, target)
+        except FileExistsError:
+            raise ScalesieveError("exists; use --force to replace it", source=target) from None
+        except OSError:
+            pass  # file system without hard links: fall back to rename
+        else:
+            os.unlink(tmp)
+            return
+        if os.path.lexists(target):
+            raise ScalesieveError("exists; use --force to replace it", source=target)
+    os.replace(tmp, target)
+
+
+@contextlib.contextmanager
+def atomic_target(path: str | os.PathLike[str], *, force: bool = False,
+                  protect: Iterable[str | os.PathLike[str]] = ()) -> Iterator[str]:
+    """Context manager yielding a temporary path to write; published on success.
+
+    Examples
+    --------
+    >>> with atomic_target("out.json", force=True) as tmp:  # doctest: +SKIP
+    ...     open(tmp, "w").write("{}")
+    """
+    target = check_target(path, force=force, protect=protect)
+    folder = os.path.dirname(os.path.abspath(target))
+    try:
+        tmp = _temp_name(target)
+    except OSError as exc:
+        raise ScalesieveError(_os_message(exc), source=target) from None
+    try:
+        yield tmp
+        os.chmod(tmp, _final_mode(target))
+        _fsync_file(tmp)
+        _publish(tmp, target, force)
+        _fsync_folder(folder)
+    except OSError as exc:
+        raise ScalesieveError(_os_message(exc), source=target) from None
+    finally:
+        # After a successful publish the name is gone; after a failure it is removed.
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+
+
+def atomic_write(path: str | os.PathLike[str], write_fn: Callable[[str], T] | None = None,
+                 *, force: bool = False,
+                 protect: Iterable[str | os.PathLike[str]] = ()) -> Any:
+    """Write ``path`` atomically by calling ``write_fn(temporary_path)``.
+
+    The temporary file sits in the target's folder, is named
+    ``.<stem>.tmp-XXXX<suffix>`` (same suffix, so libraries that infer the
+    format from the name still do), is fsynced, then renamed onto ``path``.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file to create or replace. Its folder must exist.
+    write_fn : callable, optional
+        Called with the temporary path (``str``); must write the whole file
+        there. Its return value is returned. Without ``write_fn`` a context
+        manager yielding the temporary path is returned instead (see
+        :func:`atomic_target`).
+    force : bool
+        Replace an existing ``path``. Without it an existing file is an error.
+    protect : iterable of paths
+        Files never to overwrite, even with ``force`` (the inputs). Compared
+        with ``os.path.samefile`` and ``realpath``, so links are caught.
+
+    Raises
+    ------
+    ScalesieveError
+        For a refused target or an operating-system error while writing. On
+        any failure the old target is left as it was and the temporary file is
+        removed; exceptions other than ``OSError`` propagate unchanged.
+    """
+    if write_fn is None:
+        return atomic_target(path, force=force, protect=protect)
+    with atomic_target(path, force=force, protect=protect) as tmp:
+        result = write_fn(tmp)
+    return result

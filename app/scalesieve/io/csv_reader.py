@@ -1,0 +1,769 @@
+"""Read numeric text tables (CSV, TSV, TXT, DAT) into a :class:`Recording`.
+
+What is accepted (see CONTRACT.md, "CSV/TSV/TXT input"):
+
+- delimiter comma, semicolon, tab, runs of whitespace (or ``|``), and a
+  decimal comma, found together from the first rows;
+- lines starting with ``#`` are comments (and ``#`` ends a data row early);
+- an optional header row naming the columns, optionally followed by a row of
+  units (``ms;µm/m;µm/m``), which is joined to the names as ``name [unit]``;
+- a first column whose header names time (``time``, ``t``, ``time [ms]``,
+  ``t (s)``, ``[s]``, ``time_ms``, ``time_us``, ``t / ms``...) is the time axis,
+  in seconds unless its unit says otherwise; the rate comes from it and its
+  steps must be uniform;
+- UTF-8 (with or without BOM), UTF-16 with BOM, otherwise Latin-1; LF, CRLF
+  or CR line ends; a trailing delimiter on every row.
+
+Every problem raises :class:`~scalesieve.errors.ScalesieveError` with the
+path as given and, where it points at one, the 1-based line number.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+import re
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from scalesieve.core.recording import Recording
+from scalesieve.errors import ScalesieveError
+from scalesieve.io.gaps import check_fill_method, fill_linear
+from scalesieve.io.input_check import check_readable, os_error_message
+
+#: Largest relative spread of time steps, (max - min) / median, still called uniform.
+UNIFORM_STEP_TOLERANCE = 1e-3
+
+#: Cells that mean "no value here" (case-insensitive, after stripping).
+GAP_TOKENS = frozenset({"", "nan", "-nan", "+nan", "na", "n/a", "null", "none"})
+
+#: Seconds per unit of a time column.
+TIME_UNITS = {
+    "s": 1.0, "sec": 1.0, "secs": 1.0, "second": 1.0, "seconds": 1.0,
+    "ms": 1e-3, "msec": 1e-3, "millisecond": 1e-3, "milliseconds": 1e-3,
+    "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "usec": 1e-6, "microsecond": 1e-6,
+    "microseconds": 1e-6,
+    "ns": 1e-9, "nsec": 1e-9,
+    "min": 60.0, "h": 3600.0,
+}
+# Unit suffixes distinctive enough to mark a time column on any name (``accel_ms``
+# would be odd, ``pressure_s`` is plausible for something else).
+_DISTINCT_SUFFIX_UNITS = ("ms", "msec", "us", "µs", "μs", "usec", "ns")
+_TIME_WORDS = frozenset({"time", "t", "timestamp", "elapsed", "zeit", "temps", "tiempo"})
+_PLAIN_UNIT_HEADERS = frozenset({"seconds", "sec", "secs", "ms", "msec", "us", "µs", "μs",
+                                 "usec"})
+
+_BRACKET_RE = re.compile(r"^(.*?)\s*[\[(]\s*([^\])]*?)\s*[\])]$")
+_SLASH_RE = re.compile(r"^(.*?)\s*/\s*(\S+)$")
+_UNDERSCORE_RE = re.compile(r"^(.+?)_([a-zµμ]+)$")
+_SPACE_RE = re.compile(r"^(.+?) ([a-zµμ]+)$")
+
+_SAMPLE_LINES = 200          # rows looked at to find the dialect and the header
+_SAMPLE_CHARS = 1 << 16      # and at most this much text
+_CLEVER_CHARS = 8192         # clevercsv is thorough but slow on long samples
+
+
+@dataclass
+class Dialect:
+    """How cells are separated and written."""
+
+    delimiter: str | None      # None: runs of whitespace
+    decimal: str = "."         # "." or ","
+    trailing: bool = False     # every row ends with a delimiter (an empty last cell)
+
+    def describe(self) -> str:
+        names = {",": "comma", ";": "semicolon", "\t": "tab", "|": "bar", None: "whitespace"}
+        return names.get(self.delimiter, repr(self.delimiter))
+
+
+@dataclass
+class TextLayout:
+    """What the top of a text table says about the rest of it."""
+
+    dialect: Dialect
+    columns: int                         # cells per data row
+    names: list[str] | None              # column names from the header, else None
+    header_lines: list[int]              # 1-based lines holding the header (and units)
+    data_offset: int                     # character offset of the first data row
+    data_line: int                       # its 1-based line number
+    time_scale: float | None             # seconds per unit of column 0, when it is time
+    time_unit: str | None
+    encoding: str
+    sample_rows: list[tuple[int, str]] = field(default_factory=list)
+
+
+# ----------------------------------------------------------------------------- text
+
+def decode_text(raw: bytes, source: str) -> tuple[str, str]:
+    """Decode file bytes to text with LF line ends; return ``(text, encoding)``.
+
+    Tries UTF-16 when a UTF-16 byte-order mark is present, then UTF-8 (BOM
+    allowed), then Latin-1 (which decodes any bytes; binary data is caught by
+    looking for NUL and other control characters).
+    """
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            text, encoding = raw.decode("utf-16"), "utf-16"
+        except UnicodeDecodeError:
+            raise ScalesieveError("is not readable text (broken UTF-16)", source=source) from None
+    else:
+        if b"\x00" in raw[:_SAMPLE_CHARS] or b"\x00" in raw[-_SAMPLE_CHARS:]:
+            raise ScalesieveError("contains binary data, not a text table", source=source)
+        try:
+            text, encoding = raw.decode("utf-8-sig"), "utf-8"
+        except UnicodeDecodeError:
+            text, encoding = raw.decode("latin-1"), "latin-1"
+    head = text[:_SAMPLE_CHARS]
+    controls = sum(1 for ch in head if ord(ch) < 32 and ch not in "\t\n\r\f\v")
+    if "\x00" in head or controls > max(2, len(head) // 100):
+        raise ScalesieveError("contains binary data, not a text table", source=source)
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text, encoding
+
+
+def looks_like_text(head: bytes) -> bool:
+    """Cheap guess whether the first bytes of a file are a text table."""
+    if not head:
+        return False
+    if head.startswith((b"\xff\xfe", b"\xfe\xff", b"\xef\xbb\xbf")):
+        return True
+    if b"\x00" in head:
+        return False
+    try:
+        text = head.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        # A multi-byte character cut by the end of the sample is still text.
+        if exc.start < len(head) - 4:
+            text = head.decode("latin-1")
+        else:
+            text = head[:exc.start].decode("utf-8")
+    controls = sum(1 for ch in text if ord(ch) < 32 and ch not in "\t\n\r\f\v")
+    return controls <= max(2, len(text) // 100)
+
+
+def _lines(text: str, start: int = 0, lineno: int = 1):
+    """Yield ``(line number, offset, line)`` from ``start`` without splitting the whole text."""
+    n = len(text)
+    pos = start
+    while pos < n:
+        end = text.find("\n", pos)
+        if end < 0:
+            end = n
+        yield lineno, pos, text[pos:end]
+        pos = end + 1
+        lineno += 1
+
+
+def _is_comment_or_blank(line: str) -> bool:
+    s = line.strip()
+    return not s or s.startswith("#")
+
+
+def _data_part(line: str) -> str:
+    """A data row without its ``#`` comment; empty when nothing is left."""
+    cut = line.find("#")
+    if cut >= 0:
+        line = line[:cut]
+    return line.strip()
+
+
+# ------------------------------------------------------------------------- cells
+
+def split_cells(line: str, dialect: Dialect) -> list[str]:
+    """Cells of one row, stripped, quotes removed."""
+    d = dialect.delimiter
+    if d is None:
+        cells = line.split()
+    elif '"' in line:
+        cells = next(csv.reader([line], delimiter=d, quotechar='"', skipinitialspace=True))
+    else:
+        cells = line.split(d)
+    cells = [c.strip().strip('"').strip() for c in cells]
+    if dialect.trailing and cells and cells[-1] == "":
+        cells.pop()
+    return cells
+
+
+_NOT_A_NUMBER = object()
+
+
+def cell_value(cell: str, decimal: str):
+    """Float of ``cell``; ``nan`` for a gap; ``_NOT_A_NUMBER`` when it is neither."""
+    c = cell.strip()
+    if c.lower() in GAP_TOKENS:
+        return math.nan
+    if decimal == ",":
+        if "." in c:
+            return _NOT_A_NUMBER
+        c = c.replace(",", ".")
+    if "_" in c:  # float() accepts 1_000; a table cell with it is more likely a name
+        return _NOT_A_NUMBER
+    try:
+        return float(c)
+    except ValueError:
+        return _NOT_A_NUMBER
+
+
+def _is_numeric(cell: str, decimal: str) -> bool:
+    return cell_value(cell, decimal) is not _NOT_A_NUMBER
+
+
+# ---------------------------------------------------------------------- dialect
+
+_CANDIDATES = [(",", "."), (";", "."), (";", ","), ("\t", "."), ("\t", ","),
+               (None, "."), (None, ","), ("|", "."), ("|", ",")]
+
+
+def _clevercsv_delimiter(rows: list[str]) -> str | None | bool:
+    """clevercsv's guess of the delimiter (``None`` = whitespace), or ``False``."""
+    try:
+        import clevercsv
+    except ImportError:  # pragma: no cover - a declared dependency
+        return False
+    sample = "\n".join(rows)[:_CLEVER_CHARS]
+    try:
+        d = clevercsv.Sniffer().sniff(sample, delimiters=[",", ";", "\t", " ", "|"])
+    except Exception:  # clevercsv raises several kinds on odd samples; its guess is optional
+        return False
+    if d is None:
+        return False
+    if d.delimiter == " ":
+        return None
+    if d.delimiter in (",", ";", "\t", "|"):
+        return d.delimiter
+    return False
+
+
+def detect_dialect(rows: list[str]) -> tuple[Dialect, int]:
+    """Find delimiter and decimal mark of a numeric table; return ``(dialect, cells per row)``.
+
+    Every candidate (delimiter, decimal mark) pair is scored on the sample
+    rows: the share of rows with the most common cell count times the share
+    of cells (after the first row, which may be a header) that read as
+    numbers. A general CSV sniffer picks the delimiter alone, which misreads
+    a decimal comma in whitespace- or single-column tables, so the decimal
+    mark is scored together with it; clevercsv's guess only breaks ties.
+    """
+    clever = _clevercsv_delimiter(rows)
+    order = list(_CANDIDATES)
+    if clever is not False:
+        order.sort(key=lambda c: c[0] != clever)  # stable: keeps the rest in order
+    best = None
+    for rank, (delim, decimal) in enumerate(order):
+        trailing = delim is not None and all(r.rstrip().endswith(delim) for r in rows)
+        dialect = Dialect(delim, decimal, trailing)
+        split = [split_cells(r, dialect) for r in rows]
+        counts = [len(c) for c in split]
+        body_counts = counts[1:] if len(rows) > 1 else counts
+        k = max(set(body_counts), key=lambda v: (body_counts.count(v), v))
+        consistency = sum(1 for c in counts if c == k) / len(counts)
+        cells = [c for cs in (split[1:] if len(rows) > 1 else split) if len(cs) == k for c in cs]
+        numeric = (sum(1 for c in cells if _is_numeric(c, decimal)) / len(cells)) if cells else 0.0
+        # A decimal comma must be seen to be chosen; otherwise '.' is the same reading.
+        if decimal == "," and not any("," in c for c in cells):
+            numeric *= 0.999
+        score = (round(consistency * numeric, 9), k, -rank)
+        if best is None or score > best[0]:
+            best = (score, dialect, k)
+    assert best is not None
+    _, dialect, k = best
+    return dialect, k
+
+
+# ------------------------------------------------------------------------ header
+
+def time_unit_of(name: str) -> tuple[float, str] | None:
+    """``(seconds per unit, unit)`` when a column header names time, else ``None``.
+
+    Raises
+    ------
+    ValueError
+        When the name says time but carries a unit that is not a time unit.
+    """
+    n = name.strip().lower()
+    if not n:
+        return None
+    if n in _TIME_WORDS:
+        return 1.0, "s"
+    if n in _PLAIN_UNIT_HEADERS:
+        return TIME_UNITS[n], n
+    m = _BRACKET_RE.match(n)
+    if m:
+        base, unit = m.group(1).strip(), m.group(2).strip()
+        if unit in TIME_UNITS:
+            return TIME_UNITS[unit], unit
+        if base in _TIME_WORDS:
+            raise ValueError(f"time column {name!r} has unit {unit!r}; "
+                             f"use one of s, ms, us, ns, min, h")
+        return None
+    m = _SLASH_RE.match(n)
+    if m and m.group(1).strip() in _TIME_WORDS:
+        unit = m.group(2)
+        if unit in TIME_UNITS:
+            return TIME_UNITS[unit], unit
+        raise ValueError(f"time column {name!r} has unit {unit!r}; "
+                         f"use one of s, ms, us, ns, min, h")
+    m = _UNDERSCORE_RE.match(n)
+    if m:
+        base, unit = m.group(1).strip(), m.group(2)
+        if unit in _DISTINCT_SUFFIX_UNITS or (unit in TIME_UNITS and base in _TIME_WORDS):
+            return TIME_UNITS[unit], unit
+    m = _SPACE_RE.match(n)
+    if m and m.group(1).strip() in _TIME_WORDS and m.group(2) in TIME_UNITS:
+        return TIME_UNITS[m.group(2)], m.group(2)
+    return None
+
+
+def _merge_unit_tokens(tokens: list[str], k: int) -> list[str]:
+    """Whitespace headers split ``time [s]`` in two; join unit tokens to their name."""
+    out: list[str] = []
+    for tok in tokens:
+        if out and len(tokens) > k and tok[:1] in "[(":
+            out[-1] = f"{out[-1]} {tok}"
+        else:
+            out.append(tok)
+    return out
+
+
+def _unique(names: list[str]) -> list[str]:
+    seen: dict[str, int] = {}
+    out = []
+    for name in names:
+        if name in seen:
+            seen[name] += 1
+            candidate = f"{name}_{seen[name]}"
+            while candidate in seen:
+                seen[name] += 1
+                candidate = f"{name}_{seen[name]}"
+            out.append(candidate)
+            seen[candidate] = 1
+        else:
+            seen[name] = 1
+            out.append(name)
+    return out
+
+
+def scan_layout(text: str, source: str, encoding: str = "utf-8") -> TextLayout:
+    """Find dialect, header, units row and time column from the top of ``text``."""
+    rows: list[tuple[int, int, str]] = []
+    for lineno, offset, line in _lines(text):
+        if _is_comment_or_blank(line):
+            continue
+        rows.append((lineno, offset, line.strip()))
+        if len(rows) >= _SAMPLE_LINES or offset > _SAMPLE_CHARS:
+            break
+    if not rows:
+        raise ScalesieveError("holds no data rows (only comments or blank lines)", source=source)
+    # Data rows are read without their '#' comment; the first row may be a header.
+    sample = [rows[0][2]] + [_data_part(r[2]) for r in rows[1:]]
+    sample = [s for s in sample if s]
+    dialect, k = detect_dialect(sample)
+
+    first_cells = split_cells(rows[0][2], dialect)
+    header = any(not _is_numeric(c, dialect.decimal) for c in first_cells)
+    names: list[str] | None = None
+    header_lines: list[int] = []
+    data_index = 0
+    if header:
+        header_lines.append(rows[0][0])
+        data_index = 1
+        cells = first_cells
+        if dialect.delimiter is None and len(cells) != k:
+            cells = _merge_unit_tokens(cells, k)
+        if len(cells) != k:
+            raise ScalesieveError(
+                f"the header names {len(cells)} columns but the rows have {k} cells "
+                f"({dialect.describe()}-separated)", source=source, line=rows[0][0])
+        names = cells
+        if len(rows) > 1:
+            unit_cells = split_cells(rows[1][2], dialect)
+            if (len(unit_cells) == k and any(unit_cells)
+                    and all(c == "" or not _is_numeric(c, dialect.decimal)
+                            for c in unit_cells)
+                    and all(len(c) <= 20 for c in unit_cells)):
+                # A second header row of units, as many loggers write.
+                header_lines.append(rows[1][0])
+                data_index = 2
+                names = [f"{n} [{u}]" if u else n for n, u in zip(names, unit_cells)]
+    if data_index >= len(rows):
+        if header:
+            raise ScalesieveError("has a header but no data rows", source=source)
+        raise ScalesieveError("holds no data rows", source=source)  # pragma: no cover
+
+    time_scale = time_unit = None
+    if names is not None:
+        try:
+            found = time_unit_of(names[0])
+        except ValueError as exc:
+            raise ScalesieveError(str(exc), source=source, line=header_lines[0]) from None
+        if found is not None:
+            time_scale, time_unit = found
+    lineno, offset, _ = rows[data_index]
+    return TextLayout(dialect, k, names, header_lines, offset, lineno, time_scale, time_unit,
+                      encoding, [(r[0], r[2]) for r in rows[data_index:]])
+
+
+# ----------------------------------------------------------------------- parsing
+
+def _parse_bulk(body: str, layout: TextLayout) -> np.ndarray | None:
+    """All data rows with numpy's C parser; ``None`` when it objects (then go row by row)."""
+    d = layout.dialect
+    if d.trailing:
+        body = re.sub(re.escape(d.delimiter) + r"[ \t]*$", "", body, flags=re.M)
+    if d.decimal == ",":
+        body = body.replace(",", ".")
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            values = np.loadtxt(io.StringIO(body), delimiter=d.delimiter, comments="#",
+                                quotechar='"', dtype=np.float64, ndmin=2)
+    except (ValueError, IndexError):
+        return None
+    if values.shape[1] != layout.columns and values.shape[0] > 0:
+        return None
+    return values
+
+
+def _column_label(layout: TextLayout, j: int) -> str:
+    if layout.names is not None and layout.names[j]:
+        return f"column {j + 1} ({layout.names[j]!r})"
+    return f"column {j + 1}"
+
+
+def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray, np.ndarray]:
+    """Row-by-row parse with exact messages; return ``(values, 1-based line numbers)``."""
+    d = layout.dialect
+    k = layout.columns
+    rows: list[list[float]] = []
+    linenos: list[int] = []
+    where = "the header" if layout.names is not None else f"line {layout.data_line}"
+    for lineno, _, line in _lines(text, layout.data_offset, layout.data_line):
+        part = _data_part(line)
+        if not part:
+            continue
+        cells = split_cells(part, d)
+        if len(cells) != k:
+            raise ScalesieveError(f"has {len(cells)} cells; expected {k} as in {where}",
+                                  source=source, line=lineno)
+        row = []
+        for j, cell in enumerate(cells):
+            v = cell_value(cell, d.decimal)
+            if v is _NOT_A_NUMBER:
+                what = "time value" if (j == 0 and layout.time_scale is not None) else "cell"
+                raise ScalesieveError(
+                    f"{_column_label(layout, j)}: {what} {cell!r} is not a number",
+                    source=source, line=lineno)
+            row.append(v)
+        rows.append(row)
+        linenos.append(lineno)
+    values = np.array(rows, dtype=np.float64).reshape(len(rows), k)
+    return values, np.array(linenos, dtype=np.int64)
+
+
+def _data_linenos(text: str, layout: TextLayout) -> np.ndarray:
+    """1-based line numbers of the data rows, in order (for messages)."""
+    return np.array([lineno for lineno, _, line in _lines(text, layout.data_offset,
+                                                          layout.data_line)
+                     if _data_part(line)], dtype=np.int64)
+
+
+def parse_values(text: str, layout: TextLayout, source: str, *,
+                 bulk: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+    """Every data row as float64 ``(rows, columns)``, gaps as NaN.
+
+    Returns the values and, when already known, the line number of each row
+    (``None`` after the bulk parse; see :func:`_data_linenos`).
+    """
+    if bulk:
+        values = _parse_bulk(text[layout.data_offset:], layout)
+        if values is not None:
+            return values, None
+    return _parse_rows(text, layout, source)
+
+
+# ------------------------------------------------------------------------ public
+
+def read_text_file(path: str | os.PathLike[str]) -> tuple[str, str, str]:
+    """Read and decode a text file; return ``(source, text, encoding)``."""
+    source, _ = check_readable(path)
+    try:
+        with open(source, "rb") as fh:
+            raw = fh.read()
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+    except MemoryError:
+        raise ScalesieveError("is too large to load into memory", source=source) from None
+    text, encoding = decode_text(raw, source)
+    return source, text, encoding
+
+
+def check_rate(rate, source: str | None = None) -> float | None:
+    """``rate`` as a positive finite float (or ``None``), else a ScalesieveError."""
+    if rate is None:
+        return None
+    try:
+        r = float(rate)
+    except (TypeError, ValueError):
+        raise ScalesieveError(f"--rate must be a number of Hz, got {rate!r}",
+                              source=source) from None
+    if not math.isfinite(r) or r <= 0:
+        raise ScalesieveError(f"--rate must be a positive number of Hz, got {rate!r}",
+                              source=source)
+    return r
+
+
+def check_channel(channel, count: int, source: str | None = None) -> int | None:
+    """Validate a 0-based channel index against ``count`` channels."""
+    if channel is None:
+        return None
+    if isinstance(channel, bool):
+        raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
+                              source=source)
+    try:
+        k = int(channel) if isinstance(channel, str) else channel.__index__()
+    except (TypeError, ValueError, AttributeError):
+        raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
+                              source=source) from None
+    if not 0 <= k < count:
+        plural = "channel" if count == 1 else "channels"
+        raise ScalesieveError(
+            f"channel {k} does not exist; the file has {count} {plural} "
+            f"(0-based: 0 to {count - 1})", source=source)
+    return k
+
+
+def _time_axis_rate(t: np.ndarray, line_of, source: str) -> float:
+    """Rate from a time axis in seconds; error when it is not evenly spaced."""
+    if t.size < 2:
+        raise ScalesieveError("a single row cannot give a rate from its time column; "
+                              "give --rate", source=source)
+    steps = np.diff(t)
+    bad = np.flatnonzero(~(steps > 0))
+    if bad.size:
+        i = int(bad[0]) + 1
+        line = line_of(i)
+        raise ScalesieveError(
+            f"time does not increase ({t[i - 1]:.9g} s, then {t[i]:.9g} s)",
+            source=source, line=line)
+    typical = float(np.median(steps))
+    spread = float(steps.max() - steps.min()) / typical
+    if not spread < UNIFORM_STEP_TOLERANCE:
+        i = int(np.argmax(np.abs(steps - typical))) + 1
+        line = line_of(i)
+        raise ScalesieveError(
+            f"time steps are not uniform (relative spread {spread:.3g}, limit "
+            f"{UNIFORM_STEP_TOLERANCE:g}): a step of {steps[i - 1]:.9g} s where most are "
+            f"{typical:.9g} s; resample the data, or give --rate to treat the rows as "
+            "evenly spaced", source=source, line=line)
+    # The whole span is far more precise than any single printed step.
+    rate = float((t.size - 1) / (t[-1] - t[0]))
+    # Drop float noise from unit scaling (1e5 rather than 100000.00000000001).
+    if abs(rate - round(rate)) <= 1e-9 * rate:
+        rate = float(round(rate))
+    return rate
+
+
+def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
+              channel: int | None = None, fill_gaps: str | None = None,
+              dtype=np.float64, _bulk: bool = True) -> Recording:
+    """Read a numeric text table into a :class:`Recording`.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A CSV, TSV, TXT or DAT table (see the module docstring for the rules).
+    rate : float, optional
+        Sampling rate in Hz. Required without a time column; with one, it
+        overrides the rate the time column gives (the time values are then not
+        checked for even spacing).
+    channel : int, optional
+        0-based index among the data columns (the time column excluded);
+        ``None`` keeps all.
+    fill_gaps : {None, "linear"}
+        Without it an empty or NaN cell is an error naming its line; with
+        ``"linear"`` gaps are interpolated over the row index (ends take the
+        nearest value), as ``numpy.interp`` does.
+    dtype : numpy dtype, float64 or float32
+        Sample type of the result (float32 halves the memory of long records).
+
+    Returns
+    -------
+    Recording
+        ``format`` and ``subtype`` are ``None``; ``meta["text"]`` holds the
+        delimiter, decimal mark, encoding, header and time column found, and
+        ``meta["time_start_s"]`` the first time value when there is a time column.
+
+    Raises
+    ------
+    ScalesieveError
+        For every problem, with ``source`` the path as given and ``line`` the
+        1-based line in the file where the problem is (when there is one).
+    """
+    dtype = np.dtype(dtype)
+    if dtype not in (np.float64, np.float32):
+        raise ValueError(f"dtype must be float64 or float32, got {dtype}")
+    source = os.fspath(path)
+    try:
+        fill_gaps = check_fill_method(fill_gaps)
+    except ValueError as exc:
+        raise ScalesieveError(str(exc), source=source) from None
+    rate = check_rate(rate, source)
+    source, text, encoding = read_text_file(path)
+    layout = scan_layout(text, source, encoding)
+    try:
+        values, linenos = parse_values(text, layout, source, bulk=_bulk)
+    except MemoryError:
+        raise ScalesieveError("is too large to load into memory", source=source) from None
+    if values.shape[0] == 0:  # pragma: no cover - scan_layout found a data row
+        raise ScalesieveError("holds no data rows", source=source)
+
+    k = layout.columns
+    has_time = layout.time_scale is not None
+    if has_time and k < 2:
+        raise ScalesieveError("holds only a time column and no channels", source=source)
+    first_channel = 1 if has_time else 0
+    if rate is not None and has_time:
+        values = values[:, 1:]  # the given rate wins; the time values are not needed
+        columns = list(range(1, k))
+    else:
+        columns = list(range(k))
+
+    bad = ~np.isfinite(values)
+    filled = 0
+    if bad.any():
+        if linenos is None:
+            linenos = _data_linenos(text, layout)
+        infinite = np.isinf(values)
+        if infinite.any():
+            r, c = np.argwhere(infinite)[0]
+            raise ScalesieveError(f"{_column_label(layout, columns[c])}: value is infinite",
+                                  source=source, line=int(linenos[r]))
+        if fill_gaps is None:
+            r, c = np.argwhere(bad)[0]
+            raise ScalesieveError(
+                f"{_column_label(layout, columns[c])} is empty or NaN; use --fill-gaps linear "
+                "to fill gaps", source=source, line=int(linenos[r]))
+        empty = np.flatnonzero(bad.all(axis=0))
+        if empty.size:
+            raise ScalesieveError(
+                f"{_column_label(layout, columns[int(empty[0])])} holds no values to fill "
+                "gaps from", source=source)
+        filled = int(fill_linear(values).sum())
+
+    time_start = None
+    if rate is None:
+        if not has_time:
+            raise ScalesieveError(
+                "has no time column, so the sampling rate is unknown: give --rate HZ (or "
+                "name the first column time, t, or with a unit such as [s] or (ms))",
+                source=source)
+        t = values[:, 0] * layout.time_scale
+
+        def line_of(i: int) -> int:
+            # Line numbers are found only when a message needs one.
+            nonlocal linenos
+            if linenos is None:
+                linenos = _data_linenos(text, layout)
+            return int(linenos[i])
+
+        rate = _time_axis_rate(t, line_of, source)
+        time_start = float(t[0])
+        samples = values[:, 1:]
+    else:
+        samples = values
+
+    if layout.names is not None:
+        names = [n or f"ch{j}" for j, n in enumerate(layout.names[first_channel:])]
+    else:
+        names = [f"ch{j}" for j in range(samples.shape[1])]
+    names = _unique(names)
+
+    count = samples.shape[1]
+    pick = check_channel(channel, count, source)
+    if pick is not None:
+        samples = samples[:, pick:pick + 1]
+        names = [names[pick]]
+    samples = np.ascontiguousarray(samples, dtype=dtype)
+
+    meta = {
+        "text": {
+            "delimiter": layout.dialect.describe(),
+            "decimal": layout.dialect.decimal,
+            "encoding": layout.encoding,
+            "header": layout.names is not None,
+            "columns": list(layout.names) if layout.names is not None else None,
+            "time_column": layout.names[0] if has_time else None,
+            "time_unit": layout.time_unit,
+        },
+        "file_channels": count,
+        "filled_gaps": filled,
+    }
+    if pick is not None:
+        meta["channel_index"] = pick
+    if time_start is not None:
+        meta["time_start_s"] = time_start
+    return Recording(samples, rate, names, source=source, format=None, subtype=None,
+                     meta=meta)
+
+
+def probe_text(path: str | os.PathLike[str]) -> dict:
+    """Cheap facts about a text table from its first rows, without parsing it all.
+
+    ``frames`` is exact when the whole file fits in the sample, else an
+    estimate from the file size and the mean length of the sampled rows.
+    """
+    source, size = check_readable(path)
+    try:
+        with open(source, "rb") as fh:
+            raw = fh.read(_SAMPLE_CHARS * 2)
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+    whole = len(raw) >= size
+    if not whole:
+        # Do not cut a row, nor a multi-byte character, in two.
+        cut = raw.rfind(b"\n")
+        if cut > 0:
+            raw = raw[:cut + 1]
+    text, encoding = decode_text(raw, source)
+    layout = scan_layout(text, source, encoding)
+    has_time = layout.time_scale is not None
+    channels = layout.columns - (1 if has_time else 0)
+    if whole:
+        frames = int(_data_linenos(text, layout).size)
+    else:
+        sampled = text[layout.data_offset:]
+        rows_seen = max(1, sum(1 for _, _, line in _lines(sampled) if _data_part(line)))
+        bytes_per_row = len(sampled.encode(encoding if encoding != "utf-16" else "utf-16-le"))
+        bytes_per_row /= rows_seen
+        frames = int(round((size - layout.data_offset) / max(bytes_per_row, 1.0)))
+    rate = None
+    if has_time:
+        t = []
+        for _, line in layout.sample_rows:
+            part = _data_part(line)
+            cells = split_cells(part, layout.dialect) if part else []
+            if cells:
+                v = cell_value(cells[0], layout.dialect.decimal)
+                if v is not _NOT_A_NUMBER and math.isfinite(v):
+                    t.append(v * layout.time_scale)
+        if len(t) >= 2 and t[-1] > t[0]:
+            rate = (len(t) - 1) / (t[-1] - t[0])
+    return {
+        "path": source,
+        "kind": "text",
+        "frames": frames,
+        "frames_exact": whole,
+        "rate": rate,
+        "channels": channels,
+        "channel_names": (layout.names[1 if has_time else 0:] if layout.names else
+                          [f"ch{j}" for j in range(channels)]),
+        "format": None,
+        "subtype": None,
+        "file_bytes": size,
+        "estimated_bytes": int(frames) * max(channels, 1) * 8,
+    }

@@ -1,0 +1,54 @@
+"""Check that an input file exists and can be read, with one plain message if not."""
+
+from __future__ import annotations
+
+import errno
+import os
+import stat
+
+from scalesieve.errors import ScalesieveError
+
+
+def os_error_message(exc: OSError) -> str:
+    """A short, plain reason for an operating-system error while reading."""
+    if isinstance(exc, FileNotFoundError):
+        return "file not found"
+    if isinstance(exc, IsADirectoryError):
+        return "is a folder, not a file"
+    if isinstance(exc, PermissionError):
+        return "cannot read the file (permission denied)"
+    if exc.errno == errno.EIO:
+        return "cannot read the file (input/output error)"
+    return f"cannot read the file ({exc.strerror or exc})"
+
+
+def check_readable(path: str | os.PathLike[str]) -> tuple[str, int]:
+    """Return ``(path as str, size in bytes)`` of a readable, non-empty file.
+
+    Raises
+    ------
+    ScalesieveError
+        Missing file, a folder, no permission, not a regular file, or empty.
+    """
+    source = os.fspath(path)
+    if isinstance(source, bytes):  # pragma: no cover - bytes paths are not used
+        source = os.fsdecode(source)
+    if not source:
+        raise ScalesieveError("no input file given")
+    try:
+        st = os.stat(source)
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+    if os.path.isdir(source):
+        raise ScalesieveError("is a folder, not a file", source=source)
+    if not stat.S_ISREG(st.st_mode):
+        raise ScalesieveError("is not a regular file", source=source)
+    try:
+        # Opening proves the permission; os.access can disagree (ACLs, root).
+        with open(source, "rb") as fh:
+            fh.read(1)
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+    if st.st_size == 0:
+        raise ScalesieveError("file is empty", source=source)
+    return source, int(st.st_size)

@@ -1,0 +1,331 @@
+"""Open any supported recording: audio through soundfile, text tables through csv_reader.
+
+The file's content decides before its name: a WAV named ``.txt`` is read as
+audio. Every problem becomes one :class:`~scalesieve.errors.ScalesieveError`
+with a plain message; no soundfile or numpy traceback reaches the user.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import soundfile as sf
+
+from scalesieve.core.recording import Recording
+from scalesieve.errors import ScalesieveError
+from scalesieve.io import csv_reader
+from scalesieve.io.csv_reader import check_channel, check_rate
+from scalesieve.io.gaps import check_fill_method, fill_linear
+from scalesieve.io.input_check import check_readable, os_error_message
+
+#: Extensions always read as text tables (unless the content is audio).
+TEXT_EXTENSIONS = frozenset({".csv", ".tsv", ".txt", ".dat", ".tab", ".asc"})
+
+# First bytes of the audio containers soundfile reads.
+_AUDIO_MAGIC = (b"RIFF", b"RIFX", b"RF64", b"BW64", b"FORM", b"fLaC", b"OggS", b".snd",
+                b"dns.", b"caff", b"riff", b"ID3", b"NIST_1A", b"MATLAB 5.0", b"2BIT",
+                b"Creative Voice File")
+
+# Bytes per sample of subtypes whose size follows from the frame count.
+_FIXED_WIDTH = {"PCM_S8": 1, "PCM_U8": 1, "ULAW": 1, "ALAW": 1, "PCM_16": 2,
+                "PCM_24": 3, "PCM_32": 4, "FLOAT": 4, "DOUBLE": 8}
+
+# Containers whose samples are compressed whatever the subtype says.
+_COMPRESSED_FORMATS = frozenset({"FLAC", "OGG", "MP3", "MPEG"})
+
+# A compressed stream cannot plausibly hold more samples per byte than this
+# (FLAC of digital silence comes to a few hundred); beyond it the header is not
+# trusted and the samples are read block by block instead of preallocated.
+_MAX_SAMPLES_PER_BYTE = 1024
+
+_BLOCK_FRAMES = 1 << 16
+
+# soundfile >= 0.11 raises SoundFileError; older releases plain RuntimeError.
+_SF_ERRORS = (getattr(sf, "SoundFileError", RuntimeError), RuntimeError, ValueError, TypeError)
+_HEAD_BYTES = 1 << 16
+
+
+def _audio_extensions() -> frozenset[str]:
+    exts = {"." + name.lower() for name in sf.available_formats()}
+    exts |= {".aif", ".aiff", ".aifc", ".oga", ".opus", ".mp3", ".wave", ".snd", ".bwf"}
+    return frozenset(exts - TEXT_EXTENSIONS)
+
+
+AUDIO_EXTENSIONS = _audio_extensions()
+
+
+def _read_head(source: str) -> bytes:
+    try:
+        with open(source, "rb") as fh:
+            return fh.read(_HEAD_BYTES)
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+
+
+def _has_audio_magic(head: bytes) -> bool:
+    if head.startswith(_AUDIO_MAGIC):
+        return True
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        return False  # UTF-16 text, whose byte-order mark looks like an MPEG sync
+    # An MPEG audio frame starts with 11 set sync bits.
+    return len(head) >= 2 and head[0] == 0xFF and (head[1] & 0xE0) == 0xE0
+
+
+def _kind(source: str) -> str:
+    """``"audio"`` or ``"text"``: content first, then the extension."""
+    head = _read_head(source)
+    if _has_audio_magic(head):
+        return "audio"
+    ext = os.path.splitext(source)[1].lower()
+    if ext in TEXT_EXTENSIONS:
+        return "text"
+    if ext in AUDIO_EXTENSIONS:
+        return "audio"
+    if csv_reader.looks_like_text(head):
+        return "text"
+    return "audio"
+
+
+def _sf_reason(exc: Exception) -> str:
+    """libsndfile's own reason, without the 'Error opening <path>:' prefix."""
+    text = str(exc)
+    if ": " in text and text.startswith("Error opening"):
+        text = text.split(": ", 1)[1]
+    return text.strip().rstrip(".") or type(exc).__name__
+
+
+def _audio_info(source: str, ext: str):
+    try:
+        return sf.info(source)
+    except _SF_ERRORS as exc:
+        reason = _sf_reason(exc)
+        if ext in AUDIO_EXTENSIONS:
+            msg = f"is not a readable audio file ({reason})"
+        else:
+            msg = f"is neither a text table nor an audio format soundfile can read ({reason})"
+        raise ScalesieveError(msg, source=source) from None
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+
+
+def _plausible_frames(info, size: int) -> tuple[int, bool]:
+    """Frames to allocate for, and whether the header's count was kept.
+
+    A header can claim more frames than the file holds (a recorder that lost
+    power, a damaged file); for fixed-width samples the file size bounds it.
+    """
+    frames = int(info.frames)
+    width = None if info.format in _COMPRESSED_FORMATS else _FIXED_WIDTH.get(info.subtype)
+    if width is not None:
+        most = size // (width * max(info.channels, 1))
+        if frames > most:
+            return most, False
+    return frames, True
+
+
+def _check_dtype(dtype) -> np.dtype:
+    dt = np.dtype(dtype)
+    if dt not in (np.float64, np.float32):
+        raise ValueError(f"dtype must be float64 or float32, got {dt}")
+    return dt
+
+
+def _read_blocks(f: sf.SoundFile, pick: int | None, dtype: np.dtype) -> np.ndarray:
+    """Every frame, read in blocks: memory grows only with what is really there."""
+    parts = []
+    while True:
+        block = f.read(_BLOCK_FRAMES, dtype=dtype.name, always_2d=True)
+        if block.shape[0] == 0:
+            break
+        parts.append(block if pick is None else block[:, pick:pick + 1].copy())
+    width = f.channels if pick is None else 1
+    if not parts:
+        return np.empty((0, width), dtype=dtype)
+    return np.concatenate(parts, axis=0)
+
+
+def _read_audio_samples(source: str, info, frames: int, trusted: bool, size: int,
+                        pick: int | None, dtype: np.dtype) -> np.ndarray:
+    channels = info.channels
+    width = channels if pick is None else 1
+    compressed = info.format in _COMPRESSED_FORMATS or info.subtype not in _FIXED_WIDTH
+    suspicious = not trusted or (compressed
+                                 and frames * channels > _MAX_SAMPLES_PER_BYTE * size)
+    try:
+        with sf.SoundFile(source) as f:
+            if suspicious:
+                return _read_blocks(f, pick, dtype)
+            out = np.empty((frames, width), dtype=dtype)
+            if pick is None:
+                got = f.read(frames, dtype=dtype.name, always_2d=True, out=out)
+                return out[:got.shape[0]]
+            done = 0
+            while done < frames:
+                block = f.read(min(_BLOCK_FRAMES, frames - done), dtype=dtype.name,
+                               always_2d=True)
+                if block.shape[0] == 0:
+                    break
+                out[done:done + block.shape[0], 0] = block[:, pick]
+                done += block.shape[0]
+            return out[:done]
+    except MemoryError:
+        gib = frames * width * dtype.itemsize / 2**30
+        raise ScalesieveError(
+            f"needs {gib:.1f} GiB of memory for {frames} frames x {width} channels; "
+            "choose one channel or a shorter file", source=source) from None
+    except _SF_ERRORS as exc:
+        raise ScalesieveError(f"could not read the audio samples ({_sf_reason(exc)})",
+                              source=source) from None
+    except OSError as exc:
+        raise ScalesieveError(os_error_message(exc), source=source) from None
+
+
+def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> Recording:
+    ext = os.path.splitext(source)[1].lower()
+    info = _audio_info(source, ext)
+    if info.frames <= 0:
+        raise ScalesieveError("holds no audio samples (0 frames)", source=source)
+    if info.channels <= 0 or info.samplerate <= 0:  # pragma: no cover - libsndfile refuses
+        raise ScalesieveError("has a damaged header (no channels or no rate)", source=source)
+    file_rate = float(info.samplerate)
+    given = check_rate(rate, source)
+    if given is not None and abs(given - file_rate) > 1e-9 * file_rate:
+        raise ScalesieveError(
+            f"the file's header says {file_rate:g} Hz; --rate {given:g} does not match "
+            "(the rate of an audio file comes from its header; leave out --rate)",
+            source=source)
+    pick = check_channel(channel, info.channels, source)
+    frames, trusted = _plausible_frames(info, size)
+    samples = _read_audio_samples(source, info, frames, trusted, size, pick, dtype)
+    if samples.shape[0] == 0:
+        raise ScalesieveError("holds no readable audio samples (truncated?)", source=source)
+
+    meta: dict = {"format_info": info.format_info, "subtype_info": info.subtype_info,
+                  "file_channels": int(info.channels), "filled_gaps": 0}
+    if samples.shape[0] < info.frames:
+        meta["header_frames"] = int(info.frames)
+        meta["truncated"] = True
+    if pick is not None:
+        meta["channel_index"] = pick
+
+    bad = ~np.isfinite(samples)
+    if bad.any():
+        # Only float subtypes can hold these; a broken export, usually.
+        if np.isinf(samples).any() or fill_gaps is None:
+            r, c = np.argwhere(bad)[0]
+            what = "infinite" if np.isinf(samples[r, c]) else "NaN"
+            hint = "" if what == "infinite" else "; use --fill-gaps linear to fill gaps"
+            raise ScalesieveError(
+                f"sample {int(r)} (at {r / file_rate:.6g} s) of channel "
+                f"{pick if pick is not None else int(c)} is {what}{hint}", source=source)
+        try:
+            meta["filled_gaps"] = int(fill_linear(samples).sum())
+        except ValueError:
+            raise ScalesieveError("a channel holds only NaN samples", source=source) from None
+
+    names = [f"ch{k}" for k in range(info.channels)]
+    if pick is not None:
+        names = [names[pick]]
+    return Recording(samples, file_rate, names, source=source, format=info.format,
+                     subtype=info.subtype, meta=meta)
+
+
+def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
+                   channel: int | None = None, fill_gaps: str | None = None,
+                   dtype=np.float64) -> Recording:
+    """Read an audio file or a numeric text table into a :class:`Recording`.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        WAV, FLAC, AIFF, OGG or any other format soundfile reads (every
+        subtype it reads: 8/16/24/32-bit PCM, float, double, u-law, ...), or a
+        CSV/TSV/TXT/DAT table. Content decides first (audio signatures), then
+        the extension, then whether the bytes look like text.
+    rate : float, optional
+        For text input: the sampling rate in Hz, required without a time
+        column and overriding one. For audio input the rate comes from the
+        header; a ``rate`` that differs from it is an error (equal is accepted),
+        so a wrong ``--rate`` never silently retimes a recording.
+    channel : int, optional
+        0-based channel index (for text: among the columns after the time
+        column); ``None`` keeps all. Out of range is an error naming how many
+        channels there are.
+    fill_gaps : {None, "linear"}
+        Opt-in interpolation of empty/NaN cells (text) or NaN samples (float
+        audio). Without it they are an error naming the line (text) or the
+        sample (audio).
+    dtype : float64 or float32
+        Sample type; float32 halves memory for very long recordings.
+
+    Returns
+    -------
+    Recording
+        Audio samples in soundfile's normalised float scale (integer PCM
+        divided by 2**(bits-1), 8-bit unsigned centred on 128), ``format`` and
+        ``subtype`` as ``soundfile.info`` names them; channel names ``ch0``,
+        ``ch1``... for audio, from the header for text. ``meta`` holds details
+        (``file_channels``, ``filled_gaps``, ``truncated`` when the header
+        promised more frames than the file holds, ``text`` for text tables).
+
+    Raises
+    ------
+    ScalesieveError
+        For every problem with the file or the options, with ``source`` the
+        path as given (and ``line`` for text files).
+    """
+    dt = _check_dtype(dtype)
+    given = os.fspath(path)
+    try:
+        fill_gaps = check_fill_method(fill_gaps)
+    except ValueError as exc:
+        raise ScalesieveError(str(exc), source=given) from None
+    source, size = check_readable(path)
+    if _kind(source) == "text":
+        return csv_reader.read_text(source, rate=rate, channel=channel, fill_gaps=fill_gaps,
+                                    dtype=dt)
+    return _read_audio(source, size, rate=rate, channel=channel, fill_gaps=fill_gaps, dtype=dt)
+
+
+def probe(path: str | os.PathLike[str]) -> dict:
+    """Cheap facts about a recording without reading its samples.
+
+    Returns
+    -------
+    dict
+        ``path``, ``kind`` (``"audio"`` or ``"text"``), ``frames``,
+        ``frames_exact`` (false when estimated from the file size, or when the
+        header claimed more than the file holds), ``rate`` (``None`` for text
+        without a time column), ``channels``, ``channel_names``, ``format``,
+        ``subtype`` (``None`` for text), ``duration_s`` (``None`` without a
+        rate), ``file_bytes`` and ``estimated_bytes``: memory for all samples
+        as float64 (halve it for float32).
+
+    Raises
+    ------
+    ScalesieveError
+        When the file cannot be opened or recognised.
+    """
+    source, size = check_readable(path)
+    if _kind(source) == "text":
+        facts = csv_reader.probe_text(source)
+    else:
+        info = _audio_info(source, os.path.splitext(source)[1].lower())
+        frames, trusted = _plausible_frames(info, size)
+        facts = {
+            "path": source,
+            "kind": "audio",
+            "frames": frames,
+            "frames_exact": trusted,
+            "rate": float(info.samplerate),
+            "channels": int(info.channels),
+            "channel_names": [f"ch{k}" for k in range(info.channels)],
+            "format": info.format,
+            "subtype": info.subtype,
+            "file_bytes": size,
+            "estimated_bytes": int(frames) * int(info.channels) * 8,
+        }
+    rate = facts.get("rate")
+    facts["duration_s"] = (facts["frames"] / rate) if rate else None
+    return facts
