@@ -93,7 +93,10 @@ class DecompositionModel:
         self._progress = progress
         self._build(transform or tf.TransformSpec())
         if edits:
-            self.set_edits(tuple(edits), record=False)
+            edits = tuple(edits)
+            self._check(edits)
+            self._history[0] = edits
+            self._apply(edits, full=True)
 
     # ------------------------------------------------------------------ setup
 
@@ -250,6 +253,7 @@ class DecompositionModel:
                      if e.applies_to(channel) and key in e.band_keys(self.level))
 
     def _apply(self, edits: Sequence[Edit], full: bool = False) -> Change:
+        """Bring every band to ``edits``; ``full`` recomputes from scratch."""
         level = self.level
         touched_bands: set = set()
         span_lo, span_hi = None, None

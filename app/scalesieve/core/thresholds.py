@@ -16,6 +16,7 @@ with correlated noise", JRSS-B 59:319-351, 1997 (level-dependent noise).
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 import pywt
@@ -26,13 +27,6 @@ NOISE = ("finest", "level")
 
 # Phi^-1(0.75): the MAD of a standard normal variable.
 MAD_TO_SIGMA = 0.6744897501960817
-
-# Minimax thresholds for soft thresholding, lambda*(n), Donoho & Johnstone
-# 1994, Table 2 (values from memory; tests recompute them from the risk).
-_MINIMAX_N = np.array([64, 128, 256, 512, 1024, 2048, 4096, 8192, 16384, 32768, 65536])
-_MINIMAX_L = np.array([1.474, 1.669, 1.860, 2.048, 2.232, 2.414, 2.594, 2.773,
-                       2.952, 3.131, 3.310])
-
 
 def mad_sigma(d: np.ndarray) -> float:
     """Robust noise level ``median(|d|) / 0.6745`` over the non-zero coefficients.
@@ -125,17 +119,39 @@ def sureshrink_threshold(d: np.ndarray, sigma: float) -> float:
     return float(sigma * min(sure_threshold(x), univ))
 
 
+def soft_risk(lam: float, mu: np.ndarray) -> np.ndarray:
+    """Risk E(eta_soft(x, lam) - mu)^2 for x ~ N(mu, 1) (Donoho & Johnstone 1994)."""
+    from scipy.special import ndtr
+
+    mu = np.asarray(mu, dtype=np.float64)
+    phi = lambda z: np.exp(-0.5 * z * z) / math.sqrt(2 * math.pi)  # noqa: E731
+    return (1 + lam ** 2 + (mu ** 2 - lam ** 2 - 1) * (ndtr(lam - mu) - ndtr(-lam - mu))
+            - (lam - mu) * phi(lam + mu) - (lam + mu) * phi(lam - mu))
+
+
+@lru_cache(maxsize=64)
 def minimax_lambda(n: int) -> float:
     """Minimax threshold lambda*(n) for unit noise (Donoho & Johnstone 1994).
 
-    Interpolated in log2(n) in the published table; 0 below 64 samples, and
-    beyond the table the approximation 0.3936 + 0.1829 log2(n) (from memory).
+    Computed from its definition rather than read from a table: the lambda
+    minimising sup_mu rho_soft(lambda, mu) / (1/n + min(mu^2, 1)).
+    Zero below 32 samples, where thresholding does not pay (their table
+    starts at n = 64).
     """
-    if n < 64:
+    from scipy.optimize import minimize_scalar
+
+    if n < 32:
         return 0.0
-    if n > _MINIMAX_N[-1]:
-        return float(0.3936 + 0.1829 * math.log2(n))
-    return float(np.interp(math.log2(n), np.log2(_MINIMAX_N), _MINIMAX_L))
+    mus = np.concatenate([np.linspace(0.0, 1.0, 2001), np.linspace(1.0, 20.0, 19001)[1:]])
+    ideal = 1.0 / n + np.minimum(mus * mus, 1.0)
+
+    def worst(lam):
+        return float(np.max(soft_risk(lam, mus) / ideal))
+
+    top = math.sqrt(2.0 * math.log(n))
+    res = minimize_scalar(worst, bounds=(0.0, top), method="bounded",
+                          options={"xatol": 1e-7})
+    return float(res.x)
 
 
 def apply_shape(values: np.ndarray, threshold: float, shape: str) -> np.ndarray:
