@@ -115,6 +115,15 @@ def main(argv: list[str] | None = None) -> int:
             raise
         print(f"{PROG}: error: {exc.one_line()}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        # the reader of our output went away (e.g. `| head`): not a failure
+        import os
+
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except OSError:
+            pass
+        return 0
     except KeyboardInterrupt:
         print(f"{PROG}: interrupted", file=sys.stderr)
         return 130
