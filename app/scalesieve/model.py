@@ -64,6 +64,7 @@ class _Channel:
         self.chains: dict = {}           # key -> tuple of edits that made the state
         self.cleaned = self.x.copy()
         self.components: dict = {}       # key -> unit-gain time component (LRU)
+        self.incremental = False         # cleaned was updated by parts since the last full pass
         self._positions: dict = {}
         self._sigma: dict = {}
 
@@ -291,6 +292,7 @@ class DecompositionModel:
 
     def _recompute(self, ch: _Channel) -> None:
         """cleaned = x - inverse(c - e) in one inverse transform."""
+        ch.incremental = False
         level = self.level
         diff = []
         for key in tf.band_keys(level):
@@ -315,6 +317,7 @@ class DecompositionModel:
 
     def _update_band(self, ch: _Channel, key, chain: tuple):
         """Bring one band to ``chain``; add its change to cleaned.  Returns the span."""
+        ch.incremental = True
         level = self.level
         n = self.recording.n
         c = ch.band(key, level)
@@ -393,9 +396,10 @@ class DecompositionModel:
         return k0, k1
 
     def settle(self) -> None:
-        """Recompute every channel from scratch (bit-identical to a fresh model)."""
+        """Recompute what was updated by parts, from scratch (bit-identical to a fresh model)."""
         for ch in self._ch:
-            self._recompute(ch)
+            if ch.incremental:
+                self._recompute(ch)
 
     # --------------------------------------------------------------- results
 

@@ -5,6 +5,8 @@ from __future__ import annotations
 import os
 import sys
 
+import numpy as np
+
 from scalesieve.commands.options import (add_input_options, add_transform_options,
                                          load_input, transform_from)
 from scalesieve.errors import ScalesieveError
@@ -91,8 +93,11 @@ def run(args) -> int:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
                   file=sys.stderr)
-    m = [model.metrics(k) for k in range(rec.channels)]
-    share = sum(x["energy_removed_fraction"] for x in m) / len(m)
+    x = rec.samples
+    removed_energy = float(np.sum((x - model.cleaned()) ** 2)) if rec.channels > 1 else \
+        float(np.dot(model.removed(0), model.removed(0)))
+    total = float(np.sum(x * x))
+    share = removed_energy / total if total > 0 else 0.0
     print(f"wrote {args.output}: {rec.n} samples x {rec.channels} channels at {rec.rate:g} Hz; "
           f"removed {100 * share:.3g}% of the energy")
     return 0
