@@ -442,8 +442,83 @@ class DecompositionModel:
             return self._component(ch, key) * state
         return tf.band_component(ch.coeffs, key, self.spec, self.recording.n, values=state)
 
+    def band_component_span(self, channel: int, key, start: int, stop: int,
+                            edited: bool = True) -> np.ndarray:
+        """Samples ``start .. stop`` of a band's time-domain component.
+
+        The same numbers as ``band_component(...)[start:stop]``; for the DWT the
+        cost follows the span (local synthesis of the coefficients whose
+        support reaches it), so a window can draw a zoomed view of a long
+        recording without synthesising the whole band.
+        """
+        n = self.recording.n
+        start, stop = max(0, int(start)), min(n, int(stop))
+        if stop <= start:
+            return np.zeros(0)
+        ch = self._ch[channel]
+        c = ch.band(key, self.level)
+        state = ch.states.get(key, 1.0) if edited else 1.0
+        j = self.level if key == "a" else int(key)
+        step = 2 ** j
+        reach = tf.filter_length(self.spec.wavelet) * step
+        near_edge = start < reach or stop > n - reach
+        if self.spec.kind != "dwt" or (self.spec.mode == "periodization" and near_edge):
+            # No local synthesis for the SWT; periodization wraps at the ends.
+            return self.band_component(channel, key, edited)[start:stop].copy()
+        # Coefficient k reaches samples within about (L - 1) * 2**j of 2**j * k.
+        k0 = max(0, (start - reach) // step - 1)
+        k1 = min(c.shape[0], -(-(stop + reach) // step) + 1)
+        values = ed.state_values(c[k0:k1], state if not isinstance(state, np.ndarray)
+                                 else state[k0:k1])
+        out = np.zeros(stop - start)
+        if k1 <= k0:
+            return out
+        s, seg = tf.local_synthesis(values, k0, key, ch.lengths, self.spec, n)
+        a, b = max(s, start), min(s + seg.shape[0], stop)
+        if b > a:
+            out[a - start:b - start] = seg[a - s:b - s]
+        return out
+
     def band_range_hz(self, key) -> tuple[float, float]:
         return tf.band_range_hz(key, self.level, self.recording.rate)
+
+    def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,
+               channels: Sequence[int] | None = None):
+        """Transients (shared/CONTRACT.md ``events``), through core/events.py.
+
+        ``kind`` is the transform that times them (default: the SWT, see
+        core/events.py); wavelet, level and mode are the model's.  Returns
+        ``(events, noise)`` as ``core.events.detect_channels`` does.  Prepared
+        levels are kept, so a new ``k`` costs only the detection.
+        """
+        from dataclasses import replace
+
+        from scalesieve.core import events as ev
+
+        spec = replace(self.spec, kind=kind or ev.DEFAULT_KIND)
+        try:
+            lv = ev.check_levels(levels, self.level)
+            ev.check_k(k)
+            spec.validate()
+        except ValueError as exc:
+            raise ScalesieveError(str(exc), self.recording.source or None) from None
+        chosen = range(self.recording.channels) if channels is None else list(channels)
+        for c in chosen:
+            if not 0 <= c < self.recording.channels:
+                raise ScalesieveError(f"channel {c} is not in the recording (channels "
+                                      f"0-{self.recording.channels - 1})")
+        cache = self.__dict__.setdefault("_event_levels", {})
+        prepared = {}
+        for c in chosen:
+            key = (c, spec, lv)
+            if key not in cache:
+                bands = ({j: self.coefficients(c, j) for j in lv} if spec == self.spec
+                         else ev.detail_bands(self.original(c), spec, lv))
+                while len(cache) >= 4 * max(1, self.recording.channels):
+                    cache.pop(next(iter(cache)))
+                cache[key] = ev.prepare(bands, spec, self.recording.n)
+            prepared[c] = cache[key]
+        return ev.detect_channels(prepared, self.original, self.recording.rate, k)
 
     def noise_sigma(self, channel: int, key=1) -> float:
         return self._sigma(self._ch[channel], key)
