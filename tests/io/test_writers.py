@@ -255,6 +255,8 @@ def test_protect_refuses_even_with_force_and_through_links(tmp_path):
     for target in (src, link, hard):
         with pytest.raises(ScalesieveError, match="input"):
             write_json(target, {}, force=True, protect=[src])
+    with pytest.raises(ScalesieveError, match="input"):
+        write_json(src, {}, force=True, protect=str(src))  # a lone path, not a list
     assert src.read_text() == "t,a\n0,1\n"
     assert leftovers(tmp_path) == []
 

@@ -44,6 +44,8 @@ def check_target(path: str | os.PathLike[str], *, force: bool = False,
         target = os.fsdecode(target)
     if not target:
         raise ScalesieveError("no output file name given")
+    if isinstance(protect, (str, bytes, os.PathLike)):
+        protect = [protect]  # one path given on its own, not a list of them
     for p in protect or ():
         if p is None or p == "":
             continue

@@ -152,10 +152,20 @@ def _read_audio_samples(source: str, info, frames: int, trusted: bool, size: int
     compressed = info.format in _COMPRESSED_FORMATS or info.subtype not in _FIXED_WIDTH
     suspicious = not trusted or (compressed
                                  and frames * channels > _MAX_SAMPLES_PER_BYTE * size)
+    if suspicious:
+        try:
+            with sf.SoundFile(source) as f:
+                return _read_blocks(f, pick, dtype)
+        except _SF_ERRORS:
+            # soundfile seeks past what it read, which fails beyond the real end.
+            raise ScalesieveError(
+                f"the header claims {info.frames} frames, more than this {size}-byte file "
+                "can hold, and the samples cannot be read; the file looks damaged",
+                source=source) from None
+        except MemoryError:
+            raise ScalesieveError("is too large to load into memory", source=source) from None
     try:
         with sf.SoundFile(source) as f:
-            if suspicious:
-                return _read_blocks(f, pick, dtype)
             out = np.empty((frames, width), dtype=dtype)
             if pick is None:
                 got = f.read(frames, dtype=dtype.name, always_2d=True, out=out)
