@@ -2,13 +2,9 @@
 
 from __future__ import annotations
 
-import os
 import sys
 
-import numpy as np
-
-from scalesieve.commands.options import (add_input_options, add_transform_options,
-                                         load_input, transform_from)
+from scalesieve.commands.options import add_input_options, add_transform_options, transform_from
 from scalesieve.errors import ScalesieveError
 
 
@@ -69,35 +65,22 @@ def edits_from_args(args):
 
 
 def run(args) -> int:
-    from scalesieve import api
+    from scalesieve.batch import clean_file
     from scalesieve.recipe import load as load_recipe
 
     recipe = load_recipe(args.recipe) if args.recipe else None
     quick = edits_from_args(args)
     if recipe is None and not quick:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
-    outputs = [args.output] + ([args.removed] if args.removed else [])
-    if len(outputs) == 2 and os.path.realpath(outputs[0]) == os.path.realpath(outputs[1]):
-        raise ScalesieveError("-o and --removed name the same file", args.output)
-    for out in outputs:
-        api.check_target(out, args.force, [args.file])
-    rec = load_input(args, args.file)
     spec = transform_from(args, recipe.transform if recipe else None)
-    model = api.build_model(rec, recipe, transform=spec, edits=quick)
-    reports = [api.export(model, args.output, "cleaned", subtype=args.subtype, force=args.force,
-                          protect=[args.file])]
-    if args.removed:
-        reports.append(api.export(model, args.removed, "removed", subtype=args.subtype,
-                                  force=args.force, protect=[args.file]))
-    for rep in reports:
+    # The same function cleans each file of `scalesieve batch`: identical outputs.
+    res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
+                     removed=args.removed, subtype=args.subtype, force=args.force,
+                     rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps)
+    for rep in res["outputs"]:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
                   file=sys.stderr)
-    x = rec.samples
-    removed_energy = float(np.sum((x - model.cleaned()) ** 2)) if rec.channels > 1 else \
-        float(np.dot(model.removed(0), model.removed(0)))
-    total = float(np.sum(x * x))
-    share = removed_energy / total if total > 0 else 0.0
-    print(f"wrote {args.output}: {rec.n} samples x {rec.channels} channels at {rec.rate:g} Hz; "
-          f"removed {100 * share:.3g}% of the energy")
+    print(f"wrote {args.output}: {res['samples']} samples x {res['channels']} channels at "
+          f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")
     return 0
