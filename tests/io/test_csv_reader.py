@@ -12,6 +12,8 @@ import csv
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from scalesieve.errors import ScalesieveError
 from scalesieve.io.csv_reader import read_text, time_unit_of
@@ -398,3 +400,25 @@ def test_probe_estimates_long_text(tmp_path):
     assert not facts["frames_exact"]
     assert facts["frames"] == pytest.approx(n, rel=0.1)
     assert facts["rate"] == pytest.approx(1000.0, rel=1e-6)
+
+
+# ------------------------------------------------------------------ any input
+
+_CELLS = st.sampled_from(["1", "2,5", "0.5", "-1e3", "", "nan", "x", "time", "[ms]", "#"])
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.lists(_CELLS, min_size=1, max_size=4), max_size=6),
+       delimiter=st.sampled_from([",", ";", "\t", " "]),
+       rate=st.sampled_from([None, 100.0]), fill=st.sampled_from([None, "linear"]))
+def test_any_table_loads_or_gives_one_plain_error(tmp_path, rows, delimiter, rate, fill):
+    # The contract's promise: bad input is one ScalesieveError, never a traceback.
+    p = tmp_path / "any.csv"
+    p.write_text("\n".join(delimiter.join(r) for r in rows) + "\n")
+    try:
+        rec = read_recording(p, rate=rate, fill_gaps=fill)
+    except ScalesieveError as err:
+        assert err.source == str(p) and err.message
+    else:
+        assert np.isfinite(rec.samples).all() and rec.rate > 0

@@ -14,6 +14,8 @@ import wave
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 import soundfile as sf
 
 from scalesieve.errors import ScalesieveError
@@ -240,3 +242,26 @@ def test_probe_audio(tmp_path):
 def test_probe_errors_are_plain(tmp_path):
     with pytest.raises(ScalesieveError):
         probe(tmp_path / "nothing.wav")
+
+
+# ------------------------------------------------------------------ any damage
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(cut=st.integers(0, 120),
+       flips=st.lists(st.tuples(st.integers(0, 80), st.integers(0, 255)), max_size=6))
+def test_damaged_wav_loads_or_gives_one_plain_error(tmp_path, cut, flips):
+    good = wave_file(tmp_path / "good.wav", np.arange(-20, 20, dtype="<i2").tobytes(), width=2,
+                     channels=2)
+    raw = bytearray(good.read_bytes())
+    for at, value in flips:
+        raw[at] = value
+    p = tmp_path / "damaged.wav"
+    p.write_bytes(bytes(raw[:len(raw) - cut]))
+    try:
+        rec = read_recording(p)
+    except ScalesieveError as err:
+        assert err.source == str(p) and err.message
+    else:
+        assert rec.n > 0 and np.isfinite(rec.samples).all()
