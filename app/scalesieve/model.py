@@ -482,6 +482,44 @@ class DecompositionModel:
     def band_range_hz(self, key) -> tuple[float, float]:
         return tf.band_range_hz(key, self.level, self.recording.rate)
 
+    def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,
+               channels: Sequence[int] | None = None):
+        """Transients (shared/CONTRACT.md ``events``), through core/events.py.
+
+        ``kind`` is the transform that times them (default: the SWT, see
+        core/events.py); wavelet, level and mode are the model's.  Returns
+        ``(events, noise)`` as ``core.events.detect_channels`` does.  Prepared
+        levels are kept, so a new ``k`` costs only the detection.
+        """
+        from dataclasses import replace
+
+        from scalesieve.core import events as ev
+
+        spec = replace(self.spec, kind=kind or ev.DEFAULT_KIND)
+        try:
+            lv = ev.check_levels(levels, self.level)
+            ev.check_k(k)
+            spec.validate()
+        except ValueError as exc:
+            raise ScalesieveError(str(exc), self.recording.source or None) from None
+        chosen = range(self.recording.channels) if channels is None else list(channels)
+        for c in chosen:
+            if not 0 <= c < self.recording.channels:
+                raise ScalesieveError(f"channel {c} is not in the recording (channels "
+                                      f"0-{self.recording.channels - 1})")
+        cache = self.__dict__.setdefault("_event_levels", {})
+        prepared = {}
+        for c in chosen:
+            key = (c, spec, lv)
+            if key not in cache:
+                bands = ({j: self.coefficients(c, j) for j in lv} if spec == self.spec
+                         else ev.detail_bands(self.original(c), spec, lv))
+                while len(cache) >= 4 * max(1, self.recording.channels):
+                    cache.pop(next(iter(cache)))
+                cache[key] = ev.prepare(bands, spec, self.recording.n)
+            prepared[c] = cache[key]
+        return ev.detect_channels(prepared, self.original, self.recording.rate, k)
+
     def noise_sigma(self, channel: int, key=1) -> float:
         return self._sigma(self._ch[channel], key)
 
