@@ -116,8 +116,11 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     import numpy as np
 
     x = rec.samples
-    removed_energy = float(np.sum((x - model.cleaned()) ** 2)) if rec.channels > 1 else \
-        float(np.dot(model.removed(0), model.removed(0)))
+    if rec.channels > 1:
+        removed_energy = float(np.sum((x - model.cleaned()) ** 2))
+    else:
+        r = model.removed(0)
+        removed_energy = float(np.dot(r, r))
     total = float(np.sum(x * x))
     return {
         "samples": rec.n,
@@ -440,12 +443,27 @@ def check_cluster(client, address: str, outdir: str | None, probe_input: str | N
     return views
 
 
+def _read_for_sending(job: FileJob) -> FileJob | dict:
+    """The job with the input's bytes and hash, or the error entry if it cannot be read."""
+    try:
+        with open(job.input, "rb") as fh:
+            data = fh.read()
+    except OSError as exc:
+        entry = _entry(job)
+        why = {FileNotFoundError: "file not found", IsADirectoryError: "is a folder",
+               PermissionError: "permission denied"}.get(type(exc), exc.strerror or str(exc))
+        entry["error"] = f"{job.input}: {why}"
+        return entry
+    return replace(job, data=data, input_sha256=hashlib.sha256(data).hexdigest())
+
+
 def run_dask(jobs: Sequence[FileJob], client, on_result: Callable[[dict], None],
-             window: int | None = None) -> None:
+             send_data: bool = False, window: int | None = None) -> None:
     """Run ``jobs`` on a Dask cluster through ``client``; ``on_result`` per entry.
 
     Jobs are submitted a window at a time (two per worker thread, at least
-    eight) so that sent data never piles up in the client's memory.
+    eight); with ``send_data`` each input is read only when its job is
+    submitted, so sent data never piles up in the client's memory.
     """
     import uuid
 
@@ -458,21 +476,31 @@ def run_dask(jobs: Sequence[FileJob], client, on_result: Callable[[dict], None],
     pending = deque(jobs)
     by_key: dict = {}
 
-    def submit(job: FileJob):
-        payload = job
-        if job.data is not None:
-            # Scattered data travels once, outside the task graph.
-            payload = replace(job, data=None)
-            fut = client.submit(_run_sent, payload, client.scatter(job.data),
-                                key=f"scalesieve-clean-{token}-{job.index}", pure=False)
-        else:
-            fut = client.submit(run_job, payload, key=f"scalesieve-clean-{token}-{job.index}",
-                                pure=False)
-        by_key[fut.key] = job
-        return fut
+    def submit_next():
+        """Submit the next job that can be; report unreadable ones at once."""
+        while pending:
+            job = pending.popleft()
+            key = f"scalesieve-clean-{token}-{job.index}"
+            if send_data:
+                loaded = _read_for_sending(job)
+                if isinstance(loaded, dict):
+                    on_result(loaded)
+                    continue
+                # Scattered data travels once, outside the task graph.
+                fut = client.submit(_run_sent, replace(loaded, data=None),
+                                    client.scatter(loaded.data), key=key, pure=False)
+            else:
+                fut = client.submit(run_job, job, key=key, pure=False)
+            by_key[fut.key] = job
+            return fut
+        return None
 
-    first = [submit(pending.popleft()) for _ in range(min(window, len(pending)))]
-    seq = as_completed(first, loop=client.loop)
+    seq = as_completed([], loop=client.loop)
+    for _ in range(window):
+        fut = submit_next()
+        if fut is None:
+            break
+        seq.add(fut)
     try:
         for fut in seq:
             job = by_key.pop(fut.key)
@@ -484,8 +512,9 @@ def run_dask(jobs: Sequence[FileJob], client, on_result: Callable[[dict], None],
                                f"{type(exc).__name__}: {exc}"
             fut.release()
             on_result(res)
-            if pending:
-                seq.add(submit(pending.popleft()))
+            nxt = submit_next()
+            if nxt is not None:
+                seq.add(nxt)
     except BaseException:
         client.cancel(list(seq.futures))
         raise
@@ -597,20 +626,7 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         else:
             n = workers or default_workers()
             info = {"local_processes": max(1, min(n, len(pairs)))}
-        jobs = []
-        for i, (src, dst) in enumerate(pairs):
-            job = FileJob(i, src, dst, options)
-            if send_data:
-                try:
-                    with open(src, "rb") as fh:
-                        data = fh.read()
-                except OSError:
-                    data = None  # run_job reports it from a path the worker lacks
-                if data is not None:
-                    job = replace(job, data=data,
-                                  input_sha256=hashlib.sha256(data).hexdigest())
-            jobs.append(job)
-        # Unreadable inputs in send-data mode are reported here, not sent.
+        jobs = [FileJob(i, src, dst, options) for i, (src, dst) in enumerate(pairs)]
         entries: list[dict | None] = [None] * len(jobs)
         started = _now()
         t0 = time.perf_counter()
@@ -632,19 +648,12 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
 
         if on_start is not None:
             on_start(len(jobs))
-        runnable = []
-        for job in jobs:
-            if send_data and job.data is None:
-                e = run_job(replace(job, options={**options, "force": False}, data=None))
-                done(e)
-            else:
-                runnable.append(job)
         interrupted = False
         try:
             if client is not None:
-                run_dask(runnable, client, done)
+                run_dask(jobs, client, done, send_data=send_data)
             else:
-                run_local(runnable, info["local_processes"], done)
+                run_local(jobs, info["local_processes"], done)
         except KeyboardInterrupt:
             interrupted = True
         for job, e in zip(jobs, entries):
@@ -698,6 +707,11 @@ def inputs_hint_for(recording_path: str) -> str:
     folder = os.path.dirname(os.path.abspath(recording_path))
     suffix = os.path.splitext(recording_path)[1]
     return os.path.join(folder, "*" + suffix)
+
+
+def outdir_for(recording_path: str) -> str:
+    """Where a batch of recordings like this one may go: ``cleaned`` in their folder."""
+    return os.path.join(os.path.dirname(os.path.abspath(recording_path)), "cleaned")
 
 
 def _quote_windows(arg: str) -> str:

@@ -278,7 +278,8 @@ def test_dask_worker_processes_send_data(campaign, capsys):
     # a real cluster process that is sent the bytes: it needs no access to the paths
     root, recipe = campaign
     out = root / "out_dask_sent"
-    inputs = [str(root / "in" / n) for n in GOOD] + [str(root / "in" / BROKEN)]
+    ghost = root / "in" / "pump_never_recorded.wav"
+    inputs = [str(root / "in" / n) for n in GOOD] + [str(root / "in" / BROKEN), str(ghost)]
     with _cluster(n_workers=1, threads_per_worker=1, processes=True) as cluster:
         rc = main(["batch", "--recipe", str(recipe), "-o", str(out), "--send-data",
                    "--scheduler", cluster.scheduler_address, *inputs])
@@ -286,11 +287,39 @@ def test_dask_worker_processes_send_data(campaign, capsys):
     assert rc == 1, err
     _assert_same_as_clean(root, out)
     rep = _report(out)
-    assert [e["status"] for e in rep["files"]] == ["ok"] * 4 + ["error"]
+    assert [e["status"] for e in rep["files"]] == ["ok"] * 4 + ["error"] * 2
     # the worker's private copy is never named; the user's file is
     assert str(root / "in" / BROKEN) in rep["files"][4]["error"]
+    assert str(ghost) in rep["files"][5]["error"] and "not found" in rep["files"][5]["error"]
+    for e in rep["files"][:5]:   # hashed on the client, from the bytes it sent
+        assert e["input_sha256"] == hashlib.sha256(open(e["input"], "rb").read()).hexdigest()
     assert rep["files"][0]["worker"].split(":")[-1] != str(os.getpid())
     assert sorted(os.listdir(out)) == sorted(list(GOOD) + ["batch-report.json"])
+
+
+class _FakeClient:
+    # answers client.run(...) as a cluster whose workers see other things
+    def __init__(self, views):
+        self.views = views
+
+    def run(self, fn, *args):
+        return self.views
+
+
+def test_cluster_check_refuses_workers_that_cannot_do_the_work():
+    from scalesieve import __version__
+    from scalesieve.errors import ScalesieveError
+
+    ok = {"scalesieve": __version__, "outdir": True, "input": True}
+    addr = "tcp://10.0.0.5:8786"
+    batch.check_cluster(_FakeClient({"tcp://w1:1": ok}), addr, "/shared/out", "/shared/a.wav")
+    cases = [({"tcp://w1:1": ok, "tcp://w2:1": {**ok, "outdir": False}}, "--send-data"),
+             ({"tcp://w1:1": {**ok, "input": False}}, "same paths"),
+             ({"tcp://w1:1": {**ok, "scalesieve": "0.0.1"}}, "same version"),
+             ({}, "no workers")]
+    for views, needle in cases:
+        with pytest.raises(ScalesieveError, match=needle):
+            batch.check_cluster(_FakeClient(views), addr, "/shared/out", "/shared/a.wav")
 
 
 def test_scheduler_without_dask_says_how_to_install(tmp_path, capsys, monkeypatch):
