@@ -33,6 +33,7 @@ import glob
 import hashlib
 import os
 import platform
+import re
 import shlex
 import socket
 import sys
@@ -717,7 +718,10 @@ def outdir_for(recording_path: str) -> str:
 def _quote_windows(arg: str) -> str:
     if arg and not any(c in arg for c in ' \t"&|<>^%'):
         return arg
-    return '"' + arg.replace('"', '\\"') + '"'
+    # Microsoft C runtime rules: backslashes are literal except before a quote.
+    body = re.sub(r'(\\*)"', r'\1\1\\"', arg)
+    body = re.sub(r'(\\+)$', r'\1\1', body)
+    return f'"{body}"'
 
 
 def batch_command_line(recipe_path: str, inputs_hint: str, outdir: str,

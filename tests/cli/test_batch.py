@@ -366,3 +366,21 @@ def test_batch_command_line_quoting_for_windows():
                                     shell="windows")
     assert line == (r'scalesieve batch --recipe "C:\data\my recipe.json" -o C:\out '
                     r'--scheduler tcp://10.0.0.5:8786 "C:\data\pump runs\*.wav"')
+
+
+def test_windows_quoting_matches_list2cmdline():
+    # subprocess.list2cmdline implements the Microsoft C runtime quoting rules
+    for arg in (r"C:\out dir" + "\\", 'say "hi" there', r"C:\a b\c", "tab\there"):
+        line = batch.batch_command_line("r.json", "x.wav", arg, None, shell="windows")
+        assert subprocess.list2cmdline([arg]) in line
+
+
+def test_batch_never_imports_qt(campaign, tmp_path):
+    root, recipe = campaign
+    code = ("import sys; from scalesieve.cli import main; "
+            f"rc = main(['batch', '--recipe', {str(recipe)!r}, '-o', {str(tmp_path / 'o')!r}, "
+            f"'--workers', '1', {str(root / 'in' / GOOD[0])!r}]); "
+            "assert rc == 0, rc; "
+            "assert not any(m.startswith(('PySide6', 'pyqtgraph')) for m in sys.modules)")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert r.returncode == 0, r.stderr
