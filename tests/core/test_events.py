@@ -353,3 +353,40 @@ def test_model_events_equal_the_core_path_for_every_channel():
     for e in strong:
         wide = [f for f in found if f.channel == e.channel and f.start_s <= e.start_s]
         assert wide and wide[-1].stop_s >= e.stop_s
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_detect_equals_a_plain_sweep_over_exceedance_extents(seed):
+    # Cross-check of the vectorised merging against the definition written
+    # out in plain Python: every exceedance is a closed sample range; ranges
+    # that overlap or are next to each other form one event.
+    rng = np.random.default_rng(seed)
+    x = rng.normal(0, 1.0, 3000)
+    spec = _spec(["swt", "dwt"][seed % 2], ["db4", "haar", "sym5"][seed % 3], x.size)
+    bands = ev.prepare_signal(x, spec, (1, 2, 3))
+    k = 2.2 + 0.2 * seed
+    items = []
+    for b in bands:
+        for i, c in enumerate(b.coeffs):
+            if abs(c) > k * b.sigma:
+                g = b.index0 + i
+                items.append((max(0, b.step * g + b.reach[0]),
+                              min(x.size - 1, b.step * g + b.reach[1]),
+                              abs(c) / b.sigma, b.level, b.centre0 + b.step * g))
+    items.sort(key=lambda t: t[0])
+    groups = []
+    for it in items:
+        if groups and it[0] <= groups[-1]["last"] + 1:
+            groups[-1]["last"] = max(groups[-1]["last"], it[1])
+            groups[-1]["members"].append(it)
+        else:
+            groups.append({"first": it[0], "last": it[1], "members": [it]})
+    events = ev.detect(bands, x, 100.0, k, channel=2)
+    assert len(events) == len(groups)
+    for e, g in zip(events, groups):
+        top = max(g["members"], key=lambda t: t[2])
+        assert (e.start_s, e.stop_s) == (g["first"] / 100.0, g["last"] / 100.0)
+        assert e.score == pytest.approx(top[2], rel=1e-12)
+        assert e.peak == np.max(np.abs(x[g["first"]:g["last"] + 1]))
+        if sum(1 for t in g["members"] if t[2] == top[2]) == 1:
+            assert (e.level, e.peak_s) == (top[3], pytest.approx(top[4] / 100.0))
