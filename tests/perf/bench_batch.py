@@ -7,6 +7,9 @@ the same invented files (40 recordings of 1 million samples by default):
   turn, one process per file, as a person or a shell loop would;
 * ``clean_in_one_process_s``: the same per-file function in a single process
   (no interpreter start-up per file): the strict baseline for the speed-up;
+* ``clean_two_halves_at_once_s``: two such processes at the same time, each
+  on half the files: what this machine allows 2 workers at best, with no
+  batch machinery at all (shared cores and memory bandwidth set it);
 * ``batch_s``: ``scalesieve batch --workers 2`` over all the files;
 * ``batch_dask_localcluster_s``: the same through ``--scheduler`` on a Dask
   LocalCluster of 2 single-thread worker processes (cluster start excluded);
@@ -49,7 +52,7 @@ outdir = sys.argv[2]
 import os
 for path in sys.argv[3:]:
     clean_file(path, os.path.join(outdir, os.path.basename(path)), recipe=recipe,
-               transform=recipe.transform)
+               transform=recipe.transform, force=True)
 """
 
 STARTUP = r"""
@@ -101,6 +104,15 @@ def _run(cmd: list[str]) -> float:
     return time.perf_counter() - t0
 
 
+def _run_together(cmds: list[list[str]]) -> float:
+    t0 = time.perf_counter()
+    procs = [subprocess.Popen(c, stdout=subprocess.DEVNULL) for c in cmds]
+    for p in procs:
+        if p.wait() != 0:
+            raise RuntimeError(f"{p.args!r} failed")
+    return time.perf_counter() - t0
+
+
 def _clean_one_after_another(files, recipe, outdir) -> float:
     t0 = time.perf_counter()
     for f in files:
@@ -147,12 +159,15 @@ def main() -> None:
         one_dir = os.path.join(tmp, "one")
         os.makedirs(ref_dir)
         os.makedirs(one_dir)
-        seq, inproc, bat, dsk = [], [], [], []
+        seq, inproc, halves, bat, dsk = [], [], [], [], []
         for r in range(args.repeat):
             seq.append(_clean_one_after_another(files, recipe, ref_dir))
             for f in os.listdir(one_dir):
                 os.unlink(os.path.join(one_dir, f))
             inproc.append(_run([sys.executable, one_proc, recipe, one_dir, *files]))
+            k = len(files) // 2
+            halves.append(_run_together([[sys.executable, one_proc, recipe, one_dir, *part]
+                                         for part in (files[:k], files[k:])]))
             out = os.path.join(tmp, f"batch{r}")
             bat.append(_run([sys.executable, "-m", "scalesieve", "batch", "--recipe", recipe,
                              "-o", out, "--workers", str(args.workers), "--no-progress",
@@ -183,6 +198,11 @@ def main() -> None:
                                                       statistics.median(seq), 3),
             "ratio_vs_clean_in_one_process": round(statistics.median(bat) /
                                                    statistics.median(inproc), 3),
+            "clean_two_halves_at_once_s": round(statistics.median(halves), 3),
+            "machine_ceiling_ratio_two_halves_vs_one_process": round(
+                statistics.median(halves) / statistics.median(inproc), 3),
+            "batch_vs_two_halves_at_once": round(statistics.median(bat) /
+                                                 statistics.median(halves), 3),
             "target_ratio": 0.65,
             "per_file_s_median_in_batch": round(statistics.median(
                 e["seconds"] for e in report["files"]), 4),
