@@ -94,22 +94,11 @@ def levels_from(text: str, depth: int):
         raise ScalesieveError(f"--levels: {exc}") from None
 
 
-def repetition_report(events, channels: int) -> tuple[dict | None, list]:
-    """Repetition per channel (from event starts) and the clearest train of them."""
-    from scalesieve.core.events import repetition
-
-    per = []
-    for c in range(channels):
-        rep = repetition([e.start_s for e in events if e.channel == c])
-        per.append(None if rep is None else {"channel": c, **rep.to_json()})
-    found = [r for r in per if r is not None]
-    best = max(found, key=lambda r: (r["count"], -r["channel"])) if found else None
-    return best, per
-
-
 def events_report(recording, spec, levels, k, events, noise, file_label: str) -> dict:
     """The ``events --json`` document (shared/CONTRACT.md, plus compatible keys)."""
-    best, per = repetition_report(events, recording.channels)
+    from scalesieve.core.events import repetition_by_channel
+
+    best, per = repetition_by_channel(events, recording.channels)
     return {
         "file": file_label,
         "rate": recording.rate,

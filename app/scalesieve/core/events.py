@@ -551,6 +551,24 @@ def repetition(times: Sequence[float], tolerance: float = TRAIN_TOLERANCE,
                       spread_hz=spread / (period * period), count=count, intervals=links)
 
 
+def repetition_by_channel(events: Sequence[Event], channels: int) -> tuple[dict | None, list]:
+    """Repetition of each channel's events (from their starts) and the clearest train.
+
+    Returns ``(best, per_channel)``: ``per_channel[c]`` is the train of
+    channel c as a dict (``Repetition`` fields plus ``"channel"``) or None;
+    ``best`` is the one with the most events in its train (the lower
+    channel on a tie), or None.  Starts are used because they follow the
+    onset, where the strongest coefficient wanders within a ringing impact.
+    """
+    per: list = []
+    for c in range(channels):
+        rep = repetition([e.start_s for e in events if e.channel == c])
+        per.append(None if rep is None else {"channel": c, **rep.to_json()})
+    found = [r for r in per if r is not None]
+    best = max(found, key=lambda r: (r["count"], -r["channel"])) if found else None
+    return best, per
+
+
 def _walk(t: np.ndarray, period: float, tol: float) -> tuple[np.ndarray, np.ndarray]:
     """Cycle number and run of each event of a train (-1: not in the train)."""
     n = t.shape[0]
