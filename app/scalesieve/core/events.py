@@ -170,10 +170,11 @@ def check_k(k) -> float:
     return v
 
 
-def check_levels(levels, depth: int) -> tuple[int, ...]:
+def check_levels(levels, depth: int, deepest: int | None = None) -> tuple[int, ...]:
     """Detail levels to search, sorted; ``details``/``all`` mean every detail level.
 
-    ValueError for the approximation or a level the transform does not have.
+    ValueError for the approximation or a level the transform does not have;
+    ``deepest`` (the most the data allow) makes that message say what to do.
     """
     if isinstance(levels, str):
         if levels in ("details", "all"):
@@ -187,8 +188,15 @@ def check_levels(levels, depth: int) -> tuple[int, ...]:
         if isinstance(v, bool) or not isinstance(v, (int, np.integer)) or v < 1:
             raise ValueError(f"level {v!r} is not a detail level (1 is the finest)")
         if v > depth:
+            if deepest is not None and v > deepest:
+                hint = f"the recording is too short for it (at most level {deepest} here)"
+            elif deepest is not None:
+                hint = (f"decompose to level {v} or deeper (the data allow up to {deepest}), "
+                        f"or search fewer levels")
+            else:
+                hint = "decompose deeper or search fewer levels"
             raise ValueError(f"level {v} is not in the transform (it has detail levels "
-                             f"1-{depth}); give a deeper --level or fewer levels")
+                             f"1-{depth}); {hint}")
         if int(v) not in out:
             out.append(int(v))
     if not out:

@@ -40,6 +40,7 @@ from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QDoubleSpinBox, QFi
                                QPushButton, QTableView, QVBoxLayout, QWidget)
 
 from scalesieve.core import events as ev
+from scalesieve.core.transforms import max_level
 from scalesieve.errors import ScalesieveError
 from scalesieve.recipe import Edit, parse_levels
 
@@ -404,7 +405,8 @@ class EventsPane(QWidget):
                        self._adapter.recording is None else "waiting for the decomposition")
             return
         try:
-            levels = ev.check_levels(parse_levels(self.levels_edit.text()), m.level)
+            levels = ev.check_levels(parse_levels(self.levels_edit.text()), m.level,
+                                     max_level(m.recording.n, m.spec.wavelet))
         except ValueError as exc:
             self._bad_levels(str(exc))
             return
