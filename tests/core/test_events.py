@@ -390,3 +390,25 @@ def test_detect_equals_a_plain_sweep_over_exceedance_extents(seed):
         assert e.peak == np.max(np.abs(x[g["first"]:g["last"] + 1]))
         if sum(1 for t in g["members"] if t[2] == top[2]) == 1:
             assert (e.level, e.peak_s) == (top[3], pytest.approx(top[4] / 100.0))
+
+
+@pytest.mark.parametrize("case", ["noise", "zeros", "mostly zeros", "ties", "sorted", "spiky"])
+def test_fast_noise_level_equals_the_plain_mad(case):
+    # The bracketed median must give numpy.median's number exactly (the same
+    # sigma the threshold edits use), whatever the values look like.
+    from scalesieve.core.thresholds import mad_sigma
+
+    rng = np.random.default_rng(len(case))
+    c = rng.normal(size=300_001)
+    if case == "zeros":
+        c[rng.random(c.size) < 0.3] = 0.0
+    elif case == "mostly zeros":
+        c[rng.random(c.size) < 0.9] = 0.0
+    elif case == "ties":
+        c = np.round(c * 2.0)
+    elif case == "sorted":
+        c = np.sort(c)
+    elif case == "spiky":
+        c = rng.standard_cauchy(c.size)
+    assert ev._mad_sigma(c) == mad_sigma(c)
+    assert ev._mad_sigma(c[:-1]) == mad_sigma(c[:-1])       # even count: mean of the middle two

@@ -118,9 +118,9 @@ class LevelBand:
 
     ``coeffs`` holds only the coefficients that read samples of the recording
     alone (see the module notes); the first of them is coefficient ``index0``
-    of the level.  Coefficient ``i``
-    (of the whole level) is centred at sample ``centre0 + step * i`` and
-    reads the samples ``step * i + reach[0]`` ... ``step * i + reach[1]``.
+    of the level.  Coefficient ``i`` (of the whole level) is centred at
+    sample ``centre0 + step * i`` and reads the samples
+    ``step * i + reach[0]`` ... ``step * i + reach[1]``.
     ``sigma`` is the MAD noise level of ``coeffs``.
     """
 
@@ -137,10 +137,11 @@ class LevelBand:
 class Repetition:
     """The dominant interval of a train of events.
 
-    ``spread_s`` is the standard deviation of the single intervals (each
-    divided by its whole number of periods); ``spread_hz`` is the same
-    spread carried to the rate (``rate * spread_s / interval_s``, first
-    order).  ``count`` is how many events belong to the train, ``intervals``
+    ``interval_s`` is the least-squares period, ``rate_hz`` its inverse.
+    ``spread_s`` is the robust standard deviation (1.4826 x MAD) of the
+    single intervals (each divided by its whole number of periods);
+    ``spread_hz`` is the same spread carried to the rate
+    (``rate * spread_s / interval_s``, first order).  ``count`` is how many events belong to the train, ``intervals``
     how many intervals measured it.
     """
 
