@@ -281,3 +281,22 @@ def test_pane_follows_an_adapter(qtbot, recording):
     p.select_row(0)
     edit = p.mute_chosen()
     assert adapter.added == [edit] and model.edits == ()           # edits go through the adapter
+
+
+def test_pane_with_the_window_adapter(qtbot, recording):
+    # The window's own adapter decomposes in a worker thread and lends the
+    # model away during a transform change; the pane follows it.
+    adapter_mod = pytest.importorskip("scalesieve.gui.model_adapter")
+    path, model = recording
+    adapter = adapter_mod.ModelAdapter()
+    try:
+        p = EventsPane(adapter)
+        qtbot.addWidget(p)
+        with qtbot.waitSignal(adapter.modelReplaced, timeout=20000):
+            adapter.open_recording(lambda: api.load(path), label="cable.wav")
+        assert p.events == model.events()[0]
+        p.select_row(0)
+        edit = p.mute_chosen()
+        assert adapter.model.edits == (edit,)
+    finally:
+        adapter.shutdown()
