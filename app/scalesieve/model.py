@@ -8,18 +8,31 @@ How edits stay cheap (the inverse transform is linear):
 * the cleaned signal is kept as ``original - inverse(c - e)`` where ``c``
   are the original coefficients and ``e`` the edited ones, so an empty
   recipe gives the input back exactly and untouched spans stay untouched;
-* an edit changes ``e`` in some bands only; each changed band adds the
+* no edited copy of a band is kept: a band's state is its chain of edits,
+  and ``e`` is worked out from ``c`` where it is needed, block by block
+  (thresholds that look at the whole band are worked out once and kept);
+* an edit changes the chains of some bands only; each changed band adds the
   inverse of its own change to the cleaned signal;
-* a uniform gain change on a band is a multiple of that band's time-domain
-  component, which is cached, so it costs one pass over the signal;
+* a gain change multiplies what the rest of a band's chain makes, so the
+  cleaned signal moves by a multiple of that part's time-domain component,
+  which is cached (bands moved by the same factor share one component):
+  one pass over the signal;
 * a region edit changes a window of coefficients; its effect is confined to
   their support and computed by local synthesis, so its cost follows the
   window, not the recording;
-* a change in many bands at once (a threshold over all details) is one
-  inverse transform.
+* a change that would need two or more syntheses (a threshold over all
+  details) is one inverse transform, its finest level written in blocks
+  straight into the cleaned signal.
 
 ``settle()`` recomputes everything from scratch in one inverse transform, so
 exports give bit-identical numbers to a fresh model (the command line).
+
+Memory, for a DWT of one channel of n samples of b bytes: the recording's
+own column (not copied), the coefficients (about n b), the cleaned signal
+(n b), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
+when two would pass ``COMPONENT_BYTES``) and, during an edit, about n b of
+temporaries.  The working precision is the recording's: float32 samples
+give float32 coefficients and half the memory (see docs/performance.md).
 """
 
 from __future__ import annotations
@@ -39,8 +52,12 @@ from scalesieve.recipe import Edit, Recipe, check_against
 
 #: below this share of a band's length a changed window is synthesised locally
 LOCAL_SHARE = 0.125
-#: band components cached per channel for fast gain changes
+#: band components cached per channel for fast gain changes, at most ...
 COMPONENT_CACHE = 2
+#: ... and more than one only while they fit in this many bytes per channel
+COMPONENT_BYTES = 64 << 20
+#: thresholds kept per band (each keyed by the chain up to its edit)
+THRESHOLDS_KEPT = 64
 
 
 @dataclass
@@ -53,17 +70,31 @@ class Change:
     span: tuple[int, int] | None = None
 
 
-class _Channel:
-    """Per-channel coefficients, edit states and the cleaned signal."""
+@dataclass
+class _Plan:
+    """How one band gets from its old chain to its new one."""
 
-    def __init__(self, x: np.ndarray, spec: tf.TransformSpec, rate: float):
-        self.x = np.ascontiguousarray(x, dtype=np.float64)
-        self.coeffs = tf.forward(self.x, spec)
+    kind: str                        # "none", "gain", "window", "band"
+    key: object
+    old: tuple
+    new: tuple
+    shape: tuple = ()                # "gain": the chain part the gain multiplies
+    factor: float = 0.0              # "gain": new gain - old gain
+    window: tuple[int, int] = (0, 0)  # "window": coefficient indices k0, k1
+
+
+class _Channel:
+    """Per-channel coefficients, chains and the cleaned signal."""
+
+    def __init__(self, x: np.ndarray, spec: tf.TransformSpec, dtype, progress=None):
+        self.x = x                       # the recording's column: a view, never written
+        self.coeffs = tf.forward(x, spec, dtype=dtype, progress=progress)
         self.lengths = [c.shape[0] for c in self.coeffs]
-        self.states: dict = {}           # key -> float | ndarray
-        self.chains: dict = {}           # key -> tuple of edits that made the state
-        self.cleaned = self.x.copy()
-        self.components: dict = {}       # key -> unit-gain time component (LRU)
+        self.chains: dict = {}           # key -> tuple of edits now applied to the band
+        self.cleaned = np.array(x, dtype=dtype)
+        self.components: dict = {}       # ((key, shape), ...) -> time component (LRU)
+        self.values: dict = {}           # key -> edited values, kept once someone asked
+        self.thresholds: dict = {}       # key -> {chain up to a threshold edit: lambda}
         self.incremental = False         # cleaned was updated by parts since the last full pass
         self._positions: dict = {}
         self._sigma: dict = {}
@@ -78,51 +109,76 @@ class DecompositionModel:
     Parameters
     ----------
     recording : Recording
+        Float64 or float32 samples; the model works in the same precision.
     transform : TransformSpec, optional
         ``level=None`` chooses a level for the data (see ``default_level``).
     edits : sequence of Edit, optional
     progress : callable(fraction: float, text: str), optional
-        Told how far a (re)decomposition has got.
+        Told how far a (re)decomposition, and the first application of the
+        recipe, have got.  It may raise (for example to cancel a load); the
+        exception comes out of the constructor or ``set_transform``.
     """
 
     def __init__(self, recording: Recording, transform: tf.TransformSpec | None = None,
                  edits: Sequence[Edit] = (), progress: Callable | None = None):
         self.recording = recording
+        self.dtype = np.dtype(recording.samples.dtype)
         self._listeners: list[Callable[[Change], None]] = []
         self._history: list[tuple[Edit, ...]] = [()]
         self._pos = 0
         self._progress = progress
-        self._build(transform or tf.TransformSpec())
+        edits = tuple(edits)
+        spec = self._resolve(transform or tf.TransformSpec())
         if edits:
-            edits = tuple(edits)
-            self._check(edits)
+            # a recipe that does not fit is refused before any work
+            self._check(edits, spec.level)
+        self._build(spec, 0.0, 0.5 if edits else 1.0)
+        if edits:
             self._history[0] = edits
-            self._apply(edits, full=True)
+            self._apply(edits, full=True, progress=self._stage(0.5, 1.0, "applying the recipe"))
+            self._report(1.0, "ready")
 
     # ------------------------------------------------------------------ setup
 
-    def _build(self, spec: tf.TransformSpec) -> None:
-        n = self.recording.n
+    def _resolve(self, spec: tf.TransformSpec) -> tf.TransformSpec:
         try:
-            self.spec = spec.resolved(n)
+            return spec.resolved(self.recording.n)
         except ValueError as exc:
             raise ScalesieveError(str(exc), self.recording.source or None) from None
-        self._ch: list[_Channel] = []
-        total = self.recording.channels
-        for k in range(total):
-            if self._progress:
-                self._progress(k / total, f"decomposing channel {k + 1} of {total}")
-            self._ch.append(_Channel(self.recording.samples[:, k], self.spec,
-                                     self.recording.rate))
+
+    def _report(self, fraction: float, text: str) -> None:
         if self._progress:
-            self._progress(1.0, "decomposed")
+            self._progress(fraction, text)
+
+    def _stage(self, lo: float, hi: float, text: str):
+        """A progress(fraction) for one stage, mapped into lo .. hi of the whole."""
+        if not self._progress:
+            return None
+        return lambda f: self._progress(lo + (hi - lo) * f, text)
+
+    def _build(self, spec: tf.TransformSpec, lo: float = 0.0, hi: float = 1.0) -> None:
+        """Decompose every channel; the model changes only once all are done."""
+        total = self.recording.channels
+        chans = []
+        for k in range(total):
+            a = lo + (hi - lo) * k / total
+            b = lo + (hi - lo) * (k + 1) / total
+            self._report(a, f"decomposing channel {k + 1} of {total}")
+            chans.append(_Channel(self.recording.samples[:, k], spec, self.dtype,
+                                  self._stage(a, b, f"decomposing channel {k + 1} of {total}")))
+        self.spec = spec
+        self._ch: list[_Channel] = chans
+        self._report(hi, "decomposed")
 
     def _ctx(self, ch: _Channel, key) -> ed.BandContext:
+        count = ch.lengths[tf.band_index(key, self.spec.level)]
+        spec = self.spec
         return ed.BandContext(
             key=key, n_samples=self.recording.n, rate=self.recording.rate,
             positions=lambda: self._positions(ch, key),
             sigma_finest=lambda: self._sigma(ch, 1),
-            sigma_level=lambda: self._sigma(ch, key))
+            sigma_level=lambda: self._sigma(ch, key),
+            span=lambda lo, hi: tf.coefficient_slice(key, spec, count, lo, hi))
 
     def _positions(self, ch: _Channel, key) -> np.ndarray:
         if key not in ch._positions:
@@ -134,7 +190,7 @@ class DecompositionModel:
         # Noise comes from the original coefficients: earlier edits in the
         # recipe do not change what the recording's noise is.
         if key not in ch._sigma:
-            ch._sigma[key] = th.mad_sigma(ch.band(key, self.spec.level))
+            ch._sigma[key] = _mad_sigma(ch.band(key, self.spec.level))
         return ch._sigma[key]
 
     # -------------------------------------------------------------- listeners
@@ -166,14 +222,23 @@ class DecompositionModel:
 
     def set_transform(self, spec: tf.TransformSpec) -> None:
         """Rerun the decomposition; the recipe is kept (levels must still exist)."""
+        new = self._resolve(spec)
+        self._check(self.edits, new.level)
         old = self.spec
-        self._build(spec)
+        self._ch = []                    # let the old decomposition go before the new one
         try:
-            self._check(self.edits)
-        except ScalesieveError:
-            self._build(old)
+            self._build(new, 0.0, 0.5 if self.edits else 1.0)
+            self._apply(self.edits, full=True,
+                        progress=self._stage(0.5, 1.0, "applying the recipe"))
+        except BaseException:
+            # cancelled or failed half way: back to the old transform, quietly
+            keep, self._progress = self._progress, None
+            try:
+                self._build(old)
+                self._apply(self.edits, full=True)
+            finally:
+                self._progress = keep
             raise
-        self._apply(self.edits, full=True)
         self._notify(Change("transform", list(range(self.recording.channels))))
 
     # ------------------------------------------------------------------ edits
@@ -185,8 +250,9 @@ class DecompositionModel:
     def recipe(self) -> Recipe:
         return Recipe(self.spec, self.edits)
 
-    def _check(self, edits: Iterable[Edit]) -> None:
-        check_against(edits, self.level, self.recording.duration_s, self.recording.channels)
+    def _check(self, edits: Iterable[Edit], level: int | None = None) -> None:
+        check_against(edits, self.level if level is None else level,
+                      self.recording.duration_s, self.recording.channels)
 
     def set_edits(self, edits: Sequence[Edit], record: bool = True) -> Change:
         """Replace the whole edit list (one undo step when ``record``)."""
@@ -253,9 +319,10 @@ class DecompositionModel:
         return tuple(e for e in edits
                      if e.applies_to(channel) and key in e.band_keys(self.level))
 
-    def _apply(self, edits: Sequence[Edit], full: bool = False) -> Change:
+    def _apply(self, edits: Sequence[Edit], full: bool = False, progress=None) -> Change:
         """Bring every band to ``edits``; ``full`` recomputes from scratch."""
         level = self.level
+        n = self.recording.n
         touched_bands: set = set()
         span_lo, span_hi = None, None
         channels = []
@@ -263,115 +330,76 @@ class DecompositionModel:
             changed = []
             for key in tf.band_keys(level):
                 chain = self._chain(edits, k, key)
-                if not full and ch.chains.get(key, ()) == chain:
-                    continue
-                changed.append((key, chain))
+                if full or ch.chains.get(key, ()) != chain:
+                    changed.append((key, chain))
             if not changed:
                 continue
             channels.append(k)
-            if full or len(changed) > 2:
+            touched_bands.update(key for key, _ in changed)
+            plans = [] if full else [self._plan(ch, key, chain) for key, chain in changed]
+            groups = self._gain_groups(plans)
+            heavy = (sum(p.kind == "band" for p in plans)
+                     + sum(g not in ch.components for g in groups))
+            if full or heavy >= 2:
+                # two syntheses or more: one inverse transform is cheaper
                 for key, chain in changed:
-                    self._set_state(ch, key, chain)
-                    touched_bands.add(key)
-                self._recompute(ch)
-                span_lo, span_hi = 0, self.recording.n
+                    self._set_chain(ch, key, chain)
+                part = None if progress is None else (
+                    lambda f, k=k: progress((k + f) / len(self._ch)))
+                self._recompute(ch, part)
+                span_lo, span_hi = 0, n
                 continue
-            for key, chain in changed:
-                touched_bands.add(key)
-                span = self._update_band(ch, key, chain)
+            ch.incremental = True
+            spans = [self._gain(ch, members, factor) for members, factor in groups.items()]
+            for p in plans:
+                if p.kind in ("window", "band"):
+                    spans.append(self._window(ch, p) if p.kind == "window" else self._band(ch, p))
+                if p.kind != "window":
+                    ch.values.pop(p.key, None)
+                ch.chains[p.key] = p.new
+            for span in spans:
                 if span is not None:
                     span_lo = span[0] if span_lo is None else min(span_lo, span[0])
                     span_hi = span[1] if span_hi is None else max(span_hi, span[1])
         span = None if span_lo is None else (int(span_lo), int(span_hi))
         return Change("recipe", channels, sorted(touched_bands, key=str), span)
 
-    def _set_state(self, ch: _Channel, key, chain: tuple) -> None:
-        c = ch.band(key, self.level)
-        ch.states[key] = ed.apply_chain(c, chain, self._ctx(ch, key)) if chain else 1.0
+    def _set_chain(self, ch: _Channel, key, chain: tuple) -> None:
         ch.chains[key] = chain
+        ch.values.pop(key, None)
 
-    def _recompute(self, ch: _Channel) -> None:
-        """cleaned = x - inverse(c - e) in one inverse transform."""
-        ch.incremental = False
-        level = self.level
-        diff = []
-        for key in tf.band_keys(level):
-            c = ch.band(key, level)
-            s = ch.states.get(key, 1.0)
-            if isinstance(s, np.ndarray):
-                diff.append(c - s)
-            else:
-                diff.append(c * (1.0 - s))
-        removed = tf.inverse(diff, self.spec, self.recording.n)
-        np.subtract(ch.x, removed, out=ch.cleaned)
-
-    def _component(self, ch: _Channel, key) -> np.ndarray:
-        """Unit-gain time component of a band (the original coefficients alone)."""
-        comp = ch.components.pop(key, None)
-        if comp is None:
-            comp = tf.band_component(ch.coeffs, key, self.spec, self.recording.n)
-        ch.components[key] = comp          # most recently used last
-        while len(ch.components) > COMPONENT_CACHE:
-            ch.components.pop(next(iter(ch.components)))
-        return comp
-
-    def _update_band(self, ch: _Channel, key, chain: tuple):
-        """Bring one band to ``chain``; add its change to cleaned.  Returns the span."""
-        ch.incremental = True
-        level = self.level
-        n = self.recording.n
-        c = ch.band(key, level)
-        old_chain = ch.chains.get(key, ())
-        old = ch.states.get(key, 1.0)
-        window = self._window_change(ch, key, old_chain, chain, old)
+    def _plan(self, ch: _Channel, key, chain: tuple) -> _Plan:
+        """Cheapest way from a band's chain to ``chain`` (nothing is computed yet)."""
+        old = ch.chains.get(key, ())
+        ctx = self._ctx(ch, key)
+        shape_old, gain_old = ed.split_gain(old, ctx)
+        shape_new, gain_new = ed.split_gain(chain, ctx)
+        if shape_old == shape_new:
+            if gain_new == gain_old:
+                return _Plan("none", key, old, chain)
+            return _Plan("gain", key, old, chain, shape=shape_new, factor=gain_new - gain_old)
+        window = self._changed_window(ch, key, old, chain, ctx)
         if window is not None:
-            k0, k1 = window
-            ctx = self._ctx(ch, key)
-            new_vals = ed.apply_chain_window(c[k0:k1], k0, chain, ctx)
-            delta_e = new_vals - old[k0:k1]
-            old[k0:k1] = new_vals
-            ch.chains[key] = chain
-            return self._add_local(ch, key, -delta_e, k0)
-        self._set_state(ch, key, chain)
-        new = ch.states[key]
-        if not isinstance(old, np.ndarray) and not isinstance(new, np.ndarray):
-            g = new - old
-            if g == 0.0:
-                return None
-            comp = self._component(ch, key)
-            # cleaned = x - (1 - gain) * component, so it moves by (new - old) * component
-            _axpy(g, comp, ch.cleaned)
-            return 0, n
-        delta_r = ed.state_values(c, old) - ed.state_values(c, new)   # change of (c - e)
-        nz = np.flatnonzero(delta_r)
-        if nz.size == 0:
-            return None
-        k0, k1 = int(nz[0]), int(nz[-1]) + 1
-        if self.spec.kind == "dwt" and (k1 - k0) <= LOCAL_SHARE * c.shape[0]:
-            return self._add_local(ch, key, delta_r[k0:k1], k0)
-        comp = tf.band_component(ch.coeffs, key, self.spec, n, values=delta_r)
-        np.subtract(ch.cleaned, comp, out=ch.cleaned)
-        return 0, n
+            kind = "window" if window[1] > window[0] else "none"
+            return _Plan(kind, key, old, chain, window=window)
+        return _Plan("band", key, old, chain)
 
-    def _add_local(self, ch: _Channel, key, delta_removed: np.ndarray, k0: int):
-        """Subtract the synthesis of a coefficient window of (c - e) change from cleaned."""
-        n = self.recording.n
-        if self.spec.kind != "dwt":
-            full = np.zeros(ch.lengths[tf.band_index(key, self.level)])
-            full[k0:k0 + delta_removed.shape[0]] = delta_removed
-            comp = tf.band_component(ch.coeffs, key, self.spec, n, values=full)
-            np.subtract(ch.cleaned, comp, out=ch.cleaned)
-            return 0, n
-        start, seg = tf.local_synthesis(delta_removed, k0, key, ch.lengths, self.spec, n)
-        if seg.size:
-            ch.cleaned[start:start + seg.shape[0]] -= seg
-            return start, start + seg.shape[0]
-        return None
+    @staticmethod
+    def _gain_groups(plans: list[_Plan]) -> dict:
+        """Gain plans that move by the same factor share one component."""
+        by_factor: dict = {}
+        for p in plans:
+            if p.kind == "gain":
+                by_factor.setdefault(p.factor, []).append((p.key, p.shape))
+        return {tuple(sorted(m, key=lambda ks: str(ks[0]))): f for f, m in by_factor.items()}
 
-    def _window_change(self, ch: _Channel, key, old_chain: tuple, chain: tuple, old):
-        """Index window when the chains differ by one region edit and are pointwise."""
-        if not isinstance(old, np.ndarray):
-            return None
+    def _changed_window(self, ch: _Channel, key, old_chain: tuple, chain: tuple, ctx):
+        """Coefficient window when the chains differ by one region edit and nothing else.
+
+        Outside the region both chains give the same values when their
+        thresholds are the same numbers (always so for universal, minimax
+        and manual ones; BayesShrink and SURE after the region see it).
+        """
         p = 0
         while p < min(len(old_chain), len(chain)) and old_chain[p] == chain[p]:
             p += 1
@@ -385,15 +413,161 @@ class DecompositionModel:
             return None
         if any(e.op != "region" for e in mid_old + mid_new):
             return None
-        if not all(ed.is_pointwise(e) for e in chain):
+        if self._lams(ch, key, old_chain) != self._lams(ch, key, chain):
             return None
+        sls = [sl for sl in (ed.region_slice(e, ctx) for e in mid_old + mid_new)
+               if sl.stop > sl.start]
+        if not sls:
+            return 0, 0
+        return min(sl.start for sl in sls), max(sl.stop for sl in sls)
+
+    def _lams(self, ch: _Channel, key, chain: tuple) -> tuple:
+        cache = ch.thresholds.setdefault(key, {})
+        lams = ed.chain_thresholds(ch.band(key, self.level), chain, self._ctx(ch, key), cache)
+        while len(cache) > THRESHOLDS_KEPT:
+            cache.pop(next(iter(cache)))
+        return lams
+
+    def _values(self, ch: _Channel, key, chain: tuple, k0: int = 0, k1: int | None = None,
+                lams: tuple | None = None) -> np.ndarray:
+        """Edited values of coefficients k0 .. k1 of a band under ``chain``."""
+        c = ch.band(key, self.level)
+        k1 = c.shape[0] if k1 is None else k1
+        if lams is None:
+            lams = self._lams(ch, key, chain)
+        v = ed.chain_values(c[k0:k1], chain, self._ctx(ch, key), lams, k0)
+        return v if isinstance(v, np.ndarray) else c[k0:k1] * v
+
+    def _values_full(self, ch: _Channel, key, chain: tuple | None = None,
+                     keep: bool = False) -> np.ndarray:
+        """All edited values of a band, made block by block (no full-size temporaries)."""
+        current = chain is None or chain == ch.chains.get(key, ())
+        if current and key in ch.values:
+            return ch.values[key]
+        chain = ch.chains.get(key, ()) if chain is None else chain
+        c = ch.band(key, self.level)
+        out = np.empty_like(c)
+        lams = self._lams(ch, key, chain)
+        for b0, b1 in _blocks(c.shape[0]):
+            out[b0:b1] = self._values(ch, key, chain, b0, b1, lams)
+        if keep and current:
+            ch.values[key] = out
+        return out
+
+    def _removed_band(self, ch: _Channel, key):
+        """``c - e`` of a band under its chain, or None when the band is untouched."""
+        c = ch.band(key, self.level)
+        chain = ch.chains.get(key, ())
+        shape, gain = ed.split_gain(chain, self._ctx(ch, key))
+        if not shape:
+            return None if gain == 1.0 else c * (1.0 - gain)
+        r = np.empty_like(c)
+        kept = ch.values.get(key)
+        if kept is not None:
+            return np.subtract(c, kept, out=r)
+        lams = self._lams(ch, key, chain)
         ctx = self._ctx(ch, key)
-        sls = [ed.region_slice(e, ctx) for e in mid_old + mid_new]
-        k0 = min(sl.start for sl in sls)
-        k1 = max(sl.stop for sl in sls)
-        if k1 <= k0:
-            return k0, k0
-        return k0, k1
+        for b0, b1 in _blocks(c.shape[0]):
+            np.subtract(c[b0:b1], ed.chain_values(c[b0:b1], chain, ctx, lams, b0), out=r[b0:b1])
+        return r
+
+    def _recompute(self, ch: _Channel, progress=None) -> None:
+        """cleaned = x - inverse(c - e) in one inverse transform."""
+        ch.incremental = False
+        keys = tf.band_keys(self.level)
+        total = len(keys)
+
+        def band(i):
+            if progress:
+                progress(i / total)
+            return self._removed_band(ch, keys[i])
+
+        tf.inverse_into(band, ch.lengths, self.spec, self.recording.n, ch.cleaned, base=ch.x)
+        if progress:
+            progress(1.0)
+
+    def _cache_limit(self) -> int:
+        size = self.recording.n * self.dtype.itemsize
+        return max(1, min(COMPONENT_CACHE, COMPONENT_BYTES // max(size, 1)))
+
+    def _group_component(self, ch: _Channel, members: tuple) -> np.ndarray:
+        """Time component of bands together, each as its ``shape`` chain makes it."""
+        comp = ch.components.pop(members, None)
+        if comp is None:
+            while ch.components and len(ch.components) >= self._cache_limit():
+                ch.components.pop(next(iter(ch.components)))   # make room first
+            level = self.level
+            parts = {tf.band_index(key, level): (key, shape) for key, shape in members}
+
+            def band(i):
+                if i not in parts:
+                    return None
+                key, shape = parts[i]
+                return ch.band(key, level) if not shape else self._values_full(ch, key, shape)
+
+            comp = np.empty(self.recording.n, dtype=self.dtype)
+            tf.inverse_into(band, ch.lengths, self.spec, self.recording.n, comp)
+        ch.components[members] = comp          # most recently used last
+        return comp
+
+    def _component(self, ch: _Channel, key) -> np.ndarray:
+        """Unit-gain time component of a band (the original coefficients alone)."""
+        return self._group_component(ch, ((key, ()),))
+
+    def _gain(self, ch: _Channel, members: tuple, factor: float):
+        # cleaned = x - (1 - gain) * component, so it moves by (new - old) * component
+        _axpy(factor, self._group_component(ch, members), ch.cleaned)
+        return 0, self.recording.n
+
+    def _window(self, ch: _Channel, p: _Plan):
+        """A region moved: synthesise the change of its coefficient window only."""
+        k0, k1 = p.window
+        old_vals = self._values(ch, p.key, p.old, k0, k1)
+        new_vals = self._values(ch, p.key, p.new, k0, k1)
+        kept = ch.values.get(p.key)
+        if kept is not None:
+            kept[k0:k1] = new_vals
+        return self._add_local(ch, p.key, old_vals - new_vals, k0)
+
+    def _band(self, ch: _Channel, p: _Plan):
+        """Any other change of one band: the inverse of its change of ``c - e``."""
+        n = self.recording.n
+        c = ch.band(p.key, self.level)
+        delta = np.empty_like(c)           # change of c - e = old e - new e
+        lam_old, lam_new = self._lams(ch, p.key, p.old), self._lams(ch, p.key, p.new)
+        for b0, b1 in _blocks(c.shape[0]):
+            np.subtract(self._values(ch, p.key, p.old, b0, b1, lam_old),
+                        self._values(ch, p.key, p.new, b0, b1, lam_new), out=delta[b0:b1])
+        nz = delta != 0
+        if not nz.any():
+            return None
+        k0 = int(np.argmax(nz))
+        k1 = c.shape[0] - int(np.argmax(nz[::-1]))
+        del nz
+        if self.spec.kind == "dwt" and (k1 - k0) <= LOCAL_SHARE * c.shape[0]:
+            return self._add_local(ch, p.key, delta[k0:k1], k0)
+        idx = tf.band_index(p.key, self.level)
+        tf.inverse_into(lambda i: delta if i == idx else None, ch.lengths, self.spec, n,
+                        ch.cleaned, base=ch.cleaned)
+        return 0, n
+
+    def _add_local(self, ch: _Channel, key, delta_removed: np.ndarray, k0: int):
+        """Subtract the synthesis of a coefficient window of (c - e) change from cleaned."""
+        n = self.recording.n
+        if delta_removed.shape[0] == 0:
+            return None
+        if self.spec.kind != "dwt":
+            idx = tf.band_index(key, self.level)
+            full = np.zeros(ch.lengths[idx], dtype=self.dtype)
+            full[k0:k0 + delta_removed.shape[0]] = delta_removed
+            tf.inverse_into(lambda i: full if i == idx else None, ch.lengths, self.spec, n,
+                            ch.cleaned, base=ch.cleaned)
+            return 0, n
+        start, seg = tf.local_synthesis(delta_removed, k0, key, ch.lengths, self.spec, n)
+        if seg.size:
+            ch.cleaned[start:start + seg.shape[0]] -= seg
+            return start, start + seg.shape[0]
+        return None
 
     def settle(self) -> None:
         """Recompute what was updated by parts, from scratch (bit-identical to a fresh model)."""
@@ -422,25 +596,51 @@ class DecompositionModel:
         """Original coefficients of a band."""
         return self._ch[channel].band(key, self.level)
 
-    def edited_coefficients(self, channel: int, key) -> np.ndarray:
+    def edited_coefficients(self, channel: int, key, start: int | None = None,
+                            stop: int | None = None) -> np.ndarray:
+        """Edited coefficients of a band, or of indices ``start .. stop`` of it.
+
+        A window costs what it holds.  The whole band is kept once asked for
+        (and kept current by region edits), as a view that draws it will ask again.
+        """
         ch = self._ch[channel]
-        return ed.state_values(ch.band(key, self.level), ch.states.get(key, 1.0))
+        if start is None and stop is None:
+            return self._values_full(ch, key, keep=True)
+        count = ch.lengths[tf.band_index(key, self.level)]
+        k0, k1, _ = slice(start, stop).indices(count)
+        kept = ch.values.get(key)
+        if kept is not None:
+            return kept[k0:max(k0, k1)]
+        return self._values(ch, key, ch.chains.get(key, ()), k0, max(k0, k1))
+
+    def band_gain(self, channel: int, key) -> float | None:
+        """A band's uniform gain, or None when its edits are not a uniform gain (cheap)."""
+        ch = self._ch[channel]
+        shape, gain = ed.split_gain(ch.chains.get(key, ()), self._ctx(ch, key))
+        return None if shape else gain
 
     def band_gain_state(self, channel: int, key):
-        """A band's edit state: a number (uniform gain) or an array of values."""
-        return self._ch[channel].states.get(key, 1.0)
+        """A band's edit state: a number (uniform gain) or an array of values.
+
+        The array costs a pass over the band the first time (``band_gain`` tells
+        which it is without that).
+        """
+        g = self.band_gain(channel, key)
+        return g if g is not None else self.edited_coefficients(channel, key)
 
     def coefficient_times(self, channel: int, key) -> np.ndarray:
         """Time in seconds of each coefficient of a band."""
-        return self._positions(self._ch[channel], key) / self.recording.rate
+        count = self._ch[channel].lengths[tf.band_index(key, self.level)]
+        return tf.coefficient_positions(key, self.spec, count) / self.recording.rate
 
     def band_component(self, channel: int, key, edited: bool = True) -> np.ndarray:
         """Time-domain component of one band, as edited (or original)."""
         ch = self._ch[channel]
-        state = ch.states.get(key, 1.0) if edited else 1.0
-        if not isinstance(state, np.ndarray):
-            return self._component(ch, key) * state
-        return tf.band_component(ch.coeffs, key, self.spec, self.recording.n, values=state)
+        gain = self.band_gain(channel, key) if edited else 1.0
+        if gain is not None:
+            return self._component(ch, key) * gain
+        return tf.band_component(ch.coeffs, key, self.spec, self.recording.n,
+                                 values=self._values_full(ch, key))
 
     def band_component_span(self, channel: int, key, start: int, stop: int,
                             edited: bool = True) -> np.ndarray:
@@ -457,7 +657,6 @@ class DecompositionModel:
             return np.zeros(0)
         ch = self._ch[channel]
         c = ch.band(key, self.level)
-        state = ch.states.get(key, 1.0) if edited else 1.0
         j = self.level if key == "a" else int(key)
         step = 2 ** j
         reach = tf.filter_length(self.spec.wavelet) * step
@@ -468,8 +667,8 @@ class DecompositionModel:
         # Coefficient k reaches samples within about (L - 1) * 2**j of 2**j * k.
         k0 = max(0, (start - reach) // step - 1)
         k1 = min(c.shape[0], -(-(stop + reach) // step) + 1)
-        values = ed.state_values(c[k0:k1], state if not isinstance(state, np.ndarray)
-                                 else state[k0:k1])
+        values = (self.edited_coefficients(channel, key, k0, k1) if edited
+                  else ed.state_values(c[k0:k1], 1.0))
         out = np.zeros(stop - start)
         if k1 <= k0:
             return out
@@ -481,44 +680,6 @@ class DecompositionModel:
 
     def band_range_hz(self, key) -> tuple[float, float]:
         return tf.band_range_hz(key, self.level, self.recording.rate)
-
-    def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,
-               channels: Sequence[int] | None = None):
-        """Transients (shared/CONTRACT.md ``events``), through core/events.py.
-
-        ``kind`` is the transform that times them (default: the SWT, see
-        core/events.py); wavelet, level and mode are the model's.  Returns
-        ``(events, noise)`` as ``core.events.detect_channels`` does.  Prepared
-        levels are kept, so a new ``k`` costs only the detection.
-        """
-        from dataclasses import replace
-
-        from scalesieve.core import events as ev
-
-        spec = replace(self.spec, kind=kind or ev.DEFAULT_KIND)
-        try:
-            lv = ev.check_levels(levels, self.level)
-            ev.check_k(k)
-            spec.validate()
-        except ValueError as exc:
-            raise ScalesieveError(str(exc), self.recording.source or None) from None
-        chosen = range(self.recording.channels) if channels is None else list(channels)
-        for c in chosen:
-            if not 0 <= c < self.recording.channels:
-                raise ScalesieveError(f"channel {c} is not in the recording (channels "
-                                      f"0-{self.recording.channels - 1})")
-        cache = self.__dict__.setdefault("_event_levels", {})
-        prepared = {}
-        for c in chosen:
-            key = (c, spec, lv)
-            if key not in cache:
-                bands = ({j: self.coefficients(c, j) for j in lv} if spec == self.spec
-                         else ev.detail_bands(self.original(c), spec, lv))
-                while len(cache) >= 4 * max(1, self.recording.channels):
-                    cache.pop(next(iter(cache)))
-                cache[key] = ev.prepare(bands, spec, self.recording.n)
-            prepared[c] = cache[key]
-        return ev.detect_channels(prepared, self.original, self.recording.rate, k)
 
     def noise_sigma(self, channel: int, key=1) -> float:
         return self._sigma(self._ch[channel], key)
@@ -558,12 +719,16 @@ class DecompositionModel:
         """What the recipe did to one channel."""
         ch = self._ch[channel]
         level = self.level
-        removed = ch.x - ch.cleaned
+        # Sums over a strided column add up in another order; a contiguous copy
+        # gives the same figures whether the recording has one channel or more.
+        x = np.ascontiguousarray(ch.x)
+        removed = x - ch.cleaned
         per_band = []
         changed = zeroed = total = 0
         for key in self.band_keys:
             c = ch.band(key, level)
-            e = ed.state_values(c, ch.states.get(key, 1.0))
+            gain = self.band_gain(channel, key)
+            e = ed.state_values(c, gain) if gain is not None else self._values_full(ch, key)
             d = c - e
             ch_count = int(np.count_nonzero(d))
             z_count = int(np.count_nonzero((e == 0) & (c != 0)))
@@ -573,24 +738,81 @@ class DecompositionModel:
             per_band.append({"name": tf.band_name(key, level),
                              "energy_removed": mt.energy(d),
                              "changed": ch_count, "zeroed": z_count, "count": int(c.shape[0])})
-        e_orig = mt.energy(ch.x)
+        e_orig = mt.energy(x)
         e_rem = mt.energy(removed)
         return {
             "bands": per_band,
             "changed_fraction": changed / total if total else 0.0,
             "zeroed_fraction": zeroed / total if total else 0.0,
             "energy_removed_fraction": e_rem / e_orig if e_orig > 0 else 0.0,
-            "rms_original": mt.rms(ch.x), "rms_cleaned": mt.rms(ch.cleaned),
+            "rms_original": mt.rms(x), "rms_cleaned": mt.rms(ch.cleaned),
             "rms_removed": mt.rms(removed),
-            "snr_db": mt.snr_db(ch.x, removed),
+            "snr_db": mt.snr_db(x, removed),
             "peak_change": mt.peak(removed),
         }
+
+    def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,
+               channels: Sequence[int] | None = None):
+        """Transients (shared/CONTRACT.md ``events``), through core/events.py.
+
+        ``kind`` is the transform that times them (default: the SWT, see
+        core/events.py); wavelet, level and mode are the model's.  Returns
+        ``(events, noise)`` as ``core.events.detect_channels`` does.  Prepared
+        levels are kept, so a new ``k`` costs only the detection.
+        """
+        from dataclasses import replace
+
+        from scalesieve.core import events as ev
+
+        spec = replace(self.spec, kind=kind or ev.DEFAULT_KIND)
+        try:
+            lv = ev.check_levels(levels, self.level)
+            ev.check_k(k)
+            spec.validate()
+        except ValueError as exc:
+            raise ScalesieveError(str(exc), self.recording.source or None) from None
+        chosen = range(self.recording.channels) if channels is None else list(channels)
+        for c in chosen:
+            if not 0 <= c < self.recording.channels:
+                raise ScalesieveError(f"channel {c} is not in the recording (channels "
+                                      f"0-{self.recording.channels - 1})")
+        cache = self.__dict__.setdefault("_event_levels", {})
+        prepared = {}
+        for c in chosen:
+            key = (c, spec, lv)
+            if key not in cache:
+                bands = ({j: self.coefficients(c, j) for j in lv} if spec == self.spec
+                         else ev.detail_bands(self.original(c), spec, lv))
+                while len(cache) >= 4 * max(1, self.recording.channels):
+                    cache.pop(next(iter(cache)))
+                cache[key] = ev.prepare(bands, spec, self.recording.n)
+            prepared[c] = cache[key]
+        return ev.detect_channels(prepared, self.original, self.recording.rate, k)
+
+
+def _mad_sigma(d: np.ndarray) -> float:
+    """``th.mad_sigma(d)``, the same number, with one band-sized temporary instead of three.
+
+    The median of the same values is the same number however they are
+    arranged, so it may partition its own copy of ``|d|`` in place.
+    """
+    a = np.abs(d)
+    if not a.all():
+        a = a[a != 0]
+    if a.size == 0:
+        return 0.0
+    return float(np.median(a, overwrite_input=True) / th.MAD_TO_SIGMA)
+
+
+def _blocks(count: int):
+    """Index ranges of ``tf.BLOCK`` coefficients covering ``0 .. count``."""
+    return ((b, min(b + tf.BLOCK, count)) for b in range(0, count, tf.BLOCK))
 
 
 def _axpy(a: float, x: np.ndarray, y: np.ndarray, block: int = 1 << 16) -> None:
     """y += a * x in cache-sized blocks: one pass over memory, no full temporary."""
     n = y.shape[0]
-    tmp = np.empty(min(block, n))
+    tmp = np.empty(min(block, n), dtype=y.dtype)
     for i in range(0, n, block):
         j = min(i + block, n)
         t = tmp[: j - i]

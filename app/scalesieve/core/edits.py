@@ -33,6 +33,9 @@ class BandContext:
     positions: Callable[[], np.ndarray]   # sample position of each coefficient
     sigma_finest: Callable[[], float]     # MAD sigma of the original d1
     sigma_level: Callable[[], float]      # MAD sigma of this band's original coefficients
+    #: slice of the coefficients positioned in [lo, hi] samples, if known without
+    #: ``positions`` (see transforms.coefficient_slice); the same answer, cheaper
+    span: Callable[[float, float], slice] | None = None
 
 
 def is_pointwise(edit) -> bool:
@@ -60,9 +63,12 @@ def threshold_value(edit, current: np.ndarray, ctx: BandContext) -> float:
 
 def region_slice(edit, ctx: BandContext) -> slice:
     """Indices of the coefficients whose time position lies in the edit's span."""
+    lo_s, hi_s = edit.start_s * ctx.rate, edit.stop_s * ctx.rate
+    if ctx.span is not None:
+        return ctx.span(lo_s, hi_s)
     pos = ctx.positions()
-    lo = np.searchsorted(pos, edit.start_s * ctx.rate, side="left")
-    hi = np.searchsorted(pos, edit.stop_s * ctx.rate, side="right")
+    lo = np.searchsorted(pos, lo_s, side="left")
+    hi = np.searchsorted(pos, hi_s, side="right")
     return slice(int(lo), int(hi))
 
 
@@ -108,3 +114,91 @@ def apply_chain_window(c_window: np.ndarray, k0: int, edits: Sequence, ctx: Band
 def state_values(c: np.ndarray, state) -> np.ndarray:
     """Edited coefficient values of a band as an array."""
     return state if isinstance(state, np.ndarray) else c * state
+
+
+# --------------------------------------------------------------------------
+# the same chains, by parts: what lets a model keep no edited copy of a band
+
+
+def split_gain(edits: Sequence, ctx: BandContext) -> tuple[tuple, float]:
+    """A chain as ``(shape, gain)``: the band is ``gain`` times what ``shape`` makes.
+
+    ``gain`` is the product of the gain edits after the last threshold (gains
+    and regions are both per-coefficient products, so they commute);
+    ``shape`` is the chain without them, and without regions that select no
+    coefficient.  ``shape == ()`` exactly when ``apply_chain`` gives a
+    number, and ``gain`` is then that number, multiplied in the same order.
+    """
+    last = max((i for i, e in enumerate(edits) if e.op == "threshold"), default=-1)
+    shape = []
+    gain = 1.0
+    for i, e in enumerate(edits):
+        if e.op == "gain" and i > last:
+            gain = gain * e.gain
+        elif e.op == "region":
+            sl = region_slice(e, ctx)
+            if sl.stop > sl.start:
+                shape.append(e)
+        else:
+            shape.append(e)
+    return tuple(shape), gain
+
+
+def chain_thresholds(c: np.ndarray, edits: Sequence, ctx: BandContext,
+                     cache: dict | None = None) -> tuple[float, ...]:
+    """The threshold of each threshold edit of a chain, as ``apply_chain`` finds it.
+
+    Universal, minimax and manual thresholds do not look at the band;
+    BayesShrink and SURE look at its values as they stand when the edit
+    applies, which costs a pass over the band (``cache``, keyed by the chain
+    up to the edit, saves it next time).
+    """
+    lams: list[float] = []
+    for i, e in enumerate(edits):
+        if e.op != "threshold":
+            continue
+        key = tuple(edits[:i + 1])
+        if cache is not None and key in cache:
+            lams.append(cache[key])
+            continue
+        if is_pointwise(e):
+            lam = threshold_value(e, c, ctx)
+        else:
+            cur = state_values(c, chain_values(c, edits[:i], ctx, lams))
+            lam = threshold_value(e, cur, ctx)
+            del cur
+        if cache is not None:
+            cache[key] = lam
+        lams.append(lam)
+    return tuple(lams)
+
+
+def chain_values(c: np.ndarray, edits: Sequence, ctx: BandContext, lams: Sequence[float],
+                 k0: int = 0):
+    """``apply_chain`` on coefficients ``k0 .. k0+len(c)`` of a band, thresholds given.
+
+    ``lams`` are the chain's thresholds (``chain_thresholds``).  Element for
+    element the same numbers as ``apply_chain(band, edits, ctx)[k0:...]``
+    (the same operations in the same order), and a number when that is a
+    number, so a long band can be edited block by block.
+    """
+    state: float | np.ndarray = 1.0
+    k1 = k0 + c.shape[0]
+    t = 0
+    for e in edits:
+        if e.op == "gain":
+            state = state * e.gain
+        elif e.op == "region":
+            sl = region_slice(e, ctx)
+            if sl.stop <= sl.start:
+                continue
+            if not isinstance(state, np.ndarray):
+                state = c * state
+            a, b = max(sl.start, k0), min(sl.stop, k1)
+            if b > a:
+                state[a - k0:b - k0] *= e.gain
+        elif e.op == "threshold":
+            cur = c * state if not isinstance(state, np.ndarray) else state
+            state = th.apply_shape(cur, lams[t], e.shape)
+            t += 1
+    return state

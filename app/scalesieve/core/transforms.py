@@ -83,7 +83,10 @@ class TransformSpec:
         return {k: d[k] for k in ("kind", "wavelet", "level", "mode") if k in d}
 
 
+@lru_cache(maxsize=256)
 def filter_length(wavelet: str) -> int:
+    # cached: region edits ask for it many times per change, and building a
+    # pywt.Wavelet each time would cost more than the edit itself
     return pywt.Wavelet(wavelet).dec_len
 
 
@@ -157,11 +160,27 @@ def _swt_pad_mode(mode: str) -> str:
     return "periodic" if mode == "periodization" else mode
 
 
-def forward(x: np.ndarray, spec: TransformSpec) -> list[np.ndarray]:
-    """Decompose one channel; ``spec`` must be resolved (level set)."""
-    x = np.asarray(x, dtype=np.float64)
+def forward(x: np.ndarray, spec: TransformSpec, dtype=np.float64,
+            progress=None) -> list[np.ndarray]:
+    """Decompose one channel; ``spec`` must be resolved (level set).
+
+    Parameters
+    ----------
+    x : ndarray
+        One channel (a strided column is fine).
+    spec : TransformSpec
+    dtype : float64 or float32
+        Working precision of the coefficients; float32 halves their memory.
+    progress : callable(fraction), optional
+        Told how far the DWT has got, block by block; it may raise to stop.
+
+    The DWT runs level by level as ``pywt.wavedec`` does, each level in
+    blocks (boundary modes that extend from nearby samples only), and gives
+    the same numbers, bit for bit.
+    """
+    x = np.asarray(x, dtype=dtype)
     if spec.kind == "dwt":
-        return pywt.wavedec(x, spec.wavelet, mode=spec.mode, level=spec.level)
+        return _wavedec_blocked(x, spec, progress)
     n = x.shape[0]
     total = swt_padded_length(n, spec.level)
     if total != n:
@@ -173,6 +192,64 @@ def forward(x: np.ndarray, spec: TransformSpec) -> list[np.ndarray]:
         return pywt.swt(x, spec.wavelet, level=spec.level, trim_approx=True, norm=True)
 
 
+#: output samples per block of the blocked passes: about 2 MB of float64, cache-sized
+BLOCK = 1 << 18
+# Boundary modes whose signal extension reads only samples near the edge it
+# extends; "periodic" reads the far end, so that level is done in one call.
+_LOCAL_MODES = frozenset(MODES) - {"periodic", "periodization"}
+
+
+def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[np.ndarray]:
+    """``pywt.wavedec`` level by level, each level in blocks of coefficients.
+
+    Coefficient k of a level reads inputs 2k+2-L .. 2k+1 (filter length L),
+    so a block of coefficients is the interior of ``pywt.dwt`` on a window
+    of the input; the C code sums the same taps in the same order, so the
+    numbers are identical.  Blocks make progress reports possible and keep
+    the transient memory to the outputs themselves.
+    """
+    w = pywt.Wavelet(spec.wavelet)
+    total = 2 * x.shape[0]            # inputs read over all levels, about
+    done = 0
+    a = x
+    details = []
+    for _ in range(spec.level):
+        step = a.shape[0]
+        a, d = _dwt_blocked(a, w, spec.mode, progress, done, total)
+        done += step
+        details.append(d)
+        if progress:
+            progress(min(1.0, done / total))
+    if progress:
+        progress(1.0)
+    return [a] + details[::-1]
+
+
+def _dwt_blocked(x: np.ndarray, w: pywt.Wavelet, mode: str, progress, done: int, total: int):
+    n = x.shape[0]
+    L = w.dec_len
+    count = pywt.dwt_coeff_len(n, L, mode)
+    if mode not in _LOCAL_MODES or count <= BLOCK // 2:
+        return pywt.dwt(x, w, mode)
+    blocks = count // (BLOCK // 2)
+    # even split: no short last block (a window shorter than the filter is refused)
+    edges = [count * i // blocks for i in range(blocks + 1)]
+    a = d = None
+    for k0, k1 in zip(edges[:-1], edges[1:]):
+        s0 = max(0, 2 * k0 - L + 2)
+        s1 = n if k1 == count else min(n, 2 * k1)
+        ca, cd = pywt.dwt(x[s0:s1], w, mode)
+        if a is None:
+            a = np.empty(count, dtype=ca.dtype)
+            d = np.empty(count, dtype=cd.dtype)
+        off = k0 - s0 // 2
+        a[k0:k1] = ca[off:off + k1 - k0]
+        d[k0:k1] = cd[off:off + k1 - k0]
+        if progress:
+            progress(min(1.0, (done + s1) / total))
+    return a, d
+
+
 def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray:
     """Reconstruct ``n`` samples from a coefficient list of ``forward``."""
     if spec.kind == "dwt":
@@ -182,6 +259,120 @@ def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray
             warnings.simplefilter("ignore", UserWarning)
             out = pywt.iswt(coeffs, spec.wavelet, norm=True)
     return np.ascontiguousarray(out[:n])
+
+
+def inverse_into(band, lengths: list[int], spec: TransformSpec, n: int, out: np.ndarray,
+                 base: np.ndarray | None = None) -> np.ndarray:
+    """``out[:] = base - inverse(bands)``, or ``inverse(bands)`` without ``base``.
+
+    Parameters
+    ----------
+    band : callable(index) -> ndarray or None
+        The band at PyWavelets index ``index`` (``a_J`` first), or None for a
+        band of zeros.  Called once per band, coarse to fine, just before the
+        band is needed, so bands made on the fly never all exist at once.
+    lengths : list of int
+        Coefficient count of every band, in PyWavelets order.
+    out : ndarray of n samples
+        May be ``base`` itself.
+
+    For the DWT the levels run as ``pywt.waverec`` runs them and the finest
+    level is synthesised in blocks straight into ``out``: no full-length
+    temporary, and the same numbers as ``inverse`` (a block of output reads
+    a window of coefficients holding every tap it needs).  A None band gives
+    what zeros give (up to the sign of a zero).
+    """
+    level = spec.level
+    if spec.kind != "dwt":
+        full = [band(i) for i in range(level + 1)]
+        full = [np.zeros(lengths[i], dtype=out.dtype) if b is None else b
+                for i, b in enumerate(full)]
+        r = inverse(full, spec, n)
+        del full
+        _finish(out, base, r, 0)
+        return out
+    w = pywt.Wavelet(spec.wavelet)
+    a = band(0)
+    d = None
+    for i in range(1, level + 1):
+        del d                            # the last level's band goes before the next is made
+        d = band(i)
+        if a is not None and a.shape[0] == lengths[i] + 1:
+            a = a[:lengths[i]]           # as waverec trims an odd approximation
+        if i < level or spec.mode == "periodization":
+            a = None if a is None and d is None else pywt.idwt(a, d, w, spec.mode)
+            continue
+        # the finest level, in blocks of output
+        L = w.rec_len
+        half = BLOCK // 2
+        count = lengths[i]
+        for s0 in range(0, n, BLOCK):
+            s1 = min(s0 + BLOCK, n)
+            if a is None and d is None:
+                _finish(out[s0:s1], None if base is None else base[s0:s1], None, 0)
+                continue
+            k0 = s0 // 2
+            k1 = min(count, k0 + half + (L - 2) // 2 + 1)
+            seg = pywt.idwt(None if a is None else a[k0:k1], None if d is None else d[k0:k1],
+                            w, spec.mode)
+            _finish(out[s0:s1], None if base is None else base[s0:s1], seg, 0)
+        return out
+    _finish(out, base, a, 0)
+    return out
+
+
+def _finish(out: np.ndarray, base, r, start: int) -> None:
+    """out = base - r[start:...] (or r, or base, or zeros when parts are missing)."""
+    m = out.shape[0]
+    if r is None:
+        if base is None:
+            out[...] = 0.0
+        elif base is not out:
+            out[...] = base
+        return
+    seg = r[start:start + m]
+    if base is None:
+        out[...] = seg
+    else:
+        np.subtract(base, seg, out=out)
+
+
+def coefficient_slice(key, spec: TransformSpec, count: int, lo: float, hi: float) -> slice:
+    """Indices of the coefficients whose position lies in ``[lo, hi]`` samples.
+
+    The same slice as ``searchsorted(positions, lo, "left")`` ..
+    ``searchsorted(positions, hi, "right")`` over ``coefficient_positions``,
+    found from the positions' formula in constant time (no positions array:
+    for the finest level that would be half the recording again).
+    """
+    level = spec.level
+    j = level if key == "a" else int(key)
+    if spec.kind == "dwt":
+        L = filter_length(spec.wavelet)
+        s = (L - 1) / 2 - _offset(spec.wavelet, spec.mode)
+        step, shift = 2 ** j, s * (2 ** j - 1)
+    else:
+        step, shift = 1, _swt_shift(spec.wavelet, j, key == "a")
+    f_step = np.float64(step)
+
+    def pos(k: int) -> np.float64:
+        # exactly as coefficient_positions computes it
+        return f_step * np.float64(k) + shift
+
+    def first(v: float, right: bool) -> int:
+        # first index whose position is >= v (left) or > v (right)
+        if not v == v:                    # NaN sorts last, as searchsorted puts it
+            return count
+        guess = (v - shift) / step
+        k = count if guess >= count else 0 if guess <= 0 else int(math.floor(guess))
+        below = (lambda p: p <= v) if right else (lambda p: p < v)
+        while k > 0 and not below(pos(k - 1)):
+            k -= 1
+        while k < count and below(pos(k)):
+            k += 1
+        return k
+
+    return slice(first(lo, False), first(hi, True))
 
 
 def band_lengths(n: int, spec: TransformSpec) -> list[int]:

@@ -1,0 +1,191 @@
+"""Blocked transforms and edits give PyWavelets' and apply_chain's numbers exactly.
+
+The long-recording passes (forward and inverse in blocks, band edits block by
+block, region slices from the positions' formula) must not change a single
+bit of what the plain functions give; PyWavelets' ``wavedec``/``waverec`` are
+the reference.
+"""
+
+import numpy as np
+import pytest
+import pywt
+
+from scalesieve.core import edits as ed
+from scalesieve.core import transforms as tf
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.recipe import Edit
+
+WAVELETS = ["haar", "db4", "sym5", "coif2", "bior3.5", "rbio2.4", "dmey"]
+
+
+@pytest.fixture
+def small_blocks(monkeypatch):
+    # Blocks of 256 samples: every block edge and the uneven last block get exercised.
+    monkeypatch.setattr(tf, "BLOCK", 256)
+
+
+@pytest.mark.parametrize("wavelet", WAVELETS)
+@pytest.mark.parametrize("mode", list(tf.MODES))
+@pytest.mark.parametrize("dtype", [np.float64, np.float32])
+def test_blocked_forward_equals_wavedec(small_blocks, wavelet, mode, dtype):
+    # Reference: PyWavelets' wavedec, bit for bit, in the same precision.
+    rng = np.random.default_rng(len(wavelet) + len(mode))
+    for n in (3001, 4096):
+        x = rng.standard_normal(n).astype(dtype)
+        level = min(4, tf.max_level(n, wavelet))
+        spec = TransformSpec("dwt", wavelet, level, mode)
+        got = tf.forward(x, spec, dtype=dtype)
+        ref = pywt.wavedec(x, wavelet, mode=mode, level=level)
+        assert len(got) == len(ref)
+        for g, r in zip(got, ref):
+            assert g.dtype == r.dtype
+            assert np.array_equal(g, r)
+
+
+def test_forward_of_a_strided_column(small_blocks):
+    # A column of a (n, 2) array decomposes as its contiguous copy does (wavedec).
+    x = np.random.default_rng(1).standard_normal((5000, 2))
+    spec = TransformSpec("dwt", "db4", 5, "symmetric")
+    ref = pywt.wavedec(np.ascontiguousarray(x[:, 1]), "db4", mode="symmetric", level=5)
+    assert all(np.array_equal(g, r) for g, r in zip(tf.forward(x[:, 1], spec), ref))
+
+
+def test_forward_reports_progress(small_blocks):
+    seen = []
+    x = np.random.default_rng(2).standard_normal(5000)
+    tf.forward(x, TransformSpec("dwt", "db4", 4, "symmetric"), progress=seen.append)
+    assert len(seen) > 10
+    assert seen == sorted(seen) and seen[-1] == 1.0
+
+
+@pytest.mark.parametrize("wavelet", WAVELETS)
+@pytest.mark.parametrize("mode", ["symmetric", "periodization", "zero", "smooth", "periodic"])
+@pytest.mark.parametrize("dtype", [np.float64, np.float32])
+def test_inverse_into_equals_waverec(small_blocks, wavelet, mode, dtype):
+    # Reference: PyWavelets' waverec with zero arrays where inverse_into gets None.
+    rng = np.random.default_rng(3)
+    for n in (3001, 4096):
+        level = min(4, tf.max_level(n, wavelet))
+        spec = TransformSpec("dwt", wavelet, level, mode)
+        coeffs = pywt.wavedec(rng.standard_normal(n).astype(dtype), wavelet, mode=mode,
+                              level=level)
+        lengths = [c.shape[0] for c in coeffs]
+        for missing in ({0}, {len(coeffs) - 1}, {1, 2}, set(range(1, len(coeffs))), set()):
+            bands = [None if i in missing else c for i, c in enumerate(coeffs)]
+            zeros = [np.zeros_like(c) if i in missing else c for i, c in enumerate(coeffs)]
+            ref = pywt.waverec(zeros, wavelet, mode=mode)[:n]
+            out = np.empty(n, dtype=dtype)
+            tf.inverse_into(lambda i: bands[i], lengths, spec, n, out)
+            assert np.array_equal(out, ref)
+            base = rng.standard_normal(n).astype(dtype)
+            into = base.copy()
+            tf.inverse_into(lambda i: bands[i], lengths, spec, n, into, base=into)
+            assert np.array_equal(into, base - ref)
+
+
+def test_inverse_into_swt_and_all_zero():
+    # SWT: PyWavelets' iswt (through transforms.inverse); no band at all gives zeros / base.
+    n = 1000
+    spec = TransformSpec("swt", "db2", 3, "symmetric").resolved(n)
+    x = np.random.default_rng(4).standard_normal(n)
+    coeffs = tf.forward(x, spec)
+    lengths = [c.shape[0] for c in coeffs]
+    out = np.empty(n)
+    tf.inverse_into(lambda i: coeffs[i], lengths, spec, n, out)
+    assert np.array_equal(out, tf.inverse(coeffs, spec, n))
+    dspec = TransformSpec("dwt", "db4", 3, "symmetric")
+    dl = [c.shape[0] for c in tf.forward(x, dspec)]
+    tf.inverse_into(lambda i: None, dl, dspec, n, out)
+    assert not out.any()
+    base = x.copy()
+    tf.inverse_into(lambda i: None, dl, dspec, n, out, base=base)
+    assert np.array_equal(out, x)
+
+
+def test_band_component_by_inverse_into(small_blocks):
+    # The model makes band components with inverse_into: the same numbers as band_component.
+    n = 3001
+    for mode in ("symmetric", "periodization"):
+        spec = TransformSpec("dwt", "sym5", 4, mode)
+        coeffs = tf.forward(np.random.default_rng(5).standard_normal(n), spec)
+        lengths = [c.shape[0] for c in coeffs]
+        for key in tf.band_keys(4):
+            idx = tf.band_index(key, 4)
+            out = np.empty(n)
+            tf.inverse_into(lambda i: coeffs[i] if i == idx else None, lengths, spec, n, out)
+            assert np.array_equal(out, tf.band_component(coeffs, key, spec, n))
+
+
+@pytest.mark.parametrize("kind", ["dwt", "swt"])
+@pytest.mark.parametrize("wavelet", ["haar", "db4", "sym8", "bior3.5"])
+@pytest.mark.parametrize("mode", ["symmetric", "periodization"])
+def test_coefficient_slice_equals_searchsorted(kind, wavelet, mode):
+    # Reference: numpy.searchsorted over coefficient_positions (what region edits used).
+    spec = TransformSpec(kind, wavelet, 5, mode)
+    rng = np.random.default_rng(6)
+    for key in tf.band_keys(5):
+        count = 777
+        pos = tf.coefficient_positions(key, spec, count)
+        probes = list(rng.uniform(pos[0] - 50, pos[-1] + 50, 200)) + list(pos[::37])
+        probes += [pos[0], pos[-1], -1e12, 1e12, np.nextafter(pos[3], -np.inf),
+                   np.nextafter(pos[3], np.inf)]
+        for lo in probes[::3]:
+            for hi in probes[1::5]:
+                want = slice(int(np.searchsorted(pos, lo, "left")),
+                             int(np.searchsorted(pos, hi, "right")))
+                assert tf.coefficient_slice(key, spec, count, lo, hi) == want
+
+
+def _ctx(c, spec, key, rate=1000.0):
+    count = c.shape[0]
+    return ed.BandContext(
+        key=key, n_samples=4 * count, rate=rate,
+        positions=lambda: tf.coefficient_positions(key, spec, count),
+        sigma_finest=lambda: 0.8, sigma_level=lambda: 1.1,
+        span=lambda lo, hi: tf.coefficient_slice(key, spec, count, lo, hi))
+
+
+CHAINS = [
+    (),
+    (Edit("gain", levels=(2,), gain=0.5), Edit("gain", levels=(2,), gain=3.0)),
+    (Edit("region", levels=(2,), start_s=0.5, stop_s=1.7, gain=0.0),),
+    (Edit("region", levels=(2,), start_s=9.0, stop_s=9.5, gain=0.0),),   # selects nothing
+    (Edit("gain", levels=(2,), gain=0.7),
+     Edit("threshold", levels=(2,), rule="universal", shape="soft"),
+     Edit("region", levels=(2,), start_s=1.0, stop_s=2.0, gain=0.25),
+     Edit("gain", levels=(2,), gain=2.0)),
+    (Edit("region", levels=(2,), start_s=0.2, stop_s=0.9, gain=0.3),
+     Edit("threshold", levels=(2,), rule="bayes", shape="hard"),
+     Edit("threshold", levels=(2,), rule="sure", shape="garrote", noise="level")),
+    (Edit("threshold", levels=(2,), rule="minimax", shape="soft", scale=0.5),
+     Edit("threshold", levels=(2,), rule="manual", value=0.0, shape="hard")),
+]
+
+
+@pytest.mark.parametrize("chain", CHAINS)
+def test_chain_values_block_by_block_equals_apply_chain(chain):
+    # Reference: ed.apply_chain on the whole band (with positions and searchsorted).
+    spec = TransformSpec("dwt", "db4", 3, "symmetric")
+    c = np.random.default_rng(7).standard_normal(700)
+    ctx = _ctx(c, spec, 2)
+    plain = ed.BandContext(key=2, n_samples=ctx.n_samples, rate=ctx.rate,
+                           positions=ctx.positions, sigma_finest=ctx.sigma_finest,
+                           sigma_level=ctx.sigma_level)
+    want = ed.apply_chain(c, chain, plain)
+    lams = ed.chain_thresholds(c, chain, ctx)
+    cache: dict = {}
+    assert ed.chain_thresholds(c, chain, ctx, cache) == lams
+    assert ed.chain_thresholds(c, chain, ctx, cache) == lams       # from the cache
+    parts = []
+    for b0 in range(0, 700, 123):
+        v = ed.chain_values(c[b0:b0 + 123], chain, ctx, lams, b0)
+        parts.append(ed.state_values(c[b0:b0 + 123], v))
+    assert np.array_equal(np.concatenate(parts), ed.state_values(c, want))
+    shape, gain = ed.split_gain(chain, ctx)
+    assert (shape == ()) == (not isinstance(want, np.ndarray))
+    if not shape:
+        assert gain == want
+    else:
+        # the gain part multiplies what the shape part makes (up to rounding)
+        alone = ed.state_values(c, ed.apply_chain(c, shape, plain))
+        assert np.allclose(gain * alone, want, rtol=1e-12, atol=1e-15)
