@@ -21,14 +21,14 @@ def configure(p) -> None:
     p.add_argument("--recipe", metavar="R.json", help="recipe to apply on opening")
     p.add_argument("--snapshot", metavar="OUT.png",
                    help="draw the window offscreen at 1600x1000, write the PNG and exit")
+    p.add_argument("--force", action="store_true",
+                   help="let --snapshot replace an existing file")
     add_transform_options(p)
     add_input_options(p)
 
 
 def run(args) -> int:
-    # Until the window lands this prints the band table of the file.
-    from scalesieve.commands import bands
+    # Qt is imported here only: the other commands never load it.
+    from scalesieve.gui.app import run_window
 
-    args.file = args.file or demo_path()
-    args.json = False
-    return bands.run(args)
+    return run_window(args)

@@ -1,0 +1,102 @@
+"""Start the window: the Qt application, looks, settings, and the ``--snapshot`` run."""
+
+from __future__ import annotations
+
+import os
+import sys
+import tempfile
+
+#: the size --snapshot draws the window at (shared/CONTRACT.md)
+SNAPSHOT_SIZE = (1600, 1000)
+
+
+def make_application(argv: list[str] | None = None):
+    """The one QApplication, with our names, style sheet and plotting defaults."""
+    import pyqtgraph as pg
+    from PySide6.QtWidgets import QApplication
+
+    from scalesieve.gui.resource_files import colour, icon, style_sheet
+
+    app = QApplication.instance()
+    if app is None:
+        app = QApplication(argv or [sys.argv[0] if sys.argv else "scalesieve"])
+    app.setOrganizationName("Scalesieve")
+    app.setApplicationName("Scalesieve")
+    pg.setConfigOptions(antialias=False, imageAxisOrder="row-major",
+                        background=colour("plot", "background"),
+                        foreground=colour("plot", "foreground"))
+    app.setStyleSheet(style_sheet())
+    app.setWindowIcon(icon("app"))
+    return app
+
+
+def run_window(args) -> int:
+    """``scalesieve [FILE] [--recipe R] [--snapshot OUT.png]``.
+
+    The recording and recipe are read before any window opens, so bad input
+    ends with the command line's one-line message and exit status 2.
+    """
+    from scalesieve import api
+    from scalesieve.commands.options import load_input, transform_from
+    from scalesieve.commands.window import demo_path
+    from scalesieve.errors import ScalesieveError
+    from scalesieve.recipe import load as load_recipe
+
+    path = args.file or demo_path()
+    if not path:
+        raise ScalesieveError("no demo recording in this installation; give FILE")
+    snapshot = getattr(args, "snapshot", None)
+    force = bool(getattr(args, "force", False))
+    if snapshot:
+        api.check_target(snapshot, force, [path] + ([args.recipe] if args.recipe else []))
+        if not snapshot.lower().endswith(".png"):
+            raise ScalesieveError("--snapshot writes a PNG; give a name ending in .png",
+                                  snapshot)
+    recipe = load_recipe(args.recipe) if args.recipe else None
+    rec = load_input(args, path)
+    spec = transform_from(args, recipe.transform if recipe else None)
+    edits = tuple(recipe.edits) if recipe else ()
+
+    if snapshot:
+        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    app = make_application()
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.error_dialog import install_excepthook
+    from scalesieve.gui.main_window import MainWindow
+
+    if snapshot:
+        # A snapshot neither reads nor changes the user's settings.
+        app.setProperty("scalesieve_quiet_errors", True)
+        tmp = tempfile.mkdtemp(prefix="scalesieve-snap-")
+        settings = ws.open_settings(os.path.join(tmp, "settings.ini"))
+    else:
+        settings = ws.open_settings()
+    window = MainWindow(settings)
+    install_excepthook(lambda: window)
+    if snapshot:
+        window.resize(*SNAPSHOT_SIZE)
+    window.show()
+    window.open_recording(rec, spec, edits)
+    if snapshot:
+        problem = window.adapter.wait_idle()
+        if problem:
+            window.close()
+            raise ScalesieveError(problem)
+        window.resize(*SNAPSHOT_SIZE)
+        window.snapshot(snapshot, force=force)
+        _dispose(app, window)
+        return 0
+    code = int(app.exec())
+    _dispose(app, window)
+    return code
+
+
+def _dispose(app, window) -> None:
+    """Close and delete the window while Qt still runs, not at interpreter exit."""
+    import shiboken6
+
+    window.close()
+    app.processEvents()
+    if shiboken6.isValid(window):
+        shiboken6.delete(window)
+    app.processEvents()

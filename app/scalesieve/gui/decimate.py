@@ -1,0 +1,195 @@
+"""Reduce long arrays to what a screen can show without losing a peak.
+
+Traces are drawn as the minimum and maximum of each pixel column, so a
+single-sample spike in ten million samples still reaches the screen; the
+Scale map takes the largest magnitude of the coefficients in each column.
+Long signals keep a block envelope (minimum and maximum per fixed block of
+samples) so that a zoomed-out view combines blocks instead of re-reading
+every sample.  Pure numpy: no Qt, no transform.
+"""
+
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+
+#: a column must hold at least this many samples before it is drawn as min/max
+MINMAX_FROM = 2
+
+
+def column_edges(count: int, columns: int) -> np.ndarray:
+    """Start index of each of ``columns`` bins over ``count`` samples, plus ``count``.
+
+    Every bin holds ``floor`` or ``ceil`` of ``count / columns`` samples, so
+    none is empty when ``count >= columns``.
+    """
+    columns = max(1, int(columns))
+    return (np.arange(columns + 1, dtype=np.int64) * int(count)) // columns
+
+
+def minmax_columns(y: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
+    """Exact minimum and maximum of ``y`` in each of ``columns`` bins.
+
+    ``len(y)`` must be at least ``columns`` (no bin is empty).
+    """
+    n = y.shape[0]
+    if n < columns:
+        raise ValueError(f"{n} samples cannot fill {columns} columns")
+    starts = column_edges(n, columns)[:-1]
+    return np.minimum.reduceat(y, starts), np.maximum.reduceat(y, starts)
+
+
+def block_minmax(y: np.ndarray, block: int) -> tuple[np.ndarray, np.ndarray]:
+    """Minimum and maximum of ``y`` over consecutive blocks of ``block`` samples."""
+    n = y.shape[0]
+    if n == 0:
+        return np.zeros(0), np.zeros(0)
+    starts = np.arange(0, n, block, dtype=np.int64)
+    return np.minimum.reduceat(y, starts), np.maximum.reduceat(y, starts)
+
+
+class BlockEnvelope:
+    """Minimum and maximum of a signal per block of ``block`` samples.
+
+    ``refresh`` recomputes only the blocks a change touched, so an edit
+    confined to a short span costs that span.
+    """
+
+    def __init__(self, lo: np.ndarray, hi: np.ndarray, block: int, n: int):
+        self.lo = lo
+        self.hi = hi
+        self.block = int(block)
+        self.n = int(n)
+
+    @classmethod
+    def of(cls, y: np.ndarray, block: int, chunk: int = 1 << 20) -> "BlockEnvelope":
+        """Envelope of a whole signal (read in chunks of whole blocks)."""
+        n = y.shape[0]
+        nb = -(-n // block)
+        env = cls(np.empty(nb), np.empty(nb), block, n)
+        env.refresh(0, n, lambda a, b: y[a:b], chunk)
+        return env
+
+    @classmethod
+    def of_source(cls, fetch: Callable[[int, int], np.ndarray], n: int, block: int,
+                  chunk: int = 1 << 20) -> "BlockEnvelope":
+        nb = -(-n // block)
+        env = cls(np.empty(nb), np.empty(nb), block, n)
+        env.refresh(0, n, fetch, chunk)
+        return env
+
+    def copy(self) -> "BlockEnvelope":
+        return BlockEnvelope(self.lo.copy(), self.hi.copy(), self.block, self.n)
+
+    def scaled(self, gain: float) -> "BlockEnvelope":
+        """The envelope of ``gain * signal`` (exact: scaling is monotonic)."""
+        g = float(gain)
+        if g >= 0:
+            return BlockEnvelope(self.lo * g, self.hi * g, self.block, self.n)
+        return BlockEnvelope(self.hi * g, self.lo * g, self.block, self.n)
+
+    def refresh(self, start: int, stop: int, fetch: Callable[[int, int], np.ndarray],
+                chunk: int = 1 << 20) -> None:
+        """Recompute the blocks that samples ``start .. stop`` fall in.
+
+        ``fetch(a, b)`` returns samples ``a .. b`` of the signal; it is asked
+        for whole blocks, at most ``chunk`` samples at a time.
+        """
+        b = self.block
+        a0 = max(0, int(start)) // b * b
+        a1 = min(self.n, -(-int(stop) // b) * b)
+        step = max(b, chunk // b * b)
+        for s in range(a0, a1, step):
+            e = min(a1, s + step)
+            lo, hi = block_minmax(np.asarray(fetch(s, e)), b)
+            self.lo[s // b:s // b + lo.shape[0]] = lo
+            self.hi[s // b:s // b + hi.shape[0]] = hi
+
+    def columns(self, start: int, stop: int, columns: int) -> tuple[np.ndarray, np.ndarray]:
+        """Min and max per column of samples ``start .. stop``, at block resolution.
+
+        Every peak is kept; a column edge may move by less than one block.
+        """
+        b = self.block
+        edges = start + column_edges(stop - start, columns)
+        bi = edges[:-1] // b
+        b0 = int(bi[0])
+        b1 = min(self.lo.shape[0], (int(stop) - 1) // b + 1)
+        # A column narrower than a block repeats the block it lies in.
+        starts = bi - b0
+        lo = np.minimum.reduceat(self.lo[b0:b1], starts)
+        hi = np.maximum.reduceat(self.hi[b0:b1], starts)
+        return lo, hi
+
+
+def trace_points(first_time: float, step: float, count: int, t0: float, t1: float,
+                 columns: int, fetch: Callable[[int, int], np.ndarray] | None,
+                 envelope: BlockEnvelope | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Points to draw a uniformly sampled sequence between times ``t0`` and ``t1``.
+
+    Sample ``i`` sits at ``first_time + i * step``.  With more than
+    ``MINMAX_FROM`` samples per column the result alternates each column's
+    minimum and maximum (peak preserving); otherwise it is the samples
+    themselves.  ``envelope`` (block min/max of the same sequence) is used
+    when columns span at least two blocks, and always when there is no
+    ``fetch`` (the samples are not at hand, e.g. while the model is busy).
+    """
+    columns = max(1, int(columns))
+    if count <= 0 or t1 <= t0:
+        return np.zeros(0), np.zeros(0)
+    i0 = int(np.clip(np.floor((t0 - first_time) / step) - 1, 0, count))
+    i1 = int(np.clip(np.ceil((t1 - first_time) / step) + 2, 0, count))
+    span = i1 - i0
+    if span <= 0:
+        return np.zeros(0), np.zeros(0)
+    per_col = span / columns
+    if fetch is None:
+        if envelope is None:
+            return np.zeros(0), np.zeros(0)
+        columns = min(columns, span)
+    elif per_col <= MINMAX_FROM:
+        y = np.asarray(fetch(i0, i1), dtype=np.float64)
+        return first_time + step * np.arange(i0, i1, dtype=np.float64), y
+    if envelope is not None and (fetch is None or per_col >= 2 * envelope.block):
+        lo, hi = envelope.columns(i0, i1, columns)
+    else:
+        lo, hi = minmax_columns(np.asarray(fetch(i0, i1)), columns)
+    edges = i0 + column_edges(span, columns)
+    centre = first_time + step * 0.5 * (edges[:-1] + edges[1:] - 1)
+    x = np.repeat(centre, 2)
+    y = np.empty(2 * lo.shape[0])
+    y[0::2] = lo
+    y[1::2] = hi
+    return x, y
+
+
+def maxabs_columns(values: np.ndarray, first_time: float, step: float, t0: float, t1: float,
+                   columns: int) -> np.ndarray:
+    """Largest ``|value|`` of a uniformly timed sequence in each time column.
+
+    A column that holds no value (a coarse level seen close up) takes the
+    value nearest its centre, so each coefficient paints the columns it
+    stands for.
+    """
+    columns = max(1, int(columns))
+    count = values.shape[0]
+    out = np.zeros(columns)
+    if count == 0 or t1 <= t0:
+        return out
+    edges_t = t0 + (t1 - t0) * np.arange(columns + 1) / columns
+    k = np.clip(np.ceil((edges_t - first_time) / step), 0, count).astype(np.int64)
+    full = k[1:] > k[:-1]
+    if full.any():
+        starts = k[:-1][full]
+        stop = int(k[1:][full][-1])
+        seg = values[starts[0]:stop]
+        mx = np.maximum.reduceat(seg, starts - starts[0])
+        mn = np.minimum.reduceat(seg, starts - starts[0])
+        out[full] = np.maximum(mx, -mn)
+    empty = ~full
+    if empty.any():
+        centre = 0.5 * (edges_t[:-1] + edges_t[1:])[empty]
+        idx = np.clip(np.rint((centre - first_time) / step), 0, count - 1).astype(np.int64)
+        out[empty] = np.abs(values[idx])
+    return out

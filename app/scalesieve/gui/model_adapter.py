@@ -1,0 +1,458 @@
+"""The Qt face of the shared decomposition model.
+
+The model knows nothing of Qt.  This adapter turns its change notices into
+Qt signals, runs the heavy work (reading a file, decomposing, preparing
+what the panes draw) in a worker thread, and makes rapid requests coalesce:
+while one run is in flight only the latest request waits, the ones in
+between are dropped.
+
+The model is not thread-safe, so it is never used from two threads at once:
+a new recording gets a new model built in the worker; a transform change
+*lends* the current model to the worker (``model`` is ``None`` meanwhile
+and edits are refused) and the worker hands it back re-decomposed.  The
+recipe and its undo history stay in the model throughout.
+"""
+
+from __future__ import annotations
+
+import os
+import traceback
+from dataclasses import dataclass, field
+from typing import Callable
+
+from PySide6.QtCore import QObject, QThread, QTimer, Signal, Slot
+
+from scalesieve import api
+from scalesieve.core.recording import Recording
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.errors import ScalesieveError
+from scalesieve.gui.display_data import ChannelPictures, Superseded
+from scalesieve.model import DecompositionModel
+from scalesieve.recipe import check_against
+
+#: quiet time after the last transform request before a run starts (ms)
+COALESCE_MS = 120
+
+
+@dataclass
+class Job:
+    """One piece of work for the worker thread."""
+
+    token: int
+    kind: str                                  # "open" or "transform"
+    spec: TransformSpec | None = None
+    load: Callable[[], Recording] | None = None
+    edits: tuple = ()
+    model: DecompositionModel | None = None    # lent for "transform"
+    label: str = ""
+    then_edits: tuple | None = None            # "transform": the recipe to put in place
+
+
+@dataclass
+class Result:
+    token: int
+    kind: str
+    model: DecompositionModel | None
+    pictures: list = field(default_factory=list)
+    error: str | None = None
+    label: str = ""
+
+
+def _fits(edits, level: int, rec) -> bool:
+    try:
+        check_against(edits, level, rec.duration_s, rec.channels)
+    except ScalesieveError:
+        return False
+    return True
+
+
+def _transform_with_edits(model: DecompositionModel, spec: TransformSpec, level: int,
+                          edits: tuple) -> None:
+    """A new transform and a new edit list, in an order the model accepts.
+
+    ``set_transform`` keeps the edits in force, so they must fit the new depth;
+    the new edits go in before or after it, whichever keeps every step valid
+    (each edit-list change stays one undo step).
+    """
+    rec = model.recording
+    check_against(edits, level, rec.duration_s, rec.channels, rec.source or None)
+    if _fits(edits, model.level, rec):
+        model.set_edits(edits)
+        model.set_transform(spec)
+    elif _fits(model.edits, level, rec):
+        model.set_transform(spec)
+        model.set_edits(edits)
+    else:
+        model.set_edits(())
+        model.set_transform(spec)
+        model.set_edits(edits)
+
+
+class _Worker(QObject):
+    """Lives in the worker thread; does one job at a time."""
+
+    finished = Signal(object)          # Result
+    progress = Signal(int, float, str)
+
+    def __init__(self, cancelled: Callable[[int], bool]):
+        super().__init__()
+        self._cancelled = cancelled
+
+    @Slot(object)
+    def run(self, job: Job) -> None:
+        model = job.model
+        try:
+            def check():
+                if self._cancelled(job.token):
+                    raise Superseded()
+
+            def model_progress(frac, text):
+                self.progress.emit(job.token, 0.5 * frac, text)
+
+            if job.kind == "open":
+                self.progress.emit(job.token, 0.0, f"reading {job.label}")
+                rec = job.load()
+                check()
+                self.progress.emit(job.token, 0.05, "decomposing")
+                model = api.build_model(rec, transform=job.spec, edits=job.edits,
+                                        progress=model_progress)
+            else:
+                # Check the recipe against the new depth first: a failed
+                # set_transform would leave the model rebuilt without its edits.
+                rec = model.recording
+                try:
+                    level = job.spec.resolved(rec.n).level
+                except ValueError as exc:
+                    raise ScalesieveError(str(exc), rec.source or None) from None
+                if job.then_edits is None:
+                    check_against(model.edits, level, rec.duration_s, rec.channels)
+                    model.set_transform(job.spec)
+                else:
+                    _transform_with_edits(model, job.spec, level, job.then_edits)
+            pictures = []
+            chans = model.recording.channels
+            for k in range(chans):
+                def pic_progress(frac, text, k=k):
+                    self.progress.emit(job.token, 0.5 + 0.5 * (k + frac) / chans, text)
+                pictures.append(ChannelPictures(model, k, check, pic_progress))
+            self.finished.emit(Result(job.token, job.kind, model, pictures, label=job.label))
+        except Superseded:
+            self.finished.emit(Result(job.token, job.kind,
+                                      model if job.kind == "transform" else None,
+                                      error=None, label="superseded"))
+        except ScalesieveError as exc:
+            self.finished.emit(Result(job.token, job.kind, job.model, error=exc.one_line(),
+                                      label=job.label))
+        except MemoryError:
+            self.finished.emit(Result(job.token, job.kind, job.model, label=job.label,
+                                      error="not enough memory for this recording; try one "
+                                            "channel or a shorter file"))
+        except Exception as exc:  # a bug: a log for us, one line for the user
+            from scalesieve.gui.error_dialog import write_failure_log
+
+            where = write_failure_log(exc, traceback.format_exc())
+            self.finished.emit(Result(job.token, job.kind, job.model, label=job.label,
+                                      error=f"unexpected failure: {type(exc).__name__}: {exc}"
+                                            f"{where}"))
+
+
+class ModelAdapter(QObject):
+    """Holds the current model and what the panes draw; all in the GUI thread.
+
+    Signals
+    -------
+    modelReplaced : a new recording or a new decomposition is in place
+    recipeChanged(object) : the model's ``Change`` after an edit, undo or redo
+    busyChanged(bool) : a run started or ended
+    progress(float, str) : how far the current run is
+    failed(str) : a one-line message for a dialog
+    """
+
+    modelReplaced = Signal()
+    recipeChanged = Signal(object)
+    busyChanged = Signal(bool)
+    progress = Signal(float, str)
+    failed = Signal(str)
+    _submit = Signal(object)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self._model: DecompositionModel | None = None
+        self._lent = False
+        self._pictures: list[ChannelPictures] = []
+        self._token = 0
+        self._cancel_below = 0           # jobs with a smaller token stop early
+        self._pictures_spec = None       # the transform the pictures were made for
+        self._running: Job | None = None
+        self._pending: Job | None = None
+        self._wanted_spec: TransformSpec | None = None
+        self.label = ""
+        self.last_failure: str | None = None
+        self.failed.connect(self._remember_failure)
+        #: new edits made in the panes apply to the shown channel only (else to all)
+        self.this_channel_only = False
+        self._thread = QThread()
+        self._thread.setObjectName("scalesieve-worker")
+        self._worker = _Worker(lambda token: token < self._cancel_below)
+        self._worker.moveToThread(self._thread)
+        self._submit.connect(self._worker.run)
+        self._worker.finished.connect(self._on_finished)
+        self._worker.progress.connect(self._on_progress)
+        self._thread.start()
+        self._coalesce = QTimer(self)
+        self._coalesce.setSingleShot(True)
+        self._coalesce.setInterval(COALESCE_MS)
+        self._coalesce.timeout.connect(self._start_transform)
+
+    # ------------------------------------------------------------- reading
+
+    @property
+    def model(self) -> DecompositionModel | None:
+        """The model, or ``None`` while it is lent to the worker (or none loaded)."""
+        return None if self._lent else self._model
+
+    @property
+    def recording(self) -> Recording | None:
+        return self._model.recording if self._model is not None else None
+
+    @property
+    def busy(self) -> bool:
+        return self._running is not None or self._coalesce.isActive()
+
+    def pictures(self, channel: int) -> ChannelPictures | None:
+        if 0 <= channel < len(self._pictures):
+            return self._pictures[channel]
+        return None
+
+    # -------------------------------------------------------------- running
+
+    def open_recording(self, load: Callable[[], Recording], transform: TransformSpec | None = None,
+                       edits=(), label: str = "") -> None:
+        """Read (``load()`` runs in the worker) and decompose a recording."""
+        self._coalesce.stop()
+        self._wanted_spec = None
+        self.last_failure = None
+        self._token += 1
+        self._cancel_below = self._token     # a new file overtakes everything
+        self._queue(Job(self._token, "open", spec=transform, load=load, edits=tuple(edits),
+                        label=label))
+
+    def request_transform(self, spec: TransformSpec) -> None:
+        """Rerun with ``spec``; requests closer together than COALESCE_MS merge."""
+        if self._model is None:
+            return
+        self._wanted_spec = spec
+        if self._running is not None and self._running.kind == "transform":
+            # The run in flight is out of date; a file being opened is not.
+            self._cancel_below = self._running.token + 1
+        was = self.busy
+        self._coalesce.start()
+        if not was:
+            self.busyChanged.emit(True)
+
+    def put_recipe(self, spec: TransformSpec | None, edits) -> None:
+        """Put a recipe in place: its transform (if any, rerun) and its edits.
+
+        ``spec.level`` of ``None`` is chosen for the recording.  The edits
+        replace the current ones as one undoable step.
+        """
+        m = self.model
+        if m is None or self.busy:
+            self.failed.emit("the model is being recomputed; try again in a moment")
+            return
+        edits = tuple(edits)
+        if spec is not None:
+            try:
+                spec = spec.resolved(m.recording.n)
+            except ValueError as exc:
+                self.failed.emit(ScalesieveError(str(exc), m.recording.source or None)
+                                 .one_line())
+                return
+        if spec is None or (spec == m.spec and self._pictures_spec == spec):
+            self.set_edits(edits)
+            return
+        self._token += 1
+        self._queue(Job(self._token, "transform", spec=spec, label=self.label,
+                        then_edits=edits))
+
+    def _start_transform(self) -> None:
+        spec, self._wanted_spec = self._wanted_spec, None
+        if spec is None or self._model is None:
+            self._idle_check()
+            return
+        if (not self._lent and self._running is None and spec == self._model.spec
+                and self._pictures_spec == spec):
+            self._idle_check()
+            return
+        self._token += 1
+        self._queue(Job(self._token, "transform", spec=spec, label=self.label))
+
+    def _queue(self, job: Job) -> None:
+        was = self.busy
+        if self._running is not None:
+            self._pending = job        # latest wins: an older pending job is dropped
+        else:
+            self._launch(job)
+        if not was:
+            self.busyChanged.emit(True)
+
+    def _launch(self, job: Job) -> None:
+        if job.kind == "transform":
+            if not self._lent:
+                self._model.remove_listener(self._on_model_change)
+                self._lent = True
+            job.model = self._model
+        self._running = job
+        self._submit.emit(job)
+
+    @Slot(int, float, str)
+    def _on_progress(self, token: int, frac: float, text: str) -> None:
+        if self._running is not None and token == self._running.token:
+            self.progress.emit(frac, text)
+
+    @Slot(object)
+    def _on_finished(self, res: Result) -> None:
+        self._running = None
+        pending, self._pending = self._pending, None
+        if pending is not None:
+            if pending.kind == "open":
+                self._hand_back(res.model if res.kind == "transform" else None, replace=False)
+            self._launch(pending)
+            return
+        if res.error:
+            self._hand_back(res.model if res.kind == "transform" else None, replace=False)
+            self._idle_check()
+            self.failed.emit(res.error)
+            if res.kind == "transform":
+                self.modelReplaced.emit()   # controls show the transform still in force
+            return
+        if res.label == "superseded":
+            # Only a transform run can be overtaken without a pending job (by a
+            # request still waiting in the coalescing timer), which will start.
+            self._hand_back(res.model if res.kind == "transform" else None, replace=False)
+            self._idle_check()
+            return
+        self._pictures = res.pictures
+        self._pictures_spec = res.model.spec
+        if res.kind == "open":
+            self.label = res.label
+        self._hand_back(res.model, replace=True)
+        self._idle_check()
+        self.modelReplaced.emit()
+
+    def _hand_back(self, model: DecompositionModel | None, replace: bool) -> None:
+        if model is None:
+            if self._lent:       # a lent model is never lost
+                self._lent = False
+                self._model.add_listener(self._on_model_change)
+            return
+        if self._model is not None and self._model is not model and not self._lent:
+            self._model.remove_listener(self._on_model_change)
+        if replace or self._lent:
+            self._model = model
+        self._lent = False
+        self._model.add_listener(self._on_model_change)
+
+    def _remember_failure(self, message: str) -> None:
+        self.last_failure = message
+
+    def _idle_check(self) -> None:
+        if not self.busy:
+            self.busyChanged.emit(False)
+
+    def wait_idle(self, timeout_s: float = 120.0) -> str | None:
+        """Process events until no run is in flight; the last failure message, if any.
+
+        For snapshots, scripts and tests; the window itself never blocks.
+        """
+        import time
+
+        from PySide6.QtCore import QCoreApplication, QEventLoop
+
+        deadline = time.monotonic() + timeout_s
+        while self.busy and time.monotonic() < deadline:
+            QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
+            time.sleep(0.002)
+        QCoreApplication.processEvents()
+        if self.busy:
+            return "timed out waiting for the model"
+        return self.last_failure
+
+    def shutdown(self) -> None:
+        """Stop the worker thread (the window is closing)."""
+        self._coalesce.stop()
+        self._token += 1
+        self._cancel_below = self._token
+        self._thread.quit()
+        self._thread.wait(10000)
+
+    # ---------------------------------------------------------------- edits
+
+    def _on_model_change(self, change) -> None:
+        m = self._model
+        for pic in self._pictures:
+            pic.update(m, change)
+        self.recipeChanged.emit(change)
+
+    def _edit(self, fn, *args) -> bool:
+        m = self.model
+        if m is None or self.busy:
+            self.failed.emit("the model is being recomputed; try the edit again in a moment")
+            return False
+        try:
+            fn(m, *args)
+        except ScalesieveError as exc:
+            self.failed.emit(exc.one_line())
+            return False
+        return True
+
+    def add_edit(self, edit) -> bool:
+        return self._edit(lambda m, e: m.add_edit(e), edit)
+
+    def replace_edit(self, index: int, edit) -> bool:
+        return self._edit(lambda m, i, e: m.replace_edit(i, e), index, edit)
+
+    def remove_edit(self, index: int) -> bool:
+        return self._edit(lambda m, i: m.remove_edit(i), index)
+
+    def move_edit(self, index: int, to: int) -> bool:
+        return self._edit(lambda m, i, j: m.move_edit(i, j), index, to)
+
+    def set_edits(self, edits) -> bool:
+        return self._edit(lambda m, e: m.set_edits(tuple(e)), edits)
+
+    def undo(self) -> bool:
+        return self._edit(lambda m: m.undo())
+
+    def redo(self) -> bool:
+        return self._edit(lambda m: m.redo())
+
+    def edit_channels(self, channel: int):
+        """The ``channels`` a new edit made on ``channel`` gets (``None``: all)."""
+        rec = self.recording
+        if not self.this_channel_only or rec is None or rec.channels == 1:
+            return None
+        return (int(channel),)
+
+    @property
+    def edits(self) -> tuple:
+        return self._model.edits if self._model is not None else ()
+
+    @property
+    def can_undo(self) -> bool:
+        m = self.model
+        return bool(m and m.can_undo and not self.busy)
+
+    @property
+    def can_redo(self) -> bool:
+        m = self.model
+        return bool(m and m.can_redo and not self.busy)
+
+    @property
+    def source_path(self) -> str:
+        rec = self.recording
+        return rec.source if rec is not None and rec.source else ""
+
+    def source_name(self) -> str:
+        p = self.source_path
+        return os.path.basename(p) if p else (self.label or "")

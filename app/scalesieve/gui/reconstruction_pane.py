@@ -1,0 +1,152 @@
+"""Reconstruction pane: original, cleaned and removed traces, and what the recipe did."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import QTimer, Signal
+from PySide6.QtWidgets import QCheckBox, QLabel
+
+from scalesieve.gui.decimate import trace_points
+from scalesieve.gui.pane_frame import PaneFrame, make_plot
+from scalesieve.gui.resource_files import colour
+
+#: the three traces: key, label, what they show
+TRACES = (("original", "Original", "the recording as read"),
+          ("cleaned", "Cleaned", "after the recipe"),
+          ("removed", "Removed", "original minus cleaned"))
+#: wait this long after the last edit before recomputing the metrics (ms)
+METRICS_DELAY_MS = 60
+
+
+def format_metrics(m: dict) -> str:
+    """One line of what the recipe did (values from ``DecompositionModel.metrics``)."""
+    snr = m.get("snr_db")
+    snr_text = "∞ (nothing removed)" if snr is None or not math.isfinite(snr) else f"{snr:.1f} dB"
+    return (f"energy removed {100 * m['energy_removed_fraction']:.3g} %   ·   "
+            f"coefficients changed {100 * m['changed_fraction']:.3g} %   ·   "
+            f"SNR of cleaned vs original {snr_text}   ·   "
+            f"peak change {m['peak_change']:.4g}")
+
+
+class ReconstructionPane(PaneFrame):
+    """Draws the current channel's original, cleaned and removed signals."""
+
+    metricsUpdated = Signal(dict)
+
+    def __init__(self, adapter, time_axis, parent=None):
+        super().__init__("Reconstruction", parent)
+        self.adapter = adapter
+        self.axis = time_axis
+        self.channel = 0
+        self.metrics: dict | None = None
+        self.plot = make_plot()
+        self.plot.getPlotItem().showGrid(x=True, y=True, alpha=0.25)
+        self.content.addWidget(self.plot, 1)
+        self.metrics_label = QLabel("")
+        self.metrics_label.setObjectName("metrics")
+        self.metrics_label.setContentsMargins(10, 3, 6, 4)
+        self.content.addWidget(self.metrics_label)
+        self.curves = {}
+        self.toggles = {}
+        widths = {"original": 1.0, "cleaned": 1.0, "removed": 1.0}
+        for key, label, tip in TRACES:
+            pen = pg.mkPen(colour("traces", key), width=widths[key])
+            curve = pg.PlotDataItem(pen=pen, connect="all", skipFiniteCheck=True)
+            curve.setZValue({"original": 1, "cleaned": 2, "removed": 3}[key])
+            self.plot.addItem(curve)
+            self.curves[key] = curve
+            box = QCheckBox(label)
+            box.setChecked(True)
+            box.setToolTip(f"show or hide the {label.lower()} trace ({tip})")
+            box.setStyleSheet(
+                f"QCheckBox {{ color: {colour('traces', key)}; font-weight: 600; }}")
+            box.toggled.connect(lambda on, k=key: self._toggle(k, on))
+            self.gutter_layout.addWidget(box)
+            self.toggles[key] = box
+        hint = QLabel("wheel: zoom time · drag: pan")
+        hint.setObjectName("hint")
+        self.gutter_layout.addStretch(1)
+        self.gutter_layout.addWidget(hint)
+        self.axis.link(self.plot.getViewBox())
+        self.axis.rangeChanged.connect(self._schedule)
+        self._redraw_timer = QTimer(self)
+        self._redraw_timer.setSingleShot(True)
+        self._redraw_timer.setInterval(0)
+        self._redraw_timer.timeout.connect(self.redraw)
+        self._metrics_timer = QTimer(self)
+        self._metrics_timer.setSingleShot(True)
+        self._metrics_timer.setInterval(METRICS_DELAY_MS)
+        self._metrics_timer.timeout.connect(self.update_metrics)
+        adapter.modelReplaced.connect(self._on_model)
+        adapter.recipeChanged.connect(self._on_recipe)
+        self.plot.getViewBox().sigResized.connect(self._schedule)
+
+    # ------------------------------------------------------------- updates
+
+    def set_channel(self, channel: int) -> None:
+        self.channel = channel
+        self.redraw()
+        self.update_metrics()
+
+    def _on_model(self) -> None:
+        self.redraw()
+        self.update_metrics()
+
+    def _on_recipe(self, change) -> None:
+        if self.channel in change.channels:
+            self.redraw()
+            if self.metrics is not None:
+                # The metrics take a full pass; the traces do not wait for them.
+                self.metrics_label.setText(format_metrics(self.metrics) + "   (updating…)")
+            self._metrics_timer.start()
+
+    def _toggle(self, key: str, on: bool) -> None:
+        self.curves[key].setVisible(on)
+        self.redraw()
+
+    def _schedule(self, *args) -> None:
+        self._redraw_timer.start()
+
+    def update_metrics(self) -> None:
+        m = self.adapter.model
+        if m is None or self.channel >= m.recording.channels:
+            return
+        self.metrics = m.metrics(self.channel)
+        self.metrics_label.setText(format_metrics(self.metrics))
+        self.metricsUpdated.emit(self.metrics)
+
+    def trace_data(self, key: str) -> tuple[np.ndarray, np.ndarray]:
+        """The points drawn for one trace (what is on screen now)."""
+        return self.curves[key].getData()
+
+    def redraw(self) -> None:
+        pic = self.adapter.pictures(self.channel)
+        if pic is None:
+            return
+        m = self.adapter.model
+        width = max(50, int(self.plot.getViewBox().width()))
+        t0, t1 = self.axis.t0, self.axis.t1
+        ch = self.channel
+        fetch = {"original": None, "cleaned": None, "removed": None}
+        if m is not None and ch < m.recording.channels:
+            x = m.original(ch)
+            y = m.cleaned(ch)
+            fetch = {"original": lambda a, b: x[a:b], "cleaned": lambda a, b: y[a:b],
+                     "removed": lambda a, b: x[a:b] - y[a:b]}
+        envs = {"original": pic.original, "cleaned": pic.cleaned, "removed": pic.removed}
+        lo, hi = math.inf, -math.inf
+        for key, curve in self.curves.items():
+            if not self.toggles[key].isChecked():
+                curve.setData([], [])
+                continue
+            xs, ys = trace_points(0.0, 1.0 / pic.rate, pic.n, t0, t1, width, fetch[key],
+                                  envs[key])
+            curve.setData(xs, ys)
+            if ys.size:
+                lo, hi = min(lo, float(ys.min())), max(hi, float(ys.max()))
+        if math.isfinite(lo) and math.isfinite(hi):
+            pad = 0.06 * (hi - lo) if hi > lo else max(abs(hi), 1e-12)
+            self.plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)

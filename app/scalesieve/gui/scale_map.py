@@ -1,0 +1,562 @@
+"""Scale map: coefficient magnitude by level (rows, finest on top) and time.
+
+Each row is one band of the current channel, decimated to the screen: a
+pixel column shows the largest ``|c|`` of the coefficients whose time falls
+in it.  Dragging a rectangle over times and levels makes a region edit;
+region edits are drawn as outlines that can be selected, moved, resized,
+changed (context menu) and removed (Delete key).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import QPointF, QRectF, Qt, QTimer, Signal
+from PySide6.QtGui import QAction, QBrush, QColor, QPen
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QGraphicsRectItem, QHBoxLayout,
+                               QInputDialog, QLabel, QMenu, QWidget)
+
+from scalesieve.gui.band_labels import (band_label, db_to_gain, format_seconds, gain_to_db,
+                                        hz_range)
+from scalesieve.gui.decimate import maxabs_columns
+from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, TimeViewBox, make_plot, tick_font
+from scalesieve.gui.resource_files import colour, palette
+from scalesieve.recipe import Edit
+
+#: shown dynamic range in dB below the reference magnitude
+DB_RANGE = 60.0
+#: what a drag makes: label -> gain
+DRAG_GAINS = (("mute", 0.0), ("−6 dB", db_to_gain(-6.0)), ("−12 dB", db_to_gain(-12.0)),
+              ("−20 dB", db_to_gain(-20.0)))
+_TINY = 1e-300
+
+
+class MapViewBox(TimeViewBox):
+    """Left-drag draws a rectangle; Shift-drag or middle-drag pans; wheel zooms time."""
+
+    rectangleDrawn = Signal(float, float, float, float)   # t0, t1, y0, y1
+    clicked = Signal(float, float, object)                 # t, y, button
+    hovered = Signal(float, float)
+
+    def __init__(self):
+        super().__init__()
+        self.drawing = True
+        self._band = QGraphicsRectItem()
+        self._band.setPen(pg.mkPen(colour("traces", "region_selected"), width=1.5,
+                                   style=Qt.PenStyle.DashLine, cosmetic=True))
+        self._band.setBrush(QBrush(QColor(255, 176, 0, 40)))
+        self._band.setZValue(50)
+        self._band.hide()
+        self.addItem(self._band, ignoreBounds=True)
+
+    def mouseDragEvent(self, ev, axis=None):
+        shift = bool(ev.modifiers() & Qt.KeyboardModifier.ShiftModifier)
+        if ev.button() != Qt.MouseButton.LeftButton or shift or not self.drawing:
+            super().mouseDragEvent(ev, axis)
+            return
+        ev.accept()
+        p0 = self.mapToView(ev.buttonDownPos())
+        p1 = self.mapToView(ev.pos())
+        rect = QRectF(p0, p1).normalized()
+        if ev.isFinish():
+            self._band.hide()
+            self.rectangleDrawn.emit(rect.left(), rect.right(), rect.top(), rect.bottom())
+        else:
+            self._band.setRect(rect)
+            self._band.show()
+
+    def mouseClickEvent(self, ev):
+        p = self.mapToView(ev.pos())
+        ev.accept()
+        self.clicked.emit(p.x(), p.y(), ev.button())
+
+    def hoverEvent(self, ev):
+        if ev.isExit():
+            self.hovered.emit(math.nan, math.nan)
+            return
+        p = self.mapToView(ev.pos())
+        self.hovered.emit(p.x(), p.y())
+
+
+class RegionOutline(pg.ROI):
+    """One contiguous run of rows of a region edit, drawn as an outline."""
+
+    def __init__(self, index: int, t0: float, t1: float, row0: int, rows: int, enabled: bool):
+        pen = pg.mkPen(colour("traces", "region"), width=1.6, cosmetic=True,
+                       style=Qt.PenStyle.SolidLine if enabled else Qt.PenStyle.DotLine)
+        super().__init__((t0, row0), (t1 - t0, rows), pen=pen, movable=False,
+                         rotatable=False, resizable=False, removable=False)
+        self.index = index
+        self.setAcceptedMouseButtons(Qt.MouseButton.LeftButton | Qt.MouseButton.RightButton)
+        self.setZValue(20)
+        self.hoverPen = pg.mkPen(colour("traces", "region_selected"), width=2, cosmetic=True)
+        self._selected = False
+
+    def set_selected(self, on: bool) -> None:
+        self._selected = on
+        width = 2.6 if on else 1.6
+        col = colour("traces", "region_selected") if on else colour("traces", "region")
+        self.setPen(pg.mkPen(col, width=width, cosmetic=True))
+        self.translatable = on
+        if on and not self.getHandles():
+            self.addScaleHandle([1, 0.5], [0, 0.5])
+            self.addScaleHandle([0, 0.5], [1, 0.5])
+        elif not on:
+            for h in list(self.getHandles()):
+                self.removeHandle(h)
+
+
+def contiguous_runs(rows: list[int]) -> list[tuple[int, int]]:
+    """[(first row, count)] of consecutive rows."""
+    runs: list[tuple[int, int]] = []
+    for r in sorted(set(rows)):
+        if runs and r == runs[-1][0] + runs[-1][1]:
+            runs[-1] = (runs[-1][0], runs[-1][1] + 1)
+        else:
+            runs.append((r, 1))
+    return runs
+
+
+class ScaleMapPane(PaneFrame):
+    """The Scale map of the current channel."""
+
+    regionSelected = Signal(int)           # index of the edit in the recipe, -1: none
+    readout = Signal(str)
+
+    def __init__(self, adapter, time_axis, settings=None, parent=None):
+        self.bar_widget = pg.GraphicsLayoutWidget()
+        self.bar_widget.setBackground(colour("plot", "background"))
+        self.bar_widget.ci.layout.setContentsMargins(0, 3, 0, 30)
+        super().__init__("Scale map", parent, right=self.bar_widget)
+        self.adapter = adapter
+        self.axis = time_axis
+        self.settings = settings
+        self.channel = 0
+        self.selected = -1
+        self.keys: list = []
+        self._orig_rows: dict = {}
+        self._rows: dict = {}
+        self._row_view = None
+        self._ref = {}
+        self._outlines: list[RegionOutline] = []
+        self._times: dict = {}
+
+        self.view = MapViewBox()
+        self.view.invertY(True)
+        self.plot = make_plot(self.view)
+        self.view.setMouseEnabled(x=True, y=False)
+        self.content.addWidget(self.plot, 1)
+        self.image = pg.ImageItem(axisOrder="row-major")
+        self.image.setZValue(0)
+        self.plot.addItem(self.image)
+        self.cross_v = pg.InfiniteLine(angle=90, movable=False,
+                                       pen=pg.mkPen(colour("traces", "crosshair"), width=1,
+                                                    style=Qt.PenStyle.DashLine))
+        self.cross_h = pg.InfiniteLine(angle=0, movable=False,
+                                       pen=pg.mkPen(colour("traces", "crosshair"), width=1,
+                                                    style=Qt.PenStyle.DashLine))
+        for line in (self.cross_v, self.cross_h):
+            line.setZValue(30)
+            line.hide()
+            self.plot.addItem(line, ignoreBounds=True)
+
+        self.bar = pg.ColorBarItem(values=(0, 1), width=12, interactive=True,
+                                   colorMap=self._colour_map(), colorMapMenu=False,
+                                   pen=colour("plot", "foreground"))
+        self.bar.setImageItem(self.image)
+        bar_axis = self.bar.getAxis("right")
+        bar_axis.setStyle(tickFont=tick_font())
+        bar_axis.setTextPen(pg.mkPen(colour("plot", "foreground")))
+        bar_axis.setWidth(RIGHT_MARGIN - 30)
+        self.bar_widget.addItem(self.bar)
+
+        self._build_gutter()
+        self.axis.link(self.view)
+        self.axis.rangeChanged.connect(self._schedule)
+        self.view.sigResized.connect(self._schedule)
+        self.view.rectangleDrawn.connect(self._rectangle_drawn)
+        self.view.clicked.connect(self._clicked)
+        self.view.hovered.connect(self._hovered)
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(0)
+        self._timer.timeout.connect(self.redraw)
+        adapter.modelReplaced.connect(self._on_model)
+        adapter.recipeChanged.connect(self._on_recipe)
+        self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
+
+    # --------------------------------------------------------------- gutter
+
+    def _build_gutter(self) -> None:
+        g = self.gutter_layout
+        row = QHBoxLayout()
+        row.setSpacing(4)
+        self.scale_box = QComboBox()
+        self.scale_box.addItems(["dB", "linear"])
+        self.scale_box.setToolTip("colour is |c| in dB (60 dB shown) or linear")
+        self.map_box = QComboBox()
+        for m in palette()["colour_maps"]:
+            self.map_box.addItem(m["label"], m["name"])
+        self.map_box.setToolTip("perceptually uniform colour maps")
+        row.addWidget(QLabel("Colour"))
+        row.addWidget(self.scale_box)
+        row.addWidget(self.map_box, 1)
+        g.addLayout(row)
+        self.edited_box = QCheckBox("show as edited")
+        self.edited_box.setChecked(True)
+        self.edited_box.setToolTip("colour the coefficients after the recipe (else as read)")
+        self.per_level_box = QCheckBox("each level to its own peak")
+        self.per_level_box.setToolTip("scale every row to its largest |c| instead of one scale")
+        g.addWidget(self.edited_box)
+        g.addWidget(self.per_level_box)
+        drag = QHBoxLayout()
+        drag.addWidget(QLabel("Drag makes"))
+        self.drag_box = QComboBox()
+        for label, gain in DRAG_GAINS:
+            self.drag_box.addItem(f"region: {label}", gain)
+        self.drag_box.setToolTip("what a rectangle dragged on the map does to its coefficients")
+        drag.addWidget(self.drag_box, 1)
+        g.addLayout(drag)
+        self.readout_label = QLabel(" \n \n ")
+        self.readout_label.setObjectName("readout")
+        self.readout_label.setWordWrap(False)
+        g.addWidget(self.readout_label)
+        g.addStretch(1)
+        hint = QLabel("drag: region · shift-drag: pan\nwheel: zoom · Del: remove region")
+        hint.setObjectName("hint")
+        g.addWidget(hint)
+        if self.settings is not None:
+            self.scale_box.setCurrentText(self.settings.value("map/scale", "dB"))
+            i = self.map_box.findData(self.settings.value("map/colours",
+                                                          palette()["default_colour_map"]))
+            if i >= 0:
+                self.map_box.setCurrentIndex(i)
+        self.scale_box.currentTextChanged.connect(self._scale_changed)
+        self.map_box.currentIndexChanged.connect(self._map_changed)
+        self.edited_box.toggled.connect(lambda _: self._rebuild_rows())
+        self.per_level_box.toggled.connect(lambda _: self._scale_changed())
+
+    def _colour_map(self):
+        name = palette()["default_colour_map"]
+        if hasattr(self, "map_box"):
+            name = self.map_box.currentData() or name
+        return pg.colormap.get(name)
+
+    def _map_changed(self, *_):
+        self.bar.setColorMap(self._colour_map())
+        if self.settings is not None:
+            self.settings.setValue("map/colours", self.map_box.currentData())
+
+    def _scale_changed(self, *_):
+        if self.settings is not None:
+            self.settings.setValue("map/scale", self.scale_box.currentText())
+        self._set_levels()
+        self._paint()
+
+    # ------------------------------------------------------------ model side
+
+    def set_channel(self, channel: int) -> None:
+        self.channel = channel
+        self.selected = -1
+        self._on_model()
+
+    def _on_model(self) -> None:
+        m = self.adapter.model
+        if m is None:
+            return
+        if self.channel >= m.recording.channels:
+            self.channel = 0
+        self.keys = list(m.band_keys)                 # d1 .. dJ, a: finest on top
+        self._times = {}
+        for key in self.keys:
+            t = m.coefficient_times(self.channel, key)
+            step = float(t[1] - t[0]) if t.shape[0] > 1 else 1.0 / m.recording.rate
+            self._times[key] = (float(t[0]) if t.shape[0] else 0.0, step)
+        self._ref = {}
+        for key in self.keys:
+            c = m.coefficients(self.channel, key)
+            self._ref[key] = float(max(c.max(), -c.min())) if c.size else 0.0
+        ticks = []
+        for i, key in enumerate(self.keys):
+            lo, hi = m.band_range_hz(key)
+            ticks.append((i + 0.5, band_label(m.band_name(key), lo, hi)))
+        self.plot.getAxis("left").setTicks([ticks, []])
+        self.view.setLimits(yMin=0, yMax=len(self.keys))
+        self.view.setYRange(0, len(self.keys), padding=0)
+        self._row_view = None
+        self._set_levels()
+        self.redraw()
+        self._draw_outlines()
+
+    def _on_recipe(self, change) -> None:
+        m = self.adapter.model
+        if m is None:
+            return
+        if self.channel in change.channels and self.edited_box.isChecked():
+            for key in change.bands:
+                self._rows.pop(key, None)
+            self._fill_rows(m)
+            self._paint()
+        if self.selected >= len(m.edits):
+            self.selected = -1
+        self._draw_outlines()
+
+    def _schedule(self, *_):
+        self._timer.start()
+
+    def _view_key(self):
+        return (self.axis.t0, self.axis.t1, max(50, int(self.view.width())), self.channel)
+
+    def redraw(self) -> None:
+        m = self.adapter.model
+        if m is None or not self.keys:
+            return
+        vk = self._view_key()
+        if vk != self._row_view:
+            self._row_view = vk
+            self._orig_rows = {}
+            self._rows = {}
+        self._fill_rows(m)
+        self._paint()
+
+    def _rebuild_rows(self) -> None:
+        self._rows = {}
+        m = self.adapter.model
+        if m is not None:
+            self._fill_rows(m)
+            self._paint()
+
+    def _fill_rows(self, m) -> None:
+        """Compute the rows not yet known for the current view."""
+        t0, t1, width, ch = self._row_view
+        edited = self.edited_box.isChecked()
+        for key in self.keys:
+            if key not in self._orig_rows:
+                first, step = self._times[key]
+                self._orig_rows[key] = maxabs_columns(m.coefficients(ch, key), first, step,
+                                                      t0, t1, width)
+            if key in self._rows:
+                continue
+            state = m.band_gain_state(ch, key) if edited else 1.0
+            if isinstance(state, np.ndarray):
+                first, step = self._times[key]
+                self._rows[key] = maxabs_columns(state, first, step, t0, t1, width)
+            else:
+                self._rows[key] = self._orig_rows[key] * abs(float(state))
+
+    def map_image(self) -> np.ndarray:
+        """The magnitudes on screen, one row per band (finest first), before colouring."""
+        return np.vstack([self._rows[k] for k in self.keys]) if self._rows else np.zeros((0, 0))
+
+    def _display(self, img: np.ndarray) -> np.ndarray:
+        if self.per_level_box.isChecked():
+            ref = np.array([max(self._ref.get(k, 0.0), _TINY) for k in self.keys])[:, None]
+            img = img / ref
+        if self.scale_box.currentText() == "dB":
+            return 20.0 * np.log10(np.maximum(img, _TINY))
+        return img
+
+    def _set_levels(self) -> None:
+        details = [v for k, v in self._ref.items() if k != "a"] or list(self._ref.values()) or [1]
+        top = max(details) or 1.0
+        per_level = self.per_level_box.isChecked()
+        if per_level:
+            top = 1.0
+        if self.scale_box.currentText() == "dB":
+            t = 20 * math.log10(top)
+            self.bar.setLevels((t - DB_RANGE, t))
+            label = "|c| dB re level peak" if per_level else "|c| dB"
+        else:
+            self.bar.setLevels((0.0, top))
+            label = "|c| / level peak" if per_level else "|c|"
+        self.bar.getAxis("right").setLabel(label)
+        self.bar.getAxis("right").label.setFont(tick_font())
+
+    def _paint(self) -> None:
+        if not self._rows or self._row_view is None:
+            return
+        t0, t1, width, _ = self._row_view
+        img = self._display(self.map_image()).astype(np.float32)
+        lv = self.bar.levels()
+        self.image.setImage(img, autoLevels=False, levels=lv)
+        self.image.setRect(QRectF(t0, 0.0, t1 - t0, float(len(self.keys))))
+
+    # --------------------------------------------------------------- regions
+
+    def _row_of(self, key) -> int:
+        return self.keys.index(key)
+
+    def _key_rows(self, edit, level: int) -> list[int]:
+        try:
+            keys = edit.band_keys(level)
+        except ValueError:
+            return []
+        return [self._row_of(k) for k in keys if k in self.keys]
+
+    def _draw_outlines(self) -> None:
+        for roi in self._outlines:
+            self.plot.removeItem(roi)
+        self._outlines = []
+        m = self.adapter.model
+        if m is None:
+            return
+        for i, e in enumerate(m.edits):
+            if e.op != "region" or (e.channels is not None and self.channel not in e.channels):
+                continue
+            for row0, count in contiguous_runs(self._key_rows(e, m.level)):
+                roi = RegionOutline(i, e.start_s, e.stop_s, row0, count, e.enabled)
+                roi.sigClicked.connect(self._outline_clicked)
+                roi.sigRegionChangeFinished.connect(self._outline_moved)
+                self.plot.addItem(roi)
+                self._outlines.append(roi)
+                if i == self.selected:
+                    roi.set_selected(True)
+
+    def outlines(self) -> list[RegionOutline]:
+        return list(self._outlines)
+
+    def select_edit(self, index: int) -> None:
+        """Select a region edit (from the Recipe pane or a click)."""
+        m = self.adapter.model
+        if m is None or not (0 <= index < len(m.edits)) or m.edits[index].op != "region":
+            index = -1
+        if index == self.selected:
+            return
+        self.selected = index
+        for roi in self._outlines:
+            roi.set_selected(roi.index == index)
+        self.regionSelected.emit(index)
+
+    def _outline_clicked(self, roi, ev) -> None:
+        ev.accept()
+        self.select_edit(roi.index)
+        if ev.button() == Qt.MouseButton.RightButton:
+            self._region_menu(roi.index, ev.screenPos())
+
+    def _outline_moved(self, roi) -> None:
+        m = self.adapter.model
+        if m is None or not (0 <= roi.index < len(m.edits)):
+            return
+        e = m.edits[roi.index]
+        pos, size = roi.pos(), roi.size()
+        dur = m.recording.duration_s
+        start = float(np.clip(pos.x(), 0.0, dur))
+        stop = float(np.clip(pos.x() + size.x(), 0.0, dur))
+        if stop <= start:
+            self._draw_outlines()
+            return
+        runs = contiguous_runs(self._key_rows(e, m.level))
+        levels = e.levels
+        if len(runs) == 1:
+            r0 = int(np.clip(round(pos.y()), 0, len(self.keys) - 1))
+            r1 = int(np.clip(round(pos.y() + size.y()), r0 + 1, len(self.keys)))
+            new_keys = self.keys[r0:r1]
+            if new_keys != [self.keys[r] for r in range(runs[0][0], runs[0][0] + runs[0][1])]:
+                levels = tuple(new_keys)
+        new = replace(e, start_s=start, stop_s=stop, levels=levels)
+        if new != e:
+            self.adapter.replace_edit(roi.index, new)
+        else:
+            self._draw_outlines()
+
+    def _region_menu(self, index: int, screen_pos) -> None:
+        m = self.adapter.model
+        if m is None:
+            return
+        e = m.edits[index]
+        menu = QMenu(self)
+        mute = QAction("Mute (gain 0)", menu)
+        mute.triggered.connect(lambda: self.adapter.replace_edit(index, replace(e, gain=0.0)))
+        gain = QAction("Set gain in dB…", menu)
+        gain.triggered.connect(lambda: self._ask_gain(index))
+        toggle = QAction("Disable" if e.enabled else "Enable", menu)
+        toggle.triggered.connect(
+            lambda: self.adapter.replace_edit(index, replace(e, enabled=not e.enabled)))
+        remove = QAction("Remove", menu)
+        remove.triggered.connect(lambda: self.remove_selected())
+        for a in (mute, gain, toggle, remove):
+            menu.addAction(a)
+        menu.popup(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+
+    def _ask_gain(self, index: int) -> None:
+        m = self.adapter.model
+        e = m.edits[index]
+        now = gain_to_db(e.gain)
+        db, ok = QInputDialog.getDouble(self, "Region gain", "Gain in dB (−120 mutes):",
+                                        -120.0 if not math.isfinite(now) else now,
+                                        -120.0, 60.0, 1)
+        if ok:
+            g = 0.0 if db <= -120.0 else db_to_gain(db)
+            self.adapter.replace_edit(index, replace(e, gain=g))
+
+    def remove_selected(self) -> None:
+        if self.selected >= 0:
+            index, self.selected = self.selected, -1
+            self.adapter.remove_edit(index)
+            self.regionSelected.emit(-1)
+
+    def keyPressEvent(self, ev):
+        if ev.key() in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace) and self.selected >= 0:
+            self.remove_selected()
+            ev.accept()
+            return
+        super().keyPressEvent(ev)
+
+    def _rectangle_drawn(self, t0: float, t1: float, y0: float, y1: float) -> None:
+        m = self.adapter.model
+        if m is None or not self.keys:
+            return
+        px = (t1 - t0) / max(self.axis.t1 - self.axis.t0, 1e-12) * self.view.width()
+        if px < 3:
+            return
+        dur = m.recording.duration_s
+        t0, t1 = max(0.0, t0), min(dur, t1)
+        r0 = int(np.clip(math.floor(y0), 0, len(self.keys) - 1))
+        r1 = int(np.clip(math.floor(y1), r0, len(self.keys) - 1))
+        if t1 <= t0:
+            return
+        levels = tuple(self.keys[r0:r1 + 1])
+        gain = float(self.drag_box.currentData())
+        edit = Edit("region", levels=levels, start_s=round(t0, 6), stop_s=round(t1, 6),
+                    gain=gain, channels=self.adapter.edit_channels(self.channel))
+        if self.adapter.add_edit(edit):
+            self.select_edit(len(self.adapter.edits) - 1)
+        self.setFocus()
+
+    def _clicked(self, t: float, y: float, button) -> None:
+        self.setFocus()
+        if button == Qt.MouseButton.LeftButton:
+            self.select_edit(-1)
+
+    # -------------------------------------------------------------- readout
+
+    def _hovered(self, t: float, y: float) -> None:
+        m = self.adapter.model
+        if m is None or not self.keys or math.isnan(t) or not (0 <= y < len(self.keys)):
+            self.cross_v.hide()
+            self.cross_h.hide()
+            return
+        row = int(y)
+        key = self.keys[row]
+        self.cross_v.setPos(t)
+        self.cross_h.setPos(row + 0.5)
+        self.cross_v.show()
+        self.cross_h.show()
+        self.readout_label.setText(self.readout_text(t, key))
+        self.readout.emit(self.readout_label.text())
+
+    def readout_text(self, t: float, key) -> str:
+        """Time, band and the coefficient nearest ``t`` (original, and as edited)."""
+        m = self.adapter.model
+        first, step = self._times[key]
+        c = m.coefficients(self.channel, key)
+        k = int(np.clip(round((t - first) / step), 0, c.shape[0] - 1))
+        state = m.band_gain_state(self.channel, key)
+        e = state[k] if isinstance(state, np.ndarray) else c[k] * float(state)
+        lo, hi = m.band_range_hz(key)
+        return (f"t {format_seconds(round(t, 6))} s\n"
+                f"{m.band_name(key)}  {hz_range(lo, hi)}\n"
+                f"c {c[k]:+.4g}  → {e:+.4g}")
