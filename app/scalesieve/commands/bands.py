@@ -48,10 +48,14 @@ def format_table(report: dict) -> str:
 
 
 def run(args) -> int:
-    from scalesieve import api
+    from scalesieve import api, memory_guard
+    from scalesieve.commands import progress
 
-    rec = load_input(args, args.file)
-    model = api.build_model(rec, transform=transform_from(args))
+    spec = transform_from(args)
+    facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
+    with progress.for_file(args.file, args.channel, facts=facts) as bar:
+        rec = load_input(args, args.file)
+        model = api.build_model(rec, transform=spec, progress=bar)
     report = band_report(model, os.path.basename(args.file))
     if args.json:
         json.dump(report, sys.stdout)

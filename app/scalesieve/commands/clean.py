@@ -65,6 +65,7 @@ def edits_from_args(args):
 
 
 def run(args) -> int:
+    from scalesieve import memory_guard
     from scalesieve.batch import clean_file
     from scalesieve.recipe import load as load_recipe
 
@@ -73,6 +74,7 @@ def run(args) -> int:
     if recipe is None and not quick:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
     spec = transform_from(args, recipe.transform if recipe else None)
+    memory_guard.check(args.file, channel=args.channel, transform=spec)
     # The same function cleans each file of `scalesieve batch`: identical outputs.
     res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
                      removed=args.removed, subtype=args.subtype, force=args.force,

@@ -1,0 +1,73 @@
+"""The memory guard: refuse, before reading, what would not fit; say what would."""
+
+import wave
+
+import numpy as np
+import pytest
+
+from scalesieve import memory_guard
+from scalesieve.cli import main
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.errors import ScalesieveError
+
+
+def _wav16(path, frames, channels=1, rate=8000):
+    # written with Python's own wave module: 16-bit PCM
+    pcm = np.zeros(frames * channels, dtype="<i2")
+    with wave.open(str(path), "wb") as w:
+        w.setnchannels(channels)
+        w.setsampwidth(2)
+        w.setframerate(rate)
+        w.writeframes(pcm.tobytes())
+
+
+def test_refuses_naming_need_and_ways(tmp_path):
+    f = tmp_path / "two.wav"
+    _wav16(f, 50000, channels=2)
+    facts = memory_guard.check(f)                      # this machine has room for it
+    assert facts["frames"] == 50000 and facts["needed_bytes"] > 50000 * 2 * 8
+    with pytest.raises(ScalesieveError) as err:
+        memory_guard.check(f, available=1 << 20)
+    msg = err.value.one_line()
+    assert str(f) in msg
+    assert "needs about" in msg and "GiB" in msg and "available" in msg
+    assert "--channel K" in msg and "float32" in msg
+
+
+def test_ways_that_need_less_need_less(tmp_path):
+    f = tmp_path / "two.wav"
+    _wav16(f, 1000, channels=2)
+    facts = memory_guard.check(f)
+    full = memory_guard.estimate(facts)
+    assert memory_guard.estimate(facts, channel=0) < full
+    assert memory_guard.estimate(facts, dtype=np.float32) < full
+    swt = memory_guard.estimate(facts, transform=TransformSpec("swt", "db4", 5))
+    assert swt > full
+    with pytest.raises(ScalesieveError, match="--transform dwt"):
+        memory_guard.check(f, transform=TransformSpec("swt", "db4", 5), available=swt - 1)
+
+
+def test_small_text_and_unreadable_files_are_left_to_the_reader(tmp_path):
+    t = tmp_path / "log.csv"
+    t.write_text("time_s;a\n0;1,5\n0,001;2,5\n")
+    assert memory_guard.check(t) is None
+    assert memory_guard.check(tmp_path / "missing.wav") is None
+
+
+def test_command_line_refuses_in_one_line(tmp_path, monkeypatch, capsys):
+    f = tmp_path / "long.wav"
+    _wav16(f, 20000)
+
+    class Tight:
+        available = 1 << 20
+
+    import psutil
+
+    monkeypatch.setattr(psutil, "virtual_memory", lambda: Tight())
+    assert main(["bands", str(f)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith(f"scalesieve: error: {f}: needs about")
+    out = tmp_path / "out.wav"
+    assert main(["clean", str(f), "-o", str(out), "--zero", "1"]) == 2
+    assert "needs about" in capsys.readouterr().err
+    assert not out.exists()
