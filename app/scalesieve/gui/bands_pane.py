@@ -231,12 +231,11 @@ class BandRow(QWidget):
             times = model.coefficient_times(channel, key)
             first = float(times[0]) if times.shape[0] else 0.0
             step = float(times[1] - times[0]) if times.shape[0] > 1 else 1.0 / pictures.rate
-            state = model.band_gain_state(channel, key)
-            if isinstance(state, np.ndarray):
-                fe = lambda a, b: state[a:b]  # noqa: E731 - small local readers
+            g = model.band_gain(channel, key)
+            if g is None:
+                fe = lambda a, b: model.edited_coefficients(channel, key, a, b)  # noqa: E731
             else:
-                g = float(state)
-                fe = lambda a, b: c[a:b] * g  # noqa: E731
+                fe = lambda a, b: c[a:b] * g  # noqa: E731 - small local readers
             xs, ys = trace_points(first, step, c.shape[0], t0, t1, width, fe)
             if edited_any:
                 bx, by = trace_points(first, step, c.shape[0], t0, t1, width,

@@ -13,8 +13,6 @@ from __future__ import annotations
 
 from typing import Callable
 
-import numpy as np
-
 from scalesieve.core import metrics as mt
 from scalesieve.gui.decimate import BlockEnvelope
 
@@ -107,9 +105,9 @@ class ChannelPictures:
         return lambda a, b: x[a:b] - y[a:b]
 
     def _take_state(self, model, key, full: bool, span=None) -> None:
-        state = model.band_gain_state(self.channel, key)
-        if not isinstance(state, np.ndarray):
-            self.gains[key] = float(state)
+        gain = model.band_gain(self.channel, key)
+        if gain is not None:
+            self.gains[key] = float(gain)
             self.edited[key] = None
             return
         if full or span is None:

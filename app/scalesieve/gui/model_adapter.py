@@ -27,11 +27,13 @@ from scalesieve.core.recording import Recording
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.display_data import ChannelPictures, Superseded
-from scalesieve.model import DecompositionModel
+from scalesieve.model import Change, DecompositionModel
 from scalesieve.recipe import check_against
 
 #: quiet time after the last transform request before a run starts (ms)
 COALESCE_MS = 120
+#: pause after the last undo or redo before the result is recomputed exactly (ms)
+SETTLE_MS = 300
 
 
 @dataclass
@@ -97,17 +99,20 @@ class _Worker(QObject):
     def __init__(self, cancelled: Callable[[int], bool]):
         super().__init__()
         self._cancelled = cancelled
+        self._job_token = 0
+
+    def model_progress(self, frac: float, text: str) -> None:
+        # Every model made here reports through this, whichever job runs it now.
+        self.progress.emit(self._job_token, 0.5 * frac, text)
 
     @Slot(object)
     def run(self, job: Job) -> None:
         model = job.model
+        self._job_token = job.token
         try:
             def check():
                 if self._cancelled(job.token):
                     raise Superseded()
-
-            def model_progress(frac, text):
-                self.progress.emit(job.token, 0.5 * frac, text)
 
             if job.kind == "open":
                 self.progress.emit(job.token, 0.0, f"reading {job.label}")
@@ -115,7 +120,7 @@ class _Worker(QObject):
                 check()
                 self.progress.emit(job.token, 0.05, "decomposing")
                 model = api.build_model(rec, transform=job.spec, edits=job.edits,
-                                        progress=model_progress)
+                                        progress=self.model_progress)
             else:
                 # Check the recipe against the new depth first: a failed
                 # set_transform would leave the model rebuilt without its edits.
@@ -203,6 +208,12 @@ class ModelAdapter(QObject):
         self._coalesce.setSingleShot(True)
         self._coalesce.setInterval(COALESCE_MS)
         self._coalesce.timeout.connect(self._start_transform)
+        # After undo or redo the model's incremental result differs from a fresh
+        # computation in the last bits; a pause later it is recomputed exactly.
+        self._settle = QTimer(self)
+        self._settle.setSingleShot(True)
+        self._settle.setInterval(SETTLE_MS)
+        self._settle.timeout.connect(self.settle_now)
 
     # ------------------------------------------------------------- reading
 
@@ -422,10 +433,30 @@ class ModelAdapter(QObject):
         return self._edit(lambda m, e: m.set_edits(tuple(e)), edits)
 
     def undo(self) -> bool:
-        return self._edit(lambda m: m.undo())
+        ok = self._edit(lambda m: m.undo())
+        if ok:
+            self._settle.start()
+        return ok
 
     def redo(self) -> bool:
-        return self._edit(lambda m: m.redo())
+        ok = self._edit(lambda m: m.redo())
+        if ok:
+            self._settle.start()
+        return ok
+
+    @property
+    def settle_pending(self) -> bool:
+        return self._settle.isActive()
+
+    def settle_now(self) -> None:
+        """Recompute the cleaned signal exactly (as a fresh model would have it)."""
+        self._settle.stop()
+        m = self.model
+        if m is None or self.busy:
+            return
+        m.settle()
+        rec = m.recording
+        self._on_model_change(Change("recipe", list(range(rec.channels)), [], (0, rec.n)))
 
     def edit_channels(self, channel: int):
         """The ``channels`` a new edit made on ``channel`` gets (``None``: all)."""

@@ -142,6 +142,7 @@ class ScaleMapPane(PaneFrame):
         self._row_view = None
         self._ref = {}
         self._outlines: list[RegionOutline] = []
+        self._building_outlines = False
         self._times: dict = {}
 
         self.view = MapViewBox()
@@ -340,12 +341,17 @@ class ScaleMapPane(PaneFrame):
                                                       t0, t1, width)
             if key in self._rows:
                 continue
-            state = m.band_gain_state(ch, key) if edited else 1.0
-            if isinstance(state, np.ndarray):
-                first, step = self._times[key]
-                self._rows[key] = maxabs_columns(state, first, step, t0, t1, width)
-            else:
-                self._rows[key] = self._orig_rows[key] * abs(float(state))
+            gain = m.band_gain(ch, key) if edited else 1.0
+            if gain is not None:
+                self._rows[key] = self._orig_rows[key] * abs(float(gain))
+                continue
+            # Only the coefficients in view are worked out (the model's cost follows them).
+            first, step = self._times[key]
+            count = m.coefficients(ch, key).shape[0]
+            k0 = int(np.clip(np.floor((t0 - first) / step) - 1, 0, count))
+            k1 = int(np.clip(np.ceil((t1 - first) / step) + 2, k0, count))
+            values = m.edited_coefficients(ch, key, k0, k1)
+            self._rows[key] = maxabs_columns(values, first + k0 * step, step, t0, t1, width)
 
     def map_image(self) -> np.ndarray:
         """The magnitudes on screen, one row per band (finest first), before colouring."""
@@ -397,6 +403,13 @@ class ScaleMapPane(PaneFrame):
         return [self._row_of(k) for k in keys if k in self.keys]
 
     def _draw_outlines(self) -> None:
+        self._building_outlines = True
+        try:
+            self._make_outlines()
+        finally:
+            self._building_outlines = False
+
+    def _make_outlines(self) -> None:
         for roi in self._outlines:
             self.plot.removeItem(roi)
         self._outlines = []
@@ -408,12 +421,12 @@ class ScaleMapPane(PaneFrame):
                 continue
             for row0, count in contiguous_runs(self._key_rows(e, m.level)):
                 roi = RegionOutline(i, e.start_s, e.stop_s, row0, count, e.enabled)
+                if i == self.selected:
+                    roi.set_selected(True)
                 roi.sigClicked.connect(self._outline_clicked)
                 roi.sigRegionChangeFinished.connect(self._outline_moved)
                 self.plot.addItem(roi)
                 self._outlines.append(roi)
-                if i == self.selected:
-                    roi.set_selected(True)
 
     def outlines(self) -> list[RegionOutline]:
         return list(self._outlines)
@@ -426,8 +439,12 @@ class ScaleMapPane(PaneFrame):
         if index == self.selected:
             return
         self.selected = index
-        for roi in self._outlines:
-            roi.set_selected(roi.index == index)
+        self._building_outlines = True
+        try:
+            for roi in self._outlines:
+                roi.set_selected(roi.index == index)
+        finally:
+            self._building_outlines = False
         self.regionSelected.emit(index)
 
     def _outline_clicked(self, roi, ev) -> None:
@@ -438,7 +455,7 @@ class ScaleMapPane(PaneFrame):
 
     def _outline_moved(self, roi) -> None:
         m = self.adapter.model
-        if m is None or not (0 <= roi.index < len(m.edits)):
+        if self._building_outlines or m is None or not (0 <= roi.index < len(m.edits)):
             return
         e = m.edits[roi.index]
         pos, size = roi.pos(), roi.size()
@@ -446,7 +463,7 @@ class ScaleMapPane(PaneFrame):
         start = float(np.clip(pos.x(), 0.0, dur))
         stop = float(np.clip(pos.x() + size.x(), 0.0, dur))
         if stop <= start:
-            self._draw_outlines()
+            QTimer.singleShot(0, self._draw_outlines)
             return
         runs = contiguous_runs(self._key_rows(e, m.level))
         levels = e.levels
@@ -456,11 +473,10 @@ class ScaleMapPane(PaneFrame):
             new_keys = self.keys[r0:r1]
             if new_keys != [self.keys[r] for r in range(runs[0][0], runs[0][0] + runs[0][1])]:
                 levels = tuple(new_keys)
-        new = replace(e, start_s=start, stop_s=stop, levels=levels)
+        new = replace(e, start_s=round(start, 6), stop_s=round(stop, 6), levels=levels)
         if new != e:
+            # Outlines are redrawn from the recipe once the change is in.
             self.adapter.replace_edit(roi.index, new)
-        else:
-            self._draw_outlines()
 
     def _region_menu(self, index: int, screen_pos) -> None:
         m = self.adapter.model
@@ -554,8 +570,7 @@ class ScaleMapPane(PaneFrame):
         first, step = self._times[key]
         c = m.coefficients(self.channel, key)
         k = int(np.clip(round((t - first) / step), 0, c.shape[0] - 1))
-        state = m.band_gain_state(self.channel, key)
-        e = state[k] if isinstance(state, np.ndarray) else c[k] * float(state)
+        e = float(m.edited_coefficients(self.channel, key, k, k + 1)[0])
         lo, hi = m.band_range_hz(key)
         return (f"t {format_seconds(round(t, 6))} s\n"
                 f"{m.band_name(key)}  {hz_range(lo, hi)}\n"

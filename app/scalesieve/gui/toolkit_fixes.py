@@ -1,12 +1,14 @@
 """Work-arounds for defects of the GUI toolkit that would crash the window.
 
-PySide6 6.12 on Python 3.11 gives away one reference to ``True`` or
-``False`` each time a bool travels through a signal (a checkbox toggled, an
-action triggered, any ``Signal(bool)``).  After a few hundred of them the
-interpreter frees ``True`` and aborts ("bool_dealloc: deallocating True or
-False").  Python 3.12 made the two objects immortal; on 3.11 we give them a
-reference count that no session can use up.  The leak is measured first, so
-a fixed PySide6 is left alone.
+PySide6 6.12 on Python 3.11 gives away one reference to ``None`` for many
+calls of a method that returns nothing (``setRect``, ``setPos``...), and
+one reference to ``True`` or ``False`` each time a bool travels through a
+signal (a checkbox toggled, an action triggered).  After some thousands of
+them the interpreter frees the object and aborts ("none_dealloc" /
+"bool_dealloc: ... bug likely caused by a refcount error in a C
+extension").  Python 3.12 made these objects immortal; on 3.11 we give the
+affected ones a reference count that no session can use up.  Each leak is
+measured first, so a fixed PySide6 is left alone.
 """
 
 from __future__ import annotations
@@ -14,13 +16,12 @@ from __future__ import annotations
 import ctypes
 import sys
 
-_applied = False
-#: references added to True and False when the toolkit leaks them
+#: references added to an object the toolkit leaks
 BALLAST = 1 << 40
+_applied: set = set()
 
 
-def bool_signal_leaks() -> bool:
-    """Does emitting a bool through a signal drop a reference to it?"""
+def _bool_leaks() -> bool:
     from PySide6.QtCore import QObject, Signal
 
     class _Probe(QObject):
@@ -33,13 +34,36 @@ def bool_signal_leaks() -> bool:
     return sys.getrefcount(True) < before
 
 
-def apply() -> bool:
-    """Apply the fixes this toolkit needs; True when one was applied."""
-    global _applied
-    if _applied or sys.version_info >= (3, 12) or not bool_signal_leaks():
-        return False
-    for obj in (True, False):
+def _none_leaks() -> bool:
+    from PySide6.QtCore import QObject
+
+    probe = QObject()
+    before = sys.getrefcount(None)
+    for _ in range(8):
+        probe.setObjectName("probe")
+    return sys.getrefcount(None) < before
+
+
+def leaking() -> list:
+    """The singletons this PySide6 drops references to."""
+    out = []
+    if _bool_leaks():
+        out += [True, False]
+    if _none_leaks():
+        out.append(None)
+    return out
+
+
+def apply() -> list:
+    """Give every leaked singleton a reference count it cannot run out of."""
+    if sys.version_info >= (3, 12):
+        return []          # immortal objects: nothing to do
+    done = []
+    for obj in leaking():
+        if id(obj) in _applied:
+            continue
         # ob_refcnt is the first field of every object in a release build of CPython.
         ctypes.c_ssize_t.from_address(id(obj)).value += BALLAST
-    _applied = True
-    return True
+        _applied.add(id(obj))
+        done.append(obj)
+    return done
