@@ -300,3 +300,24 @@ def test_pane_with_the_window_adapter(qtbot, recording):
         assert adapter.model.edits == (edit,)
     finally:
         adapter.shutdown()
+
+
+def test_mark_follows_the_channel_the_map_shows(qtbot, recording):
+    _, model = recording
+    scale_map = _Map()
+    scale_map.channel = 0
+    p = EventsPane(model, scale_map=scale_map)
+    qtbot.addWidget(p)
+    p.set_channel(0)
+    asked = []
+    p.channelRequested.connect(asked.append)
+    other = next(e for e in p.events if e.channel == 1)
+    p.select_event(other)
+    assert asked == [1] and not p.mark.visible          # map still on channel 0
+    scale_map.channel = 1                               # the window switched
+    p.set_channel(1)
+    assert p.mark.visible
+    # a table showing one channel follows the window's channel
+    p.channel_box.setCurrentIndex(p.channel_box.findData(0))
+    p.set_channel(1)
+    assert p.channel_box.currentData() == 1

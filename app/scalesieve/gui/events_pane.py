@@ -20,7 +20,10 @@ Signals (for a window that wires things itself):
 ``eventSelected(start_s, stop_s)``, ``zoomRequested(t0, t1)`` (the span
 with its margin), ``eventChosen(object)`` (the Event or None),
 ``regionRequested(object)`` (the region Edit, emitted before it is
-applied), ``eventsChanged(int)`` (count after each detection).
+applied), ``eventsChanged(int)`` (count after each detection),
+``channelRequested(int)`` (the chosen event is on another channel than the
+one the window shows, as told by ``set_channel``).  The outline on the
+Scale map is drawn only while the map shows the event's channel.
 
 Keys: ``]`` next event, ``[`` previous (in the table's current order), while
 the pane's window is active.  Detection runs on the GUI thread after a
@@ -36,7 +39,7 @@ from PySide6.QtCore import (QAbstractTableModel, QModelIndex, QSortFilterProxyMo
                             Signal)
 from PySide6.QtGui import QKeySequence, QShortcut
 from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QDoubleSpinBox, QFileDialog,
-                               QHBoxLayout, QHeaderView, QLabel, QLineEdit, QMessageBox,
+                               QGridLayout, QHeaderView, QLabel, QLineEdit, QMessageBox,
                                QPushButton, QTableView, QVBoxLayout, QWidget)
 
 from scalesieve.core import events as ev
@@ -193,13 +196,17 @@ class EventMark:
         plot = self._plot()
         if plot is None:
             return
+        shown = getattr(self.scale_map, "channel", None)
+        if shown is not None and shown != event.channel:
+            self.clear()            # the map shows another channel: no mark there
+            return
         keys = list(getattr(self.scale_map, "keys", []) or [])
         rows = [keys.index(j) for j in levels if j in keys]
         top, bottom = (min(rows), max(rows) + 1) if rows else (0, max(1, len(keys)))
         self.box.setRect(event.start_s, top, max(event.stop_s - event.start_s, 1e-9),
                          bottom - top)
         self.line.setValue(event.peak_s)
-        if not self._added:
+        if not self._added or self.box.scene() is None:
             plot.addItem(self.box, ignoreBounds=True)
             plot.addItem(self.line, ignoreBounds=True)
             self._added = True
@@ -223,6 +230,7 @@ class EventsPane(QWidget):
     eventChosen = Signal(object)
     regionRequested = Signal(object)
     eventsChanged = Signal(int)
+    channelRequested = Signal(int)
 
     def __init__(self, source=None, time_axis=None, scale_map=None, parent=None,
                  apply_edits: bool = True):
@@ -239,6 +247,8 @@ class EventsPane(QWidget):
         self.error = ""
         self._adapter = None
         self._model = None
+        self._sized = False
+        self.window_channel: int | None = None
         if source is not None and hasattr(source, "modelReplaced"):
             self._adapter = source
             source.modelReplaced.connect(self._on_model_replaced)
@@ -257,19 +267,13 @@ class EventsPane(QWidget):
         outer = QVBoxLayout(self)
         outer.setContentsMargins(6, 4, 6, 4)
         outer.setSpacing(4)
-        title = QLabel("Events")
-        title.setObjectName("paneTitle")
-        controls = QHBoxLayout()
-        controls.setSpacing(6)
-        controls.addWidget(title)
-        controls.addSpacing(12)
-        controls.addWidget(QLabel("levels"))
+        # Two narrow columns of controls: the pane usually sits in a side dock.
+        grid = QGridLayout()
+        grid.setHorizontalSpacing(6)
+        grid.setVerticalSpacing(3)
         self.levels_edit = QLineEdit(",".join(str(j) for j in ev.DEFAULT_LEVELS))
-        self.levels_edit.setMaximumWidth(90)
         self.levels_edit.setToolTip("detail levels to search: 1,2 or 1-3 or details "
                                     "(1 is the finest)")
-        controls.addWidget(self.levels_edit)
-        controls.addWidget(QLabel("k"))
         self.k_box = QDoubleSpinBox()
         self.k_box.setRange(1.0, 100.0)
         self.k_box.setSingleStep(0.5)
@@ -278,19 +282,22 @@ class EventsPane(QWidget):
         self.k_box.setToolTip("threshold in units of each level's noise σ "
                               "(σ = median|d| / 0.6745); on Gaussian noise a coefficient "
                               "exceeds k σ with probability 2(1 − Φ(k))")
-        controls.addWidget(self.k_box)
-        controls.addWidget(QLabel("timing"))
         self.kind_box = QComboBox()
         for kind, label in TRANSFORMS:
             self.kind_box.addItem(label, kind)
         self.kind_box.setToolTip("transform that times the events; the SWT places onsets "
                                  "to a sample or two, the DWT only on its 2^j grid")
-        controls.addWidget(self.kind_box)
-        controls.addWidget(QLabel("show"))
         self.channel_box = QComboBox()
         self.channel_box.addItem("all channels", None)
-        controls.addWidget(self.channel_box)
-        controls.addStretch(1)
+        self.channel_label = QLabel("show")
+        for row, (label, widget) in enumerate((("levels", self.levels_edit), ("k", self.k_box),
+                                               ("timing", self.kind_box),
+                                               (self.channel_label, self.channel_box))):
+            grid.addWidget(label if isinstance(label, QLabel) else QLabel(label), row, 0)
+            grid.addWidget(widget, row, 1)
+        grid.setColumnStretch(1, 1)
+        outer.addLayout(grid)
+
         self.prev_button = QPushButton("Previous")
         self.prev_button.setToolTip("previous event in the table (key [)")
         self.next_button = QPushButton("Next")
@@ -302,12 +309,17 @@ class EventsPane(QWidget):
         self.export_button = QPushButton("Export CSV…")
         self.export_button.setToolTip("write every event (time order) as CSV, the same "
                                       "columns as 'scalesieve events --csv'")
-        for b in (self.prev_button, self.next_button, self.region_button, self.export_button):
-            controls.addWidget(b)
-        outer.addLayout(controls)
+        buttons = QGridLayout()
+        buttons.setSpacing(4)
+        buttons.addWidget(self.prev_button, 0, 0)
+        buttons.addWidget(self.next_button, 0, 1)
+        buttons.addWidget(self.region_button, 1, 0)
+        buttons.addWidget(self.export_button, 1, 1)
+        outer.addLayout(buttons)
 
         self.summary = QLabel("")
         self.summary.setObjectName("eventsSummary")
+        self.summary.setWordWrap(True)
         self.summary.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         outer.addWidget(self.summary)
 
@@ -321,7 +333,10 @@ class EventsPane(QWidget):
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
         self.table.verticalHeader().setVisible(False)
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
+        header = self.table.horizontalHeader()
+        header.setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
+        header.setStretchLastSection(True)
+        header.setResizeContentsPrecision(200)   # size columns from the first rows only
         self.table.setAlternatingRowColors(True)
         self.table.verticalHeader().setDefaultSectionSize(22)
         outer.addWidget(self.table, 1)
@@ -375,7 +390,9 @@ class EventsPane(QWidget):
         idx = self.channel_box.findData(keep)
         self.channel_box.setCurrentIndex(max(idx, 0))
         self.channel_box.blockSignals(False)
-        self.channel_box.setVisible(m is not None and m.recording.channels > 1)
+        many = m is not None and m.recording.channels > 1
+        self.channel_box.setVisible(many)
+        self.channel_label.setVisible(many)
         self.proxy.set_channel(self.channel_box.currentData())
         self.refresh()
 
@@ -432,6 +449,9 @@ class EventsPane(QWidget):
         self.repetition, self.repetition_per_channel = ev.repetition_by_channel(self.events,
                                                                                 channels)
         self.table_model.set_events(self.events)
+        if self.events and not self._sized:
+            self.table.resizeColumnsToContents()
+            self._sized = True
         self.summary.setText(error or summary_text(self.events, self.repetition, channels))
         self.summary.setToolTip("noise σ per level: " + ", ".join(
             f"ch {r['channel']} d{r['level']} {r['sigma']:.4g}" for r in self.noise))
@@ -498,6 +518,11 @@ class EventsPane(QWidget):
             if self.mark is not None:
                 self.mark.clear()
             return
+        shown = self.window_channel
+        if shown is None and self.mark is not None:
+            shown = getattr(self.mark.scale_map, "channel", None)
+        if shown is not None and e.channel != shown:
+            self.channelRequested.emit(e.channel)      # show the event's own channel
         self.eventSelected.emit(e.start_s, e.stop_s)
         m = self.model
         duration = m.recording.duration_s if m is not None else e.stop_s
@@ -510,6 +535,20 @@ class EventsPane(QWidget):
 
     def _channel_filter(self, *_):
         self.proxy.set_channel(self.channel_box.currentData())
+
+    def set_channel(self, channel: int) -> None:
+        """The window shows ``channel``: a table showing one channel follows it."""
+        self.window_channel = int(channel)
+        if self.channel_box.currentData() is not None:
+            idx = self.channel_box.findData(self.window_channel)
+            if idx >= 0:
+                self.channel_box.setCurrentIndex(idx)
+        e = self.chosen_event()
+        if self.mark is not None:
+            if e is None:
+                self.mark.clear()
+            else:
+                self.mark.show(e, self.levels)
 
     # ---------------------------------------------------------------- edits
 

@@ -140,6 +140,8 @@ class MainWindow(QMainWindow):
         self.recipe_dock.raise_()
         if hasattr(pane, "set_channel"):
             self._events_pane = pane
+        if hasattr(pane, "channelRequested"):   # an event on another channel: show that one
+            pane.channelRequested.connect(lambda k: self.channel_box.setCurrentIndex(k))
         return dock
 
     def _action(self, text: str, slot, shortcut=None, icon_name: str | None = None,
