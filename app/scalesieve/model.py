@@ -781,7 +781,10 @@ class DecompositionModel:
         for c in chosen:
             key = (c, spec, lv)
             if key not in cache:
-                bands = ({j: self.coefficients(c, j) for j in lv} if spec == self.spec
+                # The model's own coefficients serve when they are the same
+                # numbers the command line gets (same transform, float64).
+                reuse = spec == self.spec and self.coefficients(c, lv[0]).dtype == np.float64
+                bands = ({j: self.coefficients(c, j) for j in lv} if reuse
                          else ev.detail_bands(self.original(c), spec, lv))
                 while len(cache) >= 4 * max(1, self.recording.channels):
                     cache.pop(next(iter(cache)))
