@@ -412,3 +412,17 @@ def test_fast_noise_level_equals_the_plain_mad(case):
         c = rng.standard_cauchy(c.size)
     assert ev._mad_sigma(c) == mad_sigma(c)
     assert ev._mad_sigma(c[:-1]) == mad_sigma(c[:-1])       # even count: mean of the middle two
+
+
+def test_events_of_a_float32_model_equal_the_float64_command_line_path():
+    # A model held in float32 (to halve memory) still gives the events the
+    # command line computes from float64 samples of the same file.
+    rng = np.random.default_rng(12)
+    x = _bursts([0.1, 0.4, 0.7], RATE, 20_000, rng).astype(np.float32)
+    rec = Recording(x[:, None], RATE, ["ch0"])
+    for kind in ("dwt", "swt"):
+        model = DecompositionModel(rec, tf.TransformSpec(kind, "db4"))
+        found, _ = model.events(kind=kind)
+        spec = tf.TransformSpec(kind, "db4", model.level, "symmetric")
+        ref, _ = ev.find_events(x.astype(np.float64), RATE, spec)
+        assert found == ref and len(found) == 3
