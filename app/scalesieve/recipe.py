@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import stat
 from dataclasses import dataclass, field, replace
 from typing import Any, Iterable
 
@@ -32,6 +33,10 @@ _REQUIRED = {"gain": {"levels", "gain"}, "threshold": {"levels", "rule"},
 
 # Largest recipe file we read: a recipe is a short list of edits.
 MAX_RECIPE_BYTES = 8 * 1024 * 1024
+#: Most edits one recipe may hold (each is replayed on every channel).
+MAX_EDITS = 10_000
+# A version-1 recipe nests four deep (recipe, edits, edit, levels); deeper is not one.
+_MAX_DEPTH = 16
 
 
 @dataclass(frozen=True)
@@ -174,10 +179,121 @@ def resolve_levels(levels: Any, level: int) -> list:
     return keys
 
 
+#: Ranges of the numeric keys (inclusive); a recipe outside them is refused.
+#: Gains and scales beyond a million only blow a band up; times are seconds
+#: from the start of the recording.
+VALUE_RANGES = {
+    "gain": (0.0, 1e6),
+    "scale": (0.0, 1e6),
+    "value": (0.0, 1e100),
+    "start_s": (0.0, 1e12),
+    "stop_s": (0.0, 1e12),
+}
+#: A level beyond this would need more than 2**64 samples.
+MAX_LEVEL = 64
+MAX_CHANNEL = 65535
+
+
+def _short(text: str, limit: int = 80) -> str:
+    """A value quoted in a message, cut so the message stays one readable line."""
+    text = " ".join(str(text).split())
+    return text if len(text) <= limit else text[:limit - 1] + "…"
+
+
+def _num(v) -> str:
+    return f"{v:g}" if isinstance(v, (int, float)) else _short(repr(v))
+
+
+def check_edit(e: Edit, index: int = 1, source: str | None = None) -> None:
+    """Check one edit's own values: op, words, finite numbers in range, levels, channels.
+
+    The model calls this (through :func:`check_against`) for every edit it is
+    given, so edits made in code or in the window are held to the same rules
+    as a recipe file.
+
+    Raises
+    ------
+    ScalesieveError
+        Naming the edit (1-based ``index``), its op and the key.
+    """
+    if not (isinstance(e.op, str) and e.op in OPS):
+        raise ScalesieveError(f"edit {index}: unknown op {_short(repr(e.op), 60)} "
+                              f"(known: {', '.join(OPS)})", source)
+    where = f"edit {index} ({e.op})"
+    used = {"gain": ("gain", "region"), "scale": ("threshold",),
+            "value": ("threshold",), "start_s": ("region",), "stop_s": ("region",)}
+    for key, (lo, hi) in VALUE_RANGES.items():
+        if e.op not in used[key] or (key == "value" and e.rule != "manual"):
+            continue
+        raw = getattr(e, key)
+        if isinstance(raw, bool) or raw is None:
+            v = None
+        else:
+            try:
+                v = float(raw)
+            except (TypeError, ValueError, OverflowError):
+                v = None
+        if v is None:
+            raise ScalesieveError(f"{where}: '{key}' must be a number, not "
+                                  f"{_short(repr(raw), 40)}", source)
+        if not math.isfinite(v):
+            raise ScalesieveError(f"{where}: '{key}' must be a finite number, not {v!r}",
+                                  source)
+        if not lo <= v <= hi:
+            raise ScalesieveError(f"{where}: '{key}' {_num(v)} is outside the allowed range "
+                                  f"{_num(lo)} to {_num(hi)}", source)
+    if e.op == "threshold":
+        for key, allowed in (("rule", RULES), ("shape", SHAPES), ("noise", NOISE)):
+            if getattr(e, key) not in allowed:
+                raise ScalesieveError(f"{where}: '{key}' {_short(repr(getattr(e, key)), 40)} "
+                                      f"is not one of {', '.join(allowed)}", source)
+    if e.op == "region" and not e.start_s < e.stop_s:
+        raise ScalesieveError(f"{where}: start_s {_num(e.start_s)} must be before stop_s "
+                              f"{_num(e.stop_s)}", source)
+    if isinstance(e.levels, str):
+        if e.levels not in LEVEL_WORDS:
+            raise ScalesieveError(f"{where}: levels {_short(repr(e.levels), 40)} is not a list "
+                                  "of levels, 'details' or 'all'", source)
+    else:
+        try:
+            items = list(e.levels)
+        except TypeError:
+            raise ScalesieveError(f"{where}: levels {_short(repr(e.levels), 40)} is not a list "
+                                  "of levels", source) from None
+        if not items:
+            raise ScalesieveError(f"{where}: 'levels' is empty", source)
+        for v in items:
+            if isinstance(v, str) and v == "a":
+                continue
+            if isinstance(v, bool) or not isinstance(v, int) or not 1 <= v <= MAX_LEVEL:
+                raise ScalesieveError(f"{where}: level {_short(repr(v), 40)} is not a level "
+                                      f"(1 to {MAX_LEVEL}, or 'a')", source)
+    if e.channels is not None:
+        if not e.channels:
+            raise ScalesieveError(f"{where}: 'channels' is empty", source)
+        for k in e.channels:
+            if isinstance(k, bool) or not isinstance(k, int) or not 0 <= k <= MAX_CHANNEL:
+                raise ScalesieveError(f"{where}: channel {_short(repr(k), 40)} is not a "
+                                      "channel number (0-based)", source)
+    if not isinstance(e.enabled, bool):
+        raise ScalesieveError(f"{where}: 'enabled' must be true or false", source)
+
+
 def check_against(recipe_edits: Iterable[Edit], level: int, duration_s: float | None = None,
                   channels: int | None = None, source: str | None = None) -> None:
-    """Check edits against a resolved transform and recording; raise naming the edit."""
-    for i, e in enumerate(recipe_edits, 1):
+    """Check edits against a resolved transform and recording; raise naming the edit.
+
+    Each edit's own values are checked first (:func:`check_edit`), then its
+    levels against the transform's depth, its channels against the
+    recording's, and a region's times against the recording's span: a region
+    must start inside the recording and end by its end.
+    """
+    edits = tuple(recipe_edits)
+    if len(edits) > MAX_EDITS:
+        raise ScalesieveError(f"{len(edits)} edits are more than a recipe may hold "
+                              f"({MAX_EDITS})", source)
+    for i, e in enumerate(edits, 1):
+        check_edit(e, i, source)
         try:
             resolve_levels(e.levels, level)
         except ValueError as exc:
@@ -189,10 +305,11 @@ def check_against(recipe_edits: Iterable[Edit], level: int, duration_s: float | 
                         f"edit {i} ({e.op}): channel {k} is not in the recording "
                         f"(channels 0-{channels - 1})", source)
         if e.op == "region" and duration_s is not None:
-            if e.start_s > duration_s or e.stop_s < 0:
+            # A part in a billion of slack: a region drawn to the very end survives rounding.
+            if e.start_s >= duration_s or e.stop_s > duration_s * (1 + 1e-9):
                 raise ScalesieveError(
-                    f"edit {i} (region): {e.start_s:g}-{e.stop_s:g} s lies outside the "
-                    f"recording (0-{duration_s:g} s)", source)
+                    f"edit {i} (region): {_num(e.start_s)}-{_num(e.stop_s)} s is not inside "
+                    f"the recording (0-{_num(duration_s)} s)", source)
 
 
 # --------------------------------------------------------------------------
@@ -200,9 +317,13 @@ def check_against(recipe_edits: Iterable[Edit], level: int, duration_s: float | 
 
 
 def _schema() -> dict:
-    num = {"type": "number"}
-    level_list = {"type": "array", "minItems": 1,
-                  "items": {"anyOf": [{"type": "integer", "minimum": 1}, {"const": "a"}]}}
+    def num(key):
+        lo, hi = VALUE_RANGES[key]
+        return {"type": "number", "minimum": lo, "maximum": hi}
+
+    level = {"type": "integer", "minimum": 1, "maximum": MAX_LEVEL}
+    level_list = {"type": "array", "minItems": 1, "maxItems": MAX_LEVEL + 1,
+                  "items": {"anyOf": [level, {"const": "a"}]}}
     return {
         "type": "object",
         "required": ["scalesieve_recipe", "edits"],
@@ -214,27 +335,28 @@ def _schema() -> dict:
                 "properties": {
                     "kind": {"enum": ["dwt", "swt"]},
                     "wavelet": {"type": "string"},
-                    "level": {"anyOf": [{"type": "integer", "minimum": 1}, {"type": "null"}]},
+                    "level": {"anyOf": [level, {"type": "null"}]},
                     "mode": {"enum": list(MODES)},
                 },
             },
-            "edits": {"type": "array", "items": {
+            "edits": {"type": "array", "maxItems": MAX_EDITS, "items": {
                 "type": "object",
                 "required": ["op", "levels"],
                 "properties": {
                     "op": {"enum": list(OPS)},
                     "levels": {"anyOf": [level_list, {"enum": list(LEVEL_WORDS)}]},
-                    "channels": {"type": "array", "minItems": 1,
-                                 "items": {"type": "integer", "minimum": 0}},
+                    "channels": {"type": "array", "minItems": 1, "maxItems": MAX_CHANNEL + 1,
+                                 "items": {"type": "integer", "minimum": 0,
+                                           "maximum": MAX_CHANNEL}},
                     "enabled": {"type": "boolean"},
-                    "gain": {**num, "minimum": 0, "maximum": 1e6},
+                    "gain": num("gain"),
                     "rule": {"enum": list(RULES)},
                     "shape": {"enum": list(SHAPES)},
                     "noise": {"enum": list(NOISE)},
-                    "value": {**num, "minimum": 0},
-                    "scale": {**num, "minimum": 0, "maximum": 1e6},
-                    "start_s": num,
-                    "stop_s": num,
+                    "value": num("value"),
+                    "scale": num("scale"),
+                    "start_s": num("start_s"),
+                    "stop_s": num("stop_s"),
                 },
             }},
         },
@@ -245,36 +367,84 @@ def _reject_constant(name: str):
     raise ValueError(f"{name} is not a number JSON allows")
 
 
+def _finite_float(text: str) -> float:
+    # json reads 1e400 as inf; a recipe must not smuggle an infinity in that way.
+    v = float(text)
+    if not math.isfinite(v):
+        raise ValueError(f"number {_short(text, 40)} is too large")
+    return v
+
+
+def _no_duplicate_keys(pairs):
+    out = {}
+    for key, value in pairs:
+        if key in out:
+            raise ValueError(f"key {_short(repr(key), 60)} appears twice in one object")
+        out[key] = value
+    return out
+
+
+def _too_deep(data: Any, limit: int = _MAX_DEPTH) -> bool:
+    """True when containers nest deeper than ``limit`` (checked without recursion)."""
+    stack = [(data, 1)]
+    while stack:
+        obj, depth = stack.pop()
+        if depth > limit:
+            return True
+        items = obj.values() if isinstance(obj, dict) else obj
+        stack.extend((v, depth + 1) for v in items if isinstance(v, (dict, list)))
+    return False
+
+
 def loads(text: str, source: str | None = None) -> Recipe:
     """Parse recipe JSON text; every problem is a ScalesieveError naming it."""
     try:
-        data = json.loads(text, parse_constant=_reject_constant)
+        data = json.loads(text, parse_constant=_reject_constant, parse_float=_finite_float,
+                          object_pairs_hook=_no_duplicate_keys)
+    except RecursionError:
+        raise ScalesieveError("not a recipe: the JSON is nested far too deeply", source) from None
     except ValueError as exc:
         line = getattr(exc, "lineno", None)
         msg = exc.msg if hasattr(exc, "msg") else str(exc)
-        raise ScalesieveError(f"not a recipe: invalid JSON ({msg})", source, line) from None
+        raise ScalesieveError(f"not a recipe: invalid JSON ({_short(msg)})", source,
+                              line) from None
     return from_json(data, source)
 
 
 def load(path: str | os.PathLike) -> Recipe:
+    """Read a version-1 recipe file (UTF-8 JSON, at most ``MAX_RECIPE_BYTES``).
+
+    Raises
+    ------
+    ScalesieveError
+        For a missing, unreadable, non-regular or oversized file, text that
+        is not JSON, and everything :func:`from_json` refuses.
+    """
     p = os.fspath(path)
     try:
-        size = os.path.getsize(p)
-        if size > MAX_RECIPE_BYTES:
-            raise ScalesieveError(f"recipe file is {size} bytes; a recipe is at most "
+        st = os.stat(p)
+        if os.path.isdir(p):
+            raise ScalesieveError("is a folder, not a recipe file", p)
+        if not stat.S_ISREG(st.st_mode):
+            # A pipe or a device could block forever or never end.
+            raise ScalesieveError("is not a regular file; a recipe is a JSON file", p)
+        if st.st_size > MAX_RECIPE_BYTES:
+            raise ScalesieveError(f"recipe file is {st.st_size} bytes; a recipe is at most "
                                   f"{MAX_RECIPE_BYTES} bytes", p)
         with open(p, "rb") as fh:
-            raw = fh.read()
+            raw = fh.read(MAX_RECIPE_BYTES + 1)
     except FileNotFoundError:
         raise ScalesieveError("recipe file not found", p) from None
-    except IsADirectoryError:
-        raise ScalesieveError("is a folder, not a recipe file", p) from None
     except PermissionError:
         raise ScalesieveError("permission denied", p) from None
     except OSError as exc:
         raise ScalesieveError(f"cannot read recipe: {exc.strerror or exc}", p) from None
+    if len(raw) > MAX_RECIPE_BYTES:
+        raise ScalesieveError(f"recipe file is larger than {MAX_RECIPE_BYTES} bytes", p)
     try:
-        text = raw.decode("utf-8-sig")
+        # Some editors save UTF-16 with a byte-order mark; JSON allows it (RFC 8259 §8.1).
+        utf16 = raw.startswith((b"\xff\xfe", b"\xfe\xff"))
+        text = raw.decode("utf-16" if utf16 else "utf-8-sig")
     except UnicodeDecodeError:
         raise ScalesieveError("not a recipe: the file is not UTF-8 JSON text", p) from None
     return loads(text, p)
@@ -288,74 +458,118 @@ def _where(path) -> str:
     return "key '" + ".".join(str(x) for x in parts) + "'" if parts else "recipe"
 
 
+def _schema_message(er) -> str:
+    """jsonschema's message with the offending value shortened."""
+    value = _short(repr(er.instance), 60)
+    v = er.validator
+    path = [str(p) for p in er.absolute_path]
+    if v == "type":
+        return f"{value} is not of type {er.validator_value!r}"
+    if v == "enum":
+        return f"{value} is not one of {', '.join(map(str, er.validator_value))}"
+    if v == "const":
+        return f"{value} is not {er.validator_value!r}"
+    if v in ("minimum", "maximum"):
+        word = "below the minimum" if v == "minimum" else "above the maximum"
+        return f"{value} is {word} of {er.validator_value:g}"
+    if v == "anyOf" and "levels" in path:
+        return (f"{value} is not a level (1 to {MAX_LEVEL}), 'a', a list of them, "
+                "'details' or 'all'")
+    if v == "anyOf":
+        return f"{value} is not an allowed value"
+    if v in ("maxItems", "minItems"):
+        word = "more than" if v == "maxItems" else "fewer than"
+        return f"has {word} {er.validator_value} items"
+    return _short(er.message, 160)
+
+
 def from_json(data: Any, source: str | None = None) -> Recipe:
+    """A :class:`Recipe` from parsed JSON, checked against the version-1 schema.
+
+    Keys and ops are checked by name first (plainer messages than the
+    schema's), then the schema (types and ranges), then each edit's values
+    (:func:`check_edit`).  Levels, channels and times are checked against a
+    recording later, by :func:`check_against`.
+    """
     if not isinstance(data, dict) or "scalesieve_recipe" not in data:
         raise ScalesieveError("not a Scalesieve recipe (no \"scalesieve_recipe\": 1 key)", source)
-    if data.get("scalesieve_recipe") != RECIPE_VERSION:
+    version = data.get("scalesieve_recipe")
+    if type(version) is not int or version != RECIPE_VERSION:
         raise ScalesieveError(
-            f"recipe version {data.get('scalesieve_recipe')!r} is not supported "
+            f"recipe version {_short(repr(version), 40)} is not supported "
             f"(this program reads version {RECIPE_VERSION})", source)
     for key in data:
         if key not in ("scalesieve_recipe", "transform", "edits"):
-            raise ScalesieveError(f"unknown key '{key}' in recipe", source)
+            raise ScalesieveError(f"unknown key {_short(repr(key), 60)} in recipe "
+                                  "(known: scalesieve_recipe, transform, edits)", source)
+    if _too_deep(data):
+        raise ScalesieveError("not a recipe: its JSON nests deeper than a recipe does", source)
     edits_raw = data.get("edits")
     if not isinstance(edits_raw, list):
         raise ScalesieveError("recipe key 'edits' must be a list of edits", source)
+    if len(edits_raw) > MAX_EDITS:
+        raise ScalesieveError(f"the recipe holds {len(edits_raw)} edits; at most {MAX_EDITS} "
+                              "are allowed", source)
+    transform = data.get("transform")
+    if "transform" in data and not isinstance(transform, dict):
+        raise ScalesieveError("recipe key 'transform' must be an object", source)
+    for key in transform or ():
+        if key not in ("kind", "wavelet", "level", "mode"):
+            raise ScalesieveError(f"key 'transform': unknown key {_short(repr(key), 60)} "
+                                  "(known: kind, wavelet, level, mode)", source)
     # Named checks first: they give plainer messages than the schema.
     for i, e in enumerate(edits_raw, 1):
         if not isinstance(e, dict):
             raise ScalesieveError(f"edit {i} is not an object", source)
         op = e.get("op")
-        if op not in OPS:
-            raise ScalesieveError(f"edit {i}: unknown op {op!r} (known: {', '.join(OPS)})", source)
+        if not isinstance(op, str) or op not in OPS:
+            raise ScalesieveError(f"edit {i}: unknown op {_short(repr(op), 60)} "
+                                  f"(known: {', '.join(OPS)})", source)
         allowed = _COMMON_KEYS | _OP_KEYS[op]
         for key in e:
             if key not in allowed:
-                raise ScalesieveError(f"edit {i} ({op}): unknown key '{key}'", source)
+                raise ScalesieveError(f"edit {i} ({op}): unknown key {_short(repr(key), 60)} "
+                                      f"(known: {', '.join(sorted(allowed))})", source)
         for key in sorted(_REQUIRED[op]):
             if key not in e:
                 raise ScalesieveError(f"edit {i} ({op}): missing key '{key}'", source)
-        for key, v in e.items():
-            if isinstance(v, float) and not math.isfinite(v):
-                raise ScalesieveError(f"edit {i} ({op}): '{key}' must be finite", source)
         if op == "threshold" and e.get("rule") == "manual" and "value" not in e:
             raise ScalesieveError(f"edit {i} (threshold): rule 'manual' needs a 'value'", source)
     import jsonschema  # only when a recipe is read: keeps small commands quick
 
     validator = jsonschema.Draft202012Validator(_schema())
-    errors = sorted(validator.iter_errors(data), key=lambda er: list(er.absolute_path))
+    errors = sorted(validator.iter_errors(data),
+                    key=lambda er: [str(p) for p in er.absolute_path])
     if errors:
         er = errors[0]
-        raise ScalesieveError(f"{_where(er.absolute_path)}: {er.message}", source)
+        raise ScalesieveError(f"{_where(er.absolute_path)}: {_schema_message(er)}", source)
     spec = None
-    if "transform" in data:
-        t = data["transform"]
+    if transform is not None:
+        t = transform
         spec = TransformSpec(kind=t.get("kind", "dwt"), wavelet=t.get("wavelet", "db4"),
                              level=t.get("level"), mode=t.get("mode", "symmetric"))
         if spec.wavelet not in discrete_wavelets():
             raise ScalesieveError(
-                f"key 'transform.wavelet': {spec.wavelet!r} is not a discrete PyWavelets wavelet",
-                source)
+                f"key 'transform.wavelet': {_short(repr(spec.wavelet), 40)} is not a discrete "
+                "PyWavelets wavelet", source)
     edits = []
     for i, e in enumerate(edits_raw, 1):
         kw = dict(e)
-        if e["op"] == "region" and kw["start_s"] >= kw["stop_s"]:
-            raise ScalesieveError(
-                f"edit {i} (region): start_s {kw['start_s']:g} must be before stop_s "
-                f"{kw['stop_s']:g}", source)
         if e["op"] == "region":
             kw.setdefault("gain", 0.0)
         for fkey in ("gain", "value", "scale", "start_s", "stop_s"):
             if fkey in kw and kw[fkey] is not None:
                 kw[fkey] = float(kw[fkey])
-        edits.append(Edit(**kw))
+        edit = Edit(**kw)
+        check_edit(edit, i, source)
+        edits.append(edit)
     return Recipe(spec, tuple(edits))
 
 
 def save(recipe: Recipe, path: str | os.PathLike, force: bool = False, protect=()) -> None:
     from scalesieve.io.writers import write_json
 
-    write_json(path, recipe.to_json(), force=force)
+    write_json(path, recipe.to_json(), force=force, protect=protect)
 
 
 def with_edits(recipe: Recipe, edits: Iterable[Edit]) -> Recipe:
