@@ -33,7 +33,8 @@ import numpy as np
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
 from scalesieve.io.gaps import check_fill_method, fill_linear
-from scalesieve.io.input_check import check_readable, os_error_message
+from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
+                                       os_error_message)
 
 #: Largest relative spread of time steps, (max - min) / median, still called uniform.
 UNIFORM_STEP_TOLERANCE = 1e-3
@@ -298,7 +299,7 @@ def time_unit_of(name: str) -> tuple[float, str] | None:
         if unit in TIME_UNITS:
             return TIME_UNITS[unit], unit
         if base in _TIME_WORDS:
-            raise ValueError(f"time column {name!r} has unit {unit!r}; "
+            raise ValueError(f"time column {_quoted(name)} has unit {_quoted(unit)}; "
                              f"use one of s, ms, us, ns, min, h")
         return None
     m = _SLASH_RE.match(n)
@@ -306,7 +307,7 @@ def time_unit_of(name: str) -> tuple[float, str] | None:
         unit = m.group(2)
         if unit in TIME_UNITS:
             return TIME_UNITS[unit], unit
-        raise ValueError(f"time column {name!r} has unit {unit!r}; "
+        raise ValueError(f"time column {_quoted(name)} has unit {_quoted(unit)}; "
                          f"use one of s, ms, us, ns, min, h")
     m = _UNDERSCORE_RE.match(n)
     if m:
@@ -429,9 +430,14 @@ def _parse_bulk(body: str, layout: TextLayout) -> np.ndarray | None:
     return values
 
 
+def _quoted(text: str, limit: int = 40) -> str:
+    """``repr`` of a cell or a name, cut so a message stays one readable line."""
+    return repr(text) if len(text) <= limit else repr(text[:limit - 1] + "…")
+
+
 def _column_label(layout: TextLayout, j: int) -> str:
     if layout.names is not None and layout.names[j]:
-        return f"column {j + 1} ({layout.names[j]!r})"
+        return f"column {j + 1} ({_quoted(layout.names[j])})"
     return f"column {j + 1}"
 
 
@@ -456,7 +462,7 @@ def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray,
             if v is _NOT_A_NUMBER:
                 what = "time value" if (j == 0 and layout.time_scale is not None) else "cell"
                 raise ScalesieveError(
-                    f"{_column_label(layout, j)}: {what} {cell!r} is not a number",
+                    f"{_column_label(layout, j)}: {what} {_quoted(cell)} is not a number",
                     source=source, line=lineno)
             row.append(v)
         rows.append(row)
@@ -654,6 +660,15 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
                 f"{_column_label(layout, columns[int(empty[0])])} holds no values to fill "
                 "gaps from", source=source)
         filled = int(fill_linear(values).sum())
+
+    big = first_too_large(values)
+    if big is not None:
+        r, c = big
+        if linenos is None:
+            linenos = _data_linenos(text, layout)
+        raise ScalesieveError(
+            f"{_column_label(layout, columns[c])}: value {float(values[r, c]):.6g} is too large "
+            f"to analyse (beyond ±{MAX_ABS_SAMPLE:g})", source=source, line=int(linenos[r]))
 
     time_start = None
     if rate is None:

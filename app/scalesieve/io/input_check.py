@@ -6,7 +6,14 @@ import errno
 import os
 import stat
 
+import numpy as np
+
 from scalesieve.errors import ScalesieveError
+
+#: Largest sample magnitude accepted.  Squares and sums of squares of bigger
+#: values overflow float64 (energies, RMS, thresholds); no recorder writes
+#: them, so such a value means a damaged file or a wrong column.
+MAX_ABS_SAMPLE = 1e100
 
 
 def os_error_message(exc: OSError) -> str:
@@ -52,3 +59,19 @@ def check_readable(path: str | os.PathLike[str]) -> tuple[str, int]:
     if st.st_size == 0:
         raise ScalesieveError("file is empty", source=source)
     return source, int(st.st_size)
+
+
+def first_too_large(values: np.ndarray, block: int = 1 << 20) -> tuple[int, int] | None:
+    """``(row, column)`` of the first value beyond ``MAX_ABS_SAMPLE``, or ``None``.
+
+    Scanned in blocks so a long recording needs no full-size temporary.
+    """
+    if float(np.finfo(values.dtype).max) <= MAX_ABS_SAMPLE:
+        return None  # float32 cannot hold such a value (and 1e100 does not fit in it)
+    for start in range(0, values.shape[0], block):
+        part = values[start:start + block]
+        big = np.abs(part) > MAX_ABS_SAMPLE
+        if big.any():
+            r, c = np.argwhere(big)[0]
+            return start + int(r), int(c)
+    return None

@@ -17,7 +17,8 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.io import csv_reader
 from scalesieve.io.csv_reader import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
-from scalesieve.io.input_check import check_readable, os_error_message
+from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
+                                       os_error_message)
 
 #: Extensions always read as text tables (unless the content is audio).
 TEXT_EXTENSIONS = frozenset({".csv", ".tsv", ".txt", ".dat", ".tab", ".asc"})
@@ -34,12 +35,15 @@ _FIXED_WIDTH = {"PCM_S8": 1, "PCM_U8": 1, "ULAW": 1, "ALAW": 1, "PCM_16": 2,
 # Containers whose samples are compressed whatever the subtype says.
 _COMPRESSED_FORMATS = frozenset({"FLAC", "OGG", "MP3", "MPEG"})
 
-# A compressed stream cannot plausibly hold more samples per byte than this
-# (FLAC of digital silence comes to a few hundred); beyond it the header is not
-# trusted and the samples are read block by block instead of preallocated.
-_MAX_SAMPLES_PER_BYTE = 1024
+# Samples per byte of a compressed stream up to which its header's frame
+# count is trusted for one allocation: ordinary audio compresses 2-4 times
+# (FLAC, ADPCM); silence far more, and those files, like every header claiming
+# more, are read block by block, so memory follows what the file really holds.
+_MAX_SAMPLES_PER_BYTE = 16
 
-_BLOCK_FRAMES = 1 << 16
+# Samples (frames x channels) per block read: a header with many channels
+# must not turn one block into a huge buffer.
+_BLOCK_SAMPLES = 1 << 18
 
 # soundfile >= 0.11 raises SoundFileError; older releases plain RuntimeError.
 _SF_ERRORS = (getattr(sf, "SoundFileError", RuntimeError), RuntimeError, ValueError, TypeError)
@@ -87,12 +91,29 @@ def _kind(source: str) -> str:
     return "audio"
 
 
+# libsndfile reasons that mislead or mean nothing to a user, and what they mean here
+# (the file exists and is regular: check_readable said so).
+_PLAIN_REASONS = (
+    ("File does not exist or is not a regular file", "format not recognised"),
+    ("Unspecified internal error", "damaged header or data"),
+    ("Internal error : SF_INFO struct incomplete", "damaged header"),
+    ("Internal psf_fseek() failed", "the data ends before the header says"),
+    ("unknown error in flac decoder", "damaged FLAC data"),
+)
+
+
 def _sf_reason(exc: Exception) -> str:
-    """libsndfile's own reason, without the 'Error opening <path>:' prefix."""
-    text = str(exc)
+    """libsndfile's own reason, without the 'Error opening <path>:' prefix, in plain words."""
+    text = " ".join(str(exc).split())
     if ": " in text and text.startswith("Error opening"):
         text = text.split(": ", 1)[1]
-    return text.strip().rstrip(".") or type(exc).__name__
+    for raw, plain in _PLAIN_REASONS:
+        if raw in text:
+            return plain
+    text = text.strip().rstrip(".")
+    if len(text) > 120:
+        text = text[:119] + "…"
+    return text or type(exc).__name__
 
 
 def _audio_info(source: str, ext: str):
@@ -134,8 +155,9 @@ def _check_dtype(dtype) -> np.dtype:
 def _read_blocks(f: sf.SoundFile, pick: int | None, dtype: np.dtype) -> np.ndarray:
     """Every frame, read in blocks: memory grows only with what is really there."""
     parts = []
+    frames = max(1, _BLOCK_SAMPLES // max(f.channels, 1))
     while True:
-        block = f.read(_BLOCK_FRAMES, dtype=dtype.name, always_2d=True)
+        block = f.read(frames, dtype=dtype.name, always_2d=True)
         if block.shape[0] == 0:
             break
         parts.append(block if pick is None else block[:, pick:pick + 1].copy())
@@ -171,9 +193,9 @@ def _read_audio_samples(source: str, info, frames: int, trusted: bool, size: int
                 got = f.read(frames, dtype=dtype.name, always_2d=True, out=out)
                 return out[:got.shape[0]]
             done = 0
+            step = max(1, _BLOCK_SAMPLES // max(channels, 1))
             while done < frames:
-                block = f.read(min(_BLOCK_FRAMES, frames - done), dtype=dtype.name,
-                               always_2d=True)
+                block = f.read(min(step, frames - done), dtype=dtype.name, always_2d=True)
                 if block.shape[0] == 0:
                     break
                 out[done:done + block.shape[0], 0] = block[:, pick]
@@ -233,6 +255,13 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
             meta["filled_gaps"] = int(fill_linear(samples).sum())
         except ValueError:
             raise ScalesieveError("a channel holds only NaN samples", source=source) from None
+    big = first_too_large(samples)
+    if big is not None:
+        r, c = big
+        raise ScalesieveError(
+            f"sample {r} (at {r / file_rate:.6g} s) of channel "
+            f"{pick if pick is not None else c} is {float(samples[r, c]):.3g}, beyond "
+            f"±{MAX_ABS_SAMPLE:g}; the file looks damaged", source=source)
 
     names = [f"ch{k}" for k in range(info.channels)]
     if pick is not None:
