@@ -7,7 +7,8 @@ How edits stay cheap (the inverse transform is linear):
 
 * the cleaned signal is kept as ``original - inverse(c - e)`` where ``c``
   are the original coefficients and ``e`` the edited ones, so an empty
-  recipe gives the input back exactly and untouched spans stay untouched;
+  recipe gives the input back exactly (it *is* the input until the first
+  edit) and untouched spans stay untouched;
 * no edited copy of a band is kept: a band's state is its chain of edits,
   and ``e`` is worked out from ``c`` where it is needed, block by block
   (thresholds that look at the whole band are worked out once and kept);
@@ -29,7 +30,7 @@ exports give bit-identical numbers to a fresh model (the command line).
 
 Memory, for a DWT of one channel of n samples of b bytes: the recording's
 own column (not copied), the coefficients (about n b), the cleaned signal
-(n b), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
+(n b, from the first edit on), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
 when two would pass ``COMPONENT_BYTES``) and, during an edit, about n b of
 temporaries.  The working precision is the recording's: float32 samples
 give float32 coefficients and half the memory (see docs/performance.md).
@@ -91,7 +92,10 @@ class _Channel:
         self.coeffs = tf.forward(x, spec, dtype=dtype, progress=progress)
         self.lengths = [c.shape[0] for c in self.coeffs]
         self.chains: dict = {}           # key -> tuple of edits now applied to the band
-        self.cleaned = np.array(x, dtype=dtype)
+        # With no edit the cleaned signal is the recording itself; it gets its
+        # own array at the first edit (see _own_cleaned): a load touches a
+        # third less memory.
+        self.cleaned = x
         self.components: dict = {}       # ((key, shape), ...) -> time component (LRU)
         self.values: dict = {}           # key -> edited values, kept once someone asked
         self.thresholds: dict = {}       # key -> {chain up to a threshold edit: lambda}
@@ -350,6 +354,7 @@ class DecompositionModel:
                 span_lo, span_hi = 0, n
                 continue
             ch.incremental = True
+            self._own_cleaned(ch)
             spans = [self._gain(ch, members, factor) for members, factor in groups.items()]
             for p in plans:
                 if p.kind in ("window", "band"):
@@ -471,10 +476,22 @@ class DecompositionModel:
             np.subtract(c[b0:b1], ed.chain_values(c[b0:b1], chain, ctx, lams, b0), out=r[b0:b1])
         return r
 
+    def _own_cleaned(self, ch: _Channel) -> None:
+        """Give the cleaned signal its own array before it is written (never the recording)."""
+        if ch.cleaned is ch.x:
+            ch.cleaned = np.array(ch.x, dtype=self.dtype)
+
     def _recompute(self, ch: _Channel, progress=None) -> None:
         """cleaned = x - inverse(c - e) in one inverse transform."""
         ch.incremental = False
         keys = tf.band_keys(self.level)
+        if not any(ch.chains.get(key) for key in keys):
+            ch.cleaned = ch.x                # no edit: the recording itself, exactly
+            if progress:
+                progress(1.0)
+            return
+        if ch.cleaned is ch.x:
+            ch.cleaned = np.empty(self.recording.n, dtype=self.dtype)
         total = len(keys)
 
         def band(i):
@@ -578,7 +595,11 @@ class DecompositionModel:
     # --------------------------------------------------------------- results
 
     def cleaned(self, channel: int | None = None) -> np.ndarray:
-        """Cleaned signal of one channel, or all as (n, channels)."""
+        """Cleaned signal of one channel, or all as (n, channels).
+
+        Read it, do not write into it: until the first edit it is the
+        recording's own column, and an edit may replace the array.
+        """
         if channel is not None:
             return self._ch[channel].cleaned
         return np.column_stack([ch.cleaned for ch in self._ch])

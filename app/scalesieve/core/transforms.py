@@ -205,49 +205,67 @@ def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[
     Coefficient k of a level reads inputs 2k+2-L .. 2k+1 (filter length L),
     so a block of coefficients is the interior of ``pywt.dwt`` on a window
     of the input; the C code sums the same taps in the same order, so the
-    numbers are identical.  Blocks make progress reports possible and keep
-    the transient memory to the outputs themselves.
+    numbers are identical.  Blocks make progress reports possible, and let
+    every level's approximation overwrite the one it is made from in a
+    single buffer (a block only reads inputs at or beyond twice its start),
+    so the transform touches little more memory than its output.
     """
     w = pywt.Wavelet(spec.wavelet)
     total = 2 * x.shape[0]            # inputs read over all levels, about
     done = 0
     a = x
+    buf = None
     details = []
     for _ in range(spec.level):
         step = a.shape[0]
-        a, d = _dwt_blocked(a, w, spec.mode, progress, done, total)
+        count, d, buf = _dwt_blocked(a, w, spec.mode, buf, progress, done, total)
+        a = buf[:count]
         done += step
         details.append(d)
         if progress:
             progress(min(1.0, done / total))
+    approx = a.copy()                 # not a view: the buffer goes
+    del a, buf
     if progress:
         progress(1.0)
-    return [a] + details[::-1]
+    return [approx] + details[::-1]
 
 
-def _dwt_blocked(x: np.ndarray, w: pywt.Wavelet, mode: str, progress, done: int, total: int):
+def _dwt_blocked(x: np.ndarray, w: pywt.Wavelet, mode: str, buf, progress, done: int,
+                 total: int):
+    """One level: details in a new array, the approximation into ``buf`` (made if None).
+
+    ``x`` may be the front of ``buf`` itself.  Returns (count, details, buf).
+    """
     n = x.shape[0]
     L = w.dec_len
     count = pywt.dwt_coeff_len(n, L, mode)
     if mode not in _LOCAL_MODES or count <= BLOCK // 2:
-        return pywt.dwt(x, w, mode)
+        ca, cd = pywt.dwt(x, w, mode)
+        if buf is None:
+            buf = np.empty(count, dtype=ca.dtype)
+        buf[:count] = ca
+        return count, cd, buf
     blocks = count // (BLOCK // 2)
     # even split: no short last block (a window shorter than the filter is refused)
     edges = [count * i // blocks for i in range(blocks + 1)]
-    a = d = None
+    d = None
     for k0, k1 in zip(edges[:-1], edges[1:]):
         s0 = max(0, 2 * k0 - L + 2)
         s1 = n if k1 == count else min(n, 2 * k1)
         ca, cd = pywt.dwt(x[s0:s1], w, mode)
-        if a is None:
-            a = np.empty(count, dtype=ca.dtype)
+        if d is None:
             d = np.empty(count, dtype=cd.dtype)
+            if buf is None:
+                buf = np.empty(count, dtype=ca.dtype)
         off = k0 - s0 // 2
-        a[k0:k1] = ca[off:off + k1 - k0]
+        # inputs below s0 are read no more: the next block starts reading at
+        # 2 * k1 - L + 2 >= k1, beyond what this block writes
+        buf[k0:k1] = ca[off:off + k1 - k0]
         d[k0:k1] = cd[off:off + k1 - k0]
         if progress:
             progress(min(1.0, (done + s1) / total))
-    return a, d
+    return count, d, buf
 
 
 def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray:
