@@ -511,8 +511,11 @@ class DecompositionModel:
         """Time component of bands together, each as its ``shape`` chain makes it."""
         comp = ch.components.pop(members, None)
         if comp is None:
+            spare = None
             while ch.components and len(ch.components) >= self._cache_limit():
-                ch.components.pop(next(iter(ch.components)))   # make room first
+                # make room first, and write the new component over the old one:
+                # cached components never leave the model (callers get products)
+                spare = ch.components.pop(next(iter(ch.components)))
             level = self.level
             parts = {tf.band_index(key, level): (key, shape) for key, shape in members}
 
@@ -522,7 +525,8 @@ class DecompositionModel:
                 key, shape = parts[i]
                 return ch.band(key, level) if not shape else self._values_full(ch, key, shape)
 
-            comp = np.empty(self.recording.n, dtype=self.dtype)
+            comp = spare if spare is not None else np.empty(self.recording.n, dtype=self.dtype)
+            del spare
             tf.inverse_into(band, ch.lengths, self.spec, self.recording.n, comp)
         ch.components[members] = comp          # most recently used last
         return comp
