@@ -2,14 +2,18 @@
 
 Nothing the user had is lost: an existing target is replaced only with
 ``force``, an input file (``protect``) never, and a failed write leaves the old
-target untouched and no temporary file behind.
+target untouched and no temporary file behind.  A writer killed outright
+leaves its temporary file, named so that it is clearly ours; the next write of
+the same target removes it.
 """
 
 from __future__ import annotations
 
 import contextlib
 import errno
+import hashlib
 import os
+import socket
 import tempfile
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any, TypeVar
@@ -63,15 +67,79 @@ def check_target(path: str | os.PathLike[str], *, force: bool = False,
     return target
 
 
+#: Marks a temporary file as ours: ``.<stem>.tmp-scalesieve-<pid>.<host>-<random><suffix>``.
+TEMP_MARK = ".tmp-scalesieve-"
+
+
+def _host_tag() -> str:
+    """Six hex digits naming this machine: a pid means nothing on another host."""
+    return hashlib.sha256(socket.gethostname().encode("utf-8", "replace")).hexdigest()[:6]
+
+
+def _temp_prefix(target: str) -> tuple[str, str, str]:
+    """``(folder, prefix common to our temporary files for target, suffix)``."""
+    folder = os.path.dirname(os.path.abspath(target))
+    stem, suffix = os.path.splitext(os.path.basename(target))
+    return folder, f".{stem}{TEMP_MARK}", suffix
+
+
 def _temp_name(target: str) -> str:
     """Create an empty temporary file beside ``target`` with the same suffix."""
-    folder = os.path.dirname(os.path.abspath(target))
-    base = os.path.basename(target)
-    stem, suffix = os.path.splitext(base)
-    # Keep the suffix so that soundfile and numpy infer the format from the name.
-    fd, tmp = tempfile.mkstemp(prefix=f".{stem}.tmp-", suffix=suffix, dir=folder)
+    folder, prefix, suffix = _temp_prefix(target)
+    # Keep the suffix so that soundfile and numpy infer the format from the name;
+    # the pid and host let a later write tell a dead writer's leftover from a live one.
+    fd, tmp = tempfile.mkstemp(prefix=f"{prefix}{os.getpid()}.{_host_tag()}-", suffix=suffix,
+                               dir=folder)
     os.close(fd)
     return tmp
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True  # exists, but belongs to someone else
+    return True
+
+
+def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[str]:
+    """Delete temporary files that killed writers of ``path`` left beside it.
+
+    A writer killed mid-write (power cut, SIGKILL, a crash) cannot remove its
+    temporary file; the next write of the same target does.  Only files named
+    as :func:`_temp_name` names them, made on this machine by a process that
+    no longer runs, are removed; a live writer's file is left alone.
+
+    Returns
+    -------
+    list of str
+        The paths removed.
+    """
+    target = os.fspath(path)
+    folder, prefix, suffix = _temp_prefix(target)
+    host = _host_tag()
+    removed = []
+    try:
+        names = os.listdir(folder)
+    except OSError:
+        return removed
+    for name in names:
+        if not (name.startswith(prefix) and name.endswith(suffix)):
+            continue
+        owner = name[len(prefix):].split("-", 1)[0]
+        pid_text, _, tag = owner.partition(".")
+        if not pid_text.isdigit() or tag != host:
+            continue
+        pid = int(pid_text)
+        if pid == os.getpid() or _alive(pid):
+            continue
+        leftover = os.path.join(folder, name)
+        with contextlib.suppress(OSError):
+            os.unlink(leftover)
+            removed.append(leftover)
+    return removed
 
 
 def _final_mode(target: str) -> int:
@@ -147,6 +215,7 @@ def atomic_target(path: str | os.PathLike[str], *, force: bool = False,
     """
     target = check_target(path, force=force, protect=protect)
     folder = os.path.dirname(os.path.abspath(target))
+    remove_stale_temporaries(target)
     try:
         tmp = _temp_name(target)
     except OSError as exc:
@@ -171,8 +240,12 @@ def atomic_write(path: str | os.PathLike[str], write_fn: Callable[[str], T] | No
     """Write ``path`` atomically by calling ``write_fn(temporary_path)``.
 
     The temporary file sits in the target's folder, is named
-    ``.<stem>.tmp-XXXX<suffix>`` (same suffix, so libraries that infer the
-    format from the name still do), is fsynced, then renamed onto ``path``.
+    ``.<stem>.tmp-scalesieve-<pid>.<host>-XXXX<suffix>`` (same suffix, so
+    libraries that infer the format from the name still do), is fsynced, then
+    renamed onto ``path``.  A writer killed at any moment leaves the old file
+    or the complete new one under ``path``, never a torn one; its temporary
+    file is removed by the next write of ``path``
+    (:func:`remove_stale_temporaries`).
 
     Parameters
     ----------
