@@ -1,0 +1,130 @@
+"""Ask whether to bring back the edits kept from a session that did not end normally.
+
+Shown when a recording is opened and :func:`scalesieve.autosave.pending_restore`
+finds saved edits for it.  It says how many edits there are and when they were
+saved, lists the first few, and warns when the recording changed on disk
+since they were made (detected by its SHA-256).  Three answers: restore them,
+discard them, or decide later (open without them and keep them saved).
+"""
+
+from __future__ import annotations
+
+import datetime
+import os
+
+from PySide6.QtCore import Qt, Slot
+from PySide6.QtWidgets import (QDialog, QDialogButtonBox, QLabel, QListWidget, QVBoxLayout,
+                               QWidget)
+
+RESTORE = "restore"
+DISCARD = "discard"
+LATER = "later"
+_LISTED = 12
+
+
+def _local_time(iso: str) -> str:
+    try:
+        t = datetime.datetime.fromisoformat(iso)
+    except (TypeError, ValueError):
+        return iso or "an unknown time"
+    return t.astimezone().strftime("%Y-%m-%d %H:%M")
+
+
+def edit_lines(info) -> list[str]:
+    """One line per saved edit (from the parsed recipe, else from the raw JSON)."""
+    if info.recipe is not None:
+        return [e.summary() for e in info.recipe.edits]
+    lines = []
+    for e in info.recipe_json.get("edits") or []:
+        if isinstance(e, dict):
+            lines.append(f"{e.get('op', '?')} on {e.get('levels', '?')}")
+        else:
+            lines.append(repr(e)[:60])
+    return lines
+
+
+class RestorePrompt(QDialog):
+    """The question, with the saved edits listed and any change of the recording."""
+
+    def __init__(self, info, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.setObjectName("restorePrompt")
+        self.setWindowTitle("Restore unsaved edits?")
+        self.info = info
+        self.choice = LATER
+        name = os.path.basename(info.path)
+        n = info.edit_count
+        layout = QVBoxLayout(self)
+        self.question = QLabel(
+            f"Scalesieve kept {n} edit{'s' if n != 1 else ''} to {name} from "
+            f"{_local_time(info.saved)} that were not saved to a recipe or exported "
+            "(the program did not close normally). Restore them?")
+        self.question.setObjectName("restoreQuestion")
+        self.question.setWordWrap(True)
+        self.question.setTextFormat(Qt.TextFormat.PlainText)
+        layout.addWidget(self.question)
+
+        self.warning = QLabel()
+        self.warning.setObjectName("restoreWarning")
+        self.warning.setWordWrap(True)
+        self.warning.setTextFormat(Qt.TextFormat.PlainText)
+        if info.changed:
+            self.warning.setText(
+                f"Warning: the recording changed on disk since these edits were made "
+                f"({info.change_reason}). They may not fit it any more: check them before "
+                "exporting.")
+        self.warning.setVisible(info.changed)
+        layout.addWidget(self.warning)
+
+        self.problem = QLabel(info.problem or "")
+        self.problem.setObjectName("restoreProblem")
+        self.problem.setWordWrap(True)
+        self.problem.setTextFormat(Qt.TextFormat.PlainText)
+        self.problem.setVisible(bool(info.problem))
+        layout.addWidget(self.problem)
+
+        self.edits = QListWidget()
+        self.edits.setObjectName("restoreEdits")
+        lines = edit_lines(info)
+        self.edits.addItems(lines[:_LISTED])
+        if len(lines) > _LISTED:
+            self.edits.addItem(f"… and {len(lines) - _LISTED} more")
+        self.edits.setMaximumHeight(160)
+        layout.addWidget(self.edits)
+
+        box = QDialogButtonBox()
+        self.restore_button = box.addButton("Restore edits",
+                                            QDialogButtonBox.ButtonRole.AcceptRole)
+        self.discard_button = box.addButton("Discard them",
+                                            QDialogButtonBox.ButtonRole.DestructiveRole)
+        self.later_button = box.addButton("Decide later", QDialogButtonBox.ButtonRole.RejectRole)
+        self.restore_button.setObjectName("restoreButton")
+        self.discard_button.setObjectName("discardButton")
+        self.later_button.setObjectName("laterButton")
+        # A recipe that no longer reads cannot be restored; keeping it costs nothing.
+        self.restore_button.setEnabled(info.recipe is not None)
+        (self.restore_button if info.recipe is not None else self.later_button).setDefault(True)
+        self.restore_button.clicked.connect(lambda: self._choose(RESTORE))
+        self.discard_button.clicked.connect(lambda: self._choose(DISCARD))
+        self.later_button.clicked.connect(lambda: self._choose(LATER))
+        layout.addWidget(box)
+
+    @Slot()
+    def _choose(self, choice: str) -> None:
+        self.choice = choice
+        if choice == RESTORE:
+            self.accept()
+        else:
+            self.reject()
+
+    def reject(self) -> None:  # Esc and the close button mean "decide later"
+        if self.choice not in (DISCARD,):
+            self.choice = LATER
+        super().reject()
+
+
+def ask_restore(info, parent: QWidget | None = None) -> str:
+    """Show the prompt modally; return ``"restore"``, ``"discard"`` or ``"later"``."""
+    prompt = RestorePrompt(info, parent)
+    prompt.exec()
+    return prompt.choice
