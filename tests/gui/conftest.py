@@ -28,7 +28,9 @@ def window(qtbot, qapp, tmp_path):
     w.resize(1600, 1000)
     w.show()
     yield w
-    w.close()
+    w.close()                 # stops the worker thread
+    w.deleteLater()
+    app.processEvents()
 
 
 def open_sample(window, name: str, timeout: float = 60.0):

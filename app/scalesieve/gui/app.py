@@ -25,7 +25,10 @@ def make_application(argv: list[str] | None = None):
     pg.setConfigOptions(antialias=False, imageAxisOrder="row-major",
                         background=colour("plot", "background"),
                         foreground=colour("plot", "foreground"))
-    app.setStyleSheet(style_sheet())
+    sheet = style_sheet()
+    if app.styleSheet() != sheet:
+        # Setting it again would re-polish every widget there is.
+        app.setStyleSheet(sheet)
     app.setWindowIcon(icon("app"))
     return app
 

@@ -9,6 +9,7 @@ bands are edited in the Recipe pane and are still drawn here.
 
 from __future__ import annotations
 
+import html
 import math
 from dataclasses import replace
 
@@ -27,12 +28,24 @@ from scalesieve.gui.threshold_form import ThresholdForm, short_text
 from scalesieve.recipe import Edit
 
 ROW_HEIGHT = 34
+#: rows share the pane's height within these bounds (scrolling beyond)
+ROW_MIN, ROW_MAX = 28, 46
 AXIS_HEIGHT = 30
 GAIN_RANGE_DB = (-60.0, 24.0)
 #: quick thresholds over all detail levels: label -> (rule, shape)
 ALL_DETAILS = (("universal, soft", "universal", "soft"), ("BayesShrink, soft", "bayes", "soft"),
                ("SURE, soft", "sure", "soft"), ("minimax, soft", "minimax", "soft"),
                ("universal, hard", "universal", "hard"))
+
+
+def percent_text(share: float) -> str:
+    """An energy share for a narrow label: ``24 %``, ``0.46 %``, ``<0.01 %``."""
+    p = 100.0 * share
+    if p == 0:
+        return "0 %"
+    if p < 0.01:
+        return "<0.01 %"
+    return f"{p:.2g} %" if p < 10 else f"{p:.0f} %"
 
 
 def own_edit(edits, op: str, key, channels):
@@ -66,6 +79,7 @@ class BandRow(QWidget):
         self.setObjectName("bandRow")
         self.pane = pane
         self.key = key
+        self.last = last
         self.setFixedHeight(ROW_HEIGHT + (AXIS_HEIGHT if last else 0))
         row = QHBoxLayout(self)
         row.setContentsMargins(0, 0, 0, 0)
@@ -75,7 +89,8 @@ class BandRow(QWidget):
         controls.setObjectName("gutter")
         controls.setFixedWidth(GUTTER_WIDTH)
         c = QHBoxLayout(controls)
-        c.setContentsMargins(8, 3, 6, 3 + (AXIS_HEIGHT if last else 0))
+        c.setContentsMargins(8, 2, 6, 2 + (AXIS_HEIGHT if last else 0))
+        c.setAlignment(Qt.AlignmentFlag.AlignTop)
         c.setSpacing(4)
         self.keep = QToolButton()
         self.keep.setObjectName("keepToggle")
@@ -146,6 +161,11 @@ class BandRow(QWidget):
         self._quiet = False
         self.threshold_value: float | None = None
 
+    def set_row_height(self, h: int) -> None:
+        total = h + (AXIS_HEIGHT if self.last else 0)
+        self.setFixedHeight(total)
+        self.plot.setFixedHeight(total)
+
     # ---------------------------------------------------------- from the model
 
     def show_state(self, model, pictures, channel: int) -> None:
@@ -157,7 +177,7 @@ class BandRow(QWidget):
         kurt_text = "–" if kurt is None else f"{kurt:.3g}"
         name = model.band_name(key)
         self.info.setText(f"<b>{name}</b>&nbsp; {hz_range(lo, hi)}<br>"
-                          f"{100 * st['energy_fraction']:.3g} % · kurt {kurt_text}")
+                          f"{html.escape(percent_text(st['energy_fraction']))} · kurt {kurt_text}")
         self.info.adjustSize()
         scope = self.pane.adapter.edit_channels(channel)
         edits = model.edits
@@ -271,9 +291,9 @@ class BandRow(QWidget):
             self.thr_lo.hide()
         top = peak * 1.08 if peak > 0 else 1.0
         self.plot.getViewBox().setYRange(-top, top, padding=0)
-        label = f"±{peak:.3g}"
+        label = f"±{peak:.2g}"
         if self.threshold_value is not None:
-            label += f"\nλ {self.threshold_value:.3g}"
+            label += f"\nλ {self.threshold_value:.2g}"
         self.scale_label.setText(label)
 
 
@@ -344,6 +364,7 @@ class BandsPane(QFrame):
         self._timer.setInterval(0)
         self._timer.timeout.connect(self.redraw)
         adapter.modelReplaced.connect(self._on_model)
+        adapter.bandsKnown.connect(self._ensure_rows)
         adapter.recipeChanged.connect(self._on_recipe)
         adapter.busyChanged.connect(lambda busy: self.setEnabled(not busy))
 
@@ -359,26 +380,47 @@ class BandsPane(QFrame):
         self._sync_controls()
         self.redraw()
 
+    def _ensure_rows(self, keys) -> None:
+        """One row per band, finest first (kept when the bands stay the same)."""
+        keys = list(keys)
+        if list(self.rows) == keys:
+            return
+        for row in self.rows.values():
+            self.axis.unlink(row.plot.getViewBox())
+            row.setParent(None)
+            row.deleteLater()
+        self.rows = {}
+        while self.body_layout.count():
+            self.body_layout.takeAt(0)
+        for i, key in enumerate(keys):
+            row = BandRow(self, key, last=(i == len(keys) - 1))
+            self.body_layout.addWidget(row)
+            self.rows[key] = row
+        self.body_layout.addStretch(1)
+        self._fit_rows()
+
     def _on_model(self) -> None:
         m = self.adapter.model
         if m is None:
             return
         if self.channel >= m.recording.channels:
             self.channel = 0
-        keys = list(m.band_keys)
-        if list(self.rows) != keys:
-            for row in self.rows.values():
-                self.axis.unlink(row.plot.getViewBox())
-                row.setParent(None)
-                row.deleteLater()
-            self.rows = {}
-            for i, key in enumerate(keys):
-                row = BandRow(self, key, last=(i == len(keys) - 1))
-                self.body_layout.addWidget(row)
-                self.rows[key] = row
-            self.body_layout.addStretch(1)
+        self._ensure_rows(m.band_keys)
         self._sync_controls()
         self.redraw()
+
+    def _fit_rows(self) -> None:
+        """Share the visible height among the rows (scroll only when they do not fit)."""
+        if not self.rows:
+            return
+        room = self.scroll.viewport().height() - AXIS_HEIGHT
+        h = int(max(ROW_MIN, min(ROW_MAX, room // len(self.rows))))
+        for row in self.rows.values():
+            row.set_row_height(h)
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        self._fit_rows()
 
     def _on_recipe(self, change) -> None:
         self._sync_controls()

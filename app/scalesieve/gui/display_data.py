@@ -11,6 +11,7 @@ runs a transform.  No Qt.
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
 from scalesieve.core import metrics as mt
@@ -18,6 +19,16 @@ from scalesieve.gui.decimate import BlockEnvelope
 
 #: a change reaching more than this share of the recording rebuilds a band's envelope
 FULL_REBUILD_SHARE = 0.5
+
+
+def band_figures(arrays: dict) -> dict:
+    """Per band: coefficient count, energy, energy share and Pearson kurtosis."""
+    stats = {key: {"count": int(c.shape[0]), "energy": mt.energy(c),
+                   "kurtosis": mt.pearson_kurtosis(c)} for key, c in arrays.items()}
+    total = sum(st["energy"] for st in stats.values())
+    for st in stats.values():
+        st["energy_fraction"] = st["energy"] / total if total > 0 else 0.0
+    return stats
 
 
 class Superseded(Exception):
@@ -54,33 +65,38 @@ class ChannelPictures:
         self.block = block_size(self.n)
         x = model.original(channel)
         self.original = BlockEnvelope.of(x, self.block)
-        self.cleaned = BlockEnvelope.of(model.cleaned(channel), self.block)
-        self.removed = BlockEnvelope.of_source(self._removed_fetch(model), self.n, self.block)
+        if any(e.applies_to(channel) for e in model.edits):
+            self.cleaned = BlockEnvelope.of(model.cleaned(channel), self.block)
+            self.removed = BlockEnvelope.of_source(self._removed_fetch(model), self.n,
+                                                   self.block)
+        else:
+            # No edit reaches this channel: cleaned is the original, nothing is removed.
+            self.cleaned = self.original.copy()
+            self.removed = self.original.scaled(0.0)
         self.unit: dict = {}
         self.edited: dict = {}
         self.gains: dict = {}
-        self.stats: dict = {}
         keys = list(model.band_keys)
-        energies = {}
-        for key in keys:
-            c = model.coefficients(channel, key)
-            energies[key] = mt.energy(c)
-            self.stats[key] = {"count": int(c.shape[0]), "kurtosis": mt.pearson_kurtosis(c)}
-        total = sum(energies.values())
-        for key in keys:
-            self.stats[key]["energy"] = energies[key]
-            self.stats[key]["energy_fraction"] = energies[key] / total if total > 0 else 0.0
-        # Coarse to fine: the model keeps the last two components it made, and
-        # the finest bands are the ones most often muted first.
-        order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
-        for i, key in enumerate(order):
-            check()
-            if progress:
-                progress(i / len(order), f"drawing band {model.band_name(key)}")
-            comp = model.band_component(channel, key, edited=False)
-            self.unit[key] = BlockEnvelope.of(comp, self.block)
-            del comp
-            self._take_state(model, key, full=True)
+        # Energy share and kurtosis read only the coefficient arrays (which the
+        # model never writes), so a second thread works them out while this one
+        # asks the model for the band components; numpy lets both run at once.
+        arrays = {key: model.coefficients(channel, key) for key in keys}
+        with ThreadPoolExecutor(max_workers=1) as pool:
+            figures = pool.submit(band_figures, arrays)
+            # Coarse to fine: the model keeps the last component it made, and
+            # the finest bands are the ones most often muted first.
+            order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
+            try:
+                for i, key in enumerate(order):
+                    check()
+                    if progress:
+                        progress(i / len(order), f"drawing band {model.band_name(key)}")
+                    comp = model.band_component(channel, key, edited=False)
+                    self.unit[key] = BlockEnvelope.of(comp, self.block)
+                    del comp
+                    self._take_state(model, key, full=True)
+            finally:
+                self.stats = figures.result()
         if progress:
             progress(1.0, "ready")
 

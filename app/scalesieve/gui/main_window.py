@@ -119,30 +119,49 @@ class MainWindow(QMainWindow):
         return d
 
     def _add_events_dock(self):
-        """The Events pane (transient table) when this build has it."""
+        """A place for the Events pane (transient table) when this build has it.
+
+        The pane is made the first time its tab is shown: until someone looks
+        at it, its detection costs nothing (it would run on every new model).
+        """
         if importlib.util.find_spec(EVENTS_MODULE) is None:
-            return None
-        try:
-            mod = importlib.import_module(EVENTS_MODULE)
-            pane = mod.EventsPane(self.adapter, time_axis=self.time_axis,
-                                  scale_map=self.scale_map, parent=self)
-        except Exception as exc:  # a broken optional pane must not stop the window
-            self._events_problem = message_for(exc)
             return None
         # Inside a scroll area the pane's own minimum width cannot widen the window.
         holder = QScrollArea()
         holder.setWidgetResizable(True)
         holder.setFrameShape(QScrollArea.Shape.NoFrame)
-        holder.setWidget(pane)
+        self._events_holder = holder
+        self._events_pane = None
         dock = self._dock("Events", holder, "eventsDock")
         self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, dock)
         self.tabifyDockWidget(self.recipe_dock, dock)
         self.recipe_dock.raise_()
+        dock.visibilityChanged.connect(self._events_shown)
+        return dock
+
+    def _events_shown(self, visible: bool):
+        if visible and self._events_pane is None:
+            self.events_pane()
+
+    def events_pane(self):
+        """The Events pane, made now if it was not yet (None when it cannot start)."""
+        if getattr(self, "_events_pane", None) is not None or self.events_dock is None:
+            return getattr(self, "_events_pane", None)
+        try:
+            mod = importlib.import_module(EVENTS_MODULE)
+            pane = mod.EventsPane(self.adapter, time_axis=self.time_axis,
+                                  scale_map=self.scale_map, parent=self)
+        except Exception as exc:  # a broken optional pane must not stop the window
+            msg = message_for(exc)
+            self._events_holder.setWidget(QLabel(f"The Events pane could not start: {msg}"))
+            return None
+        self._events_holder.setWidget(pane)
+        self._events_pane = pane
         if hasattr(pane, "set_channel"):
-            self._events_pane = pane
+            pane.set_channel(self.channel)
         if hasattr(pane, "channelRequested"):   # an event on another channel: show that one
             pane.channelRequested.connect(lambda k: self.channel_box.setCurrentIndex(k))
-        return dock
+        return pane
 
     def _action(self, text: str, slot, shortcut=None, icon_name: str | None = None,
                 tip: str | None = None) -> QAction:
@@ -366,7 +385,7 @@ class MainWindow(QMainWindow):
         for pane in (self.scale_map, self.bands, self.reconstruction, self.overview):
             pane.set_channel(index)
         ev = getattr(self, "_events_pane", None)
-        if ev is not None:
+        if ev is not None and hasattr(ev, "set_channel"):
             ev.set_channel(index)
 
     def _scope_changed(self, on: bool) -> None:
@@ -609,6 +628,7 @@ class MainWindow(QMainWindow):
         """Draw every pane now and write the whole window as a PNG."""
         for pane in (self.scale_map, self.bands, self.reconstruction, self.overview):
             pane.redraw()
+        self.reconstruction.update_metrics()
         QApplication.processEvents()
 
         def write(tmp: str) -> None:

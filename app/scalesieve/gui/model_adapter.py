@@ -95,6 +95,7 @@ class _Worker(QObject):
 
     finished = Signal(object)          # Result
     progress = Signal(int, float, str)
+    built = Signal(int, object)        # token, band keys: known before the drawing is ready
 
     def __init__(self, cancelled: Callable[[int], bool]):
         super().__init__()
@@ -134,6 +135,7 @@ class _Worker(QObject):
                     model.set_transform(job.spec)
                 else:
                     _transform_with_edits(model, job.spec, level, job.then_edits)
+            self.built.emit(job.token, list(model.band_keys))
             pictures = []
             chans = model.recording.channels
             for k in range(chans):
@@ -167,6 +169,7 @@ class ModelAdapter(QObject):
     Signals
     -------
     modelReplaced : a new recording or a new decomposition is in place
+    bandsKnown(list) : the bands of the run in flight (before it is in place)
     recipeChanged(object) : the model's ``Change`` after an edit, undo or redo
     busyChanged(bool) : a run started or ended
     progress(float, str) : how far the current run is
@@ -174,6 +177,7 @@ class ModelAdapter(QObject):
     """
 
     modelReplaced = Signal()
+    bandsKnown = Signal(object)      # the band keys a run in flight will have
     recipeChanged = Signal(object)
     busyChanged = Signal(bool)
     progress = Signal(float, str)
@@ -203,6 +207,7 @@ class ModelAdapter(QObject):
         self._submit.connect(self._worker.run)
         self._worker.finished.connect(self._on_finished)
         self._worker.progress.connect(self._on_progress)
+        self._worker.built.connect(self._on_built)
         self._thread.start()
         self._coalesce = QTimer(self)
         self._coalesce.setSingleShot(True)
@@ -320,6 +325,12 @@ class ModelAdapter(QObject):
     def _on_progress(self, token: int, frac: float, text: str) -> None:
         if self._running is not None and token == self._running.token:
             self.progress.emit(frac, text)
+
+    @Slot(int, object)
+    def _on_built(self, token: int, keys) -> None:
+        # Panes can lay out their rows while the worker still prepares the drawing.
+        if self._running is not None and token == self._running.token:
+            self.bandsKnown.emit(keys)
 
     @Slot(object)
     def _on_finished(self, res: Result) -> None:

@@ -18,7 +18,12 @@ TRACES = (("original", "Original", "the recording as read"),
           ("cleaned", "Cleaned", "after the recipe"),
           ("removed", "Removed", "original minus cleaned"))
 #: wait this long after the last edit before recomputing the metrics (ms)
-METRICS_DELAY_MS = 60
+METRICS_DELAY_MS = 250
+
+
+#: what the metrics are when no edit reaches the channel
+NOTHING_REMOVED = {"energy_removed_fraction": 0.0, "changed_fraction": 0.0, "snr_db": None,
+                   "peak_change": 0.0}
 
 
 def format_metrics(m: dict) -> str:
@@ -93,7 +98,14 @@ class ReconstructionPane(PaneFrame):
 
     def _on_model(self) -> None:
         self.redraw()
-        self.update_metrics()
+        m = self.adapter.model
+        if m is not None and not any(e.applies_to(self.channel) for e in m.edits):
+            # Nothing edits this channel: cleaned is the original, nothing is removed.
+            self.metrics = None
+            self.metrics_label.setText(format_metrics(NOTHING_REMOVED))
+            return
+        # A full pass over every band: after the first paint, not before it.
+        self._metrics_timer.start()
 
     def _on_recipe(self, change) -> None:
         if self.channel in change.channels:
