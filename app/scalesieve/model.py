@@ -837,12 +837,11 @@ def _blocks(count: int):
     return ((b, min(b + tf.BLOCK, count)) for b in range(0, count, tf.BLOCK))
 
 
-def _axpy(a: float, x: np.ndarray, y: np.ndarray, block: int = 1 << 16) -> None:
-    """y += a * x in cache-sized blocks: one pass over memory, no full temporary."""
-    n = y.shape[0]
-    tmp = np.empty(min(block, n), dtype=y.dtype)
-    for i in range(0, n, block):
-        j = min(i + block, n)
-        t = tmp[: j - i]
-        np.multiply(x[i:j], a, out=t)
-        y[i:j] += t
+def _axpy(a: float, x: np.ndarray, y: np.ndarray) -> None:
+    """y += a * x in one pass over memory, in place (BLAS axpy), no temporary."""
+    from scipy.linalg import blas
+
+    fn = blas.daxpy if y.dtype == np.float64 else blas.saxpy
+    out = fn(x, y, a=a)
+    if out is not y:                   # BLAS worked on a copy (not contiguous): take it
+        y[...] = out
