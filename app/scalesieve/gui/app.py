@@ -64,7 +64,7 @@ def run_window(args) -> int:
         os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     app = make_application()
     from scalesieve.gui import window_settings as ws
-    from scalesieve.gui.error_dialog import install_excepthook
+    from scalesieve.gui.failure_dialog import install_excepthook
     from scalesieve.gui.main_window import MainWindow
 
     if snapshot:
@@ -75,7 +75,8 @@ def run_window(args) -> int:
     else:
         settings = ws.open_settings()
     window = MainWindow(settings)
-    install_excepthook(lambda: window)
+    # A bug in a slot or the worker: a dialog and a log, never a traceback on screen.
+    reporter = install_excepthook(app, lambda: window)
     if snapshot:
         window.resize(*SNAPSHOT_SIZE)
     window.show()
@@ -87,9 +88,11 @@ def run_window(args) -> int:
             raise ScalesieveError(problem)
         window.resize(*SNAPSHOT_SIZE)
         window.snapshot(snapshot, force=force)
+        reporter.uninstall()
         _dispose(app, window)
         return 0
     code = int(app.exec())
+    reporter.uninstall()
     _dispose(app, window)
     return code
 

@@ -2,7 +2,8 @@
 
 Bad input (a :class:`ScalesieveError`) shows exactly the line the command
 line prints after ``scalesieve: error:``.  Anything else is a bug: the user
-sees one line and the path of a log holding the details.
+sees one line and the path of a log holding the details.  (Exceptions that
+escape a slot go to ``failure_dialog``'s hook, installed by ``app``.)
 """
 
 from __future__ import annotations
@@ -62,24 +63,3 @@ def show_error(parent, message: str, title: str = "Scalesieve") -> None:
                       parent)
     box.setTextFormat(Qt.TextFormat.PlainText)
     box.exec()
-
-
-def install_excepthook(parent_getter) -> None:
-    """Turn an exception escaping a Qt slot into a dialog instead of a traceback."""
-
-    def hook(etype, value, tb):
-        if issubclass(etype, KeyboardInterrupt):
-            sys.__excepthook__(etype, value, tb)
-            return
-        if isinstance(value, ScalesieveError):
-            msg = value.one_line()
-        else:
-            details = "".join(traceback.format_exception(etype, value, tb))
-            msg = (f"unexpected failure: {etype.__name__}: {value}"
-                   f"{write_failure_log(value, details)}")
-        try:
-            show_error(parent_getter(), msg)
-        except Exception:  # the dialog itself failed: fall back to one line on stderr
-            print(f"scalesieve: {msg}", file=sys.stderr)
-
-    sys.excepthook = hook

@@ -5,7 +5,7 @@ from __future__ import annotations
 import importlib.util
 import os
 
-from PySide6.QtCore import QByteArray, QRectF, QSize, Qt
+from PySide6.QtCore import QByteArray, QPoint, QRectF, QSize, Qt
 from PySide6.QtGui import QAction, QKeySequence, QPainter
 from PySide6.QtWidgets import (QApplication, QCheckBox, QComboBox, QDockWidget, QFileDialog,
                                QLabel, QMainWindow, QMessageBox, QProgressBar, QScrollArea,
@@ -601,7 +601,7 @@ class MainWindow(QMainWindow):
                 gen.setViewBox(QRectF(0, 0, widget.width(), widget.height()))
                 gen.setTitle("Scalesieve panes")
                 painter = QPainter(gen)
-                widget.render(painter)
+                widget.render(painter, QPoint(0, 0))
                 painter.end()
             else:
                 if not widget.grab().save(tmp, "PNG"):
