@@ -57,12 +57,58 @@ def build_model(recording: Recording, recipe: Recipe | None = None,
     """
     spec = transform or (recipe.transform if recipe is not None else None) or TransformSpec()
     all_edits = tuple(recipe.edits if recipe is not None else ()) + tuple(edits)
+    _check_fits(recording, spec)
     try:
         return DecompositionModel(recording, spec, all_edits, progress=progress)
     except ScalesieveError as exc:
         if exc.source is None:
             exc.source = recording.source or None
         raise
+
+
+def _check_fits(recording: Recording, spec: TransformSpec) -> None:
+    """Refuse, before any work, what the transform cannot take, with advice that fits.
+
+    The readers refuse NaN, infinite and absurdly large samples already; a
+    Recording made in a script is held to the same rules here.
+    """
+    from scalesieve.core import transforms as tf
+    from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_too_large
+
+    source = recording.source or None
+    try:
+        spec.validate()
+    except ValueError as exc:
+        raise ScalesieveError(str(exc), source) from None
+    n = recording.n
+    if n < 2:
+        raise ScalesieveError(
+            f"holds {n} sample{'' if n == 1 else 's'}; a wavelet transform needs at least 2 "
+            "(with haar), and more for longer filters", source)
+    if tf.max_level(n, spec.wavelet) < 1:
+        length = tf.filter_length(spec.wavelet)
+        # One level needs n / (L - 1) >= 2 (PyWavelets' dwt_max_level).
+        raise ScalesieveError(
+            f"{n} samples are too few for wavelet {spec.wavelet} (filter length {length}: one "
+            f"level needs at least {2 * (length - 1)} samples); use haar or another short "
+            "wavelet, or a longer recording", source)
+    samples = recording.samples
+    block = 1 << 20
+    for start in range(0, n, block):
+        part = samples[start:start + block]
+        bad = ~np.isfinite(part)
+        if bad.any():
+            r, c = np.argwhere(bad)[0]
+            what = "NaN" if np.isnan(part[r, c]) else "infinite"
+            raise ScalesieveError(f"sample {start + int(r)} of channel {int(c)} is {what}; "
+                                  "fill or remove it first", source)
+    big = first_too_large(samples)
+    if big is not None:
+        raise ScalesieveError(f"sample {big[0]} of channel {big[1]} is beyond "
+                              f"±{MAX_ABS_SAMPLE:g}, too large to analyse", source)
+    if not (recording.rate > 0 and np.isfinite(recording.rate)):
+        raise ScalesieveError(f"sampling rate {recording.rate!r} must be a positive number of "
+                              "Hz", source)
 
 
 def export(model: DecompositionModel, path: str | os.PathLike, what: str = "cleaned", *,

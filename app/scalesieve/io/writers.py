@@ -51,6 +51,9 @@ _WAV_DATA_LIMIT = 0xFFFFFFFF - (1 << 20)
 # Sample rates are whole numbers in audio headers; a rate this close is rounded.
 _RATE_ROUNDING = 1e-5
 
+# Channel limits of formats that have one (FLAC format specification: 8 channels).
+_MAX_CHANNELS = {"FLAC": 8}
+
 _BLOCK_FRAMES = 1 << 16
 _CSV_CHUNK_ROWS = 1 << 15
 
@@ -165,6 +168,10 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
                          target)
     sr = _whole_rate(rate, target)
     _check_finite(arr, target)
+    most = _MAX_CHANNELS.get(fmt)
+    if most is not None and channels > most:
+        raise ScalesieveError(f"{fmt} holds at most {most} channels and this signal has "
+                              f"{channels}; write .wav (or .csv) instead", source=target)
     if fmt == "WAV" and n * channels * _BYTES_PER_SAMPLE.get(sub, 8) > _WAV_DATA_LIMIT:
         fmt = "RF64"  # same .wav name, 64-bit sizes; soundfile reads it back
     clips = sub not in _FLOAT_SUBTYPES
@@ -185,7 +192,12 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
                             block = np.clip(block, -1.0, 1.0)
                     f.write(block)
         except _SF_ERRORS as exc:
-            raise ScalesieveError(f"could not write {fmt} {sub}: {exc}", source=target) from None
+            # libsndfile names the temporary file; the user knows only the target.
+            reason = " ".join(str(exc).replace(tmp, os.path.basename(target)).split())
+            if reason.startswith("Error opening") and ": " in reason:
+                reason = reason.split(": ", 1)[1]
+            raise ScalesieveError(f"could not write {fmt} {sub}: {reason}",
+                                  source=target) from None
 
     atomic_write(target, write, force=force, protect=protect)
     return {"path": target, "kind": "audio", "format": fmt, "subtype": sub, "rate": float(sr),
