@@ -53,6 +53,8 @@ from scalesieve.recipe import Edit, Recipe, check_against
 
 #: below this share of a band's length a changed window is synthesised locally
 LOCAL_SHARE = 0.125
+#: [robustness] bands with less than this share of a channel's energy get no kurtosis
+ROUNDOFF_SHARE = 1e-20
 #: band components cached per channel for fast gain changes, at most ...
 COMPONENT_CACHE = 2
 #: ... and more than one only while they fit in this many bytes per channel
@@ -736,7 +738,10 @@ class DecompositionModel:
                 "energy": energies[key],
                 "energy_fraction": energies[key] / total if total > 0 else 0.0,
                 "rms": mt.rms(comp), "peak": mt.peak(comp),
-                "kurtosis": mt.pearson_kurtosis(c),
+                # [robustness] A band 200 dB below the channel holds float round-off
+                # only (a constant signal's details); its "shape" means nothing.
+                "kurtosis": (mt.pearson_kurtosis(c) if energies[key] > ROUNDOFF_SHARE * total
+                             else None),
             })
         return rows
 

@@ -116,6 +116,8 @@ def test_constant_signal(tmp_path, capsys, value):
         assert approx["energy_fraction"] == pytest.approx(1.0, abs=1e-15)
     else:
         assert all(b["energy_fraction"] == 0.0 for b in bands)
+    # Kurtosis of round-off is no measure of impulsiveness: none is given.
+    assert all(b["kurtosis"] is None for b in bands if b["kind"] == "detail")
     for rule in ("universal", "bayes", "sure", "minimax"):
         code, _, _ = cli(capsys, "clean", p, "-o", tmp_path / "o.wav", "--force",
                          "--threshold", rule, "--shape", "garrote", "--noise", "level")
