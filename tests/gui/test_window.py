@@ -382,3 +382,46 @@ def test_snapshot_command_writes_a_1600_by_1000_png(tmp_path):
     # An existing file is kept unless --force (shared/CONTRACT.md).
     r = subprocess.run(cmd, capture_output=True, text=True, env=env, timeout=120)
     assert r.returncode == 2 and r.stderr.count("\n") == 1 and "--force" in r.stderr
+
+
+def test_crosshair_readout_names_time_band_and_coefficient(window):
+    m = open_sample(window, PUMP)
+    sm = window.scale_map
+    sm._hovered(1.25, 1.5)                     # row 1: d2
+    text = sm.readout_label.text()
+    # The coefficient nearest 1.25 s, by PyWavelets' own decomposition.
+    c = pywt.wavedec(m.original(0), m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)[-2]
+    times = m.coefficient_times(0, 2)
+    k = int(np.argmin(np.abs(times - 1.25)))
+    assert "t 1.25 s" in text and "d2  3.2–6.4 kHz" in text
+    assert f"{c[k]:+.4g}" in text
+    assert sm.cross_v.isVisible() and sm.cross_v.value() == pytest.approx(1.25)
+
+
+def test_a_selected_region_outline_moves_and_resizes_its_edit(window):
+    m = open_sample(window, PUMP)
+    drag_on_map(window, 1.0, 0.3, 1.5, 1.7)
+    roi = window.scale_map.outlines()[0]
+    assert roi.getHandles()                    # selected: handles to resize
+    roi.setPos((2.0, 1.0), finish=False)       # one row down: d2, d3
+    roi.setSize((0.25, 2.0), finish=True)
+    e = m.edits[0]
+    assert e.start_s == pytest.approx(2.0) and e.stop_s == pytest.approx(2.25)
+    assert e.levels == (2, 3)
+    assert len(m.edits) == 1 and m.can_undo
+
+
+def test_the_undecimated_transform_draws_too(window, qtbot):
+    m = open_sample(window, "lab_trace_baseline.csv")
+    tc = window.transform
+    tc.kind.setCurrentIndex(tc.kind.findData("swt"))
+    assert window.adapter.wait_idle(60) is None
+    assert m.spec.kind == "swt"
+    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    window.time_axis.set_range(5.0, 5.5)
+    window.bands.redraw()
+    xs, ys = window.bands.rows[2].curve.getData()
+    comp = m.band_component(0, 2)
+    k = np.round(xs * m.recording.rate).astype(int)
+    np.testing.assert_allclose(ys, comp[k], rtol=0, atol=1e-12)
+    assert window.scale_map.map_image().shape[0] == m.level + 1

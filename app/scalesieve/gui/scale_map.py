@@ -109,6 +109,11 @@ class RegionOutline(pg.ROI):
                 self.removeHandle(h)
 
 
+def _signed(v: float) -> str:
+    v = float(v)
+    return "0" if v == 0 else f"{v:+.4g}"
+
+
 def contiguous_runs(rows: list[int]) -> list[tuple[int, int]]:
     """[(first row, count)] of consecutive rows."""
     runs: list[tuple[int, int]] = []
@@ -574,4 +579,4 @@ class ScaleMapPane(PaneFrame):
         lo, hi = m.band_range_hz(key)
         return (f"t {format_seconds(round(t, 6))} s\n"
                 f"{m.band_name(key)}  {hz_range(lo, hi)}\n"
-                f"c {c[k]:+.4g}  → {e:+.4g}")
+                f"c {_signed(c[k])}  → {_signed(e)}")
