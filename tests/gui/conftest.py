@@ -6,12 +6,6 @@ os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 import pytest  # noqa: E402
 
-SAMPLES = os.path.join(os.path.dirname(__file__), "..", "..", "sample_signals")
-
-
-def sample(name: str) -> str:
-    return os.path.normpath(os.path.join(SAMPLES, name))
-
 
 @pytest.fixture
 def window(qtbot, qapp, tmp_path):
@@ -31,11 +25,3 @@ def window(qtbot, qapp, tmp_path):
     w.close()                 # stops the worker thread
     w.deleteLater()
     app.processEvents()
-
-
-def open_sample(window, name: str, timeout: float = 60.0):
-    """Open a demo recording (audio directly, text with the reader's own settings)."""
-    window.open_path(sample(name), ask_text_settings=False)
-    problem = window.adapter.wait_idle(timeout)
-    assert problem is None, problem
-    return window.adapter.model

@@ -22,7 +22,7 @@ from PySide6.QtCore import QPointF, Qt, QTimer
 from PySide6.QtTest import QTest
 from PySide6.QtWidgets import QApplication
 
-from conftest import open_sample, sample
+from sample_files import open_sample, sample
 
 PUMP = "pump_bearing.wav"
 

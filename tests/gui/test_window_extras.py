@@ -10,7 +10,7 @@ import pytest
 import soundfile as sf
 from PySide6.QtWidgets import QMessageBox
 
-from conftest import open_sample
+from sample_files import open_sample
 
 
 def test_first_playback_asks_for_care_once_then_plays_the_visible_span(window, monkeypatch):

@@ -12,11 +12,11 @@ import struct
 import numpy as np
 import pytest
 import pywt
-from PySide6.QtCore import QMimeData, QPoint, QPointF, Qt, QUrl
+from PySide6.QtCore import QMimeData, QPointF, Qt, QUrl
 from PySide6.QtGui import QDropEvent
 from PySide6.QtWidgets import QApplication
 
-from conftest import open_sample, sample
+from sample_files import open_sample, sample
 
 PUMP = "pump_bearing.wav"
 

@@ -10,10 +10,23 @@ import tempfile
 SNAPSHOT_SIZE = (1600, 1000)
 
 
+#: Qt messages that say nothing to a user (the offscreen platform cannot size windows)
+QUIET_QT_MESSAGES = ("This plugin does not support propagateSizeHints()",)
+
+
+def _qt_message(mode, context, message) -> None:
+    if message in QUIET_QT_MESSAGES:
+        return
+    print(f"qt: {message}", file=sys.stderr)
+
+
 def make_application(argv: list[str] | None = None):
     """The one QApplication, with our names, style sheet and plotting defaults."""
     import pyqtgraph as pg
+    from PySide6.QtCore import qInstallMessageHandler
     from PySide6.QtWidgets import QApplication
+
+    qInstallMessageHandler(_qt_message)
 
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 

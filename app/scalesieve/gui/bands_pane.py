@@ -22,7 +22,7 @@ from PySide6.QtWidgets import (QComboBox, QDoubleSpinBox, QFrame, QHBoxLayout, Q
 
 from scalesieve.gui.band_labels import db_to_gain, gain_to_db, hz_range
 from scalesieve.gui.decimate import trace_points
-from scalesieve.gui.pane_frame import AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, make_plot
+from scalesieve.gui.pane_frame import GUTTER_WIDTH, RIGHT_MARGIN, make_plot
 from scalesieve.gui.resource_files import colour
 from scalesieve.gui.threshold_form import ThresholdForm, short_text
 from scalesieve.recipe import Edit

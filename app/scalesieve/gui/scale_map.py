@@ -14,10 +14,10 @@ from dataclasses import replace
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QPointF, QRectF, Qt, QTimer, Signal
-from PySide6.QtGui import QAction, QBrush, QColor, QPen
+from PySide6.QtCore import QRectF, Qt, QTimer, Signal
+from PySide6.QtGui import QAction, QBrush, QColor
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QGraphicsRectItem, QHBoxLayout,
-                               QInputDialog, QLabel, QMenu, QWidget)
+                               QInputDialog, QLabel, QMenu)
 
 from scalesieve.gui.band_labels import (band_label, db_to_gain, format_seconds, gain_to_db,
                                         hz_range)
