@@ -6,8 +6,9 @@ folder (``platformdirs.user_data_dir("scalesieve")/sessions``, or
 ``$SCALESIEVE_DATA_DIR/sessions``), written atomically.  When the same
 recording is opened again, :func:`pending_restore` says whether saved edits
 wait there and whether the recording changed on disk since they were made;
-:func:`clear_session` forgets them once the user has saved, exported or
-discarded them, or closed the recording normally.
+:func:`clear_session` forgets them once the user has saved or discarded
+them, or closed the recording normally; :func:`keep_aside` puts them out of
+the way, kept, when the user opens the recording without them.
 
 Whether the recording changed is decided by its SHA-256, taken when the
 session began (the first save, or given by the caller from when the file was
@@ -422,8 +423,31 @@ def clear_session(path: str | os.PathLike[str]) -> bool:
     return True
 
 
+def keep_aside(path: str | os.PathLike[str]) -> str | None:
+    """Move the saved edits of ``path`` out of the way, kept, so new edits do not overwrite them.
+
+    For a user who opens the recording without restoring and without
+    discarding ("keep them for later"): the next :func:`save_session` starts
+    a new session, and the kept file (``<key>.kept-<time>.json``) stays in the
+    sessions folder, listed by :func:`list_sessions`.  Returns its path, or
+    ``None`` when there was nothing to keep.
+    """
+    file = session_file(path)
+    if not os.path.exists(file):
+        return None
+    stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S")
+    kept = file[:-len(".json")] + f".kept-{stamp}.json"
+    try:
+        os.replace(file, kept)
+    except OSError as exc:
+        raise ScalesieveError(f"cannot keep the saved session aside ({exc.strerror or exc})",
+                              source=file) from None
+    return kept
+
+
 def list_sessions() -> list[dict]:
-    """Every readable session: ``path``, ``edits``, ``saved``, ``file`` (newest first)."""
+    """Every readable session, newest first: ``path``, ``edits``, ``saved``, ``file`` and
+    ``kept`` (true for sessions put aside by :func:`keep_aside`)."""
     folder = sessions_dir()
     out = []
     try:
@@ -438,5 +462,5 @@ def list_sessions() -> list[dict]:
             continue
         out.append({"path": data.get("recording", {}).get("given_path"),
                     "edits": data.get("edits", 0), "saved": data.get("saved", ""),
-                    "file": os.path.join(folder, name)})
+                    "file": os.path.join(folder, name), "kept": ".kept-" in name})
     return sorted(out, key=lambda d: d["saved"], reverse=True)

@@ -267,3 +267,15 @@ def test_a_window_killed_while_saving_leaves_a_whole_session(data_dir, recording
     autosave.save_session(recording, RECIPE, {})   # the next save sweeps them away
     assert not [n for n in os.listdir(data_dir / "sessions") if ".tmp-" in n]
     assert len(leftovers) <= 8
+
+
+def test_kept_aside_edits_are_not_overwritten_by_new_ones(data_dir, recording):
+    autosave.save_session(recording, RECIPE, {})
+    kept = autosave.keep_aside(recording)
+    assert kept and ".kept-" in kept and autosave.pending_restore(recording) is None
+    autosave.save_session(recording, Recipe(None, (Edit("gain", levels=(3,), gain=2.0),)), {})
+    sessions = autosave.list_sessions()
+    assert sorted((s["kept"], s["edits"]) for s in sessions) == [(False, 1), (True, 2)]
+    with open(kept, encoding="utf-8") as fh:
+        assert from_json(json.load(fh)["recipe"]) == RECIPE
+    assert autosave.keep_aside(recording.with_name("none.wav")) is None

@@ -49,7 +49,7 @@ def check(runner, target, data, suffix="", options=None):
 # ------------------------------------------------------------- every family
 
 @pytest.mark.parametrize("family", sorted(fuzz_cases.FAMILIES))
-@BOUNDED
+@settings(BOUNDED, max_examples=30)
 @given(number=st.integers(0, 2 ** 40))
 def test_every_family_loads_or_gives_one_plain_error(runner, family, number):
     target, data, suffix, options = fuzz_cases.make_case(family, number)

@@ -4,7 +4,8 @@ Shown when a recording is opened and :func:`scalesieve.autosave.pending_restore`
 finds saved edits for it.  It says how many edits there are and when they were
 saved, lists the first few, and warns when the recording changed on disk
 since they were made (detected by its SHA-256).  Three answers: restore them,
-discard them, or decide later (open without them and keep them saved).
+discard them, or keep them for later (open without them; the window then
+calls ``autosave.keep_aside`` so new edits do not overwrite them).
 """
 
 from __future__ import annotations
@@ -97,7 +98,8 @@ class RestorePrompt(QDialog):
                                             QDialogButtonBox.ButtonRole.AcceptRole)
         self.discard_button = box.addButton("Discard them",
                                             QDialogButtonBox.ButtonRole.DestructiveRole)
-        self.later_button = box.addButton("Decide later", QDialogButtonBox.ButtonRole.RejectRole)
+        self.later_button = box.addButton("Keep them for later",
+                                          QDialogButtonBox.ButtonRole.RejectRole)
         self.restore_button.setObjectName("restoreButton")
         self.discard_button.setObjectName("discardButton")
         self.later_button.setObjectName("laterButton")
@@ -117,14 +119,17 @@ class RestorePrompt(QDialog):
         else:
             self.reject()
 
-    def reject(self) -> None:  # Esc and the close button mean "decide later"
+    def reject(self) -> None:  # Esc and the close button keep the edits for later
         if self.choice not in (DISCARD,):
             self.choice = LATER
         super().reject()
 
 
 def ask_restore(info, parent: QWidget | None = None) -> str:
-    """Show the prompt modally; return ``"restore"``, ``"discard"`` or ``"later"``."""
+    """Show the prompt modally; return ``"restore"``, ``"discard"`` or ``"later"``.
+
+    ``"later"``: open without the edits and call ``autosave.keep_aside(path)``.
+    """
     prompt = RestorePrompt(info, parent)
     prompt.exec()
     return prompt.choice
