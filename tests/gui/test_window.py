@@ -312,16 +312,21 @@ def test_recipe_pane_edits_in_place_reorders_and_deletes(window, qtbot):
     assert gain_item.text(0) == "gain"
     gain_item.setText(1, "0.5")
     assert m.edits[0].gain == 0.5
+    QApplication.processEvents()               # the list is redrawn after an in-place edit
+    assert "×0.5" in tree.topLevelItem(0).text(1)
     levels_item = tree.topLevelItem(0).child(0)
     levels_item.setText(1, "1-3")
     assert m.edits[0].levels == (1, 2, 3)
+    QApplication.processEvents()
     tree.topLevelItem(1).setCheckState(0, Qt.CheckState.Unchecked)
     assert m.edits[1].enabled is False
+    QApplication.processEvents()
     tree.setCurrentItem(tree.topLevelItem(1))
     window.recipe.up.click()
     assert [e.op for e in m.edits] == ["threshold", "gain"]
     tree.topLevelItem(1).child(1).setText(1, "abc")
     assert "not a number" in QApplication.instance().property("scalesieve_last_error")
+    QApplication.processEvents()
     tree.setCurrentItem(tree.topLevelItem(0))
     window.recipe.remove.click()
     assert [e.op for e in m.edits] == ["gain"]
@@ -409,6 +414,9 @@ def test_a_selected_region_outline_moves_and_resizes_its_edit(window):
     assert e.start_s == pytest.approx(2.0) and e.stop_s == pytest.approx(2.25)
     assert e.levels == (2, 3)
     assert len(m.edits) == 1 and m.can_undo
+    QApplication.processEvents()               # outlines are redrawn after the drag
+    roi = window.scale_map.outlines()[0]
+    assert roi.pos().x() == pytest.approx(2.0) and roi.size().y() == pytest.approx(2.0)
 
 
 def test_the_undecimated_transform_draws_too(window, qtbot):

@@ -38,6 +38,16 @@ ALL_DETAILS = (("universal, soft", "universal", "soft"), ("BayesShrink, soft", "
                ("universal, hard", "universal", "hard"))
 
 
+def short_number(v: float) -> str:
+    """Two significant digits, without exponents for the usual sizes (fits the margin)."""
+    a = abs(v)
+    if a >= 100:
+        return f"{v:.0f}"
+    if a >= 1e-4 or a == 0:
+        return f"{v:.2g}"
+    return f"{v:.1e}"
+
+
 def percent_text(share: float) -> str:
     """An energy share for a narrow label: ``24 %``, ``0.46 %``, ``<0.01 %``."""
     p = 100.0 * share
@@ -176,9 +186,11 @@ class BandRow(QWidget):
         kurt = st["kurtosis"]
         kurt_text = "–" if kurt is None else f"{kurt:.3g}"
         name = model.band_name(key)
-        self.info.setText(f"<b>{name}</b>&nbsp; {hz_range(lo, hi)}<br>"
-                          f"{html.escape(percent_text(st['energy_fraction']))} · kurt {kurt_text}")
-        self.info.adjustSize()
+        info = (f"<b>{name}</b>&nbsp; {hz_range(lo, hi)}<br>"
+                f"{html.escape(percent_text(st['energy_fraction']))} · kurt {kurt_text}")
+        if info != self.info.text():
+            self.info.setText(info)
+            self.info.adjustSize()
         scope = self.pane.adapter.edit_channels(channel)
         edits = model.edits
         _, g = own_edit(edits, "gain", key, scope)
@@ -198,11 +210,14 @@ class BandRow(QWidget):
                 self.gain.setValue(gain_to_db(g.gain))
             elif g is None:
                 self.gain.setValue(0.0)
-            self.form.show_edit(t if t is not None and t.enabled else t)
+            self.form.show_edit(t)
             self.threshold.setText(short_text(t))
-            self.threshold.setProperty("active", t is not None and t.enabled)
-            self.threshold.style().unpolish(self.threshold)
-            self.threshold.style().polish(self.threshold)
+            active = t is not None and t.enabled
+            if self.threshold.property("active") != active:
+                # The style sheet colours an active threshold; it reads the property on polish.
+                self.threshold.setProperty("active", active)
+                self.threshold.style().unpolish(self.threshold)
+                self.threshold.style().polish(self.threshold)
         finally:
             self._quiet = False
         self.setProperty("muted", muted)
@@ -291,9 +306,9 @@ class BandRow(QWidget):
             self.thr_lo.hide()
         top = peak * 1.08 if peak > 0 else 1.0
         self.plot.getViewBox().setYRange(-top, top, padding=0)
-        label = f"±{peak:.2g}"
+        label = f"±{short_number(peak)}"
         if self.threshold_value is not None:
-            label += f"\nλ {self.threshold_value:.2g}"
+            label += f"\nλ {short_number(self.threshold_value)}"
         self.scale_label.setText(label)
 
 
@@ -464,32 +479,36 @@ class BandsPane(QFrame):
         """Make, change or drop the band's own gain edit."""
         edits = self.adapter.edits
         i, e = own_edit(edits, "gain", key, scope)
+        ok = True
         if e is None:
             if gain != 1.0:
-                self.adapter.add_edit(Edit("gain", levels=(key,), gain=gain, channels=scope))
+                ok = self.adapter.add_edit(Edit("gain", levels=(key,), gain=gain, channels=scope))
         elif gain == 1.0 and e.enabled:
-            self.adapter.remove_edit(i)
+            ok = self.adapter.remove_edit(i)
         else:
-            self.adapter.replace_edit(i, replace(e, gain=gain, enabled=True))
-        self._sync_controls()
+            ok = self.adapter.replace_edit(i, replace(e, gain=gain, enabled=True))
+        if not ok:
+            self._sync_controls()      # the controls go back to what the recipe says
         self.editMade.emit()
 
     def set_band_threshold(self, key, values: dict, scope) -> None:
         """Make, change or drop the band's own threshold edit."""
         edits = self.adapter.edits
         i, e = own_edit(edits, "threshold", key, scope)
+        ok = True
         if values["rule"] == "off":
             if e is not None:
-                self.adapter.remove_edit(i)
+                ok = self.adapter.remove_edit(i)
         else:
             kw = dict(rule=values["rule"], shape=values["shape"], noise=values["noise"],
                       scale=values["scale"],
                       value=values["value"] if values["rule"] == "manual" else None)
             if e is None:
-                self.adapter.add_edit(Edit("threshold", levels=(key,), channels=scope, **kw))
+                ok = self.adapter.add_edit(Edit("threshold", levels=(key,), channels=scope, **kw))
             else:
-                self.adapter.replace_edit(i, replace(e, enabled=True, **kw))
-        self._sync_controls()
+                ok = self.adapter.replace_edit(i, replace(e, enabled=True, **kw))
+        if not ok:
+            self._sync_controls()
         self.editMade.emit()
 
     def threshold_all(self, rule: str, shape: str) -> None:

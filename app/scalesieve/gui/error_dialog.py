@@ -55,9 +55,9 @@ def show_error(parent, message: str, title: str = "Scalesieve") -> None:
 
     app = QApplication.instance()
     if app is not None and app.property("scalesieve_quiet_errors"):
-        # Snapshots and tests cannot click a dialog away; they read the line instead.
+        # Snapshots and tests cannot click a dialog away; they read the line instead
+        # (a snapshot ends with it as the command line's error).
         app.setProperty("scalesieve_last_error", message)
-        print(f"scalesieve: error: {message}", file=sys.stderr)
         return
     box = QMessageBox(QMessageBox.Icon.Warning, title, message, QMessageBox.StandardButton.Ok,
                       parent)

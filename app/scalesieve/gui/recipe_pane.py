@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from PySide6.QtCore import Qt, Signal
+from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QHBoxLayout, QHeaderView, QLabel,
                                QPushButton, QStyledItemDelegate, QToolButton, QTreeWidget,
                                QTreeWidgetItem, QVBoxLayout, QWidget)
@@ -181,6 +181,11 @@ class RecipePane(QWidget):
         adapter.modelReplaced.connect(self.rebuild)
         adapter.busyChanged.connect(lambda busy: self.setEnabled(not busy))
         self._building = False
+        self._in_item = False
+        self._later = QTimer(self)
+        self._later.setSingleShot(True)
+        self._later.setInterval(0)
+        self._later.timeout.connect(self.rebuild)
         self.rebuild()
 
     def _tool(self, name: str, tip: str) -> QToolButton:
@@ -202,6 +207,12 @@ class RecipePane(QWidget):
 
     def rebuild(self) -> None:
         """Show the model's edits (keeps the selection and what was expanded)."""
+        if self._in_item:
+            # Called back from the item being edited: clearing the tree now would
+            # delete that item under Qt's feet, so the list is redrawn right after.
+            self._later.start()
+            return
+        self._later.stop()
         keep = self.selected_index()
         open_rows = {int(self.tree.topLevelItem(i).data(0, INDEX_ROLE))
                      for i in range(self.tree.topLevelItemCount())
@@ -217,6 +228,7 @@ class RecipePane(QWidget):
                 top.setCheckState(0, Qt.CheckState.Checked if e.enabled
                                   else Qt.CheckState.Unchecked)
                 top.setToolTip(0, "tick: the edit is applied; untick: kept but not applied")
+                top.setToolTip(1, e.summary())
                 for name in FIELDS[e.op]:
                     if name == "value" and e.rule != "manual":
                         continue
@@ -270,6 +282,13 @@ class RecipePane(QWidget):
     def _item_changed(self, item: QTreeWidgetItem, column: int) -> None:
         if self._building:
             return
+        self._in_item = True
+        try:
+            self._apply_item(item)
+        finally:
+            self._in_item = False
+
+    def _apply_item(self, item: QTreeWidgetItem) -> None:
         i = int(item.data(0, INDEX_ROLE))
         edits = self.adapter.edits
         if not 0 <= i < len(edits):

@@ -148,6 +148,7 @@ class ScaleMapPane(PaneFrame):
         self._ref = {}
         self._outlines: list[RegionOutline] = []
         self._building_outlines = False
+        self._in_outline = False
         self._times: dict = {}
 
         self.view = MapViewBox()
@@ -308,7 +309,10 @@ class ScaleMapPane(PaneFrame):
             self._paint()
         if self.selected >= len(m.edits):
             self.selected = -1
-        self._draw_outlines()
+        if self._in_outline:
+            QTimer.singleShot(0, self._draw_outlines)
+        else:
+            self._draw_outlines()
 
     def _schedule(self, *_):
         self._timer.start()
@@ -480,8 +484,13 @@ class ScaleMapPane(PaneFrame):
                 levels = tuple(new_keys)
         new = replace(e, start_s=round(start, 6), stop_s=round(stop, 6), levels=levels)
         if new != e:
-            # Outlines are redrawn from the recipe once the change is in.
-            self.adapter.replace_edit(roi.index, new)
+            # The outlines are redrawn from the recipe once the change is in, after this
+            # handler: the outline being dragged must not be deleted under its own event.
+            self._in_outline = True
+            try:
+                self.adapter.replace_edit(roi.index, new)
+            finally:
+                self._in_outline = False
 
     def _region_menu(self, index: int, screen_pos) -> None:
         m = self.adapter.model
