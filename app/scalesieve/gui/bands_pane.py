@@ -49,13 +49,13 @@ def short_number(v: float) -> str:
 
 
 def percent_text(share: float) -> str:
-    """An energy share for a narrow label: ``24 %``, ``0.46 %``, ``<0.01 %``."""
+    """An energy share for a narrow label: ``24%``, ``0.46%``, ``<0.01%``."""
     p = 100.0 * share
     if p == 0:
-        return "0 %"
+        return "0%"
     if p < 0.01:
-        return "<0.01 %"
-    return f"{p:.2g} %" if p < 10 else f"{p:.0f} %"
+        return "<0.01%"
+    return f"{p:.2g}%" if p < 10 else f"{p:.0f}%"
 
 
 def own_edit(edits, op: str, key, channels):

@@ -58,6 +58,7 @@ class MainWindow(QMainWindow):
         self.adapter.busyChanged.connect(self._busy)
         self.adapter.progress.connect(self._progress)
         self.adapter.failed.connect(lambda msg: show_error(self, msg))
+        self.adapter.notice.connect(lambda msg: self.statusBar().showMessage(msg, 4000))
 
         self.scale_map = ScaleMapPane(self.adapter, self.time_axis, self.settings)
         self.bands = BandsPane(self.adapter, self.time_axis)

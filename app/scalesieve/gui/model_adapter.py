@@ -174,6 +174,7 @@ class ModelAdapter(QObject):
     busyChanged(bool) : a run started or ended
     progress(float, str) : how far the current run is
     failed(str) : a one-line message for a dialog
+    notice(str) : a remark for the status bar
     """
 
     modelReplaced = Signal()
@@ -182,6 +183,7 @@ class ModelAdapter(QObject):
     busyChanged = Signal(bool)
     progress = Signal(float, str)
     failed = Signal(str)
+    notice = Signal(str)             # a passing remark for the status bar
     _submit = Signal(object)
 
     def __init__(self, parent=None):
@@ -274,7 +276,7 @@ class ModelAdapter(QObject):
         """
         m = self.model
         if m is None or self.busy:
-            self.failed.emit("the model is being recomputed; try again in a moment")
+            self.notice.emit("recomputing: try again in a moment")
             return
         edits = tuple(edits)
         if spec is not None:
@@ -419,7 +421,8 @@ class ModelAdapter(QObject):
     def _edit(self, fn, *args) -> bool:
         m = self.model
         if m is None or self.busy:
-            self.failed.emit("the model is being recomputed; try the edit again in a moment")
+            # Not an error: the panes are greyed meanwhile; say why in passing.
+            self.notice.emit("recomputing: the edit was not made; try again in a moment")
             return False
         try:
             fn(m, *args)
