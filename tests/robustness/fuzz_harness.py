@@ -132,8 +132,13 @@ class _Worker:
         tracemalloc.clear_traces()
         tracemalloc.reset_peak()
         start = time.perf_counter()
-        kind, message = self._target(request["target"], path, options)
+        with _native_output() as native:
+            kind, message = self._target(request["target"], path, options)
         seconds = time.perf_counter() - start
+        printed = native.read()
+        if printed.strip() and kind in ("loaded", "error"):
+            # C libraries write to descriptors 1 and 2 directly: a user would see it.
+            kind, message = "crash", f"native output on the terminal: {printed[:300]!r}"
         _, peak = tracemalloc.get_traced_memory()
         if peak > allocation_limit(len(data)):
             kind, message = "huge", f"allocated {peak} bytes for a {len(data)}-byte input; " \
@@ -166,6 +171,8 @@ class _Worker:
                     return self._recipe(path, options)
                 if target == "cli":
                     return self._cli(path, options)
+                if target == "selfcheck":
+                    return self._selfcheck(options)
                 raise ValueError(f"unknown target {target}")
         except ScalesieveError as err:
             problem = _error_problem(err, path)
@@ -177,6 +184,26 @@ class _Worker:
 
             tb = traceback.format_exception(type(exc), exc, exc.__traceback__)
             return "crash", f"{type(exc).__name__}: {exc} | {''.join(tb[-3:])[-600:]}"
+
+    def _selfcheck(self, options: dict) -> tuple[str, str]:
+        """Misbehave on purpose, so tests can show each detector fires."""
+        import numpy as np
+
+        what = options.get("do")
+        if what == "native":
+            os.write(2, b"a C library talking\n")
+        elif what == "sleep":
+            time.sleep(float(options.get("seconds", 60)))
+        elif what == "allocate":
+            a = np.empty(1 << 31)  # 16 GiB, never touched
+            del a
+        elif what == "raise":
+            raise KeyError("selfcheck")
+        elif what == "warn":
+            np.float64(1e308) * 10
+        elif what == "exit":
+            os._exit(3)
+        return "loaded", ""
 
     def _recipe(self, path: str, options: dict) -> tuple[str, str]:
         import numpy as np
@@ -207,6 +234,32 @@ class _Worker:
                 and text.endswith("\n") and "Traceback" not in text:
             return "error", lines[0][len("scalesieve: error: "):]
         return "crash", f"exit {code} with stderr {text[-400:]!r}"
+
+
+class _Captured:
+    def __init__(self, sink):
+        self._sink = sink
+
+    def read(self) -> str:
+        self._sink.seek(0)
+        return self._sink.read().decode("utf-8", "replace")
+
+
+@contextlib.contextmanager
+def _native_output():
+    """Descriptors 1 and 2 into a scratch file, to see what C code prints behind Python."""
+    sink = tempfile.TemporaryFile()
+    sys.stderr.flush()
+    saved = [os.dup(1), os.dup(2)]
+    os.dup2(sink.fileno(), 1)
+    os.dup2(sink.fileno(), 2)
+    try:
+        yield _Captured(sink)
+    finally:
+        os.dup2(saved[0], 1)
+        os.dup2(saved[1], 2)
+        for fd in saved:
+            os.close(fd)
 
 
 @contextlib.contextmanager

@@ -255,3 +255,21 @@ def test_message_templates_blank_files_numbers_and_values():
     a = message_template("/tmp/x/case3.csv: line 4: column 2 ('x'): cell 'a' is not a number")
     b = message_template("/tmp/y/case5.txt: line 90: column 7 ('y'): cell 'zz' is not a number")
     assert a == b
+
+
+# ------------------------------------------- the detectors themselves can fire
+
+@pytest.mark.parametrize("what,kind", [("native", "crash"), ("allocate", "huge"),
+                                       ("raise", "crash"), ("warn", "crash"),
+                                       ("exit", "crash"), (None, "loaded")])
+def test_the_harness_sees_each_kind_of_failure(runner, what, kind):
+    outcome = runner.run("selfcheck", b"", "", {"do": what})
+    assert outcome.kind == kind, outcome.message
+
+
+def test_the_harness_ends_a_hang_and_goes_on():
+    with CaseRunner(timeout_s=2.0) as r:
+        r.run("selfcheck", b"", "", {})          # the first answer pays for imports
+        assert r.run("selfcheck", b"", "", {"do": "sleep", "seconds": 60}).kind == "hang"
+        assert r.run("selfcheck", b"", "", {}).kind == "loaded"
+        assert r.restarts == 1

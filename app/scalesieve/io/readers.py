@@ -19,6 +19,7 @@ from scalesieve.io.csv_reader import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
                                        os_error_message)
+from scalesieve.io.quiet_native import quiet_native_stderr
 
 #: Extensions always read as text tables (unless the content is audio).
 TEXT_EXTENSIONS = frozenset({".csv", ".tsv", ".txt", ".dat", ".tab", ".asc"})
@@ -118,7 +119,8 @@ def _sf_reason(exc: Exception) -> str:
 
 def _audio_info(source: str, ext: str):
     try:
-        return sf.info(source)
+        with quiet_native_stderr():
+            return sf.info(source)
     except _SF_ERRORS as exc:
         reason = _sf_reason(exc)
         if ext in AUDIO_EXTENSIONS:
@@ -229,7 +231,8 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
             source=source)
     pick = check_channel(channel, info.channels, source)
     frames, trusted = _plausible_frames(info, size)
-    samples = _read_audio_samples(source, info, frames, trusted, size, pick, dtype)
+    with quiet_native_stderr():
+        samples = _read_audio_samples(source, info, frames, trusted, size, pick, dtype)
     if samples.shape[0] == 0:
         raise ScalesieveError("holds no readable audio samples (truncated?)", source=source)
 
