@@ -69,11 +69,12 @@ def build_model(recording: Recording, recipe: Recipe | None = None,
 def _check_fits(recording: Recording, spec: TransformSpec) -> None:
     """Refuse, before any work, what the transform cannot take, with advice that fits.
 
-    The readers refuse NaN, infinite and absurdly large samples already; a
-    Recording made in a script is held to the same rules here.
+    The readers refuse NaN, infinite and absurdly large samples already and
+    say so in ``meta["samples_checked"]``; a Recording made in a script is
+    scanned here (one pass over its samples).
     """
     from scalesieve.core import transforms as tf
-    from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_too_large
+    from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_unusable
 
     source = recording.source or None
     try:
@@ -92,20 +93,15 @@ def _check_fits(recording: Recording, spec: TransformSpec) -> None:
             f"{n} samples are too few for wavelet {spec.wavelet} (filter length {length}: one "
             f"level needs at least {2 * (length - 1)} samples); use haar or another short "
             "wavelet, or a longer recording", source)
-    samples = recording.samples
-    block = 1 << 20
-    for start in range(0, n, block):
-        part = samples[start:start + block]
-        bad = ~np.isfinite(part)
-        if bad.any():
-            r, c = np.argwhere(bad)[0]
-            what = "NaN" if np.isnan(part[r, c]) else "infinite"
-            raise ScalesieveError(f"sample {start + int(r)} of channel {int(c)} is {what}; "
-                                  "fill or remove it first", source)
-    big = first_too_large(samples)
-    if big is not None:
-        raise ScalesieveError(f"sample {big[0]} of channel {big[1]} is beyond "
-                              f"±{MAX_ABS_SAMPLE:g}, too large to analyse", source)
+    # Our readers checked their samples already; a Recording made in code is scanned.
+    first = None if recording.meta.get("samples_checked") else first_unusable(recording.samples)
+    if first is not None:
+        r, c = first
+        v = float(recording.samples[r, c])
+        what = ("NaN" if np.isnan(v) else "infinite" if np.isinf(v) else
+                f"{v:.3g}, beyond ±{MAX_ABS_SAMPLE:g}, too large to analyse")
+        raise ScalesieveError(f"sample {r} of channel {c} is {what}; fill, fix or remove it "
+                              "first", source)
     if not (recording.rate > 0 and np.isfinite(recording.rate)):
         raise ScalesieveError(f"sampling rate {recording.rate!r} must be a positive number of "
                               "Hz", source)

@@ -717,6 +717,9 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
         },
         "file_channels": count,
         "filled_gaps": filled,
+        # Every value was checked above (finite, not too large): the model need not
+        # scan them again (api.build_model reads this).
+        "samples_checked": True,
     }
     if pick is not None:
         meta["channel_index"] = pick

@@ -75,3 +75,19 @@ def first_too_large(values: np.ndarray, block: int = 1 << 20) -> tuple[int, int]
             r, c = np.argwhere(big)[0]
             return start + int(r), int(c)
     return None
+
+
+def first_unusable(values: np.ndarray, block: int = 1 << 16) -> tuple[int, int] | None:
+    """``(row, column)`` of the first NaN, infinite or too large value, or ``None``.
+
+    One blocked pass (``not |x| <= MAX`` is true for all three), so checking a
+    long recording costs one read of it and no full-size temporary.
+    """
+    limit = min(MAX_ABS_SAMPLE, float(np.finfo(values.dtype).max))
+    for start in range(0, values.shape[0], block):
+        part = values[start:start + block]
+        ok = np.abs(part) <= limit
+        if not ok.all():
+            r, c = np.argwhere(~ok)[0]
+            return start + int(r), int(c)
+    return None

@@ -17,7 +17,7 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.io import csv_reader
 from scalesieve.io.csv_reader import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
-from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
+from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
                                        os_error_message)
 from scalesieve.io.quiet_native import quiet_native_stderr
 
@@ -244,27 +244,33 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
     if pick is not None:
         meta["channel_index"] = pick
 
-    bad = ~np.isfinite(samples)
-    if bad.any():
+    first = first_unusable(samples)
+    if first is not None and np.isnan(samples[first]) and fill_gaps is not None:
+        # Gaps are filled on request; an infinity or a huge value is still refused.
+        if np.isinf(samples).any():
+            first = tuple(int(v) for v in np.argwhere(np.isinf(samples))[0])
+        else:
+            try:
+                meta["filled_gaps"] = int(fill_linear(samples).sum())
+            except ValueError:
+                raise ScalesieveError("a channel holds only NaN samples",
+                                      source=source) from None
+            first = first_unusable(samples)
+    if first is not None:
         # Only float subtypes can hold these; a broken export, usually.
-        if np.isinf(samples).any() or fill_gaps is None:
-            r, c = np.argwhere(bad)[0]
-            what = "infinite" if np.isinf(samples[r, c]) else "NaN"
-            hint = "" if what == "infinite" else "; use --fill-gaps linear to fill gaps"
-            raise ScalesieveError(
-                f"sample {int(r)} (at {r / file_rate:.6g} s) of channel "
-                f"{pick if pick is not None else int(c)} is {what}{hint}", source=source)
-        try:
-            meta["filled_gaps"] = int(fill_linear(samples).sum())
-        except ValueError:
-            raise ScalesieveError("a channel holds only NaN samples", source=source) from None
-    big = first_too_large(samples)
-    if big is not None:
-        r, c = big
-        raise ScalesieveError(
-            f"sample {r} (at {r / file_rate:.6g} s) of channel "
-            f"{pick if pick is not None else c} is {float(samples[r, c]):.3g}, beyond "
-            f"±{MAX_ABS_SAMPLE:g}; the file looks damaged", source=source)
+        r, c = first
+        value = float(samples[r, c])
+        where = (f"sample {r} (at {r / file_rate:.6g} s) of channel "
+                 f"{pick if pick is not None else c}")
+        if np.isnan(value):
+            raise ScalesieveError(f"{where} is NaN; use --fill-gaps linear to fill gaps",
+                                  source=source)
+        if np.isinf(value):
+            raise ScalesieveError(f"{where} is infinite", source=source)
+        raise ScalesieveError(f"{where} is {value:.3g}, beyond ±{MAX_ABS_SAMPLE:g}; the file "
+                              "looks damaged", source=source)
+    # The model need not scan these samples again (api.build_model reads this).
+    meta["samples_checked"] = True
 
     names = [f"ch{k}" for k in range(info.channels)]
     if pick is not None:
