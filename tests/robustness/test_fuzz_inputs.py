@@ -250,6 +250,19 @@ def test_real_process_prints_one_line_and_exits_2(tmp_path, family, number):
     assert proc.stdout == ""
 
 
+@pytest.mark.parametrize("name", ["junk.mp3", "junk.bin"])
+def test_mpeg_like_junk_gives_one_line_not_the_decoders_notes(tmp_path, name):
+    # An MPEG frame sync (0xFFFB) ahead of junk: libsndfile's MPEG decoder used to
+    # print its own "Cannot read next header" notes to the terminal.
+    p = tmp_path / name
+    p.write_bytes(b"\xff\xfb\x90\x00" + bytes(400))
+    proc = subprocess.run([sys.executable, "-m", "scalesieve", "bands", str(p)],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 2
+    assert proc.stderr.count("\n") == 1 and proc.stderr.startswith("scalesieve: error: "), \
+        proc.stderr
+
+
 def test_message_templates_blank_files_numbers_and_values():
     # The tally's notion of "distinct kinds of message".
     a = message_template("/tmp/x/case3.csv: line 4: column 2 ('x'): cell 'a' is not a number")
