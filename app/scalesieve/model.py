@@ -102,6 +102,7 @@ class _Channel:
         self.values: dict = {}           # key -> edited values, kept once someone asked
         self.thresholds: dict = {}       # key -> {chain up to a threshold edit: lambda}
         self.incremental = False         # cleaned was updated by parts since the last full pass
+        self.contexts: dict = {}         # key -> BandContext
         self._positions: dict = {}
         self._sigma: dict = {}
 
@@ -177,14 +178,29 @@ class DecompositionModel:
         self._report(hi, "decomposed")
 
     def _ctx(self, ch: _Channel, key) -> ed.BandContext:
-        count = ch.lengths[tf.band_index(key, self.spec.level)]
-        spec = self.spec
-        return ed.BandContext(
-            key=key, n_samples=self.recording.n, rate=self.recording.rate,
-            positions=lambda: self._positions(ch, key),
-            sigma_finest=lambda: self._sigma(ch, 1),
-            sigma_level=lambda: self._sigma(ch, key),
-            span=lambda lo, hi: tf.coefficient_slice(key, spec, count, lo, hi))
+        """What edits need to know about a band; made once per band and transform."""
+        ctx = ch.contexts.get(key)
+        if ctx is None:
+            count = ch.lengths[tf.band_index(key, self.spec.level)]
+            spec = self.spec
+            spans: dict = {}
+
+            def span(lo, hi):
+                # every plan and every block asks again for the same regions
+                sl = spans.get((lo, hi))
+                if sl is None:
+                    if len(spans) > 256:
+                        spans.clear()
+                    sl = spans[(lo, hi)] = tf.coefficient_slice(key, spec, count, lo, hi)
+                return sl
+
+            ctx = ch.contexts[key] = ed.BandContext(
+                key=key, n_samples=self.recording.n, rate=self.recording.rate,
+                positions=lambda: self._positions(ch, key),
+                sigma_finest=lambda: self._sigma(ch, 1),
+                sigma_level=lambda: self._sigma(ch, key),
+                span=span)
+        return ctx
 
     def _positions(self, ch: _Channel, key) -> np.ndarray:
         if key not in ch._positions:
@@ -321,32 +337,34 @@ class DecompositionModel:
 
     # ------------------------------------------------------------ the engine
 
-    def _chain(self, edits, channel: int, key) -> tuple:
-        return tuple(e for e in edits
-                     if e.applies_to(channel) and key in e.band_keys(self.level))
+    def _chains(self, edits, channel: int) -> dict:
+        """Every band's chain: the edits that apply to it, in recipe order."""
+        level = self.level
+        chains: dict = {key: [] for key in tf.band_keys(level)}
+        for e in edits:
+            if e.applies_to(channel):
+                for key in dict.fromkeys(e.band_keys(level)):
+                    if key in chains:
+                        chains[key].append(e)
+        return {key: tuple(v) for key, v in chains.items()}
 
     def _apply(self, edits: Sequence[Edit], full: bool = False, progress=None) -> Change:
         """Bring every band to ``edits``; ``full`` recomputes from scratch."""
-        level = self.level
         n = self.recording.n
         touched_bands: set = set()
         span_lo, span_hi = None, None
         channels = []
         for k, ch in enumerate(self._ch):
-            changed = []
-            for key in tf.band_keys(level):
-                chain = self._chain(edits, k, key)
-                if full or ch.chains.get(key, ()) != chain:
-                    changed.append((key, chain))
+            changed = [(key, chain) for key, chain in self._chains(edits, k).items()
+                       if full or ch.chains.get(key, ()) != chain]
             if not changed:
                 continue
             channels.append(k)
             touched_bands.update(key for key, _ in changed)
-            plans = [] if full else [self._plan(ch, key, chain) for key, chain in changed]
-            groups = self._gain_groups(plans)
-            heavy = (sum(p.kind == "band" for p in plans)
-                     + sum(g not in ch.components for g in groups))
-            if full or heavy >= 2:
+            plans = [] if full else self._plans(ch, changed)
+            groups = self._gain_groups(plans or [])
+            if (plans is None or full
+                    or self._syntheses(plans) + sum(g not in ch.components for g in groups) >= 2):
                 # two syntheses or more: one inverse transform is cheaper
                 for key, chain in changed:
                     self._set_chain(ch, key, chain)
@@ -370,6 +388,24 @@ class DecompositionModel:
                     span_hi = span[1] if span_hi is None else max(span_hi, span[1])
         span = None if span_lo is None else (int(span_lo), int(span_hi))
         return Change("recipe", channels, sorted(touched_bands, key=str), span)
+
+    def _plans(self, ch: _Channel, changed: list) -> list[_Plan] | None:
+        """Plans for the changed bands, or None as soon as two would need a synthesis.
+
+        Two syntheses or more cost more than one inverse transform of everything.
+        Gain changes are counted after, by the components they would share.
+        """
+        plans: list[_Plan] = []
+        for key, chain in changed:
+            plans.append(self._plan(ch, key, chain))
+            if self._syntheses(plans[-1:]) and self._syntheses(plans) >= 2:
+                return None
+        return plans
+
+    def _syntheses(self, plans: list[_Plan]) -> int:
+        """How many of these plans synthesise a whole band (gain changes not counted)."""
+        local = self.spec.kind == "dwt"     # the SWT has no local synthesis
+        return sum(p.kind == "band" or (p.kind == "window" and not local) for p in plans)
 
     def _set_chain(self, ch: _Channel, key, chain: tuple) -> None:
         ch.chains[key] = chain
@@ -468,12 +504,15 @@ class DecompositionModel:
         shape, gain = ed.split_gain(chain, self._ctx(ch, key))
         if not shape:
             return None if gain == 1.0 else c * (1.0 - gain)
-        r = np.empty_like(c)
         kept = ch.values.get(key)
         if kept is not None:
-            return np.subtract(c, kept, out=r)
-        lams = self._lams(ch, key, chain)
+            return c - kept
         ctx = self._ctx(ch, key)
+        if c.shape[0] <= tf.BLOCK:
+            # one block: the chain in one go, its thresholds found on the way
+            return c - ed.apply_chain(c, chain, ctx)
+        r = np.empty_like(c)
+        lams = self._lams(ch, key, chain)
         for b0, b1 in _blocks(c.shape[0]):
             np.subtract(c[b0:b1], ed.chain_values(c[b0:b1], chain, ctx, lams, b0), out=r[b0:b1])
         return r
@@ -842,11 +881,25 @@ def _blocks(count: int):
     return ((b, min(b + tf.BLOCK, count)) for b in range(0, count, tf.BLOCK))
 
 
-def _axpy(a: float, x: np.ndarray, y: np.ndarray) -> None:
-    """y += a * x in one pass over memory, in place (BLAS axpy), no temporary."""
-    from scipy.linalg import blas
+#: from this many samples a gain change goes through BLAS (importing it costs ~0.3 s once)
+BLAS_SAMPLES = 1 << 20
 
-    fn = blas.daxpy if y.dtype == np.float64 else blas.saxpy
-    out = fn(x, y, a=a)
-    if out is not y:                   # BLAS worked on a copy (not contiguous): take it
-        y[...] = out
+
+def _axpy(a: float, x: np.ndarray, y: np.ndarray, block: int = 1 << 17) -> None:
+    """y += a * x in place, in one pass over memory (BLAS axpy) for long signals.
+
+    Short ones go in cache-sized blocks through NumPy: no temporary either,
+    and no SciPy import for them.
+    """
+    n = y.shape[0]
+    if n >= BLAS_SAMPLES and y.flags.c_contiguous and x.flags.c_contiguous:
+        from scipy.linalg import blas
+
+        (blas.daxpy if y.dtype == np.float64 else blas.saxpy)(x, y, a=a)
+        return
+    tmp = np.empty(min(block, n), dtype=y.dtype)
+    for i in range(0, n, block):
+        j = min(i + block, n)
+        t = tmp[: j - i]
+        np.multiply(x[i:j], a, out=t)
+        y[i:j] += t

@@ -363,34 +363,43 @@ def coefficient_slice(key, spec: TransformSpec, count: int, lo: float, hi: float
     found from the positions' formula in constant time (no positions array:
     for the finest level that would be half the recording again).
     """
-    level = spec.level
-    j = level if key == "a" else int(key)
+    step, shift = _position_formula(key, spec)
+    return slice(_first_position(lo, step, shift, count, False),
+                 _first_position(hi, step, shift, count, True))
+
+
+@lru_cache(maxsize=1024)
+def _position_formula(key, spec: TransformSpec) -> tuple[float, float]:
+    """(step, shift): coefficient k sits at ``step * k + shift`` samples."""
+    j = spec.level if key == "a" else int(key)
     if spec.kind == "dwt":
         L = filter_length(spec.wavelet)
         s = (L - 1) / 2 - _offset(spec.wavelet, spec.mode)
-        step, shift = 2 ** j, s * (2 ** j - 1)
-    else:
-        step, shift = 1, _swt_shift(spec.wavelet, j, key == "a")
-    f_step = np.float64(step)
+        return float(2 ** j), s * (2 ** j - 1)
+    return 1.0, _swt_shift(spec.wavelet, j, key == "a")
 
-    def pos(k: int) -> np.float64:
-        # exactly as coefficient_positions computes it
-        return f_step * np.float64(k) + shift
 
-    def first(v: float, right: bool) -> int:
-        # first index whose position is >= v (left) or > v (right)
-        if not v == v:                    # NaN sorts last, as searchsorted puts it
-            return count
-        guess = (v - shift) / step
-        k = count if guess >= count else 0 if guess <= 0 else int(math.floor(guess))
-        below = (lambda p: p <= v) if right else (lambda p: p < v)
-        while k > 0 and not below(pos(k - 1)):
+def _first_position(v: float, step: float, shift: float, count: int, right: bool) -> int:
+    """First index whose position is >= v (or > v when ``right``), as searchsorted finds it.
+
+    Positions are computed as coefficient_positions computes them (a product
+    of integers, exact, then one rounded addition), so comparisons agree.
+    """
+    if not v == v:                        # NaN sorts last, as searchsorted puts it
+        return count
+    guess = (v - shift) / step
+    k = count if guess >= count else 0 if guess <= 0 else int(guess)
+    if right:
+        while k > 0 and step * (k - 1) + shift > v:
             k -= 1
-        while k < count and below(pos(k)):
+        while k < count and step * k + shift <= v:
             k += 1
-        return k
-
-    return slice(first(lo, False), first(hi, True))
+    else:
+        while k > 0 and step * (k - 1) + shift >= v:
+            k -= 1
+        while k < count and step * k + shift < v:
+            k += 1
+    return k
 
 
 def band_lengths(n: int, spec: TransformSpec) -> list[int]:
