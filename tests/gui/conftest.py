@@ -25,3 +25,6 @@ def window(qtbot, qapp, tmp_path):
     w.close()                 # stops the worker thread
     w.deleteLater()
     app.processEvents()
+    # Other tests share this application: leave it as it was.
+    app.setProperty("scalesieve_quiet_errors", None)
+    app.setProperty("scalesieve_last_error", None)

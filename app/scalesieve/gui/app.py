@@ -23,10 +23,7 @@ def _qt_message(mode, context, message) -> None:
 def make_application(argv: list[str] | None = None):
     """The one QApplication, with our names, style sheet and plotting defaults."""
     import pyqtgraph as pg
-    from PySide6.QtCore import qInstallMessageHandler
     from PySide6.QtWidgets import QApplication
-
-    qInstallMessageHandler(_qt_message)
 
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 
@@ -75,6 +72,9 @@ def run_window(args) -> int:
 
     if snapshot:
         os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from PySide6.QtCore import qInstallMessageHandler
+
+    qInstallMessageHandler(_qt_message)
     app = make_application()
     from scalesieve.gui import window_settings as ws
     from scalesieve.gui.failure_dialog import install_excepthook
