@@ -433,3 +433,23 @@ def test_the_undecimated_transform_draws_too(window, qtbot):
     k = np.round(xs * m.recording.rate).astype(int)
     np.testing.assert_allclose(ys, comp[k], rtol=0, atol=1e-12)
     assert window.scale_map.map_image().shape[0] == m.level + 1
+
+
+def test_a_region_repaints_only_its_columns_of_the_scale_map_and_they_are_right(window):
+    m = open_sample(window, PUMP)
+    sm = window.scale_map
+    before = sm.map_image().copy()
+    drag_on_map(window, 2.0, 0.3, 2.2, 0.7)     # d1 only
+    after = sm.map_image()
+    t0, t1, width, _ = sm._row_view
+    # Reference: the largest |edited coefficient| per column, worked out here by a loop.
+    e = m.edited_coefficients(0, 1)
+    times = m.coefficient_times(0, 1)
+    edges = t0 + (t1 - t0) * np.arange(width + 1) / width
+    for c in range(width):
+        inside = (times >= edges[c] - 1e-12) & (times < edges[c + 1] - 1e-12)
+        if inside.any():
+            assert after[0, c] == pytest.approx(np.abs(e[inside]).max(), abs=1e-15)
+    changed = np.flatnonzero(after[0] != before[0])
+    assert changed.size and edges[changed[0]] >= 1.99 and edges[changed[-1] + 1] <= 2.21
+    np.testing.assert_array_equal(after[1:], before[1:])

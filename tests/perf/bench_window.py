@@ -59,16 +59,18 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=15)
     args = ap.parse_args()
 
+    from PySide6.QtCore import qInstallMessageHandler
     from PySide6.QtWidgets import QApplication
 
     from scalesieve import api
     from scalesieve.gui import window_settings as ws
-    from scalesieve.gui.app import SNAPSHOT_SIZE, make_application
+    from scalesieve.gui.app import SNAPSHOT_SIZE, _qt_message, make_application
     from scalesieve.gui.main_window import MainWindow
 
     with tempfile.TemporaryDirectory() as tmp:
         src = os.path.join(tmp, "long.wav")
         make_recording(src, args.samples, args.rate)
+        qInstallMessageHandler(_qt_message)   # as the window's command line does
         app = make_application()
         app.setProperty("scalesieve_quiet_errors", True)
         window = MainWindow(ws.open_settings(os.path.join(tmp, "settings.ini")))

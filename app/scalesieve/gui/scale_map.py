@@ -302,9 +302,11 @@ class ScaleMapPane(PaneFrame):
         m = self.adapter.model
         if m is None:
             return
-        if self.channel in change.channels and self.edited_box.isChecked():
+        if (self.channel in change.channels and self.edited_box.isChecked()
+                and self._row_view is not None):
             for key in change.bands:
-                self._rows.pop(key, None)
+                if not self._patch_row(m, key, change.span):
+                    self._rows.pop(key, None)
             self._fill_rows(m)
             self._paint()
         if self.selected >= len(m.edits):
@@ -361,6 +363,30 @@ class ScaleMapPane(PaneFrame):
             k1 = int(np.clip(np.ceil((t1 - first) / step) + 2, k0, count))
             values = m.edited_coefficients(ch, key, k0, k1)
             self._rows[key] = maxabs_columns(values, first + k0 * step, step, t0, t1, width)
+
+    def _patch_row(self, m, key, span) -> bool:
+        """Redo only the columns a local change reaches; False when the row must be redone."""
+        if key not in self._rows or span is None or m.band_gain(self.channel, key) is not None:
+            return False
+        t0, t1, width, ch = self._row_view
+        rate = m.recording.rate
+        dt = (t1 - t0) / width
+        c0 = int(np.clip(np.floor((span[0] / rate - t0) / dt) - 1, 0, width))
+        c1 = int(np.clip(np.ceil((span[1] / rate - t0) / dt) + 1, 0, width))
+        if c1 - c0 > width // 2:
+            return False
+        if c1 <= c0:
+            return True            # the change lies outside the view
+        first, step = self._times[key]
+        a, b = t0 + c0 * dt, t0 + c1 * dt
+        count = m.coefficients(ch, key).shape[0]
+        k0 = int(np.clip(np.floor((a - first) / step) - 1, 0, count))
+        k1 = int(np.clip(np.ceil((b - first) / step) + 2, k0, count))
+        values = m.edited_coefficients(ch, key, k0, k1)
+        row = self._rows[key].copy()
+        row[c0:c1] = maxabs_columns(values, first + k0 * step, step, a, b, c1 - c0)
+        self._rows[key] = row
+        return True
 
     def map_image(self) -> np.ndarray:
         """The magnitudes on screen, one row per band (finest first), before colouring."""
