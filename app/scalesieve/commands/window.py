@@ -10,7 +10,7 @@ from scalesieve.commands.options import add_input_options, add_transform_options
 def demo_path() -> str:
     here = os.path.dirname(os.path.abspath(__file__))
     for cand in (os.path.join(here, "..", "..", "..", "sample_signals", "pump_bearing.wav"),
-                 os.path.join(here, "..", "resources", "pump_bearing.wav")):
+                 os.path.join(here, "..", "sample_signals", "pump_bearing.wav")):
         if os.path.exists(cand):
             return os.path.normpath(cand)
     return ""
