@@ -83,7 +83,8 @@ def _header_fields(raw: bytes) -> list[tuple[int, int, str]]:
 
     WAV/RIFF: fmt and data chunk fields (Microsoft RIFF/WAVE layout); AIFF:
     the COMM chunk (channels, frames, bits, 80-bit rate; Apple AIFF 1.3);
-    FLAC: the STREAMINFO block (FLAC format specification).
+    FLAC: the STREAMINFO block (FLAC format specification).  Offsets from
+    memory; a wrong one only makes a damage less targeted, never a false pass.
     """
     fields: list[tuple[int, int, str]] = []
     if raw[:4] in (b"RIFF", b"RF64"):

@@ -51,7 +51,8 @@ _WAV_DATA_LIMIT = 0xFFFFFFFF - (1 << 20)
 # Sample rates are whole numbers in audio headers; a rate this close is rounded.
 _RATE_ROUNDING = 1e-5
 
-# Channel limits of formats that have one (FLAC format specification: 8 channels).
+# Channel limits of formats that have one (FLAC: 8 channels, its format specification;
+# from memory, and libsndfile refuses more).
 _MAX_CHANNELS = {"FLAC": 8}
 
 _BLOCK_FRAMES = 1 << 16
