@@ -143,7 +143,10 @@ class _Worker:
         if peak > allocation_limit(len(data)):
             kind, message = "huge", f"allocated {peak} bytes for a {len(data)}-byte input; " \
                 + message
-        elif kind == "error" and "memory" in message and len(data) < (1 << 20):
+        elif kind == "error" and "memory" in message and len(data) < (1 << 20) \
+                and "is available" not in message:
+            # The reader turned a failed allocation into a message: it tried one.
+            # (A refusal before reading, "... but only N GiB is available", did not.)
             kind = "huge"
         try:
             os.unlink(path)

@@ -163,14 +163,23 @@ def test_header_claiming_2_31_frames_allocates_nothing_of_the_kind(runner, name,
     assert outcome.peak_bytes < 16 << 20, (name, outcome.peak_bytes)
 
 
-def test_flac_claim_reaches_the_reader_unchanged():
+def test_flac_claim_reaches_the_reader_unchanged(tmp_path):
     # Else the FLAC cases above would not test the reader's own bound.
     import io
+
+    from scalesieve.io.readers import probe
 
     for name, data, _ in _huge_claims():
         if name.startswith("flac"):
             claimed = int(name.rsplit(" ", 1)[1])
             assert sf.info(io.BytesIO(data)).frames == claimed >= 2 ** 31
+            p = tmp_path / "claim.flac"
+            p.write_bytes(data)
+            facts = probe(p)
+            # probe reports the claim, says it is not exact, and bounds what the
+            # file can hold (at most 4096 samples per byte, generous for any codec).
+            assert facts["frames"] == claimed and not facts["frames_exact"]
+            assert facts["frames_at_most"] <= 4096 * len(data)
 
 
 # --------------------------------------------------------------- CSV dialects

@@ -42,6 +42,10 @@ _COMPRESSED_FORMATS = frozenset({"FLAC", "OGG", "MP3", "MPEG"})
 # more, are read block by block, so memory follows what the file really holds.
 _MAX_SAMPLES_PER_BYTE = 16
 
+# No codec packs more samples into a byte than this (FLAC of digital silence
+# comes to a few hundred): the most frames a compressed file can hold, for probe().
+_MOST_SAMPLES_PER_BYTE = 4096
+
 # Samples (frames x channels) per block read: a header with many channels
 # must not turn one block into a huge buffer.
 _BLOCK_SAMPLES = 1 << 18
@@ -344,7 +348,10 @@ def probe(path: str | os.PathLike[str]) -> dict:
     dict
         ``path``, ``kind`` (``"audio"`` or ``"text"``), ``frames``,
         ``frames_exact`` (false when estimated from the file size, or when the
-        header claimed more than the file holds), ``rate`` (``None`` for text
+        header claimed more than the file holds), ``frames_at_most`` (audio: the
+        most frames the file can hold; for a compressed file whose header
+        claims more, less than ``frames``, the header's claim, which reading
+        will not trust), ``rate`` (``None`` for text
         without a time column), ``channels``, ``channel_names``, ``format``,
         ``subtype`` (``None`` for text), ``duration_s`` (``None`` without a
         rate), ``file_bytes`` and ``estimated_bytes``: memory for all samples
@@ -361,11 +368,16 @@ def probe(path: str | os.PathLike[str]) -> dict:
     else:
         info = _audio_info(source, os.path.splitext(source)[1].lower())
         frames, trusted = _plausible_frames(info, size)
+        most = frames
+        if info.format in _COMPRESSED_FORMATS or info.subtype not in _FIXED_WIDTH:
+            most = min(frames, _MOST_SAMPLES_PER_BYTE * size // max(info.channels, 1))
+            trusted = trusted and most == frames
         facts = {
             "path": source,
             "kind": "audio",
             "frames": frames,
             "frames_exact": trusted,
+            "frames_at_most": most,
             "rate": float(info.samplerate),
             "channels": int(info.channels),
             "channel_names": [f"ch{k}" for k in range(info.channels)],
