@@ -501,20 +501,20 @@ class DecompositionModel:
         """``c - e`` of a band under its chain, or None when the band is untouched."""
         c = ch.band(key, self.level)
         chain = ch.chains.get(key, ())
-        shape, gain = ed.split_gain(chain, self._ctx(ch, key))
+        ctx = self._ctx(ch, key)
+        shape, gain = ed.split_gain(chain, ctx)
         if not shape:
             return None if gain == 1.0 else c * (1.0 - gain)
         kept = ch.values.get(key)
         if kept is not None:
             return c - kept
-        ctx = self._ctx(ch, key)
         if c.shape[0] <= tf.BLOCK:
             # one block: the chain in one go, its thresholds found on the way
             return c - ed.apply_chain(c, chain, ctx)
         r = np.empty_like(c)
         lams = self._lams(ch, key, chain)
         for b0, b1 in _blocks(c.shape[0]):
-            np.subtract(c[b0:b1], ed.chain_values(c[b0:b1], chain, ctx, lams, b0), out=r[b0:b1])
+            np.subtract(c[b0:b1], self._values(ch, key, chain, b0, b1, lams), out=r[b0:b1])
         return r
 
     def _own_cleaned(self, ch: _Channel) -> None:
