@@ -114,7 +114,9 @@ class _Worker:
         from scalesieve.core.recording import Recording
 
         self.api = api
-        self.folder = tempfile.mkdtemp(prefix="scalesieve-fuzz-")
+        # Inside the runner's home when there is one: removed with it, even after a kill.
+        self.folder = tempfile.mkdtemp(prefix="scalesieve-fuzz-",
+                                       dir=os.environ.get("SCALESIEVE_FUZZ_HOME") or None)
         os.chdir(self.folder)
         t = np.arange(4096) / 8000.0
         x = np.column_stack([np.sin(2 * np.pi * 440 * t), np.cos(2 * np.pi * 50 * t)])
@@ -313,7 +315,8 @@ class CaseRunner:
                    XDG_DATA_HOME=os.path.join(self.home, "data"),
                    XDG_CACHE_HOME=os.path.join(self.home, "cache"),
                    SCALESIEVE_DATA_DIR=os.path.join(self.home, "data"),
-                   SCALESIEVE_LOG_DIR=os.path.join(self.home, "log"))
+                   SCALESIEVE_LOG_DIR=os.path.join(self.home, "log"),
+                   SCALESIEVE_FUZZ_HOME=self.home)
         self.proc = subprocess.Popen([sys.executable, os.path.join(_HERE, "fuzz_harness.py"),
                                       "--worker"], stdin=subprocess.PIPE,
                                      stdout=subprocess.PIPE, stderr=self._log, env=env,

@@ -27,6 +27,7 @@ import argparse
 import json
 import os
 import random
+import shutil
 import sys
 import time
 
@@ -98,6 +99,7 @@ def run_atheris(args) -> dict:  # pragma: no cover - needs atheris
         if time.monotonic() > deadline:
             # libFuzzer ends with C exit(), which skips Python's atexit: report here.
             report()
+            shutil.rmtree(folder, ignore_errors=True)
             os._exit(0)
         if not data:
             return
