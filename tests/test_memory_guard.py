@@ -71,3 +71,10 @@ def test_command_line_refuses_in_one_line(tmp_path, monkeypatch, capsys):
     assert main(["clean", str(f), "-o", str(out), "--zero", "1"]) == 2
     assert "needs about" in capsys.readouterr().err
     assert not out.exists()
+
+
+def test_a_header_claiming_more_than_the_file_holds_is_not_believed():
+    # readers.probe: frames_at_most is what the file can hold; reading trusts that.
+    facts = {"frames": 10**12, "frames_at_most": 1000, "channels": 1, "kind": "audio",
+             "file_bytes": 2000}
+    assert memory_guard.estimate(facts) == memory_guard.estimate(dict(facts, frames=1000))

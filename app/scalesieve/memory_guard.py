@@ -39,7 +39,8 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
     ----------
     facts : dict
         As ``scalesieve.io.readers.probe`` returns them (``frames``,
-        ``channels``, ``kind``, ``file_bytes``).
+        ``channels``, ``kind``, ``file_bytes``; ``frames_at_most`` bounds
+        ``frames`` when given).
     channel : int, optional
         Only this channel is loaded.
     dtype : float64 or float32
@@ -51,6 +52,9 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
     from scalesieve.core import transforms as tf
 
     n = int(facts["frames"])
+    if facts.get("frames_at_most") is not None:
+        # a damaged header may claim more than the file can hold; reading will not trust it
+        n = min(n, int(facts["frames_at_most"]))
     chans = 1 if channel is not None else max(1, int(facts["channels"]))
     item = np.dtype(dtype).itemsize
     one = n * item
@@ -120,7 +124,8 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
     if need <= available:
         return facts
     chans = int(facts["channels"]) if channel is None else 1
-    what = (f"{int(facts['frames']):,} samples x {chans} channel{'s' if chans > 1 else ''} "
+    frames = min(int(facts["frames"]), int(facts.get("frames_at_most") or facts["frames"]))
+    what = (f"{frames:,} samples x {chans} channel{'s' if chans > 1 else ''} "
             f"in {np.dtype(dtype).name}")
     ways = []
     if channel is None and int(facts["channels"]) > 1:
