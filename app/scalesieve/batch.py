@@ -64,7 +64,7 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
                transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
                removed: str | None = None, subtype: str | None = None, force: bool = False,
                rate: float | None = None, channel: int | None = None,
-               fill_gaps: str | None = None) -> dict:
+               fill_gaps: str | None = None, progress=None) -> dict:
     """Read ``input_path``, apply the recipe and edits, write the cleaned signal.
 
     This is the body of ``scalesieve clean``; the batch calls it for every
@@ -84,6 +84,8 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         Also write what was removed here.
     subtype, force, rate, channel, fill_gaps
         As the command-line options of the same names.
+    progress : callable(fraction, text), optional
+        Told how far the decomposition has got (the command line's bar).
 
     Returns
     -------
@@ -107,7 +109,8 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     for out in outputs:
         api.check_target(out, force, [input_path])
     rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps)
-    model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits))
+    model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits),
+                            progress=progress)
     reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
                           protect=[input_path])]
     if removed:

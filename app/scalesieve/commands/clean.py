@@ -67,6 +67,7 @@ def edits_from_args(args):
 def run(args) -> int:
     from scalesieve import memory_guard
     from scalesieve.batch import clean_file
+    from scalesieve.commands import progress
     from scalesieve.recipe import load as load_recipe
 
     recipe = load_recipe(args.recipe) if args.recipe else None
@@ -74,11 +75,13 @@ def run(args) -> int:
     if recipe is None and not quick:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
     spec = transform_from(args, recipe.transform if recipe else None)
-    memory_guard.check(args.file, channel=args.channel, transform=spec)
+    facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
     # The same function cleans each file of `scalesieve batch`: identical outputs.
-    res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
-                     removed=args.removed, subtype=args.subtype, force=args.force,
-                     rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps)
+    with progress.for_file(args.file, args.channel, facts=facts) as bar:
+        res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
+                         removed=args.removed, subtype=args.subtype, force=args.force,
+                         rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
+                         progress=bar)
     for rep in res["outputs"]:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
