@@ -92,6 +92,11 @@ def run_window(args) -> int:
     reporter = install_excepthook(app, lambda: window)
     if snapshot:
         window.resize(*SNAPSHOT_SIZE)
+    if not snapshot:
+        # Edits are kept after each change and offered back after a crash.
+        from scalesieve.gui.session_keeper import SessionKeeper
+
+        window.session_keeper = SessionKeeper(window)
     window.show()
     window.open_recording(rec, spec, edits)
     if snapshot:

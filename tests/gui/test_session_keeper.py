@@ -1,0 +1,111 @@
+"""No lost work: edits are kept after each change and offered back on reopening."""
+
+import os
+import shutil
+
+import numpy as np
+import pytest
+import soundfile as sf
+
+from scalesieve.recipe import Edit
+
+ROOT = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
+LAB = os.path.join(ROOT, "sample_signals", "pump_bearing.wav")
+
+
+@pytest.fixture
+def data_dir(tmp_path, monkeypatch):
+    d = tmp_path / "userdata"
+    monkeypatch.setenv("SCALESIEVE_DATA_DIR", str(d))
+    return d
+
+
+def _open(window, path, answers):
+    from scalesieve.gui.session_keeper import SessionKeeper
+
+    seen = []
+
+    def ask(info, parent):
+        seen.append(info)
+        return answers.pop(0)
+
+    keeper = SessionKeeper(window, ask=ask)
+    window.open_path(str(path))
+    assert window.adapter.wait_idle(60) is None
+    return keeper, seen
+
+
+def test_edits_saved_then_offered_back(window, qtbot, tmp_path, data_dir):
+    from scalesieve import autosave
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    keeper, seen = _open(window, rec_path, [])
+    assert seen == []
+    window.adapter.add_edit(Edit("gain", levels=(1,), gain=0.0))
+    qtbot.waitUntil(lambda: os.path.exists(autosave.session_file(str(rec_path))), timeout=5000)
+    keeper.save_now()
+    info = autosave.pending_restore(str(rec_path))
+    assert info is not None and info.edit_count == 1 and not info.changed
+    window.close()
+
+
+def test_restore_after_reopening(qtbot, qapp, tmp_path, data_dir):
+    from scalesieve import autosave
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.main_window import MainWindow
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    edits = (Edit("gain", levels=(1,), gain=0.0),
+             Edit("threshold", levels="details", rule="universal"))
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.recipe import Recipe
+
+    autosave.save_session(str(rec_path), Recipe(TransformSpec("dwt", "db4", 6), edits).to_json(),
+                          {"channel": 0})
+    w = MainWindow(ws.open_settings(str(tmp_path / "s.ini")))
+    qtbot.addWidget(w)
+    w.show()
+    keeper, seen = _open(w, rec_path, ["restore"])
+    assert len(seen) == 1 and not seen[0].changed
+    qtbot.waitUntil(lambda: w.adapter.model is not None and len(w.adapter.edits) == 2,
+                    timeout=20000)
+    assert w.adapter.wait_idle(60) is None
+    assert tuple(w.adapter.edits) == edits
+    assert w.adapter.model.spec.level == 6
+    w.close()
+
+
+def test_changed_recording_is_told(qtbot, qapp, tmp_path, data_dir):
+    from scalesieve import autosave
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.main_window import MainWindow
+    from scalesieve.recipe import Recipe
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    autosave.save_session(str(rec_path),
+                          Recipe(None, (Edit("gain", levels=(2,), gain=0.0),)).to_json(), {})
+    x, rate = sf.read(str(rec_path))
+    sf.write(str(rec_path), np.flip(x), rate, subtype="PCM_16")      # the file changed on disk
+    w = MainWindow(ws.open_settings(str(tmp_path / "s.ini")))
+    qtbot.addWidget(w)
+    w.show()
+    keeper, seen = _open(w, rec_path, ["discard"])
+    assert len(seen) == 1 and seen[0].changed and seen[0].change_reason
+    assert autosave.pending_restore(str(rec_path)) is None      # discarded
+    w.close()
+
+
+def test_batch_command_dialog(qtbot, tmp_path):
+    from scalesieve.gui.batch_dialog import BatchCommandDialog, command_for
+
+    cmd = command_for(str(tmp_path / "r.json"), str(tmp_path / "pump.wav"), workers=2)
+    assert cmd.startswith("scalesieve batch") and "r.json" in cmd and "--workers 2" in cmd
+    dlg = BatchCommandDialog(cmd, str(tmp_path / "r.json"))
+    qtbot.addWidget(dlg)
+    dlg.copy_command()
+    from PySide6.QtGui import QGuiApplication
+
+    assert QGuiApplication.clipboard().text() == cmd
