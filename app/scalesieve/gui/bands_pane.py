@@ -24,6 +24,7 @@ from scalesieve.gui.band_labels import db_to_gain, gain_to_db, hz_range
 from scalesieve.gui.decimate import trace_points
 from scalesieve.gui.pane_frame import GUTTER_WIDTH, RIGHT_MARGIN, make_plot
 from scalesieve.gui.resource_files import colour
+from scalesieve.gui.scale_map import first_and_step
 from scalesieve.gui.threshold_form import ThresholdForm, short_text
 from scalesieve.recipe import Edit
 
@@ -259,13 +260,12 @@ class BandRow(QWidget):
         width = max(50, int(self.plot.getViewBox().width()))
         key = self.key
         edited_any = pictures.band_is_edited(key)
+        pending = False
         if mode == "coefficients":
             if model is None:
                 return
             c = model.coefficients(channel, key)
-            times = model.coefficient_times(channel, key)
-            first = float(times[0]) if times.shape[0] else 0.0
-            step = float(times[1] - times[0]) if times.shape[0] > 1 else 1.0 / pictures.rate
+            first, step = first_and_step(model, key)
             g = model.band_gain(channel, key)
             if g is None:
                 fe = lambda a, b: model.edited_coefficients(channel, key, a, b)  # noqa: E731
@@ -283,11 +283,19 @@ class BandRow(QWidget):
             if model is not None:
                 fe = lambda a, b: model.band_component_span(channel, key, a, b, True)  # noqa: E731
                 fo = lambda a, b: model.band_component_span(channel, key, a, b, False)  # noqa: E731
-            xs, ys = trace_points(0.0, step, n, t0, t1, width, fe, pictures.band_envelope(key))
+            env, unit = pictures.band_envelope(key), pictures.unit.get(key)
+            if env is None or unit is None:
+                # Still being made: without it only a zoomed view is drawn (from the
+                # samples in view); a wide one would synthesise the whole band here.
+                span = (t1 - t0) * pictures.rate
+                if span > 2 * pictures.block * width:
+                    fe = fo = None
+            xs, ys = trace_points(0.0, step, n, t0, t1, width, fe, env)
             if edited_any:
-                bx, by = trace_points(0.0, step, n, t0, t1, width, fo, pictures.unit[key])
+                bx, by = trace_points(0.0, step, n, t0, t1, width, fo, unit)
             else:
                 bx, by = np.zeros(0), np.zeros(0)
+            pending = fe is None and env is None
         self.curve.setData(xs, ys)
         self.base.setData(bx, by)
         peak = 0.0
@@ -307,6 +315,8 @@ class BandRow(QWidget):
         top = peak * 1.08 if peak > 0 else 1.0
         self.plot.getViewBox().setYRange(-top, top, padding=0)
         label = f"±{short_number(peak)}"
+        if mode != "coefficients" and pending:
+            label = "drawing…"
         if self.threshold_value is not None:
             label += f"\nλ {short_number(self.threshold_value)}"
         self.scale_label.setText(label)
@@ -381,6 +391,7 @@ class BandsPane(QFrame):
         adapter.modelReplaced.connect(self._on_model)
         adapter.bandsKnown.connect(self._ensure_rows)
         adapter.recipeChanged.connect(self._on_recipe)
+        adapter.bandDrawn.connect(self._band_drawn)
         adapter.busyChanged.connect(lambda busy: self.setEnabled(not busy))
 
     def sizeHint(self):
@@ -448,6 +459,15 @@ class BandsPane(QFrame):
                     self.rows[key].draw(m, pic, self.channel, mode, self.axis.t0, self.axis.t1)
             if mode == "coefficients":
                 self.redraw()
+
+    def _band_drawn(self, channel: int, key) -> None:
+        """A band's envelope came from the background: draw its row."""
+        if channel != self.channel or key not in self.rows:
+            return
+        pic = self.adapter.pictures(self.channel)
+        if pic is not None:
+            self.rows[key].draw(self.adapter.model, pic, self.channel, self.mode.currentData(),
+                                self.axis.t0, self.axis.t1)
 
     def _sync_controls(self) -> None:
         m = self.adapter.model

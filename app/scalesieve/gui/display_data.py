@@ -14,17 +14,56 @@ from __future__ import annotations
 from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
-from scalesieve.core import metrics as mt
+import numpy as np
 from scalesieve.gui.decimate import BlockEnvelope
 
 #: a change reaching more than this share of the recording rebuilds a band's envelope
 FULL_REBUILD_SHARE = 0.5
 
 
+#: coefficients per block when the band figures are summed
+FIGURE_BLOCK = 1 << 16
+
+
+def energy_and_kurtosis(c: np.ndarray) -> tuple[float, float | None, float]:
+    """Energy (sum of squares), Pearson kurtosis E[(x - mean)^4] / var^2 and peak |c| of a band.
+
+    The formulas of ``core.metrics.energy`` and ``core.metrics.pearson_kurtosis``
+    summed block by block: no band-sized temporaries (on a long recording
+    their first touch costs more than the arithmetic).  The sums run in
+    another order, so the figures may differ from those in the last bits.
+    """
+    n = c.shape[0]
+    if n == 0:
+        return 0.0, None, 0.0
+    total = peak = 0.0
+    for b in range(0, n, FIGURE_BLOCK):
+        blk = np.asarray(c[b:b + FIGURE_BLOCK], dtype=np.float64)
+        total += float(blk.sum())
+        peak = max(peak, float(blk.max()), -float(blk.min()))
+    mean = total / n
+    e = s2 = s4 = 0.0
+    for b in range(0, n, FIGURE_BLOCK):
+        blk = np.asarray(c[b:b + FIGURE_BLOCK], dtype=np.float64)
+        e += float(np.dot(blk, blk))
+        d = blk - mean
+        d2 = d * d
+        s2 += float(d2.sum())
+        s4 += float(np.dot(d2, d2))
+    if n < 2:
+        return e, None, peak
+    m2 = s2 / n
+    if m2 <= 0.0 or not np.isfinite(m2):
+        return e, None, peak
+    return e, (s4 / n) / (m2 * m2), peak
+
+
 def band_figures(arrays: dict) -> dict:
-    """Per band: coefficient count, energy, energy share and Pearson kurtosis."""
-    stats = {key: {"count": int(c.shape[0]), "energy": mt.energy(c),
-                   "kurtosis": mt.pearson_kurtosis(c)} for key, c in arrays.items()}
+    """Per band: coefficient count, energy, energy share, Pearson kurtosis and peak |c|."""
+    stats = {}
+    for key, c in arrays.items():
+        e, k, peak = energy_and_kurtosis(c)
+        stats[key] = {"count": int(c.shape[0]), "energy": e, "kurtosis": k, "peak": peak}
     total = sum(st["energy"] for st in stats.values())
     for st in stats.values():
         st["energy_fraction"] = st["energy"] / total if total > 0 else 0.0
@@ -57,7 +96,8 @@ class ChannelPictures:
     """
 
     def __init__(self, model, channel: int, check: Callable[[], None] | None = None,
-                 progress: Callable[[float, str], None] | None = None):
+                 progress: Callable[[float, str], None] | None = None,
+                 bands_later: bool = False):
         check = check or (lambda: None)
         self.channel = channel
         self.n = model.recording.n
@@ -77,6 +117,7 @@ class ChannelPictures:
         self.edited: dict = {}
         self.gains: dict = {}
         keys = list(model.band_keys)
+        self.keys = keys
         # Energy share and kurtosis read only the coefficient arrays (which the
         # model never writes), so a second thread works them out while this one
         # asks the model for the band components; numpy lets both run at once.
@@ -91,6 +132,11 @@ class ChannelPictures:
                     check()
                     if progress:
                         progress(i / len(order), f"drawing band {model.band_name(key)}")
+                    if bands_later:
+                        # The unit envelope comes later (band_envelopes.py); only a
+                        # band edited other than by a gain needs its own now.
+                        self._take_state(model, key, full=True)
+                        continue
                     comp = model.band_component(channel, key, edited=False)
                     self.unit[key] = BlockEnvelope.of(comp, self.block)
                     del comp
@@ -100,14 +146,27 @@ class ChannelPictures:
         if progress:
             progress(1.0, "ready")
 
+    def missing_bands(self) -> list:
+        """Bands whose unit envelope is still to come, finest first."""
+        return [key for key in self.keys if key not in self.unit]
+
+    def put_unit(self, model, key, env: BlockEnvelope) -> None:
+        """Take a band's unit envelope made elsewhere (``model`` as it is now)."""
+        self.unit[key] = env
+        if (model is not None and model.band_gain(self.channel, key) is None
+                and self.edited.get(key) is None):
+            # Edited other than by a gain while the envelope was being made.
+            self._take_state(model, key, full=True)
+
     # ---------------------------------------------------------------- reading
 
-    def band_envelope(self, key) -> BlockEnvelope:
-        """Envelope of the band's component as edited."""
+    def band_envelope(self, key) -> BlockEnvelope | None:
+        """Envelope of the band's component as edited (None: not made yet)."""
         env = self.edited.get(key)
         if env is not None:
             return env
-        return self.unit[key].scaled(self.gains.get(key, 1.0))
+        unit = self.unit.get(key)
+        return None if unit is None else unit.scaled(self.gains.get(key, 1.0))
 
     def band_is_edited(self, key) -> bool:
         return self.edited.get(key) is not None or self.gains.get(key, 1.0) != 1.0
@@ -126,6 +185,13 @@ class ChannelPictures:
             self.gains[key] = float(gain)
             self.edited[key] = None
             return
+        if self.edited.get(key) is None and key not in self.unit:
+            # Edited other than by a gain before the unit envelope came: put_unit
+            # makes the edited one when it does (an envelope made now would be
+            # a full synthesis in the GUI thread).
+            if not full:
+                self.edited[key] = None
+                return
         if full or span is None:
             comp = model.band_component(self.channel, key, edited=True)
             self.edited[key] = BlockEnvelope.of(comp, self.block)
@@ -156,7 +222,7 @@ class ChannelPictures:
             self.cleaned.refresh(span[0], span[1], lambda a, b: cleaned[a:b])
             self.removed.refresh(span[0], span[1], self._removed_fetch(model))
         for key in change.bands:
-            if key in self.unit:
+            if key in self.keys:
                 self._take_state(model, key, full=whole, span=span)
 
     def refresh_all(self, model) -> None:
@@ -164,5 +230,8 @@ class ChannelPictures:
         ch = self.channel
         self.cleaned = BlockEnvelope.of(model.cleaned(ch), self.block)
         self.removed = BlockEnvelope.of_source(self._removed_fetch(model), self.n, self.block)
-        for key in self.unit:
-            self._take_state(model, key, full=True)
+        for key in self.keys:
+            if key in self.unit or model.band_gain(ch, key) is not None:
+                self._take_state(model, key, full=True)
+            else:
+                self.edited[key] = None       # made when the unit envelope comes

@@ -26,6 +26,7 @@ from scalesieve import api
 from scalesieve.core.recording import Recording
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
+from scalesieve.gui.band_envelopes import EnvelopeThread, coefficient_list
 from scalesieve.gui.display_data import ChannelPictures, Superseded
 from scalesieve.model import Change, DecompositionModel
 from scalesieve.recipe import check_against
@@ -120,6 +121,13 @@ class _Worker(QObject):
                 rec = job.load()
                 check()
                 self.progress.emit(job.token, 0.05, "decomposing")
+                try:
+                    early = (job.spec or TransformSpec()).resolved(rec.n).level
+                except ValueError:
+                    early = None            # build_model says why, in one line
+                if early is not None:
+                    # The panes lay out their rows while the recording is decomposed.
+                    self.built.emit(job.token, list(range(1, early + 1)) + ["a"])
                 model = api.build_model(rec, transform=job.spec, edits=job.edits,
                                         progress=self.model_progress)
             else:
@@ -141,7 +149,9 @@ class _Worker(QObject):
             for k in range(chans):
                 def pic_progress(frac, text, k=k):
                     self.progress.emit(job.token, 0.5 + 0.5 * (k + frac) / chans, text)
-                pictures.append(ChannelPictures(model, k, check, pic_progress))
+                # The bands' envelopes follow in the background (band_envelopes.py).
+                pictures.append(ChannelPictures(model, k, check, pic_progress,
+                                                bands_later=True))
             self.finished.emit(Result(job.token, job.kind, model, pictures, label=job.label))
         except Superseded:
             self.finished.emit(Result(job.token, job.kind,
@@ -184,7 +194,10 @@ class ModelAdapter(QObject):
     progress = Signal(float, str)
     failed = Signal(str)
     notice = Signal(str)             # a passing remark for the status bar
+    bandDrawn = Signal(int, object)  # channel, band key: its envelope has come
     _submit = Signal(object)
+    _envelope = Signal(int, int, object, object)   # generation, channel, key, envelope
+    _envelopes_done = Signal(int, object)          # generation, problem or None
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -211,6 +224,10 @@ class ModelAdapter(QObject):
         self._worker.progress.connect(self._on_progress)
         self._worker.built.connect(self._on_built)
         self._thread.start()
+        self._bands_thread: EnvelopeThread | None = None
+        self._bands_generation = 0
+        self._envelope.connect(self._on_envelope)
+        self._envelopes_done.connect(self._on_envelopes_done)
         self._coalesce = QTimer(self)
         self._coalesce.setSingleShot(True)
         self._coalesce.setInterval(COALESCE_MS)
@@ -236,6 +253,10 @@ class ModelAdapter(QObject):
     @property
     def busy(self) -> bool:
         return self._running is not None or self._coalesce.isActive()
+
+    def bands_pending(self) -> bool:
+        """Band envelopes are still being made in the background."""
+        return self._bands_thread is not None
 
     def pictures(self, channel: int) -> ChannelPictures | None:
         if 0 <= channel < len(self._pictures):
@@ -315,6 +336,7 @@ class ModelAdapter(QObject):
             self.busyChanged.emit(True)
 
     def _launch(self, job: Job) -> None:
+        self._stop_bands()        # the envelopes are for pictures about to be replaced
         if job.kind == "transform":
             if not self._lent:
                 self._model.remove_listener(self._on_model_change)
@@ -345,6 +367,7 @@ class ModelAdapter(QObject):
             return
         if res.error:
             self._hand_back(res.model if res.kind == "transform" else None, replace=False)
+            self._start_bands()     # the pictures in place may still miss bands
             self._idle_check()
             self.failed.emit(res.error)
             if res.kind == "transform":
@@ -354,6 +377,7 @@ class ModelAdapter(QObject):
             # Only a transform run can be overtaken without a pending job (by a
             # request still waiting in the coalescing timer), which will start.
             self._hand_back(res.model if res.kind == "transform" else None, replace=False)
+            self._start_bands()
             self._idle_check()
             return
         self._pictures = res.pictures
@@ -363,6 +387,52 @@ class ModelAdapter(QObject):
         self._hand_back(res.model, replace=True)
         self._idle_check()
         self.modelReplaced.emit()
+        self._start_bands()
+
+    # ------------------------------------------------- background envelopes
+
+    def _start_bands(self) -> None:
+        m = self._model
+        self._stop_bands()
+        if m is None or self._lent:
+            return
+        jobs = []
+        for pic in self._pictures:
+            coeffs = coefficient_list(m, pic.channel)
+            for key in pic.missing_bands():
+                jobs.append((pic.channel, key, coeffs, m.spec, pic.n, pic.block))
+        if not jobs:
+            return
+        self._bands_generation += 1
+        gen = self._bands_generation
+        self._bands_thread = EnvelopeThread(
+            jobs, lambda ch, key, env: self._envelope.emit(gen, ch, key, env),
+            lambda problem: self._envelopes_done.emit(gen, problem))
+        self._bands_thread.start()
+
+    def _stop_bands(self) -> None:
+        t, self._bands_thread = self._bands_thread, None
+        self._bands_generation += 1      # whatever it still sends is dropped
+        if t is not None:
+            t.stop()
+
+    @Slot(int, int, object, object)
+    def _on_envelope(self, gen: int, channel: int, key, env) -> None:
+        if gen != self._bands_generation or self._lent:
+            return
+        pic = self.pictures(channel)
+        if pic is None:
+            return
+        pic.put_unit(self._model, key, env)
+        self.bandDrawn.emit(channel, key)
+
+    @Slot(int, object)
+    def _on_envelopes_done(self, gen: int, problem) -> None:
+        if gen != self._bands_generation:
+            return
+        self._bands_thread = None
+        if problem:
+            self.failed.emit(problem)
 
     def _hand_back(self, model: DecompositionModel | None, replace: bool) -> None:
         if model is None:
@@ -384,27 +454,32 @@ class ModelAdapter(QObject):
         if not self.busy:
             self.busyChanged.emit(False)
 
-    def wait_idle(self, timeout_s: float = 120.0) -> str | None:
+    def wait_idle(self, timeout_s: float = 120.0, bands: bool = True) -> str | None:
         """Process events until no run is in flight; the last failure message, if any.
 
-        For snapshots, scripts and tests; the window itself never blocks.
+        With ``bands`` also until every band's envelope has come.  For
+        snapshots, scripts and tests; the window itself never blocks.
         """
         import time
 
         from PySide6.QtCore import QCoreApplication, QEventLoop
 
         deadline = time.monotonic() + timeout_s
-        while self.busy and time.monotonic() < deadline:
+        def waiting() -> bool:
+            return self.busy or (bands and self.bands_pending())
+
+        while waiting() and time.monotonic() < deadline:
             QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
             time.sleep(0.002)
         QCoreApplication.processEvents()
-        if self.busy:
+        if waiting():
             return "timed out waiting for the model"
         return self.last_failure
 
     def shutdown(self) -> None:
         """Stop the worker thread (the window is closing)."""
         self._coalesce.stop()
+        self._stop_bands()
         self._token += 1
         self._cancel_below = self._token
         self._thread.quit()

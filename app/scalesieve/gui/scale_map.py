@@ -19,6 +19,7 @@ from PySide6.QtGui import QAction, QBrush, QColor
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QGraphicsRectItem, QHBoxLayout,
                                QInputDialog, QLabel, QMenu)
 
+from scalesieve.core import transforms as tf
 from scalesieve.gui.band_labels import (band_label, db_to_gain, format_seconds, gain_to_db,
                                         hz_range)
 from scalesieve.gui.decimate import maxabs_columns
@@ -107,6 +108,19 @@ class RegionOutline(pg.ROI):
         elif not on:
             for h in list(self.getHandles()):
                 self.removeHandle(h)
+
+
+def first_and_step(model, key) -> tuple[float, float]:
+    """Time of a band's first coefficient and the time between coefficients (seconds).
+
+    Coefficient times are evenly spaced, so two of them tell all (the whole
+    array would be as long as the band).
+    """
+    count = model.coefficients(0, key).shape[0]
+    rate = model.recording.rate
+    t = tf.coefficient_positions(key, model.spec, min(count, 2)) / rate
+    step = float(t[1] - t[0]) if t.shape[0] > 1 else 1.0 / rate
+    return (float(t[0]) if t.shape[0] else 0.0), step
 
 
 def _signed(v: float) -> str:
@@ -277,13 +291,13 @@ class ScaleMapPane(PaneFrame):
         if self.channel >= m.recording.channels:
             self.channel = 0
         self.keys = list(m.band_keys)                 # d1 .. dJ, a: finest on top
-        self._times = {}
-        for key in self.keys:
-            t = m.coefficient_times(self.channel, key)
-            step = float(t[1] - t[0]) if t.shape[0] > 1 else 1.0 / m.recording.rate
-            self._times[key] = (float(t[0]) if t.shape[0] else 0.0, step)
+        self._times = {key: first_and_step(m, key) for key in self.keys}
         self._ref = {}
+        pic = self.adapter.pictures(self.channel)
         for key in self.keys:
+            if pic is not None and "peak" in pic.stats.get(key, {}):
+                self._ref[key] = pic.stats[key]["peak"]     # found in the worker
+                continue
             c = m.coefficients(self.channel, key)
             self._ref[key] = float(max(c.max(), -c.min())) if c.size else 0.0
         ticks = []
