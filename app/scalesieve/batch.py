@@ -386,9 +386,13 @@ def run_local(jobs: Sequence[FileJob], workers: int, on_result: Callable[[dict],
                 raise
         for job in sorted(suspects, key=lambda j: j.index):
             ctx = _process_context()
+            # The job may have written its output before the pool broke; outputs
+            # existing before the batch were refused up front (or --force given),
+            # so what stands there now is this run's own and may be replaced.
+            again = replace(job, options={**job.options, "force": True})
             with ProcessPoolExecutor(1, mp_context=ctx) as lone:
                 try:
-                    res = lone.submit(job_fn, job).result()
+                    res = lone.submit(job_fn, again).result()
                 except BrokenProcessPool:
                     res = _entry(job)
                     res["error"] = f"{job.input}: {_CRASHED}"
