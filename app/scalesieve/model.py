@@ -527,7 +527,14 @@ class DecompositionModel:
         ch.incremental = False
         keys = tf.band_keys(self.level)
         if not any(ch.chains.get(key) for key in keys):
-            ch.cleaned = ch.x                # no edit: the recording itself, exactly
+            if ch.cleaned is not ch.x and ch.cleaned.shape == ch.x.shape:
+                # No edit left (all undone): the recording exactly, in the array the
+                # channel owns already, so that the next edit does not have to
+                # allocate and fill a new one (a settle runs after a pause; an edit
+                # should cost what it changes).
+                np.copyto(ch.cleaned, ch.x)
+            else:
+                ch.cleaned = ch.x            # never edited: the recording itself
             if progress:
                 progress(1.0)
             return
