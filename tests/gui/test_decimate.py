@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from scalesieve.gui.decimate import (BlockEnvelope, column_edges, maxabs_columns,
-                                     minmax_columns, trace_points)
+                                     minmax_columns, refresh_pair, trace_points)
 
 
 def _loop_minmax(y, columns):
@@ -92,3 +92,30 @@ def test_maxabs_columns_equals_a_loop_and_fills_sparse_columns():
     # Close up a coarse sequence still paints every column (nearest coefficient).
     row = maxabs_columns(c, first, step, 2.0, 2.05, 500)
     assert np.all(row > 0)
+
+
+def _loop_blocks(y, block):
+    # Reference: Python's own min/max over each block's slice.
+    starts = range(0, len(y), block)
+    return (np.array([min(y[a:a + block]) for a in starts]),
+            np.array([max(y[a:a + block]) for a in starts]))
+
+
+@pytest.mark.parametrize("n,block", [(1000, 8), (1003, 8), (70001, 64), (5, 8)])
+def test_paired_refresh_gives_both_envelopes(n, block):
+    rng = np.random.default_rng(n)
+    x, y = rng.standard_normal(n), rng.standard_normal(n)
+    cleaned = BlockEnvelope.of(np.zeros(n), block)
+    removed = BlockEnvelope.of(np.zeros(n), block)
+    refresh_pair(cleaned, removed, x, y)
+    for env, ref in ((cleaned, y), (removed, x - y)):
+        lo, hi = _loop_blocks(ref, block)
+        np.testing.assert_array_equal(env.lo, lo)
+        np.testing.assert_array_equal(env.hi, hi)
+    # A change confined to a span: refreshing that span matches the whole again.
+    y[n // 3:n // 2] += 5.0
+    refresh_pair(cleaned, removed, x, y, n // 3, n // 2)
+    for env, ref in ((cleaned, y), (removed, x - y)):
+        lo, hi = _loop_blocks(ref, block)
+        np.testing.assert_array_equal(env.lo, lo)
+        np.testing.assert_array_equal(env.hi, hi)

@@ -40,13 +40,59 @@ def minmax_columns(y: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]
     return np.minimum.reduceat(y, starts), np.maximum.reduceat(y, starts)
 
 
-def block_minmax(y: np.ndarray, block: int) -> tuple[np.ndarray, np.ndarray]:
-    """Minimum and maximum of ``y`` over consecutive blocks of ``block`` samples."""
+def block_minmax(y: np.ndarray, block: int, lo: np.ndarray | None = None,
+                 hi: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Minimum and maximum of ``y`` over consecutive blocks of ``block`` samples.
+
+    ``lo`` and ``hi``, when given, receive the results (one per block, the
+    last block may be short).
+    """
     n = y.shape[0]
+    nb = -(-n // block)
+    if lo is None:
+        lo, hi = np.empty(nb), np.empty(nb)
     if n == 0:
-        return np.zeros(0), np.zeros(0)
-    starts = np.arange(0, n, block, dtype=np.int64)
-    return np.minimum.reduceat(y, starts), np.maximum.reduceat(y, starts)
+        return lo, hi
+    full = n // block
+    if full:
+        # A reduction along rows of whole blocks runs at memory speed; reduceat
+        # over the same samples is slower.
+        rows = y[:full * block].reshape(full, block)
+        np.min(rows, axis=1, out=lo[:full])
+        np.max(rows, axis=1, out=hi[:full])
+    if full < nb:
+        tail = y[full * block:]
+        lo[full] = tail.min()
+        hi[full] = tail.max()
+    return lo, hi
+
+
+#: samples per step of a paired pass (small enough to stay in cache between its reads)
+PAIR_CHUNK = 1 << 15
+
+
+def refresh_pair(cleaned: "BlockEnvelope", removed: "BlockEnvelope", x: np.ndarray,
+                 y: np.ndarray, start: int = 0, stop: int | None = None) -> None:
+    """Refresh the envelopes of ``y`` and of ``x - y`` in one pass over both.
+
+    Each step reads a cache-sized piece of ``x`` and ``y`` once and works out
+    both envelopes from it, with no full-size temporary: after an edit that
+    changes the whole signal this is one read of the two signals.
+    """
+    b = cleaned.block
+    n = cleaned.n
+    stop = n if stop is None else stop
+    a0 = max(0, int(start)) // b * b
+    a1 = min(n, -(-int(stop) // b) * b)
+    step = max(b, PAIR_CHUNK // b * b)
+    tmp = np.empty(min(step, max(a1 - a0, 0)), dtype=np.result_type(x.dtype, y.dtype))
+    for s in range(a0, a1, step):
+        e = min(a1, s + step)
+        k0, k1 = s // b, -(-e // b)
+        ys = y[s:e]
+        block_minmax(ys, b, cleaned.lo[k0:k1], cleaned.hi[k0:k1])
+        r = np.subtract(x[s:e], ys, out=tmp[:e - s])
+        block_minmax(r, b, removed.lo[k0:k1], removed.hi[k0:k1])
 
 
 class BlockEnvelope:
@@ -102,9 +148,8 @@ class BlockEnvelope:
         step = max(b, chunk // b * b)
         for s in range(a0, a1, step):
             e = min(a1, s + step)
-            lo, hi = block_minmax(np.asarray(fetch(s, e)), b)
-            self.lo[s // b:s // b + lo.shape[0]] = lo
-            self.hi[s // b:s // b + hi.shape[0]] = hi
+            k0, k1 = s // b, -(-e // b)
+            block_minmax(np.asarray(fetch(s, e)), b, self.lo[k0:k1], self.hi[k0:k1])
 
     def columns(self, start: int, stop: int, columns: int) -> tuple[np.ndarray, np.ndarray]:
         """Min and max per column of samples ``start .. stop``, at block resolution.

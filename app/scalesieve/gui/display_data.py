@@ -15,7 +15,7 @@ from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
 import numpy as np
-from scalesieve.gui.decimate import BlockEnvelope
+from scalesieve.gui.decimate import BlockEnvelope, refresh_pair
 
 #: a change reaching more than this share of the recording rebuilds a band's envelope
 FULL_REBUILD_SHARE = 0.5
@@ -214,13 +214,9 @@ class ChannelPictures:
             return
         whole = (span[1] - span[0]) > FULL_REBUILD_SHARE * self.n
         ch = self.channel
-        cleaned = model.cleaned(ch)
-        if whole:
-            self.cleaned = BlockEnvelope.of(cleaned, self.block)
-            self.removed = BlockEnvelope.of_source(self._removed_fetch(model), self.n, self.block)
-        else:
-            self.cleaned.refresh(span[0], span[1], lambda a, b: cleaned[a:b])
-            self.removed.refresh(span[0], span[1], self._removed_fetch(model))
+        # Cleaned and removed (original - cleaned) in one pass over the span.
+        refresh_pair(self.cleaned, self.removed, model.original(ch), model.cleaned(ch),
+                     span[0], span[1])
         for key in change.bands:
             if key in self.keys:
                 self._take_state(model, key, full=whole, span=span)
@@ -228,8 +224,7 @@ class ChannelPictures:
     def refresh_all(self, model) -> None:
         """Bring every edited envelope up to the model (after a recipe replaced as a whole)."""
         ch = self.channel
-        self.cleaned = BlockEnvelope.of(model.cleaned(ch), self.block)
-        self.removed = BlockEnvelope.of_source(self._removed_fetch(model), self.n, self.block)
+        refresh_pair(self.cleaned, self.removed, model.original(ch), model.cleaned(ch))
         for key in self.keys:
             if key in self.unit or model.band_gain(ch, key) is not None:
                 self._take_state(model, key, full=True)
