@@ -53,22 +53,15 @@ def block_minmax(y: np.ndarray, block: int, lo: np.ndarray | None = None,
         lo, hi = np.empty(nb), np.empty(nb)
     if n == 0:
         return lo, hi
-    full = n // block
-    if full:
-        # A reduction along rows of whole blocks runs at memory speed; reduceat
-        # over the same samples is slower.
-        rows = y[:full * block].reshape(full, block)
-        np.min(rows, axis=1, out=lo[:full])
-        np.max(rows, axis=1, out=hi[:full])
-    if full < nb:
-        tail = y[full * block:]
-        lo[full] = tail.min()
-        hi[full] = tail.max()
+    # (reduceat measured quicker here than reductions along rows of a reshape)
+    starts = np.arange(0, n, block, dtype=np.int64)
+    np.minimum.reduceat(y, starts, out=lo[:nb])
+    np.maximum.reduceat(y, starts, out=hi[:nb])
     return lo, hi
 
 
 #: samples per step of a paired pass (small enough to stay in cache between its reads)
-PAIR_CHUNK = 1 << 15
+PAIR_CHUNK = 1 << 17
 
 
 def refresh_pair(cleaned: "BlockEnvelope", removed: "BlockEnvelope", x: np.ndarray,

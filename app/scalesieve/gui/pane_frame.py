@@ -55,8 +55,10 @@ def make_plot(view_box: pg.ViewBox | None = None, bottom_axis: bool = True,
     left = pi.getAxis("left")
     left.setWidth(AXIS_WIDTH)
     if not left_axis:
-        left.setStyle(showValues=False)
-        left.setPen(pg.mkPen(None))
+        # No axis at all, only its width kept free: an empty axis would still be
+        # painted on every repaint (a dozen band rows repaint after each edit).
+        pi.hideAxis("left")
+        pi.layout.setColumnFixedWidth(0, AXIS_WIDTH)
     if bottom_axis:
         pi.getAxis("bottom").setHeight(30)
         pi.setLabel("bottom", "time", units="s")
