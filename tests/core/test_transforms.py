@@ -101,9 +101,14 @@ def test_dwt_round_trip_every_family(wavelet, mode, n, seed):
     if tf.max_level(n, wavelet) < 1:
         return
     spec = spec.resolved(n)
-    y = tf.inverse(tf.forward(x, spec), spec, n)
+    coeffs = tf.forward(x, spec)
+    y = tf.inverse(coeffs, spec, n)
     tol = 5e-2 if wavelet == "dmey" else 1e-10
-    assert np.max(np.abs(y - x)) <= tol * np.max(np.abs(x))
+    # Rounding follows the largest magnitude the arithmetic meets: the
+    # "smooth" mode extrapolates linearly, so at deep levels its padded
+    # coefficients can be hundreds of times the signal.
+    scale = max(np.max(np.abs(x)), max(np.max(np.abs(c)) for c in coeffs))
+    assert np.max(np.abs(y - x)) <= tol * scale
 
 
 @settings(max_examples=30, deadline=None)
