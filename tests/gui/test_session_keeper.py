@@ -109,3 +109,25 @@ def test_batch_command_dialog(qtbot, tmp_path):
     from PySide6.QtGui import QGuiApplication
 
     assert QGuiApplication.clipboard().text() == cmd
+
+
+def test_window_shows_batch_command_for_saved_recipe(window, tmp_path):
+    # The command line shown replays the saved recipe with `scalesieve batch`.
+    import shlex
+
+    from scalesieve.recipe import load
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    window.open_path(str(rec_path))
+    assert window.adapter.wait_idle(60) is None
+    window.adapter.add_edit(Edit("gain", levels=(1,), gain=0.0))
+    rp = tmp_path / "r.json"
+    assert window.save_recipe(str(rp))
+    dlg = window.show_batch_command(str(rp))
+    words = shlex.split(dlg.text.toPlainText())
+    assert words[:2] == ["scalesieve", "batch"]
+    assert words[words.index("--recipe") + 1] == str(rp)
+    assert words[words.index("-o") + 1].startswith(str(tmp_path))
+    assert load(str(rp)).edits == (Edit("gain", levels=(1,), gain=0.0),)
+    dlg.close()

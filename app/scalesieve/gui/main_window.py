@@ -190,6 +190,9 @@ class MainWindow(QMainWindow):
         self.act_recipe_apply = self._action("&Apply recipe…", self.apply_recipe_dialog)
         self.act_recipe_save = self._action("&Save recipe…", self.save_recipe_dialog, K.Save,
                                             "save", "save the transform and edits as a recipe")
+        self.act_batch = self._action("Save recipe for a &batch…", self.batch_dialog, None,
+                                      None, "save the recipe and show the scalesieve batch "
+                                      "command that replays it on many recordings")
         self.act_quit = self._action("&Quit", self.close, K.Quit)
         self.act_undo = self._action("&Undo", self.adapter.undo, K.Undo, "undo",
                                      "undo the last change to the recipe")
@@ -224,7 +227,8 @@ class MainWindow(QMainWindow):
         for a in (self.act_export, self.act_bands, self.act_picture):
             m.addAction(a)
         m.addSeparator()
-        for a in (self.act_recipe_open, self.act_recipe_apply, self.act_recipe_save):
+        for a in (self.act_recipe_open, self.act_recipe_apply, self.act_recipe_save,
+                  self.act_batch):
             m.addAction(a)
         m.addSeparator()
         m.addAction(self.act_quit)
@@ -513,6 +517,30 @@ class MainWindow(QMainWindow):
                 p += ".json"
             # The dialog has asked before replacing an existing file.
             self.save_recipe(p, force=os.path.exists(p))
+
+    def show_batch_command(self, recipe_path: str):
+        """The dialog with the batch command line for a saved recipe (returned, shown)."""
+        from scalesieve.gui.batch_dialog import BatchCommandDialog, command_for
+
+        source = self.adapter.source_path or os.path.join(ws.last_folder(self.settings),
+                                                            "recording.wav")
+        dlg = BatchCommandDialog(command_for(recipe_path, source), recipe_path, self)
+        self._batch_dialog = dlg
+        dlg.show()
+        return dlg
+
+    def batch_dialog(self) -> None:
+        """Save the recipe, then show the command that replays it on many recordings."""
+        base = os.path.splitext(self.adapter.source_name() or "recipe")[0]
+        start = os.path.join(ws.last_folder(self.settings), f"{base}-recipe.json")
+        p, _ = QFileDialog.getSaveFileName(self, "Save recipe for a batch", start,
+                                           "Recipes (*.json)")
+        if not p:
+            return
+        if not p.lower().endswith(".json"):
+            p += ".json"
+        if self.save_recipe(p, force=os.path.exists(p)):
+            self.show_batch_command(p)
 
     # --------------------------------------------------------------- export
 
