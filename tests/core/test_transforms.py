@@ -29,7 +29,7 @@ def test_haar_worked_example():
 
 
 def test_db2_filter_taps():
-    # Daubechies 1992, Ten Lectures on Wavelets, Table 6.1: db2 scaling filter
+    # Daubechies 1992 (CBMS-NSF series vol. 61, SIAM), Table 6.1: db2 scaling filter
     # (1+sqrt3)/(4 sqrt2), (3+sqrt3)/(4 sqrt2), (3-sqrt3)/(4 sqrt2), (1-sqrt3)/(4 sqrt2).
     r3, d = math.sqrt(3), 4 * math.sqrt(2)
     expected = np.array([1 + r3, 3 + r3, 3 - r3, 1 - r3]) / d

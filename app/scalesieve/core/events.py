@@ -61,7 +61,7 @@ shrinkage", Biometrika 81:425-455, 1994.
 I. M. Johnstone and B. W. Silverman, "Wavelet threshold estimators for data
 with correlated noise", JRSS-B 59:319-351, 1997.
 G. P. Nason and B. W. Silverman, "The stationary wavelet transform and some
-statistical applications", Lecture Notes in Statistics 103, 1995.
+statistical applications", in Wavelets and Statistics, Springer LNS 103, 1995.
 """
 
 from __future__ import annotations
