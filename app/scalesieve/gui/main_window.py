@@ -508,15 +508,20 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage(f"recipe saved to {path}", 5000)
         return True
 
-    def save_recipe_dialog(self) -> None:
+    def _save_recipe_asking(self, title: str) -> str:
+        """Ask where, save the recipe there; the path saved to, or "" when not saved."""
         base = os.path.splitext(self.adapter.source_name() or "recipe")[0]
         start = os.path.join(ws.last_folder(self.settings), f"{base}-recipe.json")
-        p, _ = QFileDialog.getSaveFileName(self, "Save recipe", start, "Recipes (*.json)")
-        if p:
-            if not p.lower().endswith(".json"):
-                p += ".json"
-            # The dialog has asked before replacing an existing file.
-            self.save_recipe(p, force=os.path.exists(p))
+        p, _ = QFileDialog.getSaveFileName(self, title, start, "Recipes (*.json)")
+        if not p:
+            return ""
+        if not p.lower().endswith(".json"):
+            p += ".json"
+        # The dialog has asked before replacing an existing file.
+        return p if self.save_recipe(p, force=os.path.exists(p)) else ""
+
+    def save_recipe_dialog(self) -> None:
+        self._save_recipe_asking("Save recipe")
 
     def show_batch_command(self, recipe_path: str):
         """The dialog with the batch command line for a saved recipe (returned, shown)."""
@@ -531,15 +536,8 @@ class MainWindow(QMainWindow):
 
     def batch_dialog(self) -> None:
         """Save the recipe, then show the command that replays it on many recordings."""
-        base = os.path.splitext(self.adapter.source_name() or "recipe")[0]
-        start = os.path.join(ws.last_folder(self.settings), f"{base}-recipe.json")
-        p, _ = QFileDialog.getSaveFileName(self, "Save recipe for a batch", start,
-                                           "Recipes (*.json)")
-        if not p:
-            return
-        if not p.lower().endswith(".json"):
-            p += ".json"
-        if self.save_recipe(p, force=os.path.exists(p)):
+        p = self._save_recipe_asking("Save recipe for a batch")
+        if p:
             self.show_batch_command(p)
 
     # --------------------------------------------------------------- export
