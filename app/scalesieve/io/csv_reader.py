@@ -250,12 +250,8 @@ def detect_dialect(rows: list[str]) -> tuple[Dialect, int]:
     a decimal comma in whitespace- or single-column tables, so the decimal
     mark is scored together with it; clevercsv's guess only breaks ties.
     """
-    clever = _clevercsv_delimiter(rows)
-    order = list(_CANDIDATES)
-    if clever is not False:
-        order.sort(key=lambda c: c[0] != clever)  # stable: keeps the rest in order
-    best = None
-    for rank, (delim, decimal) in enumerate(order):
+    scored = []
+    for delim, decimal in _CANDIDATES:
         trailing = delim is not None and all(r.rstrip().endswith(delim) for r in rows)
         dialect = Dialect(delim, decimal, trailing)
         split = [split_cells(r, dialect) for r in rows]
@@ -268,11 +264,15 @@ def detect_dialect(rows: list[str]) -> tuple[Dialect, int]:
         # A decimal comma must be seen to be chosen; otherwise '.' is the same reading.
         if decimal == "," and not any("," in c for c in cells):
             numeric *= 0.999
-        score = (round(consistency * numeric, 9), k, -rank)
-        if best is None or score > best[0]:
-            best = (score, dialect, k)
-    assert best is not None
-    _, dialect, k = best
+        scored.append(((round(consistency * numeric, 9), k), dialect, k))
+    top = max(s for s, _, _ in scored)
+    tied = [(d, k) for s, d, k in scored if s == top]
+    if len({d.delimiter for d, _ in tied}) > 1:
+        # Only a tie asks clevercsv (slow to import): its delimiter goes first.
+        clever = _clevercsv_delimiter(rows)
+        if clever is not False:
+            tied.sort(key=lambda dk: dk[0].delimiter != clever)  # stable
+    dialect, k = tied[0]
     return dialect, k
 
 
