@@ -799,31 +799,47 @@ class DecompositionModel:
         # gives the same figures whether the recording has one channel or more.
         x = np.ascontiguousarray(ch.x)
         removed = x - ch.cleaned
+        # Figures of the original never change: worked out once per decomposition.
+        facts = ch.__dict__.setdefault("_metric_facts", {})
         per_band = []
         changed = zeroed = total = 0
         for key in self.band_keys:
             c = ch.band(key, level)
             gain = self.band_gain(channel, key)
-            e = ed.state_values(c, gain) if gain is not None else self._values_full(ch, key)
-            d = c - e
-            ch_count = int(np.count_nonzero(d))
-            z_count = int(np.count_nonzero((e == 0) & (c != 0)))
+            if gain == 1.0:
+                # c - c: nothing changed (the same figures the general path gives)
+                ch_count = z_count = 0
+                e_removed = 0.0
+            elif gain == 0.0:
+                # c - 0 is c itself: every non-zero coefficient changed and zeroed
+                if key not in facts:
+                    facts[key] = (int(np.count_nonzero(c)), mt.energy(c))
+                ch_count = z_count = facts[key][0]
+                e_removed = facts[key][1]
+            else:
+                e = ed.state_values(c, gain) if gain is not None else self._values_full(ch, key)
+                d = c - e
+                ch_count = int(np.count_nonzero(d))
+                z_count = int(np.count_nonzero((e == 0) & (c != 0)))
+                e_removed = mt.energy(d)
             changed += ch_count
             zeroed += z_count
             total += c.shape[0]
             per_band.append({"name": tf.band_name(key, level),
-                             "energy_removed": mt.energy(d),
+                             "energy_removed": e_removed,
                              "changed": ch_count, "zeroed": z_count, "count": int(c.shape[0])})
-        e_orig = mt.energy(x)
+        if "x" not in facts:
+            facts["x"] = (mt.energy(x), mt.rms(x))
+        e_orig, rms_orig = facts["x"]
         e_rem = mt.energy(removed)
         return {
             "bands": per_band,
             "changed_fraction": changed / total if total else 0.0,
             "zeroed_fraction": zeroed / total if total else 0.0,
             "energy_removed_fraction": e_rem / e_orig if e_orig > 0 else 0.0,
-            "rms_original": mt.rms(x), "rms_cleaned": mt.rms(ch.cleaned),
+            "rms_original": rms_orig, "rms_cleaned": mt.rms(ch.cleaned),
             "rms_removed": mt.rms(removed),
-            "snr_db": mt.snr_db(x, removed),
+            "snr_db": mt.snr_db_of_energies(e_orig, e_rem),
             "peak_change": mt.peak(removed),
         }
 

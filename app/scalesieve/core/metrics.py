@@ -37,7 +37,11 @@ def peak(a: np.ndarray) -> float:
 
 def snr_db(original: np.ndarray, removed: np.ndarray) -> float | None:
     """10 log10(energy of the original / energy of what was removed); None when nothing was."""
-    eo, er = energy(original), energy(removed)
+    return snr_db_of_energies(energy(original), energy(removed))
+
+
+def snr_db_of_energies(eo: float, er: float) -> float | None:
+    """``snr_db`` from the two energies, when they are known already."""
     if er == 0.0:
         return None
     if eo == 0.0:
