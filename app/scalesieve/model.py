@@ -797,8 +797,7 @@ class DecompositionModel:
         level = self.level
         # Sums over a strided column add up in another order; a contiguous copy
         # gives the same figures whether the recording has one channel or more.
-        x = np.ascontiguousarray(ch.x)
-        removed = x - ch.cleaned
+        x = ch.x
         # Figures of the original never change: worked out once per decomposition.
         facts = ch.__dict__.setdefault("_metric_facts", {})
         per_band = []
@@ -829,18 +828,20 @@ class DecompositionModel:
                              "energy_removed": e_removed,
                              "changed": ch_count, "zeroed": z_count, "count": int(c.shape[0])})
         if "x" not in facts:
-            facts["x"] = (mt.energy(x), mt.rms(x))
-        e_orig, rms_orig = facts["x"]
-        e_rem = mt.energy(removed)
+            facts["x"] = mt.energy_blocked(x)
+        e_orig = facts["x"]
+        n = x.shape[0]
+        e_rem, e_clean, peak = mt.removed_figures(x, ch.cleaned)
         return {
             "bands": per_band,
             "changed_fraction": changed / total if total else 0.0,
             "zeroed_fraction": zeroed / total if total else 0.0,
             "energy_removed_fraction": e_rem / e_orig if e_orig > 0 else 0.0,
-            "rms_original": rms_orig, "rms_cleaned": mt.rms(ch.cleaned),
-            "rms_removed": mt.rms(removed),
+            "rms_original": mt.rms_of_energy(e_orig, n),
+            "rms_cleaned": mt.rms_of_energy(e_clean, n),
+            "rms_removed": mt.rms_of_energy(e_rem, n),
             "snr_db": mt.snr_db_of_energies(e_orig, e_rem),
-            "peak_change": mt.peak(removed),
+            "peak_change": peak,
         }
 
     def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,

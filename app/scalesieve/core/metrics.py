@@ -47,3 +47,38 @@ def snr_db_of_energies(eo: float, er: float) -> float | None:
     if eo == 0.0:
         return float("-inf")
     return 10.0 * math.log10(eo / er)
+
+
+#: samples per block for figures over whole signals: cache-sized, no full temporaries
+BLOCK = 1 << 18
+
+
+def energy_blocked(x: np.ndarray, block: int = BLOCK) -> float:
+    """Sum of squares in float64, block by block (no full-length temporary)."""
+    total = 0.0
+    for i in range(0, x.shape[0], block):
+        b = np.asarray(x[i:i + block], dtype=np.float64)
+        total += float(np.dot(b, b))
+    return total
+
+
+def removed_figures(x: np.ndarray, cleaned: np.ndarray,
+                    block: int = BLOCK) -> tuple[float, float, float]:
+    """(energy of x - cleaned, energy of cleaned, peak |x - cleaned|) in one blocked pass."""
+    e_rem = e_clean = 0.0
+    top = 0.0
+    tmp = np.empty(min(block, x.shape[0]))
+    for i in range(0, x.shape[0], block):
+        j = min(i + block, x.shape[0])
+        r = tmp[: j - i]
+        np.subtract(x[i:j], cleaned[i:j], out=r)
+        c = np.asarray(cleaned[i:j], dtype=np.float64)
+        e_rem += float(np.dot(r, r))
+        e_clean += float(np.dot(c, c))
+        if r.size:
+            top = max(top, float(np.max(np.abs(r))))
+    return e_rem, e_clean, top
+
+
+def rms_of_energy(e: float, n: int) -> float:
+    return float(math.sqrt(e / n)) if n else 0.0
