@@ -422,3 +422,21 @@ def test_any_table_loads_or_gives_one_plain_error(tmp_path, rows, delimiter, rat
         assert err.source == str(p) and err.message
     else:
         assert np.isfinite(rec.samples).all() and rec.rate > 0
+
+
+def test_tab_header_with_empty_last_name_and_cr_lines(tmp_path):
+    # Found by the fuzz tests: a tab-separated header whose last name is
+    # empty (so the line ends in a tab), old-style CR line ends. Written with
+    # Python's csv module as the outside writer; the values read back exactly.
+    import csv as pycsv
+
+    from scalesieve.io.readers import read_recording
+
+    p = tmp_path / "table.csv"
+    rows = [["t / ms", ""], ["0.0", "2.747345"], ["0.025", "1.803113e+00"], ["0.05", "9.22166e-01"]]
+    with open(p, "w", newline="", encoding="utf-8-sig") as fh:
+        pycsv.writer(fh, delimiter="\t", lineterminator="\r").writerows(rows)
+    rec = read_recording(str(p))
+    assert rec.channels == 1
+    assert rec.samples[:, 0].tolist() == [2.747345, 1.803113, 0.922166]
+    assert rec.rate == pytest.approx(1.0 / 0.025e-3)

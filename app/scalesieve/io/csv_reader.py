@@ -355,7 +355,8 @@ def scan_layout(text: str, source: str, encoding: str = "utf-8") -> TextLayout:
     for lineno, offset, line in _lines(text):
         if _is_comment_or_blank(line):
             continue
-        rows.append((lineno, offset, line.strip()))
+        # Spaces go, a trailing tab stays: it may end an empty last header cell.
+        rows.append((lineno, offset, line.rstrip("\r\n").strip(" ")))
         if len(rows) >= _SAMPLE_LINES or offset > _SAMPLE_CHARS:
             break
     if not rows:
