@@ -91,26 +91,6 @@ def apply_chain(c: np.ndarray, edits: Sequence, ctx: BandContext):
     return state
 
 
-def apply_chain_window(c_window: np.ndarray, k0: int, edits: Sequence, ctx: BandContext):
-    """The same as ``apply_chain`` on coefficients ``k0 .. k0+len(c_window)`` only.
-
-    Valid only when every edit is pointwise (see ``is_pointwise``).
-    """
-    state = np.array(c_window, dtype=np.float64, copy=True)
-    k1 = k0 + state.shape[0]
-    for e in edits:
-        if e.op == "gain":
-            state *= e.gain
-        elif e.op == "region":
-            sl = region_slice(e, ctx)
-            a, b = max(sl.start, k0), min(sl.stop, k1)
-            if b > a:
-                state[a - k0:b - k0] *= e.gain
-        else:
-            state = th.apply_shape(state, threshold_value(e, state, ctx), e.shape)
-    return state
-
-
 def state_values(c: np.ndarray, state) -> np.ndarray:
     """Edited coefficient values of a band as an array."""
     return state if isinstance(state, np.ndarray) else c * state
