@@ -464,27 +464,27 @@ class MainWindow(QMainWindow):
                                            "Recipes (*.json);;All files (*)")
         return p
 
-    def open_recipe(self, path: str) -> None:
-        """Replace transform and edits by a recipe file."""
+    def _read_recipe(self, path: str):
+        """The recipe file at ``path``, or None after showing why it cannot be read."""
         from scalesieve.recipe import load as load_recipe
 
         try:
-            r = load_recipe(path)
+            return load_recipe(path)
         except ScalesieveError as exc:
             show_error(self, exc.one_line())
-            return
-        self.adapter.put_recipe(r.transform, r.edits)
+            return None
+
+    def open_recipe(self, path: str) -> None:
+        """Replace transform and edits by a recipe file."""
+        r = self._read_recipe(path)
+        if r is not None:
+            self.adapter.put_recipe(r.transform, r.edits)
 
     def apply_recipe(self, path: str) -> None:
         """Add a recipe file's edits after the current ones (transform kept)."""
-        from scalesieve.recipe import load as load_recipe
-
-        try:
-            r = load_recipe(path)
-        except ScalesieveError as exc:
-            show_error(self, exc.one_line())
-            return
-        self.adapter.set_edits(tuple(self.adapter.edits) + tuple(r.edits))
+        r = self._read_recipe(path)
+        if r is not None:
+            self.adapter.set_edits(tuple(self.adapter.edits) + tuple(r.edits))
 
     def open_recipe_dialog(self) -> None:
         p = self._ask_recipe("Open recipe")
