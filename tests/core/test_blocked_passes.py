@@ -15,6 +15,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.recipe import Edit
 
+Cascade = tf._Cascade
 WAVELETS = ["haar", "db4", "sym5", "coif2", "bior3.5", "rbio2.4", "dmey"]
 
 
@@ -27,8 +28,12 @@ def small_blocks(monkeypatch):
 @pytest.mark.parametrize("wavelet", WAVELETS)
 @pytest.mark.parametrize("mode", list(tf.MODES))
 @pytest.mark.parametrize("dtype", [np.float64, np.float32])
-def test_blocked_forward_equals_wavedec(small_blocks, wavelet, mode, dtype):
-    # Reference: PyWavelets' wavedec, bit for bit, in the same precision.
+@pytest.mark.parametrize("halves", [1, 2])
+def test_blocked_forward_equals_wavedec(small_blocks, monkeypatch, wavelet, mode, dtype,
+                                        halves):
+    # Reference: PyWavelets' wavedec, bit for bit, in the same precision; also
+    # when the recording is split between two threads (halves=2).
+    monkeypatch.setattr(tf, "THREADS_FROM", 0 if halves == 2 else 1 << 62)
     rng = np.random.default_rng(len(wavelet) + len(mode))
     for n in (3001, 4096):
         x = rng.standard_normal(n).astype(dtype)
@@ -48,6 +53,40 @@ def test_forward_of_a_strided_column(small_blocks):
     spec = TransformSpec("dwt", "db4", 5, "symmetric")
     ref = pywt.wavedec(np.ascontiguousarray(x[:, 1]), "db4", mode="symmetric", level=5)
     assert all(np.array_equal(g, r) for g, r in zip(tf.forward(x[:, 1], spec), ref))
+
+
+@pytest.mark.parametrize("level", [1, 3, 9])
+@pytest.mark.parametrize("n", [1000, 2049, 65537])
+def test_two_halves_at_every_depth(small_blocks, monkeypatch, level, n):
+    # Reference: PyWavelets' wavedec.  The cut between the halves moves with
+    # the depth; every level's cut and the halo before it must give wavedec's bits.
+    monkeypatch.setattr(tf, "THREADS_FROM", 0)
+    streams = []
+    monkeypatch.setattr(tf, "_Cascade", lambda *a, **k: streams.append(1) or Cascade(*a, **k))
+    level = min(level, tf.max_level(n, "sym5"))
+    x = np.random.default_rng(n + level).standard_normal(n)
+    spec = TransformSpec("dwt", "sym5", level, "symmetric")
+    ref = pywt.wavedec(x, "sym5", mode="symmetric", level=level)
+    assert all(np.array_equal(g, r) for g, r in zip(tf.forward(x, spec), ref))
+    # two halves wherever the coarsest level is long enough to cut (4 filter lengths)
+    assert len(streams) == (2 if ref[0].shape[0] >= 4 * pywt.Wavelet("sym5").dec_len else 1)
+
+
+def test_cancelled_forward_stops_both_halves(small_blocks, monkeypatch):
+    # A progress callable that raises stops the transform (a superseded load),
+    # the second thread included: the exception reaches the caller.
+    monkeypatch.setattr(tf, "THREADS_FROM", 0)
+    calls = []
+
+    def progress(fraction):
+        calls.append(fraction)
+        if len(calls) == 3:
+            raise KeyboardInterrupt("stop")
+
+    x = np.random.default_rng(4).standard_normal(20000)
+    with pytest.raises(KeyboardInterrupt):
+        tf.forward(x, TransformSpec("dwt", "db4", 5, "symmetric"), progress=progress)
+    assert len(calls) == 3
 
 
 def test_forward_reports_progress(small_blocks):
