@@ -28,6 +28,15 @@ How edits stay cheap (the inverse transform is linear):
 ``settle()`` recomputes everything from scratch in one inverse transform, so
 exports give bit-identical numbers to a fresh model (the command line).
 
+A window may ask for full passes to be *deferred* (``defer_from``): on a
+long recording a gain change then only records what it adds to the cleaned
+signal (a factor times a cached component), and ``flush_step`` applies it
+piece by piece while the window stays free to draw.  Meanwhile
+``cleaned_view`` and ``cleaned_at`` give exact samples of any span or
+positions, and every other reader (``cleaned``, ``removed``, ``metrics``,
+exports) first applies whatever is still owed: the numbers never depend on
+how far the passes have got.
+
 Memory, for a DWT of one channel of n samples of b bytes: the recording's
 own column (not copied), the coefficients (about n b), the cleaned signal
 (n b, from the first edit on), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
@@ -61,6 +70,17 @@ COMPONENT_CACHE = 2
 COMPONENT_BYTES = 64 << 20
 #: thresholds kept per band (each keyed by the chain up to its edit)
 THRESHOLDS_KEPT = 64
+#: samples per step of a deferred pass (``flush_step``): a few milliseconds of work
+FLUSH_STEP = 1 << 22
+
+
+@dataclass
+class _Owed:
+    """cleaned[start:] still lacks factor * component[start:] (a deferred gain pass)."""
+
+    factor: float
+    component: np.ndarray
+    start: int = 0
 
 
 @dataclass
@@ -102,6 +122,7 @@ class _Channel:
         self.values: dict = {}           # key -> edited values, kept once someone asked
         self.thresholds: dict = {}       # key -> {chain up to a threshold edit: lambda}
         self.incremental = False         # cleaned was updated by parts since the last full pass
+        self.owed: list[_Owed] = []      # deferred gain passes (see flush_step)
         self.contexts: dict = {}         # key -> BandContext
         self._positions: dict = {}
         self._sigma: dict = {}
@@ -134,6 +155,9 @@ class DecompositionModel:
         self._history: list[tuple[Edit, ...]] = [()]
         self._pos = 0
         self._progress = progress
+        #: recordings of at least this many samples get their gain passes deferred
+        #: (see ``flush_step``); None: never (the command line and scripts)
+        self.defer_from: int | None = None
         edits = tuple(edits)
         spec = self._resolve(transform or tf.TransformSpec())
         if edits:
@@ -525,6 +549,7 @@ class DecompositionModel:
     def _recompute(self, ch: _Channel, progress=None) -> None:
         """cleaned = x - inverse(c - e) in one inverse transform."""
         ch.incremental = False
+        ch.owed = []                     # worked out afresh: nothing is owed any more
         keys = tf.band_keys(self.level)
         if not any(ch.chains.get(key) for key in keys):
             if ch.cleaned is not ch.x and ch.cleaned.shape == ch.x.shape:
@@ -559,6 +584,8 @@ class DecompositionModel:
         """Time component of bands together, each as its ``shape`` chain makes it."""
         comp = ch.components.pop(members, None)
         if comp is None:
+            # an evicted component's array is written over: pay what it is owed first
+            self._pay(ch)
             spare = None
             while ch.components and len(ch.components) >= self._cache_limit():
                 # make room first, and write the new component over the old one:
@@ -585,8 +612,82 @@ class DecompositionModel:
 
     def _gain(self, ch: _Channel, members: tuple, factor: float):
         # cleaned = x - (1 - gain) * component, so it moves by (new - old) * component
-        _axpy(factor, self._group_component(ch, members), ch.cleaned)
-        return 0, self.recording.n
+        comp = self._group_component(ch, members)
+        n = self.recording.n
+        if self.defer_from is not None and n >= self.defer_from:
+            for owed in ch.owed:
+                if owed.component is comp and owed.start == 0:
+                    owed.factor += factor
+                    break
+            else:
+                ch.owed.append(_Owed(float(factor), comp))
+            return 0, n
+        _axpy(factor, comp, ch.cleaned)
+        return 0, n
+
+    # ------------------------------------------------------- deferred passes
+
+    def _pay(self, ch: _Channel) -> None:
+        """Apply everything a channel's cleaned signal is owed."""
+        for owed in ch.owed:
+            _axpy(owed.factor, owed.component[owed.start:], ch.cleaned[owed.start:])
+        ch.owed = []
+
+    def deferred(self, channel: int) -> int | None:
+        """First sample of ``channel`` whose stored value still lacks a deferred pass."""
+        owed = self._ch[channel].owed
+        return min(o.start for o in owed) if owed else None
+
+    def flush_step(self, samples: int | None = None) -> tuple[int, int, int] | None:
+        """Apply deferred passes to the next ``samples`` samples of one channel.
+
+        Returns ``(channel, start, stop)``: samples start .. stop are now
+        exact in the stored cleaned signal; None when nothing is owed.
+        ``samples`` defaults to ``FLUSH_STEP``.
+        """
+        samples = FLUSH_STEP if samples is None else samples
+        for k, ch in enumerate(self._ch):
+            if not ch.owed:
+                continue
+            a = min(o.start for o in ch.owed)
+            b = min(self.recording.n, a + int(samples))
+            for o in ch.owed:
+                if o.start == a:
+                    _axpy(o.factor, o.component[a:b], ch.cleaned[a:b])
+                    o.start = b
+            ch.owed = [o for o in ch.owed if o.start < self.recording.n]
+            return k, a, b
+        return None
+
+    def cleaned_view(self, channel: int, start: int, stop: int) -> np.ndarray:
+        """Exact cleaned samples start .. stop without paying deferred passes.
+
+        A view of the stored signal when nothing is owed there (do not
+        write into it), else a new array.
+        """
+        ch = self._ch[channel]
+        owed = [o for o in ch.owed if o.start < stop]
+        y = ch.cleaned[start:stop]
+        if not owed:
+            return y
+        y = y.copy()
+        for o in owed:
+            a = max(start, o.start)
+            y[a - start:] += o.factor * o.component[a:stop]
+        return y
+
+    def cleaned_at(self, channel: int, index: np.ndarray) -> np.ndarray:
+        """Exact cleaned samples at ``index`` (sorted or not) without paying deferred passes."""
+        ch = self._ch[channel]
+        index = np.asarray(index, dtype=np.int64)
+        y = ch.cleaned[index]
+        for o in ch.owed:
+            if o.start == 0:
+                y += o.factor * o.component[index]
+            else:
+                later = index >= o.start
+                y[later] += o.factor * o.component[index[later]]
+        return y
 
     def _window(self, ch: _Channel, p: _Plan):
         """A region moved: synthesise the change of its coefficient window only."""
@@ -652,6 +753,8 @@ class DecompositionModel:
         Read it, do not write into it: until the first edit it is the
         recording's own column, and an edit may replace the array.
         """
+        for ch in self._ch if channel is None else [self._ch[channel]]:
+            self._pay(ch)
         if channel is not None:
             return self._ch[channel].cleaned
         return np.column_stack([ch.cleaned for ch in self._ch])
@@ -659,7 +762,8 @@ class DecompositionModel:
     def removed(self, channel: int | None = None) -> np.ndarray:
         if channel is not None:
             ch = self._ch[channel]
-            return ch.x - ch.cleaned
+            return ch.x - self.cleaned(channel)
+        self.cleaned()
         return np.column_stack([ch.x - ch.cleaned for ch in self._ch])
 
     def original(self, channel: int) -> np.ndarray:
@@ -831,7 +935,7 @@ class DecompositionModel:
             facts["x"] = mt.energy_blocked(x)
         e_orig = facts["x"]
         n = x.shape[0]
-        e_rem, e_clean, peak = mt.removed_figures(x, ch.cleaned)
+        e_rem, e_clean, peak = mt.removed_figures(x, self.cleaned(channel))
         return {
             "bands": per_band,
             "changed_fraction": changed / total if total else 0.0,

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 
 from scalesieve.gui.decimate import (BlockEnvelope, column_edges, maxabs_columns,
-                                     minmax_columns, refresh_pair, trace_points)
+                                     minmax_columns, preview_pair, refresh_pair,
+                                     trace_points)
 
 
 def _loop_minmax(y, columns):
@@ -119,3 +120,27 @@ def test_paired_refresh_gives_both_envelopes(n, block):
         lo, hi = _loop_blocks(ref, block)
         np.testing.assert_array_equal(env.lo, lo)
         np.testing.assert_array_equal(env.hi, hi)
+
+
+@pytest.mark.parametrize("n,block", [(10007, 16), (4096, 64), (100, 8)])
+def test_preview_pair_within_the_true_envelopes(n, block):
+    # Reference: Python's min/max over each block of y and of x - y.  A full
+    # budget reads every sample (the exact envelopes); a small one reads a
+    # few samples per block: never beyond the true extremes.
+    rng = np.random.default_rng(n)
+    x, y = rng.standard_normal(n), rng.standard_normal(n)
+    blocks = [(a, min(a + block, n)) for a in range(0, n, block)]
+    true_y = [(min(y[a:b]), max(y[a:b])) for a, b in blocks]
+    true_r = [(min(x[a:b] - y[a:b]), max(x[a:b] - y[a:b])) for a, b in blocks]
+    for budget, exact in ((n * block, True), (len(blocks) * 3, False)):
+        c = BlockEnvelope(np.zeros(len(blocks)), np.zeros(len(blocks)), block, n)
+        r = BlockEnvelope(np.zeros(len(blocks)), np.zeros(len(blocks)), block, n)
+        read = []
+        preview_pair(c, r, x, lambda idx: read.append(idx.size) or y[idx], 0, n, budget)
+        assert sum(read) <= max(budget, len(blocks))        # cost follows the budget
+        for k, ((ylo, yhi), (rlo, rhi)) in enumerate(zip(true_y, true_r)):
+            if exact:
+                assert (c.lo[k], c.hi[k], r.lo[k], r.hi[k]) == (ylo, yhi, rlo, rhi)
+            else:
+                assert ylo <= c.lo[k] <= c.hi[k] <= yhi
+                assert rlo <= r.lo[k] <= r.hi[k] <= rhi

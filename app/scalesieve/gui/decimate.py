@@ -88,6 +88,41 @@ def refresh_pair(cleaned: "BlockEnvelope", removed: "BlockEnvelope", x: np.ndarr
         block_minmax(r, b, removed.lo[k0:k1], removed.hi[k0:k1])
 
 
+#: samples read for a whole preview (``preview_pair``), however long the span
+PREVIEW_SAMPLES = 1 << 18
+
+
+def preview_pair(cleaned: "BlockEnvelope", removed: "BlockEnvelope", x: np.ndarray,
+                 cleaned_at: Callable[[np.ndarray], np.ndarray], start: int = 0,
+                 stop: int | None = None, budget: int | None = None) -> None:
+    """Envelopes of ``y`` and ``x - y`` from a fixed number of samples per block.
+
+    For a change that reaches the whole of a long recording, drawn before
+    the exact envelopes are ready (``refresh_pair`` then replaces it): each
+    block's minimum and maximum over evenly spread samples of it, read
+    with ``cleaned_at(positions)``.  Its cost follows ``budget`` (default
+    ``PREVIEW_SAMPLES``), not the span; it may understate a block's peaks,
+    never overstate them.
+    """
+    b = cleaned.block
+    n = cleaned.n
+    stop = n if stop is None else stop
+    budget = PREVIEW_SAMPLES if budget is None else budget
+    k0, k1 = max(0, int(start)) // b, min(-(-n // b), -(-int(stop) // b))
+    if k1 <= k0:
+        return
+    per = max(1, min(b, int(budget) // (k1 - k0)))
+    idx = (np.arange(k0, k1, dtype=np.int64)[:, None] * b
+           + (np.arange(per, dtype=np.int64) * b // per)[None, :])
+    np.minimum(idx, n - 1, out=idx)          # the last block may be short
+    y = np.asarray(cleaned_at(idx.ravel())).reshape(idx.shape)
+    y.min(axis=1, out=cleaned.lo[k0:k1])
+    y.max(axis=1, out=cleaned.hi[k0:k1])
+    r = x[idx.ravel()].reshape(idx.shape) - y
+    r.min(axis=1, out=removed.lo[k0:k1])
+    r.max(axis=1, out=removed.hi[k0:k1])
+
+
 class BlockEnvelope:
     """Minimum and maximum of a signal per block of ``block`` samples.
 

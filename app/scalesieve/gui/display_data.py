@@ -15,7 +15,7 @@ from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
 import numpy as np
-from scalesieve.gui.decimate import BlockEnvelope, refresh_pair
+from scalesieve.gui.decimate import BlockEnvelope, preview_pair, refresh_pair
 
 #: a change reaching more than this share of the recording rebuilds a band's envelope
 FULL_REBUILD_SHARE = 0.5
@@ -70,6 +70,17 @@ def band_figures(arrays: dict) -> dict:
     return stats
 
 
+class ExactCleaned:
+    """The model's cleaned signal of one channel, sliced exactly without paying deferred passes."""
+
+    def __init__(self, model, channel: int):
+        self.model, self.channel = model, channel
+        self.dtype = model.dtype
+
+    def __getitem__(self, sl: slice) -> np.ndarray:
+        return self.model.cleaned_view(self.channel, sl.start, sl.stop)
+
+
 class Superseded(Exception):
     """A newer request made this preparation pointless."""
 
@@ -113,6 +124,8 @@ class ChannelPictures:
             # No edit reaches this channel: cleaned is the original, nothing is removed.
             self.cleaned = self.original.copy()
             self.removed = self.original.scaled(0.0)
+        #: samples whose cleaned/removed envelopes are a preview (see ``update``), or None
+        self.provisional: tuple[int, int] | None = None
         self.unit: dict = {}
         self.edited: dict = {}
         self.gains: dict = {}
@@ -214,17 +227,49 @@ class ChannelPictures:
             return
         whole = (span[1] - span[0]) > FULL_REBUILD_SHARE * self.n
         ch = self.channel
-        # Cleaned and removed (original - cleaned) in one pass over the span.
-        refresh_pair(self.cleaned, self.removed, model.original(ch), model.cleaned(ch),
-                     span[0], span[1])
+        owed = model.deferred(ch)
+        if owed is None:
+            # Cleaned and removed (original - cleaned) in one pass over the span.
+            refresh_pair(self.cleaned, self.removed, model.original(ch), model.cleaned(ch),
+                         span[0], span[1])
+            self._exact(span[0], span[1])
+        else:
+            # A deferred full pass (a long recording): exact where the model has
+            # paid it, a preview from a sample of each block beyond; the
+            # window's sweep (``refine``) makes those blocks exact.
+            exact = ExactCleaned(model, ch)
+            if span[0] < owed:
+                refresh_pair(self.cleaned, self.removed, model.original(ch), exact,
+                             span[0], min(span[1], owed))
+                self._exact(span[0], min(span[1], owed))
+            if span[1] > owed:
+                a = max(span[0], owed)
+                preview_pair(self.cleaned, self.removed, model.original(ch),
+                             lambda idx: model.cleaned_at(ch, idx), a, span[1])
+                p = self.provisional
+                self.provisional = (a, span[1]) if p is None else (min(p[0], a),
+                                                                   max(p[1], span[1]))
         for key in change.bands:
             if key in self.keys:
                 self._take_state(model, key, full=whole, span=span)
+
+    def refine(self, model, start: int, stop: int) -> None:
+        """Exact cleaned and removed envelopes of samples start .. stop (after a sweep step)."""
+        refresh_pair(self.cleaned, self.removed, model.original(self.channel),
+                     ExactCleaned(model, self.channel), start, stop)
+        self._exact(start, stop)
+
+    def _exact(self, start: int, stop: int) -> None:
+        """Samples start .. stop are drawn exactly now: the preview shrinks from its front."""
+        p = self.provisional
+        if p is not None and start <= p[0] < stop:
+            self.provisional = None if stop >= p[1] else (stop, p[1])
 
     def refresh_all(self, model) -> None:
         """Bring every edited envelope up to the model (after a recipe replaced as a whole)."""
         ch = self.channel
         refresh_pair(self.cleaned, self.removed, model.original(ch), model.cleaned(ch))
+        self.provisional = None
         for key in self.keys:
             if key in self.unit or model.band_gain(ch, key) is not None:
                 self._take_state(model, key, full=True)

@@ -16,6 +16,7 @@ recipe and its undo history stay in the model throughout.
 from __future__ import annotations
 
 import os
+import time
 import traceback
 from dataclasses import dataclass, field
 from typing import Callable
@@ -28,13 +29,19 @@ from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.band_envelopes import EnvelopeThread, coefficient_list
 from scalesieve.gui.display_data import ChannelPictures, Superseded
-from scalesieve.model import Change, DecompositionModel
+from scalesieve.model import FLUSH_STEP, Change, DecompositionModel
 from scalesieve.recipe import check_against
 
 #: quiet time after the last transform request before a run starts (ms)
 COALESCE_MS = 120
 #: pause after the last undo or redo before the result is recomputed exactly (ms)
 SETTLE_MS = 300
+#: recordings of at least this many samples have full passes of an edit done by a
+#: sweep after the panes are drawn (an eager pass and its envelopes take over
+#: about 50 ms from here on; see DecompositionModel.flush_step)
+DEFER_FROM = 1 << 24
+#: least time between two redraws of the traces while a sweep runs (s)
+REFINE_REDRAW_S = 0.1
 
 
 @dataclass
@@ -195,6 +202,7 @@ class ModelAdapter(QObject):
     failed = Signal(str)
     notice = Signal(str)             # a passing remark for the status bar
     bandDrawn = Signal(int, object)  # channel, band key: its envelope has come
+    tracesRefined = Signal(int)      # channel: more of its cleaned/removed envelopes are exact
     _submit = Signal(object)
     _envelope = Signal(int, int, object, object)   # generation, channel, key, envelope
     _envelopes_done = Signal(int, object)          # generation, problem or None
@@ -238,6 +246,13 @@ class ModelAdapter(QObject):
         self._settle.setSingleShot(True)
         self._settle.setInterval(SETTLE_MS)
         self._settle.timeout.connect(self.settle_now)
+        # Deferred full passes are paid step by step between events.
+        self._sweep_timer = QTimer(self)
+        self._sweep_timer.setSingleShot(True)
+        self._sweep_timer.setInterval(0)
+        self._sweep_timer.timeout.connect(self._sweep)
+        self._refined_at = 0.0
+        self._refined: set = set()
 
     # ------------------------------------------------------------- reading
 
@@ -253,6 +268,14 @@ class ModelAdapter(QObject):
     @property
     def busy(self) -> bool:
         return self._running is not None or self._coalesce.isActive()
+
+    def refining(self) -> bool:
+        """A deferred full pass is owed, or traces still show a preview in part."""
+        m = self.model
+        if m is None:
+            return False
+        return (any(m.deferred(k) is not None for k in range(m.recording.channels))
+                or any(p.provisional is not None for p in self._pictures))
 
     def bands_pending(self) -> bool:
         """Band envelopes are still being made in the background."""
@@ -337,6 +360,7 @@ class ModelAdapter(QObject):
 
     def _launch(self, job: Job) -> None:
         self._stop_bands()        # the envelopes are for pictures about to be replaced
+        self._sweep_timer.stop()  # a lent model is not touched here; a new one owes nothing
         if job.kind == "transform":
             if not self._lent:
                 self._model.remove_listener(self._on_model_change)
@@ -445,7 +469,9 @@ class ModelAdapter(QObject):
         if replace or self._lent:
             self._model = model
         self._lent = False
+        self._model.defer_from = DEFER_FROM
         self._model.add_listener(self._on_model_change)
+        self._kick_sweep()
 
     def _remember_failure(self, message: str) -> None:
         self.last_failure = message
@@ -457,16 +483,15 @@ class ModelAdapter(QObject):
     def wait_idle(self, timeout_s: float = 120.0, bands: bool = True) -> str | None:
         """Process events until no run is in flight; the last failure message, if any.
 
-        With ``bands`` also until every band's envelope has come.  For
+        Also until every deferred pass is paid, and with ``bands`` until
+        every band's envelope has come.  For
         snapshots, scripts and tests; the window itself never blocks.
         """
-        import time
-
         from PySide6.QtCore import QCoreApplication, QEventLoop
 
         deadline = time.monotonic() + timeout_s
         def waiting() -> bool:
-            return self.busy or (bands and self.bands_pending())
+            return self.busy or self.refining() or (bands and self.bands_pending())
 
         while waiting() and time.monotonic() < deadline:
             QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
@@ -492,6 +517,45 @@ class ModelAdapter(QObject):
         for pic in self._pictures:
             pic.update(m, change)
         self.recipeChanged.emit(change)
+        self._kick_sweep()
+
+    # ------------------------------------------------------ deferred passes
+
+    def _kick_sweep(self) -> None:
+        if not self._sweep_timer.isActive() and self.refining():
+            self._refined_at = time.monotonic()
+            self._sweep_timer.start()
+
+    def _sweep(self) -> None:
+        """Pay one step of the model's deferred passes; make its envelopes exact."""
+        m = self.model
+        step = None if m is None else m.flush_step()
+        if step is None and m is not None:
+            # Nothing owed (paid by the sweep, or at once by a reader such as an
+            # export): drawings that still show a preview are made exact.
+            for pic in self._pictures:
+                if pic.provisional is not None:
+                    a = pic.provisional[0]
+                    step = pic.channel, a, min(pic.provisional[1], a + FLUSH_STEP)
+                    break
+        if step is not None:
+            k, a, b = step
+            pic = self.pictures(k)
+            if pic is not None:
+                pic.refine(m, a, b)
+            self._refined.add(k)
+            self._sweep_timer.start()
+        now = time.monotonic()
+        if step is None or now - self._refined_at >= REFINE_REDRAW_S:
+            self._refined_at = now
+            refined, self._refined = self._refined, set()
+            for k in sorted(refined):
+                self.tracesRefined.emit(k)
+
+    def finish_refining(self) -> None:
+        """Pay every deferred pass now (scripts and tests; the window sweeps between events)."""
+        while self.refining():
+            self._sweep()
 
     def _edit(self, fn, *args) -> bool:
         m = self.model

@@ -84,9 +84,10 @@ class ReconstructionPane(PaneFrame):
         self._metrics_timer = QTimer(self)
         self._metrics_timer.setSingleShot(True)
         self._metrics_timer.setInterval(METRICS_DELAY_MS)
-        self._metrics_timer.timeout.connect(self.update_metrics)
+        self._metrics_timer.timeout.connect(self._metrics_due)
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
+        adapter.tracesRefined.connect(self._on_refined)
         self.plot.getViewBox().sigResized.connect(self._schedule)
 
     # ------------------------------------------------------------- updates
@@ -115,12 +116,23 @@ class ReconstructionPane(PaneFrame):
                 self.metrics_label.setText(format_metrics(self.metrics) + "   (updating…)")
             self._metrics_timer.start()
 
+    def _on_refined(self, channel: int) -> None:
+        if channel == self.channel:
+            self._schedule()
+
     def _toggle(self, key: str, on: bool) -> None:
         self.curves[key].setVisible(on)
         self.redraw()
 
     def _schedule(self, *args) -> None:
         self._redraw_timer.start()
+
+    def _metrics_due(self) -> None:
+        if self.adapter.refining():
+            # the figures would pay the sweep's passes at once: after it, instead
+            self._metrics_timer.start()
+            return
+        self.update_metrics()
 
     def update_metrics(self) -> None:
         m = self.adapter.model
@@ -145,9 +157,10 @@ class ReconstructionPane(PaneFrame):
         fetch = {"original": None, "cleaned": None, "removed": None}
         if m is not None and ch < m.recording.channels:
             x = m.original(ch)
-            y = m.cleaned(ch)
-            fetch = {"original": lambda a, b: x[a:b], "cleaned": lambda a, b: y[a:b],
-                     "removed": lambda a, b: x[a:b] - y[a:b]}
+            # exact samples of the span drawn, whether or not a deferred pass is paid yet
+            fetch = {"original": lambda a, b: x[a:b],
+                     "cleaned": lambda a, b: m.cleaned_view(ch, a, b),
+                     "removed": lambda a, b: x[a:b] - m.cleaned_view(ch, a, b)}
         envs = {"original": pic.original, "cleaned": pic.cleaned, "removed": pic.removed}
         lo, hi = math.inf, -math.inf
         for key, curve in self.curves.items():
