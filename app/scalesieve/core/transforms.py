@@ -626,8 +626,8 @@ def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
     level = spec.level
     off = _offset(spec.wavelet, spec.mode)
     periodic = spec.mode == "periodization"
-    rec_lo = np.asarray(w.rec_lo)
-    filt = rec_lo if key == "a" else np.asarray(w.rec_hi)
+    part = "a" if key == "a" else "d"      # the first step's filter: rec_lo or rec_hi
+    L = w.rec_len
     j = level if key == "a" else int(key)
     band_len = coeffs_lengths[band_index(key, level)]
     seg = np.asarray(values, dtype=np.float64)
@@ -635,10 +635,9 @@ def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
     for lev in range(j, 0, -1):
         # length of the next finer approximation (or the signal)
         out_len = n if lev == 1 else coeffs_lengths[band_index(lev - 1, level)]
-        full_len = 2 * band_len if periodic else 2 * band_len - len(filt) + 2
-        up = np.zeros(2 * seg.shape[0] - 1)
-        up[::2] = seg
-        conv = np.convolve(up, filt)
+        full_len = 2 * band_len if periodic else 2 * band_len - L + 2
+        # upsample by two and filter, all of it (PyWavelets' C: no zeros stored)
+        conv = pywt.upcoef(part, seg, w, level=1, take=0)
         m0 = 2 * start - off
         if periodic:
             idx = (np.arange(conv.shape[0]) + m0) % full_len
@@ -658,6 +657,6 @@ def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
             return 0, np.zeros(0)
         seg = seg[a - start:b - start]
         start = a
-        filt = rec_lo
+        part = "a"
         band_len = out_len
     return start, seg

@@ -388,6 +388,14 @@ class BandsPane(QFrame):
         self._timer.setSingleShot(True)
         self._timer.setInterval(0)
         self._timer.timeout.connect(self.redraw)
+        # Rows are built one per turn of the event loop (a row's plot takes tens
+        # of milliseconds to make): the window stays responsive while they come.
+        self._to_build: list = []
+        self._build_timer = QTimer(self)
+        self._build_timer.setSingleShot(True)
+        self._build_timer.setInterval(0)
+        self._build_timer.timeout.connect(self._build_next_row)
+        adapter.add_pending_check(self.rows_pending)
         adapter.modelReplaced.connect(self._on_model)
         adapter.bandsKnown.connect(self._ensure_rows)
         adapter.recipeChanged.connect(self._on_recipe)
@@ -407,9 +415,12 @@ class BandsPane(QFrame):
         self.redraw()
 
     def _ensure_rows(self, keys) -> None:
-        """One row per band, finest first (kept when the bands stay the same)."""
+        """One row per band, finest first (kept when the bands stay the same).
+
+        The rows are made one per turn of the event loop, in order.
+        """
         keys = list(keys)
-        if list(self.rows) == keys:
+        if list(self.rows) + [key for _, key in self._to_build] == keys:
             return
         for row in self.rows.values():
             self.axis.unlink(row.plot.getViewBox())
@@ -418,12 +429,29 @@ class BandsPane(QFrame):
         self.rows = {}
         while self.body_layout.count():
             self.body_layout.takeAt(0)
-        for i, key in enumerate(keys):
-            row = BandRow(self, key, last=(i == len(keys) - 1))
-            self.body_layout.addWidget(row)
-            self.rows[key] = row
         self.body_layout.addStretch(1)
+        self._to_build = [(i == len(keys) - 1, key) for i, key in enumerate(keys)]
+        self._build_timer.start()
+
+    def rows_pending(self) -> bool:
+        """Band rows are still being made."""
+        return bool(self._to_build)
+
+    def _build_next_row(self) -> None:
+        if not self._to_build:
+            return
+        last, key = self._to_build.pop(0)
+        row = BandRow(self, key, last=last)
+        self.body_layout.insertWidget(self.body_layout.count() - 1, row)   # before the stretch
+        self.rows[key] = row
         self._fit_rows()
+        m = self.adapter.model
+        pic = self.adapter.pictures(self.channel)
+        if m is not None and pic is not None and key in pic.keys:
+            row.show_state(m, pic, self.channel)
+            row.draw(m, pic, self.channel, self.mode.currentData(), self.axis.t0, self.axis.t1)
+        if self._to_build:
+            self._build_timer.start()
 
     def _on_model(self) -> None:
         m = self.adapter.model

@@ -253,6 +253,7 @@ class ModelAdapter(QObject):
         self._sweep_timer.timeout.connect(self._sweep)
         self._refined_at = 0.0
         self._refined: set = set()
+        self._pending_checks: list = []
 
     # ------------------------------------------------------------- reading
 
@@ -278,8 +279,12 @@ class ModelAdapter(QObject):
                 or any(p.provisional is not None for p in self._pictures))
 
     def bands_pending(self) -> bool:
-        """Band envelopes are still being made in the background."""
-        return self._bands_thread is not None
+        """Band envelopes are still being made in the background, or panes still lay out rows."""
+        return self._bands_thread is not None or any(check() for check in self._pending_checks)
+
+    def add_pending_check(self, check: Callable[[], bool]) -> None:
+        """A pane's own work still to come after a model is in place (``bands_pending``)."""
+        self._pending_checks.append(check)
 
     def pictures(self, channel: int) -> ChannelPictures | None:
         if 0 <= channel < len(self._pictures):

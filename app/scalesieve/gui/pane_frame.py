@@ -31,6 +31,7 @@ class TimeViewBox(pg.ViewBox):
     """A ViewBox that zooms and pans along time only (wheel and drag)."""
 
     def __init__(self, *args, **kwargs):
+        kwargs.setdefault("enableMenu", False)   # no context menu: not made at all
         super().__init__(*args, **kwargs)
         self.setMouseEnabled(x=True, y=False)
         self.enableAutoRange(x=False)
