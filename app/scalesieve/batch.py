@@ -344,6 +344,13 @@ _CRASHED = ("the worker process stopped while cleaning this file "
             "(it crashed or ran out of memory)")
 
 
+def _one_core_each() -> None:
+    """Several worker processes: each decomposes in one thread (no more threads than cores)."""
+    from scalesieve.core import transforms
+
+    transforms.FORWARD_THREADS = 1
+
+
 def run_local(jobs: Sequence[FileJob], workers: int, on_result: Callable[[dict], None],
               job_fn: Callable[[FileJob], dict] = run_job) -> None:
     """Run ``jobs`` on ``workers`` local processes; call ``on_result`` per entry.
@@ -361,7 +368,8 @@ def run_local(jobs: Sequence[FileJob], workers: int, on_result: Callable[[dict],
         suspects: list[FileJob] = []
         ctx = _process_context()
         n = max(1, min(workers, len(pending)))
-        with ProcessPoolExecutor(n, mp_context=ctx) as pool:
+        with ProcessPoolExecutor(n, mp_context=ctx,
+                                 initializer=_one_core_each if n > 1 else None) as pool:
             inflight: dict = {}
             try:
                 while pending or inflight:

@@ -584,13 +584,13 @@ class DecompositionModel:
         """Time component of bands together, each as its ``shape`` chain makes it."""
         comp = ch.components.pop(members, None)
         if comp is None:
-            # an evicted component's array is written over: pay what it is owed first
-            self._pay(ch)
             spare = None
             while ch.components and len(ch.components) >= self._cache_limit():
                 # make room first, and write the new component over the old one:
                 # cached components never leave the model (callers get products)
                 spare = ch.components.pop(next(iter(ch.components)))
+                if any(o.component is spare for o in ch.owed):
+                    self._pay(ch)        # what a deferred pass still reads is written over
             level = self.level
             parts = {tf.band_index(key, level): (key, shape) for key, shape in members}
 

@@ -7,6 +7,7 @@ floors measured in the same run: reading the file, decomposing it
 (the model alone), and one pass over the signal's memory.
 
     python tests/perf/bench_window.py [--samples 10000000] [--repeat 15]
+    python tests/perf/bench_window.py --samples 10000000 --large 100000000 --repeat 5
 
 "Repainted" means the model has changed, every pane has updated its
 drawing and the whole 1600x1000 window has been rendered (``grab``).  The
@@ -23,7 +24,11 @@ below 16 M samples, where the pass is made before the repaint).  Region edits ar
 view (a 0.25 s region) and on the whole recording (a region 1 % of the
 recording wide, about 10 pixels of the Scale map at any length: a fixed
 number of seconds would shrink below the 3 pixels a drag must cover on a
-long recording, and the window rightly ignores such a drag).
+long recording, and the window rightly ignores such a drag, so the edit
+covers ten times the samples at ten times the length).  The same 0.25 s
+region is also timed on the whole view (``*_whole_view_025s``, made as the
+Events pane's "Mute as region" makes it): an edit of the same size, drawn
+at the widest view.
 
 The window shows a new recording in stages: the Scale map and the
 Reconstruction pane first, the Bands pane's rows as their envelopes
@@ -68,17 +73,41 @@ def median_ms(values: list[float]) -> float:
     return round(1000 * statistics.median(values), 1)
 
 
+def compare(args) -> None:
+    """Both sizes in fresh processes, one after the other, and the ratios of their edit times."""
+    import subprocess
+
+    runs = []
+    for n in (args.samples, args.large):
+        out = subprocess.run([sys.executable, os.path.abspath(__file__), "--samples", str(n),
+                              "--rate", str(args.rate), "--repeat", str(args.repeat)],
+                             check=True, capture_output=True, text=True)
+        runs.append(json.loads(out.stdout.strip().splitlines()[-1]))
+    small, large = runs
+    ratios = {key: round(large["edit_ms_median"][key] / small["edit_ms_median"][key], 2)
+              for key in small["edit_ms_median"]}
+    print(json.dumps({"small": small, "large": large, "edit_large_over_small": ratios,
+                      "target_edit_large_over_small": 1.5}))
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--samples", type=int, default=10_000_000)
     ap.add_argument("--rate", type=int, default=48000)
     ap.add_argument("--repeat", type=int, default=15)
+    ap.add_argument("--large", type=int, default=0, metavar="N",
+                    help="also run N samples (in a fresh process after the first) and print "
+                         "each edit's time at N over its time at --samples")
     args = ap.parse_args()
+    if args.large:
+        compare(args)
+        return
 
     from PySide6.QtCore import qInstallMessageHandler
     from PySide6.QtWidgets import QApplication
 
     from scalesieve import api
+    from scalesieve.recipe import Edit
     from scalesieve.gui import window_settings as ws
     from scalesieve.gui.app import SNAPSHOT_SIZE, _qt_message, make_application
     from scalesieve.gui.main_window import MainWindow
@@ -183,16 +212,24 @@ def main() -> None:
             unmute.append(timed(row.keep.click))
         dur = m.recording.duration_s
         region, undo = {}, {}
-        for label, span, width in (("zoomed_10s", 10.0, 0.25), ("whole_view", dur, 0.01 * dur)):
+        for label, span, width in (("zoomed_10s", 10.0, 0.25), ("whole_view", dur, 0.01 * dur),
+                                   ("whole_view_025s", dur, 0.25)):
             region[label], undo[label] = [], []
             for i in range(args.repeat):
                 centre = dur * (0.1 + 0.8 * i / args.repeat)
                 window.time_axis.set_range(centre - span / 2, centre + span / 2)
                 paint()
                 t0_ = window.time_axis.t0 + 0.4 * (window.time_axis.t1 - window.time_axis.t0)
-                # The same call a rectangle dragged over d1..d3 makes.
-                region[label].append(timed(
-                    lambda: window.scale_map._rectangle_drawn(t0_, t0_ + width, 0.2, 2.8)))
+                if label == "whole_view_025s":
+                    # Too narrow to drag at this view: the edit the Events pane's
+                    # "Mute as region" makes for a short event.
+                    edit = Edit("region", levels=(1, 2, 3), start_s=round(t0_, 6),
+                                stop_s=round(t0_ + width, 6), gain=0.0)
+                    region[label].append(timed(lambda: window.adapter.add_edit(edit)))
+                else:
+                    # The same call a rectangle dragged over d1..d3 makes.
+                    region[label].append(timed(
+                        lambda: window.scale_map._rectangle_drawn(t0_, t0_ + width, 0.2, 2.8)))
                 assert len(m.edits) == 1, "the rectangle made no region edit"
                 undo[label].append(timed(window.adapter.undo))
                 window.adapter.settle_now()
@@ -215,7 +252,9 @@ def main() -> None:
                 "region_add_zoomed_10s": median_ms(region["zoomed_10s"]),
                 "region_undo_zoomed_10s": median_ms(undo["zoomed_10s"]),
                 "region_add_whole_view": median_ms(region["whole_view"]),
-                "region_undo_whole_view": median_ms(undo["whole_view"])},
+                "region_undo_whole_view": median_ms(undo["whole_view"]),
+                "region_add_whole_view_025s": median_ms(region["whole_view_025s"]),
+                "region_undo_whole_view_025s": median_ms(undo["whole_view_025s"])},
             "metrics_line_ms_median": median_ms(metrics),
             "floor_one_pass_ms": round(1000 * one_pass, 1),
             "band_mute_again_over_one_pass": round(statistics.median(mute) / one_pass, 1),

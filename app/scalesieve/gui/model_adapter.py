@@ -557,11 +557,6 @@ class ModelAdapter(QObject):
             for k in sorted(refined):
                 self.tracesRefined.emit(k)
 
-    def finish_refining(self) -> None:
-        """Pay every deferred pass now (scripts and tests; the window sweeps between events)."""
-        while self.refining():
-            self._sweep()
-
     def _edit(self, fn, *args) -> bool:
         m = self.model
         if m is None or self.busy:
