@@ -100,8 +100,11 @@ def test_forward_reports_progress(small_blocks):
 @pytest.mark.parametrize("wavelet", WAVELETS)
 @pytest.mark.parametrize("mode", ["symmetric", "periodization", "zero", "smooth", "periodic"])
 @pytest.mark.parametrize("dtype", [np.float64, np.float32])
-def test_inverse_into_equals_waverec(small_blocks, wavelet, mode, dtype):
-    # Reference: PyWavelets' waverec with zero arrays where inverse_into gets None.
+@pytest.mark.parametrize("halves", [1, 2])
+def test_inverse_into_equals_waverec(small_blocks, monkeypatch, wavelet, mode, dtype, halves):
+    # Reference: PyWavelets' waverec with zero arrays where inverse_into gets None;
+    # also with the blocks of output shared between two threads (halves=2).
+    monkeypatch.setattr(tf, "THREADS_FROM", 0 if halves == 2 else 1 << 62)
     rng = np.random.default_rng(3)
     for n in (3001, 4096):
         level = min(4, tf.max_level(n, wavelet))
@@ -228,3 +231,16 @@ def test_chain_values_block_by_block_equals_apply_chain(chain):
         # the gain part multiplies what the shape part makes (up to rounding)
         alone = ed.state_values(c, ed.apply_chain(c, shape, plain))
         assert np.allclose(gain * alone, want, rtol=1e-12, atol=1e-15)
+
+
+@pytest.mark.parametrize("n,level", [(70001, 9), (20000, 1), (5000, 6)])
+def test_inverse_cascade_at_every_depth(small_blocks, monkeypatch, n, level):
+    # Reference: PyWavelets' waverec.  Deep levels short enough are made whole,
+    # the rest block by block; every split and every window must give its bits.
+    monkeypatch.setattr(tf, "THREADS_FROM", 0)
+    x = np.random.default_rng(n).standard_normal(n)
+    spec = TransformSpec("dwt", "sym5", level, "symmetric")
+    coeffs = pywt.wavedec(x, "sym5", mode="symmetric", level=level)
+    out = np.empty(n)
+    tf.inverse_into(lambda i: coeffs[i], [c.shape[0] for c in coeffs], spec, n, out)
+    assert np.array_equal(out, pywt.waverec(coeffs, "sym5", mode="symmetric")[:n])

@@ -413,18 +413,20 @@ def inverse_into(band, lengths: list[int], spec: TransformSpec, n: int, out: np.
     ----------
     band : callable(index) -> ndarray or None
         The band at PyWavelets index ``index`` (``a_J`` first), or None for a
-        band of zeros.  Called once per band, coarse to fine, just before the
-        band is needed, so bands made on the fly never all exist at once.
+        band of zeros.  Called once per band, coarse to fine.
     lengths : list of int
         Coefficient count of every band, in PyWavelets order.
     out : ndarray of n samples
         May be ``base`` itself.
 
-    For the DWT the levels run as ``pywt.waverec`` runs them and the finest
-    level is synthesised in blocks straight into ``out``: no full-length
-    temporary, and the same numbers as ``inverse`` (a block of output reads
-    a window of coefficients holding every tap it needs).  A None band gives
-    what zeros give (up to the sign of a zero).
+    For the DWT the short coarse levels run as ``pywt.waverec`` runs them;
+    the long fine ones are a cascade per block of output: each block of
+    ``out`` is synthesised through those levels from the windows of
+    coefficients it reads (a window of level j holds every tap its outputs
+    need), so no level's approximation is ever made whole and nothing but
+    ``out`` is written at full length.  From ``THREADS_FROM`` samples on the
+    blocks are shared between two threads.  The numbers are ``inverse``'s,
+    bit for bit; a None band gives what zeros give (up to the sign of a zero).
     """
     level = spec.level
     if spec.kind != "dwt":
@@ -436,33 +438,73 @@ def inverse_into(band, lengths: list[int], spec: TransformSpec, n: int, out: np.
         _finish(out, base, r, 0)
         return out
     w = pywt.Wavelet(spec.wavelet)
+    mode = spec.mode
+    # what step i (1 .. level) makes: the next band's length, and n at the end
+    made = [0] + [lengths[i + 1] for i in range(1, level)] + [n]
     a = band(0)
     d = None
-    for i in range(1, level + 1):
+    i = 1
+    while i <= level and (mode == "periodization" or made[i] <= 4 * BLOCK):
         del d                            # the last level's band goes before the next is made
         d = band(i)
         if a is not None and a.shape[0] == lengths[i] + 1:
             a = a[:lengths[i]]           # as waverec trims an odd approximation
-        if i < level or spec.mode == "periodization":
-            a = None if a is None and d is None else pywt.idwt(a, d, w, spec.mode)
-            continue
-        # the finest level, in blocks of output
-        L = w.rec_len
-        half = BLOCK // 2
-        count = lengths[i]
-        for s0 in range(0, n, BLOCK):
-            s1 = min(s0 + BLOCK, n)
-            if a is None and d is None:
-                _finish(out[s0:s1], None if base is None else base[s0:s1], None, 0)
-                continue
-            k0 = s0 // 2
-            k1 = min(count, k0 + half + (L - 2) // 2 + 1)
-            seg = pywt.idwt(None if a is None else a[k0:k1], None if d is None else d[k0:k1],
-                            w, spec.mode)
-            _finish(out[s0:s1], None if base is None else base[s0:s1], seg, 0)
+        a = None if a is None and d is None else pywt.idwt(a, d, w, mode)
+        i += 1
+    if i > level:
+        _finish(out, base, a, 0)
         return out
-    _finish(out, base, a, 0)
+    del d
+    details = {k: band(k) for k in range(i, level + 1)}
+    first = i
+
+    def blocks(lo: int, hi: int) -> None:
+        for s0 in range(lo, hi, BLOCK):
+            s1 = min(s0 + BLOCK, hi)
+            _finish(out[s0:s1], None if base is None else base[s0:s1],
+                    _synthesise(a, details, first, level, lengths, s0, s1, w, mode), 0)
+
+    starts = range(0, n, BLOCK)
+    if FORWARD_THREADS > 1 and n >= THREADS_FROM and len(starts) > 1:
+        from concurrent.futures import ThreadPoolExecutor
+
+        cut = starts[len(starts) // 2]
+        with ThreadPoolExecutor(max_workers=1, thread_name_prefix="scalesieve-idwt") as pool:
+            other = pool.submit(blocks, cut, n)
+            blocks(0, cut)
+            other.result()
+    else:
+        blocks(0, n)
     return out
+
+
+def _synthesise(a, details: dict, first: int, level: int, lengths: list[int], s0: int,
+                s1: int, w: pywt.Wavelet, mode: str):
+    """Outputs s0 .. s1 of steps ``first`` .. ``level`` of the inverse, from windows.
+
+    ``a`` is the approximation step ``first`` starts from (None: zeros).
+    Step i makes output m from coefficients k with 0 <= m - 2k + L - 2 < L,
+    so outputs lo .. hi need coefficients lo // 2 .. (hi + L - 2) / 2, and
+    ``pywt.idwt`` of such a window gives output 2 k0 first.
+    """
+    L = w.rec_len
+    need = [(0, 0)] * (level + 1)
+    lo, hi = s0, s1
+    for i in range(level, first - 1, -1):
+        need[i] = (lo, hi)
+        lo, hi = lo // 2, min(lengths[i], -(-(hi + L - 2) // 2))
+    win, win_lo = a, 0               # the approximation window and its first index
+    for i in range(first, level + 1):
+        lo, hi = need[i]
+        k0, k1 = lo // 2, min(lengths[i], -(-(hi + L - 2) // 2))
+        d = details[i]
+        if win is None and d is None:
+            win = None
+            continue
+        seg = pywt.idwt(None if win is None else win[k0 - win_lo:k1 - win_lo],
+                        None if d is None else d[k0:k1], w, mode)
+        win, win_lo = seg[lo - 2 * k0:hi - 2 * k0], lo
+    return win
 
 
 def _finish(out: np.ndarray, base, r, start: int) -> None:
