@@ -23,6 +23,7 @@ import numpy as np
 
 from scalesieve.core import transforms as tf
 from scalesieve.gui.decimate import BlockEnvelope
+from scalesieve.gui.thread_priority import lower_this_thread
 
 #: samples synthesised at a time (a multiple of every envelope block size)
 CHUNK = 1 << 18
@@ -111,6 +112,7 @@ class EnvelopeThread(threading.Thread):
             raise Stopped()
 
     def run(self) -> None:
+        lower_this_thread()
         problem = None
         try:
             for channel, key, coeffs, spec, n, block in self._jobs:

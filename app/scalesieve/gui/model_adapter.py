@@ -29,6 +29,7 @@ from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.band_envelopes import EnvelopeThread, coefficient_list
 from scalesieve.gui.display_data import ChannelPictures, Superseded
+from scalesieve.gui.thread_priority import lower_this_thread
 from scalesieve.model import FLUSH_STEP, Change, DecompositionModel
 from scalesieve.recipe import check_against
 
@@ -116,6 +117,7 @@ class _Worker(QObject):
 
     @Slot(object)
     def run(self, job: Job) -> None:
+        lower_this_thread()               # the window's thread paints first
         model = job.model
         self._job_token = job.token
         try:
