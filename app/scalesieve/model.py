@@ -400,9 +400,12 @@ class DecompositionModel:
             ch.incremental = True
             self._own_cleaned(ch)
             spans = [self._gain(ch, members, factor) for members, factor in groups.items()]
+            windows = [p for p in plans if p.kind == "window"]
+            if windows:
+                spans.append(self._windows(ch, windows))
             for p in plans:
-                if p.kind in ("window", "band"):
-                    spans.append(self._window(ch, p) if p.kind == "window" else self._band(ch, p))
+                if p.kind == "band":
+                    spans.append(self._band(ch, p))
                 if p.kind != "window":
                     ch.values.pop(p.key, None)
                 ch.chains[p.key] = p.new
@@ -689,15 +692,31 @@ class DecompositionModel:
                 y[later] += o.factor * o.component[index[later]]
         return y
 
-    def _window(self, ch: _Channel, p: _Plan):
-        """A region moved: synthesise the change of its coefficient window only."""
-        k0, k1 = p.window
-        old_vals = self._values(ch, p.key, p.old, k0, k1)
-        new_vals = self._values(ch, p.key, p.new, k0, k1)
-        kept = ch.values.get(p.key)
-        if kept is not None:
-            kept[k0:k1] = new_vals
-        return self._add_local(ch, p.key, old_vals - new_vals, k0)
+    def _windows(self, ch: _Channel, plans: list[_Plan]):
+        """Regions moved: synthesise the changes of their coefficient windows only.
+
+        A region over several levels changes a window in each; for the DWT
+        their changes are synthesised together (one cascade, see
+        ``tf.local_synthesis_bands``).
+        """
+        deltas = {}
+        for p in plans:
+            k0, k1 = p.window
+            old_vals = self._values(ch, p.key, p.old, k0, k1)
+            new_vals = self._values(ch, p.key, p.new, k0, k1)
+            kept = ch.values.get(p.key)
+            if kept is not None:
+                kept[k0:k1] = new_vals
+            deltas[p.key] = (old_vals - new_vals, k0)
+        if self.spec.kind != "dwt" or len(deltas) == 1:
+            spans = [s for s in (self._add_local(ch, key, d, k0)
+                                 for key, (d, k0) in deltas.items()) if s is not None]
+            return (min(a for a, _ in spans), max(b for _, b in spans)) if spans else None
+        start, seg = tf.local_synthesis_bands(deltas, ch.lengths, self.spec, self.recording.n)
+        if not seg.size:
+            return None
+        ch.cleaned[start:start + seg.shape[0]] -= seg
+        return start, start + seg.shape[0]
 
     def _band(self, ch: _Channel, p: _Plan):
         """Any other change of one band: the inverse of its change of ``c - e``."""

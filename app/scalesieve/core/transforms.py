@@ -664,23 +664,49 @@ def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
     this window.  Cost follows the window, not the recording.
     ``coeffs_lengths`` are the band lengths in PyWavelets order.
     """
+    return local_synthesis_bands({key: (values, k0)}, coeffs_lengths, spec, n)
+
+
+def local_synthesis_bands(windows: dict, coeffs_lengths: list[int], spec: TransformSpec,
+                          n: int) -> tuple[int, np.ndarray]:
+    """``local_synthesis`` of windows of several bands at once: the sum of their effects.
+
+    ``windows`` maps a band key to ``(values, k0)``.  One cascade from the
+    coarsest band down: at each level the approximation made so far and that
+    level's own window are synthesised and added, so the fine levels are
+    worked through once for all the bands (a region over three levels costs
+    about as much as its finest one alone).
+    """
     w = pywt.Wavelet(spec.wavelet)
     level = spec.level
     off = _offset(spec.wavelet, spec.mode)
     periodic = spec.mode == "periodization"
-    part = "a" if key == "a" else "d"      # the first step's filter: rec_lo or rec_hi
     L = w.rec_len
-    j = level if key == "a" else int(key)
-    band_len = coeffs_lengths[band_index(key, level)]
-    seg = np.asarray(values, dtype=np.float64)
-    start = int(k0)
-    for lev in range(j, 0, -1):
+    top = max(level if key == "a" else int(key) for key in windows)
+    seg, start = None, 0                 # the approximation window entering a level
+    for lev in range(top, 0, -1):
+        pieces = [] if seg is None else [("a", seg, start)]
+        if lev == level and "a" in windows:
+            pieces.append(("a",) + tuple(windows["a"]))
+        if lev in windows:
+            pieces.append(("d",) + tuple(windows[lev]))
+        if not pieces:
+            continue
+        band_len = coeffs_lengths[band_index(lev, level)]
         # length of the next finer approximation (or the signal)
         out_len = n if lev == 1 else coeffs_lengths[band_index(lev - 1, level)]
         full_len = 2 * band_len if periodic else 2 * band_len - L + 2
         # upsample by two and filter, all of it (PyWavelets' C: no zeros stored)
-        conv = pywt.upcoef(part, seg, w, level=1, take=0)
-        m0 = 2 * start - off
+        convs = [(pywt.upcoef(part, np.asarray(v, dtype=np.float64), w, level=1, take=0),
+                  2 * int(k) - off) for part, v, k in pieces]
+        if len(convs) == 1:
+            conv, m0 = convs[0]
+        else:
+            m0 = min(m for _, m in convs)
+            conv = np.zeros(max(m + c.shape[0] for c, m in convs) - m0)
+            for c, m in convs:
+                conv[m - m0:m - m0 + c.shape[0]] += c
+        del convs
         if periodic:
             idx = (np.arange(conv.shape[0]) + m0) % full_len
             lo, hi = int(idx.min()), int(idx.max()) + 1
@@ -696,9 +722,10 @@ def local_synthesis(values: np.ndarray, k0: int, key, coeffs_lengths: list[int],
         # keep what lies inside the (trimmed) next level
         a, b = max(start, 0), min(start + seg.shape[0], out_len)
         if b <= a:
-            return 0, np.zeros(0)
+            seg, start = None, 0
+            continue
         seg = seg[a - start:b - start]
         start = a
-        part = "a"
-        band_len = out_len
+    if seg is None:
+        return 0, np.zeros(0)
     return start, seg
