@@ -348,7 +348,7 @@ def _one_core_each() -> None:
     """Several worker processes: each decomposes in one thread (no more threads than cores)."""
     from scalesieve.core import transforms
 
-    transforms.FORWARD_THREADS = 1
+    transforms.TRANSFORM_THREADS = 1
 
 
 def run_local(jobs: Sequence[FileJob], workers: int, on_result: Callable[[dict], None],

@@ -194,10 +194,10 @@ def forward(x: np.ndarray, spec: TransformSpec, dtype=np.float64,
 
 #: output samples per block of the blocked passes: about 2 MB of float64, cache-sized
 BLOCK = 1 << 18
-#: from this many samples the forward DWT splits the recording between two threads
+#: from this many samples a DWT, forward or inverse, splits the work between two threads
 THREADS_FROM = 1 << 22
-#: threads the forward DWT may use (PyWavelets' C code runs without the GIL)
-FORWARD_THREADS = 2
+#: threads a DWT, forward or inverse, may use (PyWavelets' C code runs without the GIL)
+TRANSFORM_THREADS = 2
 # Boundary modes whose signal extension reads only samples near the edge it
 # extends; "periodic" reads the far end, so that level is done in one call.
 _LOCAL_MODES = frozenset(MODES) - {"periodic", "periodization"}
@@ -230,7 +230,7 @@ def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[
     details = [np.empty(sizes[j], dtype=x.dtype) for j in range(level + 1)]   # [0] unused
     approx = np.empty(sizes[level], dtype=x.dtype)
     parts = 1
-    if FORWARD_THREADS > 1 and n >= THREADS_FROM and sizes[level] >= 4 * L:
+    if TRANSFORM_THREADS > 1 and n >= THREADS_FROM and sizes[level] >= 4 * L:
         parts = 2
     if parts == 1:
         streams = [_Cascade(x, w, mode, sizes, details, approx, [0] * (level + 1),
@@ -347,7 +347,7 @@ class _Cascade:
         if done_above and s1 - s0 < 2 * L:
             # a short last window: start it earlier (its first outputs are dropped)
             s0 = max(lo, s1 - 2 * L)
-        s0 -= s0 % 2                      # lo is even: every dec_len is
+        s0 -= s0 % 2                      # even, as the index mapping needs (so is lo)
         ca, cd = pywt.dwt(self._input(j - 1, s0, s1), self.w, self.mode)
         off = k - s0 // 2
         w0 = max(k, self.write_from[j])
@@ -465,7 +465,7 @@ def inverse_into(band, lengths: list[int], spec: TransformSpec, n: int, out: np.
                     _synthesise(a, details, first, level, lengths, s0, s1, w, mode), 0)
 
     starts = range(0, n, BLOCK)
-    if FORWARD_THREADS > 1 and n >= THREADS_FROM and len(starts) > 1:
+    if TRANSFORM_THREADS > 1 and n >= THREADS_FROM and len(starts) > 1:
         from concurrent.futures import ThreadPoolExecutor
 
         cut = starts[len(starts) // 2]

@@ -25,10 +25,12 @@ def make_application(argv: list[str] | None = None):
     import pyqtgraph as pg
     from PySide6.QtWidgets import QApplication
 
+    from scalesieve.gui.freed_memory import keep_freed_memory
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 
     app = QApplication.instance()
     if app is None:
+        keep_freed_memory()     # an edit's temporaries are reused, not fresh pages each time
         app = QApplication(argv or [sys.argv[0] if sys.argv else "scalesieve"])
     app.setOrganizationName("Scalesieve")
     app.setApplicationName("Scalesieve")

@@ -468,7 +468,9 @@ class BandsPane(QFrame):
         if not self.rows:
             return
         room = self.scroll.viewport().height() - AXIS_HEIGHT
-        h = int(max(ROW_MIN, min(ROW_MAX, room // len(self.rows))))
+        # shared among the rows still to come too: rows keep their height as they arrive
+        count = len(self.rows) + len(self._to_build)
+        h = int(max(ROW_MIN, min(ROW_MAX, room // count)))
         for row in self.rows.values():
             row.set_row_height(h)
 
