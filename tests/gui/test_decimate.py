@@ -3,7 +3,8 @@
 import numpy as np
 import pytest
 
-from scalesieve.gui.decimate import (BlockEnvelope, column_edges, maxabs_columns,
+from scalesieve.gui.decimate import (BlockEnvelope, block_maxabs, column_edges,
+                                     maxabs_columns, maxabs_columns_from_blocks,
                                      minmax_columns, preview_pair, refresh_pair,
                                      trace_points)
 
@@ -144,3 +145,29 @@ def test_preview_pair_within_the_true_envelopes(n, block):
             else:
                 assert ylo <= c.lo[k] <= c.hi[k] <= yhi
                 assert rlo <= r.lo[k] <= r.hi[k] <= rhi
+
+
+@pytest.mark.parametrize("count,block,columns", [(100000, 16, 700), (65536, 64, 300),
+                                                 (5003, 8, 97)])
+def test_scale_map_columns_from_block_peaks(count, block, columns):
+    # Reference: Python's max of |value| over each column's values (the columns
+    # of maxabs_columns), and over that span widened by one block on each side:
+    # the block peaks keep every column's largest value and take in at most a
+    # block beyond its edges.
+    rng = np.random.default_rng(count)
+    c = rng.standard_normal(count) * rng.exponential(1.0, count)
+    first, step = 0.37, 0.5
+    peaks = block_maxabs(c, block)
+    assert peaks.tolist() == [max(abs(v) for v in c[a:a + block]) for a in range(0, count, block)]
+    t0, t1 = first, first + step * count
+    got = maxabs_columns_from_blocks(peaks, block, count, first, step, t0, t1, columns)
+    exact = maxabs_columns(c, first, step, t0, t1, columns)
+    edges = np.clip(np.ceil((t0 + (t1 - t0) * np.arange(columns + 1) / columns - first) / step),
+                    0, count).astype(int)
+    for i, (a, b) in enumerate(zip(edges[:-1], edges[1:])):
+        assert exact[i] == max(abs(v) for v in c[a:b])
+        widened = max(abs(v) for v in c[max(0, a - block):min(count, b + block)])
+        assert exact[i] <= got[i] <= widened
+    # a view where a column holds fewer than two blocks: the caller reads the values
+    assert maxabs_columns_from_blocks(peaks, block, count, first, step, t0, t0 + step * 100,
+                                      columns) is None

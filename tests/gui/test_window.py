@@ -453,3 +453,27 @@ def test_a_region_repaints_only_its_columns_of_the_scale_map_and_they_are_right(
     changed = np.flatnonzero(after[0] != before[0])
     assert changed.size and edges[changed[0]] >= 1.99 and edges[changed[-1] + 1] <= 2.21
     np.testing.assert_array_equal(after[1:], before[1:])
+
+
+def test_a_long_band_zoomed_out_is_drawn_from_its_block_peaks(window, monkeypatch):
+    # Every band counts as long here: the Scale map's rows come from the peaks
+    # made in the worker.  Reference: Python's max of |coefficient| over each
+    # column's coefficients, and over that span widened by one block each side.
+    from scalesieve.gui import scale_map
+
+    monkeypatch.setattr(scale_map, "PEAKS_FROM", 0)
+    m = open_sample(window, PUMP)
+    sm = window.scale_map
+    t0, t1, width, _ = sm._row_view
+    pic = window.adapter.pictures(0)
+    img = sm.map_image()
+    c = m.coefficients(0, 1)
+    block = pic.coef_peaks[1][0]
+    first, step = sm._times[1]
+    edges = np.clip(np.ceil((t0 + (t1 - t0) * np.arange(width + 1) / width - first) / step),
+                    0, c.shape[0]).astype(int)
+    assert (edges[1:] - edges[:-1]).min() >= 2 * block      # the peaks were used
+    for col, (a, b) in enumerate(zip(edges[:-1], edges[1:])):
+        true = float(np.abs(c[a:b]).max())
+        wide = float(np.abs(c[max(0, a - block):b + block]).max())
+        assert true <= img[0, col] <= wide

@@ -273,3 +273,35 @@ def maxabs_columns(values: np.ndarray, first_time: float, step: float, t0: float
         idx = np.clip(np.rint((centre - first_time) / step), 0, count - 1).astype(np.int64)
         out[empty] = np.abs(values[idx])
     return out
+
+
+def block_maxabs(values: np.ndarray, block: int) -> np.ndarray:
+    """Largest ``|value|`` over consecutive blocks of ``block`` values (the last may be short)."""
+    n = values.shape[0]
+    if n == 0:
+        return np.zeros(0)
+    starts = np.arange(0, n, block, dtype=np.int64)
+    return np.maximum(np.maximum.reduceat(values, starts), -np.minimum.reduceat(values, starts))
+
+
+def maxabs_columns_from_blocks(peaks: np.ndarray, block: int, count: int, first_time: float,
+                               step: float, t0: float, t1: float,
+                               columns: int) -> np.ndarray | None:
+    """``maxabs_columns`` from per-block peaks (``block_maxabs``) of the same sequence.
+
+    Used when every column holds at least two blocks, so that a zoomed-out
+    view reads the peaks instead of every value: each column keeps its
+    largest value, its edges may move by less than one block.  None when a
+    column holds fewer (the caller reads the values).
+    """
+    columns = max(1, int(columns))
+    if count == 0 or t1 <= t0:
+        return None
+    edges_t = t0 + (t1 - t0) * np.arange(columns + 1) / columns
+    k = np.clip(np.ceil((edges_t - first_time) / step), 0, count).astype(np.int64)
+    if np.any(k[1:] - k[:-1] < 2 * block):
+        return None
+    b = k // block
+    last = (k[1:] - 1) // block          # the block of each column's last value
+    head = np.maximum.reduceat(peaks[b[0]:int(last[-1]) + 1], b[:-1] - b[0])
+    return np.maximum(head, peaks[last])

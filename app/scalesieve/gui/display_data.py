@@ -15,7 +15,7 @@ from concurrent.futures import ThreadPoolExecutor
 from typing import Callable
 
 import numpy as np
-from scalesieve.gui.decimate import BlockEnvelope, preview_pair, refresh_pair
+from scalesieve.gui.decimate import BlockEnvelope, block_maxabs, preview_pair, refresh_pair
 
 #: a change reaching more than this share of the recording rebuilds a band's envelope
 FULL_REBUILD_SHARE = 0.5
@@ -137,6 +137,10 @@ class ChannelPictures:
         arrays = {key: model.coefficients(channel, key) for key in keys}
         with ThreadPoolExecutor(max_workers=1) as pool:
             figures = pool.submit(band_figures, arrays)
+            # largest |c| per block of every band: a zoomed-out Scale map reads these
+            peaks = pool.submit(lambda: {key: (block_size(c.shape[0]),
+                                               block_maxabs(c, block_size(c.shape[0])))
+                                         for key, c in arrays.items()})
             # Coarse to fine: the model keeps the last component it made, and
             # the finest bands are the ones most often muted first.
             order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
@@ -156,6 +160,8 @@ class ChannelPictures:
                     self._take_state(model, key, full=True)
             finally:
                 self.stats = figures.result()
+                #: band key -> (block, largest |coefficient| per block), as read
+                self.coef_peaks = peaks.result()
         if progress:
             progress(1.0, "ready")
 

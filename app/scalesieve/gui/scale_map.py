@@ -22,13 +22,15 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QGraphicsRectItem, QHBoxLay
 from scalesieve.core import transforms as tf
 from scalesieve.gui.band_labels import (band_label, db_to_gain, format_seconds, gain_to_db,
                                         hz_range)
-from scalesieve.gui.decimate import maxabs_columns
+from scalesieve.gui.decimate import maxabs_columns, maxabs_columns_from_blocks
 from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, TimeViewBox, make_plot, tick_font
 from scalesieve.gui.resource_files import colour, palette
 from scalesieve.recipe import Edit
 
 #: shown dynamic range in dB below the reference magnitude
 DB_RANGE = 60.0
+#: bands of at least this many coefficients are drawn zoomed out from their block peaks
+PEAKS_FROM = 1 << 22
 #: what a drag makes: label -> gain
 DRAG_GAINS = (("mute", 0.0), ("−6 dB", db_to_gain(-6.0)), ("−12 dB", db_to_gain(-12.0)),
               ("−20 dB", db_to_gain(-20.0)))
@@ -362,8 +364,17 @@ class ScaleMapPane(PaneFrame):
         for key in self.keys:
             if key not in self._orig_rows:
                 first, step = self._times[key]
-                self._orig_rows[key] = maxabs_columns(m.coefficients(ch, key), first, step,
-                                                      t0, t1, width)
+                c = m.coefficients(ch, key)
+                row = None
+                pic = self.adapter.pictures(ch)
+                if pic is not None and key in pic.coef_peaks and c.shape[0] >= PEAKS_FROM:
+                    # a long band zoomed out: the per-block peaks made in the worker,
+                    # not every value (a column's edges may move by under a block)
+                    block, peaks = pic.coef_peaks[key]
+                    row = maxabs_columns_from_blocks(peaks, block, c.shape[0], first, step,
+                                                     t0, t1, width)
+                self._orig_rows[key] = (maxabs_columns(c, first, step, t0, t1, width)
+                                        if row is None else row)
             if key in self._rows:
                 continue
             gain = m.band_gain(ch, key) if edited else 1.0
