@@ -136,3 +136,26 @@ def test_short_recordings_are_not_deferred():
     m.defer_from = rec.n + 1
     m.add_edit(_mute([1]))
     assert m.deferred(0) is None
+
+
+@pytest.mark.parametrize("kind", ["dwt", "swt"])
+def test_two_channels_paid_in_turn_match_an_eager_model(kind):
+    # Reference: the same recipe on a model that never defers (itself checked
+    # against PyWavelets above and in test_model.py).
+    x = np.random.default_rng(11).standard_normal((9000, 2))
+    rec = Recording(x, 500.0, ["left", "right"])
+    spec = TransformSpec(kind, "db4", 4, "symmetric")
+    lazy, eager = DecompositionModel(rec, spec), DecompositionModel(rec, spec)
+    lazy.defer_from = 0
+    for m in (lazy, eager):
+        m.add_edit(_mute([1]))
+        m.add_edit(Edit("gain", levels=(3,), gain=0.5, channels=(1,)))
+    assert lazy.deferred(0) == 0 and lazy.deferred(1) == 0
+    seen = set()
+    while (got := lazy.flush_step(2048)) is not None:
+        seen.add(got[0])
+        for k in (0, 1):
+            assert np.allclose(lazy.cleaned_view(k, 0, rec.n), eager.cleaned(k), rtol=0,
+                               atol=1e-10)
+    assert seen == {0, 1}
+    assert np.allclose(lazy.cleaned(), eager.cleaned(), rtol=0, atol=1e-10)
