@@ -685,7 +685,7 @@ class DecompositionModel:
         index = np.asarray(index, dtype=np.int64)
         y = ch.cleaned[index]
         for o in ch.owed:
-            if o.start == 0:
+            if o.start == 0:             # owed everywhere (the usual case): no mask
                 y += o.factor * o.component[index]
             else:
                 later = index >= o.start
@@ -708,7 +708,8 @@ class DecompositionModel:
             if kept is not None:
                 kept[k0:k1] = new_vals
             deltas[p.key] = (old_vals - new_vals, k0)
-        if self.spec.kind != "dwt" or len(deltas) == 1:
+        if self.spec.kind != "dwt":
+            # no local synthesis for the SWT: each band's change is a full inverse
             spans = [s for s in (self._add_local(ch, key, d, k0)
                                  for key, (d, k0) in deltas.items()) if s is not None]
             return (min(a for a, _ in spans), max(b for _, b in spans)) if spans else None

@@ -127,16 +127,27 @@ def test_swt_any_length_round_trip(wavelet, mode, n, level, seed):
     assert np.max(np.abs(y - x)) <= 1e-10 * np.max(np.abs(x))
 
 
+def _decomposed(wavelet, mode, seed, n=1001):
+    """A random signal's level-4 DWT: spec, coefficients and band lengths."""
+    x = np.random.default_rng(seed).standard_normal(n)
+    spec = TransformSpec("dwt", wavelet, 4, mode).resolved(n)
+    return spec, tf.forward(x, spec), tf.band_lengths(n, spec)
+
+
+def _placed(start, seg, n):
+    """A local synthesis (start, segment) as n samples."""
+    got = np.zeros(n)
+    got[start:start + len(seg)] = seg
+    return got
+
+
 @pytest.mark.parametrize("mode", ["symmetric", "periodization", "zero", "smooth"])
 @pytest.mark.parametrize("wavelet", ["haar", "db4", "bior3.5", "coif2"])
 def test_local_synthesis_equals_full_inverse(wavelet, mode):
     # Linearity: a window of coefficients alone reconstructs to the same
     # samples whether done locally or with the whole inverse transform.
     n = 1001
-    x = np.random.default_rng(5).standard_normal(n)
-    spec = TransformSpec("dwt", wavelet, 4, mode).resolved(n)
-    c = tf.forward(x, spec)
-    lens = tf.band_lengths(n, spec)
+    spec, c, lens = _decomposed(wavelet, mode, 5, n)
     assert lens == [len(a) for a in c]
     for key in tf.band_keys(4):
         i = tf.band_index(key, 4)
@@ -144,9 +155,7 @@ def test_local_synthesis_equals_full_inverse(wavelet, mode):
             z = [np.zeros_like(q) for q in c]
             z[i][a:b] = c[i][a:b]
             ref = tf.inverse(z, spec, n)
-            s, seg = tf.local_synthesis(c[i][a:b], a, key, lens, spec, n)
-            got = np.zeros(n)
-            got[s:s + len(seg)] = seg
+            got = _placed(*tf.local_synthesis(c[i][a:b], a, key, lens, spec, n), n)
             assert np.max(np.abs(got - ref)) < 1e-12
 
 
@@ -157,10 +166,7 @@ def test_local_synthesis_of_several_bands_equals_full_inverse(wavelet, mode):
     # of several bands at once give the inverse of coefficients that are zero
     # but for those windows, at the edges and inside.
     n = 1001
-    x = np.random.default_rng(6).standard_normal(n)
-    spec = TransformSpec("dwt", wavelet, 4, mode).resolved(n)
-    c = tf.forward(x, spec)
-    lens = tf.band_lengths(n, spec)
+    spec, c, lens = _decomposed(wavelet, mode, 6, n)
     for picks in ([1, 2, 3], [2, 4, "a"], [1, "a"], [3]):
         for where in ("start", "middle", "end"):
             z = [np.zeros_like(q) for q in c]
@@ -173,9 +179,7 @@ def test_local_synthesis_of_several_bands_equals_full_inverse(wavelet, mode):
                 z[i][a:b] = c[i][a:b]
                 windows[key] = (c[i][a:b], a)
             ref = tf.inverse(z, spec, n)
-            s, seg = tf.local_synthesis_bands(windows, lens, spec, n)
-            got = np.zeros(n)
-            got[s:s + len(seg)] = seg
+            got = _placed(*tf.local_synthesis_bands(windows, lens, spec, n), n)
             assert np.max(np.abs(got - ref)) < 1e-12
 
 

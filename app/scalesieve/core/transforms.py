@@ -229,10 +229,7 @@ def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[
         return _wavedec_by_level(x, w, mode, level, progress)
     details = [np.empty(sizes[j], dtype=x.dtype) for j in range(level + 1)]   # [0] unused
     approx = np.empty(sizes[level], dtype=x.dtype)
-    parts = 1
-    if TRANSFORM_THREADS > 1 and n >= THREADS_FROM and sizes[level] >= 4 * L:
-        parts = 2
-    if parts == 1:
+    if TRANSFORM_THREADS < 2 or n < THREADS_FROM or sizes[level] < 4 * L:
         streams = [_Cascade(x, w, mode, sizes, details, approx, [0] * (level + 1),
                             list(sizes))]
     else:
@@ -256,7 +253,7 @@ def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[
         if progress:
             progress(min(1.0, sum(s.done for s in streams) / total))
 
-    if parts == 1:
+    if len(streams) == 1:
         streams[0].run(report)
     else:
         from concurrent.futures import ThreadPoolExecutor, wait
@@ -299,7 +296,7 @@ class _Cascade:
     """
 
     def __init__(self, x, w, mode, sizes, details, approx, first, last, write_from=None):
-        self.x, self.w, self.mode, self.sizes = x, w, mode, sizes
+        self.x, self.w, self.mode = x, w, mode
         self.L = w.dec_len
         self.details, self.approx = details, approx
         self.level = len(sizes) - 1
@@ -323,11 +320,10 @@ class _Cascade:
         return c.lo, c.hi
 
     def run(self, report=None) -> None:
-        step = BLOCK
         while self.done < self.inputs:
             if self.stop:
                 return
-            self.done = min(self.inputs, self.done + step)
+            self.done = min(self.inputs, self.done + BLOCK)
             self._push(1)
             if report:
                 report()

@@ -102,9 +102,9 @@ def preview_pair(cleaned: "BlockEnvelope", removed: "BlockEnvelope", x: np.ndarr
     For a change that reaches the whole of a long recording, drawn before
     the exact envelopes are ready (``refresh_pair`` then replaces it): each
     block's minimum and maximum over runs of neighbouring samples spread
-    evenly over it, read with ``cleaned_at(positions)``.  Its cost follows ``budget`` (default
-    ``PREVIEW_SAMPLES``), not the span; it may understate a block's peaks,
-    never overstate them.
+    evenly over it, read with ``cleaned_at(positions)``.  Its cost follows
+    ``budget`` (default ``PREVIEW_SAMPLES``), not the span; it may understate
+    a block's peaks, never overstate them.
     """
     b = cleaned.block
     n = cleaned.n

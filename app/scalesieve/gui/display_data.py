@@ -25,22 +25,29 @@ FULL_REBUILD_SHARE = 0.5
 FIGURE_BLOCK = 1 << 16
 
 
-def energy_and_kurtosis(c: np.ndarray) -> tuple[float, float | None, float]:
+def energy_and_kurtosis(c: np.ndarray) -> tuple[float, float | None, float, np.ndarray]:
     """Energy (sum of squares), Pearson kurtosis E[(x - mean)^4] / var^2 and peak |c| of a band.
 
     The formulas of ``core.metrics.energy`` and ``core.metrics.pearson_kurtosis``
     summed block by block: no band-sized temporaries (on a long recording
     their first touch costs more than the arithmetic).  The sums run in
     another order, so the figures may differ from those in the last bits.
+    Also returned, from the same pass: the largest |c| per block of
+    ``block_size(len(c))`` coefficients (a zoomed-out Scale map reads them).
     """
     n = c.shape[0]
     if n == 0:
-        return 0.0, None, 0.0
-    total = peak = 0.0
-    for b in range(0, n, FIGURE_BLOCK):
-        blk = np.asarray(c[b:b + FIGURE_BLOCK], dtype=np.float64)
+        return 0.0, None, 0.0, np.zeros(0)
+    per = block_size(n)
+    chunk = max(FIGURE_BLOCK, per)          # both powers of two: whole blocks per chunk
+    peaks = np.empty(-(-n // per))
+    total = 0.0
+    for b in range(0, n, chunk):
+        blk = np.asarray(c[b:b + chunk], dtype=np.float64)
         total += float(blk.sum())
-        peak = max(peak, float(blk.max()), -float(blk.min()))
+        part = block_maxabs(blk, per)
+        peaks[b // per:b // per + part.shape[0]] = part
+    peak = float(peaks.max())
     mean = total / n
     e = s2 = s4 = 0.0
     for b in range(0, n, FIGURE_BLOCK):
@@ -51,23 +58,25 @@ def energy_and_kurtosis(c: np.ndarray) -> tuple[float, float | None, float]:
         s2 += float(d2.sum())
         s4 += float(np.dot(d2, d2))
     if n < 2:
-        return e, None, peak
+        return e, None, peak, peaks
     m2 = s2 / n
     if m2 <= 0.0 or not np.isfinite(m2):
-        return e, None, peak
-    return e, (s4 / n) / (m2 * m2), peak
+        return e, None, peak, peaks
+    return e, (s4 / n) / (m2 * m2), peak, peaks
 
 
-def band_figures(arrays: dict) -> dict:
-    """Per band: coefficient count, energy, energy share, Pearson kurtosis and peak |c|."""
-    stats = {}
+def band_figures(arrays: dict) -> tuple[dict, dict]:
+    """Per band: coefficient count, energy, energy share, Pearson kurtosis and peak |c|;
+    and per band ``(block, largest |c| per block)``."""
+    stats, block_peaks = {}, {}
     for key, c in arrays.items():
-        e, k, peak = energy_and_kurtosis(c)
+        e, k, peak, peaks = energy_and_kurtosis(c)
         stats[key] = {"count": int(c.shape[0]), "energy": e, "kurtosis": k, "peak": peak}
+        block_peaks[key] = (block_size(c.shape[0]), peaks)
     total = sum(st["energy"] for st in stats.values())
     for st in stats.values():
         st["energy_fraction"] = st["energy"] / total if total > 0 else 0.0
-    return stats
+    return stats, block_peaks
 
 
 class ExactCleaned:
@@ -137,10 +146,6 @@ class ChannelPictures:
         arrays = {key: model.coefficients(channel, key) for key in keys}
         with ThreadPoolExecutor(max_workers=1) as pool:
             figures = pool.submit(band_figures, arrays)
-            # largest |c| per block of every band: a zoomed-out Scale map reads these
-            peaks = pool.submit(lambda: {key: (block_size(c.shape[0]),
-                                               block_maxabs(c, block_size(c.shape[0])))
-                                         for key, c in arrays.items()})
             # Coarse to fine: the model keeps the last component it made, and
             # the finest bands are the ones most often muted first.
             order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
@@ -159,9 +164,8 @@ class ChannelPictures:
                     del comp
                     self._take_state(model, key, full=True)
             finally:
-                self.stats = figures.result()
-                #: band key -> (block, largest |coefficient| per block), as read
-                self.coef_peaks = peaks.result()
+                #: and coef_peaks: band key -> (block, largest |coefficient| per block), as read
+                self.stats, self.coef_peaks = figures.result()
         if progress:
             progress(1.0, "ready")
 
