@@ -111,11 +111,11 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps)
     model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits),
                             progress=progress)
-    reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
-                          protect=[input_path])]
     if removed:
-        reports.append(api.export(model, removed, "removed", subtype=subtype, force=force,
-                                  protect=[input_path]))
+        reports = _export_both(api, model, output, removed, subtype, force, input_path)
+    else:
+        reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
+                              protect=[input_path])]
     # Pooled over channels, without the full per-band metrics (one pass).
     import numpy as np
 
@@ -134,6 +134,27 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         "clipped": int(sum(int(r.get("clipped") or 0) for r in reports)),
         "energy_removed_fraction": removed_energy / total if total > 0 else 0.0,
     }
+
+
+def _export_both(api, model, output: str, removed: str, subtype, force: bool,
+                 input_path: str) -> list[dict]:
+    """Cleaned and removed signals: both files appear, or neither (a full disk mid-way)."""
+    from scalesieve.io.atomic import atomic_targets
+
+    with atomic_targets([output, removed], force=force, protect=[input_path]) as temps:
+        reports = []
+        for what, tmp, target in (("cleaned", temps[0], output), ("removed", temps[1], removed)):
+            try:
+                rep = api.export(model, tmp, what, subtype=subtype, force=True,
+                                 protect=[input_path])
+            except ScalesieveError as exc:
+                # The user knows the target, not our temporary name for it.
+                exc.message = exc.message.replace(tmp, target)
+                if exc.source == tmp:
+                    exc.source = target
+                raise
+            reports.append({**rep, "path": target})
+    return reports
 
 
 # --------------------------------------------------------------------------
