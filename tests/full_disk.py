@@ -17,13 +17,13 @@ import pytest
 
 
 @contextlib.contextmanager
-def small_disk(parent, size_bytes: int):
-    """A folder on a fresh tmpfs of ``size_bytes``; unmounted afterwards."""
+def small_disk(parent, size_bytes: int, read_only: bool = False):
+    """A folder on a fresh tmpfs of ``size_bytes`` (``read_only``: mounted so); unmounted after."""
     if not sys.platform.startswith("linux") or os.geteuid() != 0 or not shutil.which("mount"):
         pytest.skip("mounting a small tmpfs needs Linux and root")
     folder = os.path.join(os.fspath(parent), f"small-disk-{uuid.uuid4().hex[:6]}")
     os.makedirs(folder)
-    done = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={int(size_bytes)},mode=0777",
+    done = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={int(size_bytes)},mode=0777" + (",ro" if read_only else ""),
                            "tmpfs", folder], capture_output=True, text=True)
     if done.returncode != 0:
         os.rmdir(folder)

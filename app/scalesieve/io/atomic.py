@@ -101,7 +101,18 @@ def _alive(pid: int) -> bool:
         return False
     except OSError:
         return True  # exists, but belongs to someone else
-    return True
+    return not _zombie(pid)
+
+
+def _zombie(pid: int) -> bool:
+    """A killed process its parent has not reaped yet: it writes nothing any more."""
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            stat = fh.read()
+    except OSError:
+        return False     # no /proc (not Linux): take it as alive
+    # "pid (name) S ...": the state follows the last ')' (a name may hold one)
+    return stat[stat.rfind(b")") + 2:][:1] in (b"Z", b"X")
 
 
 def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[str]:
