@@ -500,13 +500,13 @@ def finish_session(path: str | os.PathLike[str], captured: Mapping | None = None
         return None
     recipe = data.get("recipe") if isinstance(data.get("recipe"), dict) else {}
     edits = recipe.get("edits") if isinstance(recipe.get("edits"), list) else []
-    if not edits or (captured is not None and _same_recipe(recipe, captured)):
+    if not edits or (captured is not None and same_recipe(recipe, captured)):
         clear_session(path)
         return None
     return keep_aside(path)
 
 
-def _same_recipe(a: Mapping, b: Mapping) -> bool:
+def same_recipe(a: Mapping, b: Mapping) -> bool:
     return json.dumps(_plain(a), sort_keys=True) == json.dumps(_plain(b), sort_keys=True)
 
 
