@@ -2,11 +2,19 @@ import os
 
 from hypothesis import settings
 
+from fuzz_budget import campaign_count
+
 # Every test runs headless; Qt (where used) draws offscreen.
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 # CI draws the same examples every run (a failure there is reproducible);
-# a developer's run explores new ones.
+# a developer's run explores new ones.  The long randomized campaign
+# (``SCALESIEVE_FUZZ_EXAMPLES=N``, see DEVELOPERS.md) draws fresh ones, N per fuzz test.
 settings.register_profile("ci", derandomize=True, deadline=None, print_blob=True)
-if os.environ.get("CI"):
+_CAMPAIGN = campaign_count()
+if _CAMPAIGN is not None:
+    settings.register_profile("fuzz-campaign", derandomize=False, deadline=None,
+                              print_blob=True, max_examples=_CAMPAIGN)
+    settings.load_profile("fuzz-campaign")
+elif os.environ.get("CI"):
     settings.load_profile("ci")

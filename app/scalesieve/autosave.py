@@ -12,13 +12,29 @@ the way, kept, when the user opens the recording without them.
 
 Whether the recording changed is decided by its SHA-256, taken when the
 session began (the first save, or given by the caller from when the file was
-opened).  Files up to :data:`FULL_HASH_BYTES` are hashed whole, streamed in
+opened), and taken again every time a restore is offered, whatever the size
+and modification time say (``cp -p`` keeps both while changing the bytes).
+Files up to :data:`FULL_HASH_BYTES` (256 MiB) are hashed whole, streamed in
 1 MiB chunks (hashlib releases the GIL on each chunk, so a worker thread can
 do it while the window stays responsive).  Larger files get a *sampled*
 SHA-256 of their size, first and last MiB and 32 evenly spaced 64 KiB blocks;
 it catches any change of size and nearly every rewrite, but not an edit
 confined to unsampled bytes, so for those files a changed modification time
 also counts as a change.  The method is stored with the hash.
+
+What is kept where, and for how long
+------------------------------------
+``sessions/<key>.json``: the edits of a recording open now, or of one whose
+window did not close normally (offered back when it is opened again).  A
+normal close, opening another recording, saving the recipe or exporting the
+signal ends it: edits that were saved or exported are forgotten; edits that
+were not go to ``sessions/<key>.kept-<time>.json``, a *kept session*, as do
+those the user keeps for later and those a restore could not apply.  Kept
+sessions are listed under File > Kept edits, can be opened as a recipe or
+saved as a recipe file, and are removed by the user there or, untouched for
+:data:`KEPT_DAYS` days, when the window starts (:func:`prune_kept`).
+Unreadable session files are set aside as ``<key>.unreadable-<time>.json``
+and never removed.
 
 No Qt here: the window calls these functions; ``gui/restore_prompt.py`` asks
 the user.
@@ -47,6 +63,8 @@ _SAMPLE_BLOCKS = 32
 _SAMPLE_BLOCK = 64 << 10
 #: A session file is a recipe and a few view settings; beyond this it is not one.
 _MAX_SESSION_BYTES = 16 << 20
+#: Kept sessions not saved for this many days are removed when the window starts.
+KEPT_DAYS = 30
 
 
 # ------------------------------------------------------------------ places
@@ -173,18 +191,16 @@ def _compare(recorded: Fingerprint, path: str) -> tuple[bool, str | None, Finger
         return True, "the recording is no longer there", None
     if st.st_size != recorded.size:
         return True, (f"its size changed from {recorded.size} to {st.st_size} bytes"), None
-    if st.st_mtime_ns == recorded.mtime_ns:
-        # Same size and time stamp: rehashing a large file on every open would cost
-        # seconds for what a rewrite practically never leaves unchanged.
-        return False, None, recorded
+    # Hashed again even with the same size and time stamp: a copy made with
+    # ``cp -p`` (or a clock set back) keeps both while the contents differ.
     current = fingerprint(path, full_limit=FULL_HASH_BYTES if recorded.method == "sha256"
                           else -1)
     if current.sha256 != recorded.sha256:
         return True, "its contents differ (SHA-256)", current
-    if recorded.method != "sha256":
+    if recorded.method != "sha256" and st.st_mtime_ns != recorded.mtime_ns:
         return True, ("it was modified since (same size and sampled content; too large "
                       "to compare whole)"), current
-    return False, None, current  # touched, but the same bytes
+    return False, None, current  # the same bytes (or, sampled, the same samples and time)
 
 
 # ------------------------------------------------------------- plain JSON
@@ -435,8 +451,12 @@ def keep_aside(path: str | os.PathLike[str]) -> str | None:
     file = session_file(path)
     if not os.path.exists(file):
         return None
-    stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S")
+    stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S-%f")
     kept = file[:-len(".json")] + f".kept-{stamp}.json"
+    k = 1
+    while os.path.lexists(kept):            # never over an earlier kept session
+        kept = file[:-len(".json")] + f".kept-{stamp}-{k}.json"
+        k += 1
     try:
         os.replace(file, kept)
     except OSError as exc:
@@ -447,7 +467,7 @@ def keep_aside(path: str | os.PathLike[str]) -> str | None:
 
 def list_sessions() -> list[dict]:
     """Every readable session, newest first: ``path``, ``edits``, ``saved``, ``file`` and
-    ``kept`` (true for sessions put aside by :func:`keep_aside`)."""
+    ``kept`` (true for sessions put aside by :func:`keep_aside` or :func:`finish_session`)."""
     folder = sessions_dir()
     out = []
     try:
@@ -464,3 +484,92 @@ def list_sessions() -> list[dict]:
                     "edits": data.get("edits", 0), "saved": data.get("saved", ""),
                     "file": os.path.join(folder, name), "kept": ".kept-" in name})
     return sorted(out, key=lambda d: d["saved"], reverse=True)
+
+
+def finish_session(path: str | os.PathLike[str], captured: Mapping | None = None) -> str | None:
+    """End the session of ``path`` normally (the window closed it); nothing unsaved is lost.
+
+    Edits that are all in ``captured`` (the recipe as last saved or exported,
+    ``Recipe.to_json()``), or no edits at all, are forgotten; other edits are
+    kept aside (:func:`keep_aside`), listed as a kept session, and not offered
+    as after a crash.  Returns the kept file, or ``None``.
+    """
+    file = session_file(path)
+    data = _read_session(file) if os.path.exists(file) else None
+    if data is None:
+        return None
+    recipe = data.get("recipe") if isinstance(data.get("recipe"), dict) else {}
+    edits = recipe.get("edits") if isinstance(recipe.get("edits"), list) else []
+    if not edits or (captured is not None and same_recipe(recipe, captured)):
+        clear_session(path)
+        return None
+    return keep_aside(path)
+
+
+def same_recipe(a: Mapping, b: Mapping) -> bool:
+    return json.dumps(_plain(a), sort_keys=True) == json.dumps(_plain(b), sort_keys=True)
+
+
+def _in_sessions(file: str) -> str:
+    folder = os.path.realpath(sessions_dir())
+    real = os.path.realpath(file)
+    if os.path.dirname(real) != folder or not real.endswith(".json"):
+        raise ScalesieveError("is not a session file of this user", source=file)
+    return real
+
+
+def read_kept(file: str):
+    """The recipe of a session file: ``(Recipe, session data)``.
+
+    Raises
+    ------
+    ScalesieveError
+        When the file is gone, unreadable, or its recipe no longer reads.
+    """
+    from scalesieve.recipe import from_json
+
+    real = _in_sessions(file)
+    data = _read_session(real)
+    if data is None or not isinstance(data.get("recipe"), dict):
+        raise ScalesieveError("cannot read these kept edits", source=file)
+    return from_json(data["recipe"], source=file), data
+
+
+def delete_kept(file: str) -> None:
+    """Remove one session file (the user chose to); only inside the sessions folder."""
+    real = _in_sessions(file)
+    try:
+        os.unlink(real)
+    except FileNotFoundError:
+        return
+    except OSError as exc:
+        raise ScalesieveError(f"cannot remove these kept edits ({exc.strerror or exc})",
+                              source=file) from None
+
+
+def prune_kept(max_age_days: float = KEPT_DAYS, now: datetime.datetime | None = None
+               ) -> list[str]:
+    """Remove kept sessions last saved more than ``max_age_days`` ago; return them.
+
+    Only kept sessions (``*.kept-*.json``): the session of a window that did
+    not close normally waits to be offered, however old.
+    """
+    now = now or datetime.datetime.now(datetime.timezone.utc)
+    limit = now - datetime.timedelta(days=max_age_days)
+    gone = []
+    for s in list_sessions():
+        if not s["kept"]:
+            continue
+        try:
+            saved = datetime.datetime.fromisoformat(s["saved"])
+        except (TypeError, ValueError):
+            continue
+        if saved.tzinfo is None:
+            saved = saved.replace(tzinfo=datetime.timezone.utc)
+        if saved < limit:
+            try:
+                os.unlink(s["file"])
+            except OSError:
+                continue
+            gone.append(s["file"])
+    return gone

@@ -111,11 +111,11 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps)
     model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits),
                             progress=progress)
-    reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
-                          protect=[input_path])]
     if removed:
-        reports.append(api.export(model, removed, "removed", subtype=subtype, force=force,
-                                  protect=[input_path]))
+        reports = _export_both(api, model, output, removed, subtype, force, input_path)
+    else:
+        reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
+                              protect=[input_path])]
     # Pooled over channels, without the full per-band metrics (one pass).
     import numpy as np
 
@@ -136,6 +136,27 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     }
 
 
+def _export_both(api, model, output: str, removed: str, subtype, force: bool,
+                 input_path: str) -> list[dict]:
+    """Cleaned and removed signals: both files appear, or neither (a full disk mid-way)."""
+    from scalesieve.io.atomic import atomic_targets
+
+    with atomic_targets([output, removed], force=force, protect=[input_path]) as temps:
+        reports = []
+        for what, tmp, target in (("cleaned", temps[0], output), ("removed", temps[1], removed)):
+            try:
+                rep = api.export(model, tmp, what, subtype=subtype, force=True,
+                                 protect=[input_path])
+            except ScalesieveError as exc:
+                # The user knows the target, not our temporary name for it.
+                exc.message = exc.message.replace(tmp, target)
+                if exc.source == tmp:
+                    exc.source = target
+                raise
+            reports.append({**rep, "path": target})
+    return reports
+
+
 # --------------------------------------------------------------------------
 # one file of a batch
 
@@ -154,6 +175,8 @@ class FileJob:
     options: dict = field(default_factory=dict)
     data: bytes | None = None
     input_sha256: str | None = None
+    #: the batch's token: marks outputs this batch's tries began (see :func:`claim_output`)
+    batch: str | None = None
 
 
 def sha256_file(path: str, block: int = 1 << 20) -> str:
@@ -164,6 +187,39 @@ def sha256_file(path: str, block: int = 1 << 20) -> str:
             if not chunk:
                 return h.hexdigest()
             h.update(chunk)
+
+
+#: ``.<output name>.scalesieve-claim-<batch token>``: an empty file beside an output
+CLAIM_MARK = ".scalesieve-claim-"
+
+
+def claim_path(output: str, token: str) -> str:
+    folder, name = os.path.split(output)
+    return os.path.join(folder, f".{name}{CLAIM_MARK}{token}")
+
+
+def claim_output(job: FileJob) -> dict:
+    """The options for this try of ``job``: an earlier try's own output may be replaced.
+
+    A try leaves a claim beside the output before it writes it (when the
+    output is not there yet).  A later try of the same job in the same batch
+    (a retry after its worker died, on any runner) finds the claim, so an
+    output standing there now is that earlier try's and is replaced; an output
+    that was there before the first try is refused as ever (unless ``force``).
+    The batch removes its claims at the end.
+    """
+    if job.batch is None or job.options.get("force"):
+        return job.options
+    claim = claim_path(job.output, job.batch)
+    if os.path.lexists(claim):
+        return {**job.options, "force": True}
+    if not os.path.lexists(job.output):
+        try:
+            with open(claim, "x"):
+                pass
+        except OSError:
+            pass    # the write itself will say what is wrong with the folder
+    return job.options
 
 
 def _entry(job: FileJob) -> dict:
@@ -189,7 +245,7 @@ def run_job(job: FileJob) -> dict:
                 out["input_sha256"] = sha256_file(job.input)
             except OSError:
                 pass  # the reader names the problem (missing, a folder, no permission)
-            res = clean_file(job.input, job.output, **job.options)
+            res = clean_file(job.input, job.output, **claim_output(job))
         else:
             # The bytes go to a private folder under the input's own name, so
             # the writers see what they would see for the original file.
@@ -312,6 +368,101 @@ def plan_outputs(inputs: Sequence[str], outdir: str, force: bool = False) -> lis
         more = f" (and {len(existing) - 1} more)" if len(existing) > 1 else ""
         raise ScalesieveError(f"exists{more}; use --force to replace", existing[0])
     return pairs
+
+
+def estimate_output_bytes(src: str, dst: str, subtype: str | None = None) -> int:
+    """About how many bytes the cleaned ``dst`` of ``src`` takes (for the free-space check).
+
+    Uncompressed audio from an audio input: frames x channels x bytes per
+    sample (the subtype asked for, else the input's, else 32-bit float),
+    which is what the writer writes.  Everything else (compressed formats,
+    text tables) is rougher: the input's own size, or for a CSV output from
+    audio, 25 characters a value.
+    """
+    from scalesieve.io.writers import _BYTES_PER_SAMPLE, CSV_EXTENSIONS
+
+    try:
+        size = os.path.getsize(src)
+    except OSError:
+        return 0            # the job will name the problem
+    ext = os.path.splitext(dst)[1].lower()
+    try:
+        import soundfile as sf
+
+        info = sf.info(src)
+    except Exception:       # not audio (a text table), or unreadable: the input's size
+        return size
+    if ext in CSV_EXTENSIONS:
+        return int(info.frames) * (int(info.channels) + 1) * 25
+    if ext in (".flac", ".ogg", ".oga"):
+        return size
+    width = _BYTES_PER_SAMPLE.get((subtype or info.subtype or "FLOAT").upper(), 4)
+    return int(info.frames) * int(info.channels) * width + 4096
+
+
+def check_output_folder(outdir: str, pairs: Sequence[tuple[str, str]],
+                        subtype: str | None = None) -> None:
+    """Refuse, before any work, an output folder that cannot take the batch's outputs.
+
+    A file is made there and removed (permissions, read-only file systems and
+    full disks all show), and the free space is compared with
+    :func:`estimate_output_bytes` summed over the inputs (less what the
+    outputs being replaced free, plus room for the report).
+
+    Raises
+    ------
+    ScalesieveError
+        One line naming the folder and what is wrong.
+    """
+    import errno
+    import shutil
+
+    try:
+        fd, probe = tempfile.mkstemp(prefix=".scalesieve-probe-", dir=outdir)
+        os.close(fd)
+        os.unlink(probe)
+    except OSError as exc:
+        why = {errno.ENOSPC: "no disk space left", errno.EACCES: "permission denied",
+               errno.EPERM: "permission denied", errno.EROFS: "read-only file system",
+               errno.EDQUOT: "disk quota exceeded"}.get(exc.errno, exc.strerror or str(exc))
+        raise ScalesieveError(f"cannot write in the output folder ({why}); nothing was "
+                              "cleaned", outdir) from None
+    need = 1 << 20          # the report, and slack for headers
+    for src, dst in pairs:
+        need += estimate_output_bytes(src, dst, subtype)
+        try:
+            need -= os.path.getsize(dst)        # replaced with --force: its room comes back
+        except OSError:
+            pass
+    try:
+        free = shutil.disk_usage(outdir).free
+    except OSError:
+        return
+    if free < need:
+        raise ScalesieveError(
+            f"not enough disk space for the outputs: about {need / 1e6:.3g} MB needed, "
+            f"{free / 1e6:.3g} MB free; nothing was cleaned", outdir)
+
+
+def tidy_outputs(outputs: Sequence[str], token: str | None = None) -> list[str]:
+    """Remove this batch's claims and the temporaries dead writers left beside its outputs.
+
+    Run at the end of a batch (here, and on every cluster worker for the
+    writers of its own machine).  Returns what was removed.
+    """
+    from scalesieve.io.atomic import remove_stale_temporaries
+
+    removed: list[str] = []
+    for out in outputs:
+        removed += remove_stale_temporaries(out)
+        if token:
+            claim = claim_path(out, token)
+            try:
+                os.unlink(claim)
+            except OSError:
+                continue
+            removed.append(claim)
+    return removed
 
 
 # --------------------------------------------------------------------------
@@ -632,6 +783,7 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         except OSError as exc:
             raise ScalesieveError(f"cannot create the output folder: {exc.strerror or exc}",
                                   outdir) from None
+        check_output_folder(out_abs, pairs, subtype)
         info: dict[str, Any] = {}
         if client is not None:
             views = check_cluster(client, scheduler, None if send_data else out_abs,
@@ -642,7 +794,10 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         else:
             n = workers or default_workers()
             info = {"local_processes": max(1, min(n, len(pairs)))}
-        jobs = [FileJob(i, src, dst, options) for i, (src, dst) in enumerate(pairs)]
+        import uuid
+
+        token = uuid.uuid4().hex[:12]
+        jobs = [FileJob(i, src, dst, options, batch=token) for i, (src, dst) in enumerate(pairs)]
         entries: list[dict | None] = [None] * len(jobs)
         started = _now()
         t0 = time.perf_counter()
@@ -672,6 +827,9 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
                 run_local(jobs, info["local_processes"], done)
         except KeyboardInterrupt:
             interrupted = True
+        finally:
+            _tidy_everywhere(client, [j.output for j in jobs]
+                             + [os.path.join(out_abs, REPORT_NAME)], token, send_data)
         for job, e in zip(jobs, entries):
             if e is None:
                 e = _entry(job)
@@ -697,6 +855,16 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
     finally:
         if client is not None:
             client.close()
+
+
+def _tidy_everywhere(client, outputs: list[str], token: str, send_data: bool) -> None:
+    """Stale temporaries and claims go at the end of the batch: here and on each worker."""
+    if client is not None and not send_data:
+        try:
+            client.run(tidy_outputs, outputs, None)     # writers on the workers' machines
+        except Exception:  # a worker gone meanwhile: what this machine sees is tidied below
+            pass
+    tidy_outputs(outputs, token)
 
 
 def _write_bytes(path: str, data: bytes) -> None:

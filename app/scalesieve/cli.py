@@ -92,7 +92,75 @@ def _log_failure(exc: BaseException) -> str:
     return path
 
 
+class OutputFailed(Exception):
+    """Standard output could not be written (a full disk, a closed pipe)."""
+
+    def __init__(self, exc: OSError):
+        super().__init__(str(exc))
+        self.exc = exc
+
+
+class _GuardedOutput:
+    """Standard output whose write errors are told apart from every other OSError."""
+
+    def __init__(self, stream):
+        self._stream = stream
+
+    def write(self, text):
+        try:
+            return self._stream.write(text)
+        except OSError as exc:
+            raise OutputFailed(exc) from None
+
+    def flush(self):
+        try:
+            return self._stream.flush()
+        except OSError as exc:
+            raise OutputFailed(exc) from None
+
+    def __getattr__(self, name):
+        return getattr(self._stream, name)
+
+
+def _silence_stdout() -> None:
+    """Point file descriptor 1 at the null device, so the flush at exit cannot fail again."""
+    import os
+
+    try:
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+def _output_failed(exc: OSError) -> int:
+    """A closed pipe (the reader had enough, e.g. ``| head``) is quiet; other failures one line."""
+    import errno
+
+    _silence_stdout()
+    if isinstance(exc, BrokenPipeError) or exc.errno == errno.EPIPE:
+        return 0
+    why = ("not enough disk space" if exc.errno == errno.ENOSPC
+           else exc.strerror or str(exc))
+    print(f"{PROG}: error: standard output: cannot write the output ({why})", file=sys.stderr)
+    return 2
+
+
 def main(argv: list[str] | None = None) -> int:
+    real_stdout = sys.stdout
+    if real_stdout is not None and not isinstance(real_stdout, _GuardedOutput):
+        sys.stdout = _GuardedOutput(real_stdout)
+    try:
+        code = _main(argv)
+        if sys.stdout is not None:
+            sys.stdout.flush()      # a write error shows here, not at interpreter exit
+        return code
+    except OutputFailed as exc:
+        return _output_failed(exc.exc)
+    finally:
+        sys.stdout = real_stdout
+
+
+def _main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in argv
     command = argv[0] if argv and argv[0] in COMMANDS else None
@@ -115,14 +183,11 @@ def main(argv: list[str] | None = None) -> int:
             raise
         print(f"{PROG}: error: {exc.one_line()}", file=sys.stderr)
         return 2
+    except OutputFailed:
+        raise
     except BrokenPipeError:
         # the reader of our output went away (e.g. `| head`): not a failure
-        import os
-
-        try:
-            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
-        except OSError:
-            pass
+        _silence_stdout()
         return 0
     except KeyboardInterrupt:
         print(f"{PROG}: interrupted", file=sys.stderr)

@@ -68,7 +68,9 @@ ROUNDOFF_SHARE = 1e-20
 COMPONENT_CACHE = 2
 #: ... and more than one only while they fit in this many bytes per channel
 COMPONENT_BYTES = 64 << 20
-#: thresholds kept per band (each keyed by the chain up to its edit)
+#: thresholds kept per band: keyed by the chain up to each edit (a prefix tree,
+#: ``core.edits.ThresholdMemo``); beyond the current chain, this many steps of
+#: other chains (undo, redo, a slider's earlier values) before they are forgotten
 THRESHOLDS_KEPT = 64
 #: samples per step of a deferred pass (``flush_step``): a few milliseconds of work
 FLUSH_STEP = 1 << 22
@@ -120,7 +122,7 @@ class _Channel:
         self.cleaned = x
         self.components: dict = {}       # ((key, shape), ...) -> time component (LRU)
         self.values: dict = {}           # key -> edited values, kept once someone asked
-        self.thresholds: dict = {}       # key -> {chain up to a threshold edit: lambda}
+        self.thresholds: dict = {}       # key -> ThresholdMemo (chain up to each edit -> lambda)
         self.incremental = False         # cleaned was updated by parts since the last full pass
         self.owed: list[_Owed] = []      # deferred gain passes (see flush_step)
         self.contexts: dict = {}         # key -> BandContext
@@ -492,10 +494,12 @@ class DecompositionModel:
         return min(sl.start for sl in sls), max(sl.stop for sl in sls)
 
     def _lams(self, ch: _Channel, key, chain: tuple) -> tuple:
-        cache = ch.thresholds.setdefault(key, {})
+        cache = ch.thresholds.get(key)
+        if cache is None:
+            cache = ch.thresholds[key] = ed.ThresholdMemo()
         lams = ed.chain_thresholds(ch.band(key, self.level), chain, self._ctx(ch, key), cache)
-        while len(cache) > THRESHOLDS_KEPT:
-            cache.pop(next(iter(cache)))
+        if cache.nodes > 2 * len(chain) + THRESHOLDS_KEPT:
+            cache.keep_only(chain)      # memory follows the recipe's length, not its history
         return lams
 
     def _values(self, ch: _Channel, key, chain: tuple, k0: int = 0, k1: int | None = None,

@@ -5,7 +5,9 @@ gives a loaded recording or one ``ScalesieveError`` (exit status 2 and one
 line), never a traceback, a hang or a huge allocation.  Each case runs in a
 worker process (fuzz_harness.py) that classifies it; a failure message names
 the case so it can be replayed.  The budget is a few hundred cases per run;
-``python tests/robustness/fuzz_long.py --minutes 10`` runs the long version.
+``SCALESIEVE_FUZZ_EXAMPLES=N`` (``.ci/fuzz-campaign N``) runs these tests as a
+randomized campaign of N examples each, and ``python tests/robustness/fuzz_long.py
+--minutes 10`` runs the long version outside Hypothesis.
 """
 
 from __future__ import annotations
@@ -25,11 +27,14 @@ from hypothesis import strategies as st
 
 import damaged_inputs as di
 import fuzz_cases
+from fuzz_budget import examples
 from fuzz_harness import CaseRunner, message_template
 
 # Deadline: a hang guard for a machine shared with other work, not a speed test
 # (the worker's own limit below ends a case that never returns).
-BOUNDED = settings(max_examples=40, deadline=timedelta(seconds=60), derandomize=False,
+# Whether the examples are fixed (CI) or fresh (the campaign) is the profile's to say
+# (tests/conftest.py); counts come from fuzz_budget, so a campaign can raise them.
+BOUNDED = settings(max_examples=examples(40), deadline=timedelta(seconds=60),
                    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 CASE_TIMEOUT_S = 45.0
 
@@ -49,7 +54,7 @@ def check(runner, target, data, suffix="", options=None):
 # ------------------------------------------------------------- every family
 
 @pytest.mark.parametrize("family", sorted(fuzz_cases.FAMILIES))
-@settings(BOUNDED, max_examples=30)
+@settings(BOUNDED, max_examples=examples(30))
 @given(number=st.integers(0, 2 ** 40))
 def test_every_family_loads_or_gives_one_plain_error(runner, family, number):
     target, data, suffix, options = fuzz_cases.make_case(family, number)
@@ -184,7 +189,7 @@ def test_flac_claim_reaches_the_reader_unchanged(tmp_path):
 
 # --------------------------------------------------------------- CSV dialects
 
-@settings(max_examples=120, deadline=timedelta(seconds=60))
+@settings(max_examples=examples(120), deadline=timedelta(seconds=60))
 @given(rnd=st.randoms(use_true_random=False))
 def test_clean_tables_in_every_dialect_read_back_the_values_written(tmp_path_factory, rnd):
     """A table written by Python's csv module reads back exactly (the cells' own values)."""

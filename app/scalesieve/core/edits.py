@@ -124,31 +124,99 @@ def split_gain(edits: Sequence, ctx: BandContext) -> tuple[tuple, float]:
     return tuple(shape), gain
 
 
+class ThresholdMemo(dict):
+    """Thresholds found along chains, keyed by the chain up to each edit.
+
+    A prefix tree: each edit of a chain is a step from the node of the edits
+    before it (``memo[edit] -> [threshold or None, {next edit: node}]``), so
+    looking up a whole chain hashes each edit once, and chains that share a
+    beginning share its nodes.  ``nodes`` counts the steps stored, for the
+    owner to bound (:meth:`keep_only`).
+    """
+
+    nodes = 0
+
+    def keep_only(self, edits: Sequence) -> None:
+        """Forget every chain but ``edits`` (their thresholds found so far are kept)."""
+        path = []
+        children = self
+        for e in edits:
+            node = children.get(e)
+            if node is None:
+                break
+            path.append((e, node[0]))
+            children = node[1]
+        self.clear()
+        children = self
+        for e, lam in path:
+            node = [lam, {}]
+            children[e] = node
+            children = node[1]
+        self.nodes = len(path)
+
+
+def _step(c: np.ndarray, state, e, ctx: BandContext, lam: float | None):
+    """``state`` after one more edit: the operations of ``apply_chain``, in its order."""
+    if e.op == "gain":
+        return state * e.gain
+    if e.op == "region":
+        sl = region_slice(e, ctx)
+        if sl.stop <= sl.start:
+            return state
+        if not isinstance(state, np.ndarray):
+            state = c * state
+        state[sl] *= e.gain
+        return state
+    if e.op == "threshold":
+        cur = c * state if not isinstance(state, np.ndarray) else state
+        return th.apply_shape(cur, lam, e.shape)
+    return state
+
+
 def chain_thresholds(c: np.ndarray, edits: Sequence, ctx: BandContext,
                      cache: dict | None = None) -> tuple[float, ...]:
     """The threshold of each threshold edit of a chain, as ``apply_chain`` finds it.
 
     Universal, minimax and manual thresholds do not look at the band;
     BayesShrink and SURE look at its values as they stand when the edit
-    applies, which costs a pass over the band (``cache``, keyed by the chain
-    up to the edit, saves it next time).
+    applies.  Those values are carried along the chain as it is walked (one
+    pass over the band per edit before the last such threshold, never the
+    chain again from its start), so the cost grows linearly with the chain.
+    ``cache`` (a :class:`ThresholdMemo`, or a plain dict), keyed by the chain
+    up to each edit, saves the work next time.
     """
     lams: list[float] = []
+    children = cache
+    counted = isinstance(cache, ThresholdMemo)
+    state: float | np.ndarray = 1.0
+    done = 0                      # edits[:done] are applied in ``state``
+    t_done = 0                    # ... holding this many thresholds
     for i, e in enumerate(edits):
+        node = None
+        if children is not None:
+            node = children.get(e)
+            if node is None:
+                node = [None, {}]
+                children[e] = node
+                if counted:
+                    cache.nodes += 1
+            children = node[1]
         if e.op != "threshold":
             continue
-        key = tuple(edits[:i + 1])
-        if cache is not None and key in cache:
-            lams.append(cache[key])
+        if node is not None and node[0] is not None:
+            lams.append(node[0])
             continue
         if is_pointwise(e):
             lam = threshold_value(e, c, ctx)
         else:
-            cur = state_values(c, chain_values(c, edits[:i], ctx, lams))
-            lam = threshold_value(e, cur, ctx)
-            del cur
-        if cache is not None:
-            cache[key] = lam
+            while done < i:
+                d = edits[done]
+                state = _step(c, state, d, ctx, lams[t_done] if d.op == "threshold" else None)
+                t_done += d.op == "threshold"
+                done += 1
+            lam = threshold_value(e, state_values(c, state), ctx)
+        if node is not None:
+            node[0] = lam
         lams.append(lam)
     return tuple(lams)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import importlib.util
 import os
 
-from PySide6.QtCore import QByteArray, QPoint, QRectF, QSize, Qt
+from PySide6.QtCore import QByteArray, QPoint, QRectF, QSize, Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence, QPainter
 from PySide6.QtWidgets import (QApplication, QCheckBox, QComboBox, QDockWidget, QFileDialog,
                                QLabel, QMainWindow, QMessageBox, QProgressBar, QScrollArea,
@@ -38,6 +38,9 @@ EVENTS_MODULE = "scalesieve.gui.events_pane"
 
 class MainWindow(QMainWindow):
     """Scale map, Bands and Reconstruction panes over one decomposition model."""
+
+    #: the recipe was saved or the signal exported (the recipe, as JSON): the edits are safe
+    workSaved = Signal(object)
 
     def __init__(self, settings=None, parent=None):
         super().__init__(parent)
@@ -223,6 +226,10 @@ class MainWindow(QMainWindow):
         m = mb.addMenu("&File")
         m.addAction(self.act_open)
         self.recent_menu = m.addMenu("Open r&ecent")
+        from scalesieve.gui.kept_sessions import KeptEditsMenu
+
+        self.kept_menu = KeptEditsMenu(self)
+        m.addMenu(self.kept_menu)
         m.addSeparator()
         for a in (self.act_export, self.act_bands, self.act_picture):
             m.addAction(a)
@@ -506,6 +513,7 @@ class MainWindow(QMainWindow):
             show_error(self, exc.one_line())
             return False
         self.statusBar().showMessage(f"recipe saved to {path}", 5000)
+        self.workSaved.emit(m.recipe().to_json())
         return True
 
     def _save_recipe_asking(self, title: str) -> str:
@@ -553,6 +561,7 @@ class MainWindow(QMainWindow):
         except ScalesieveError as exc:
             show_error(self, exc.one_line())
             return None
+        self.workSaved.emit(m.recipe().to_json())
         note = f"wrote {path}"
         if rep.get("clipped"):
             note += f"; {rep['clipped']} samples clipped"

@@ -5,7 +5,8 @@ finds saved edits for it.  It says how many edits there are and when they were
 saved, lists the first few, and warns when the recording changed on disk
 since they were made (detected by its SHA-256).  Three answers: restore them,
 discard them, or keep them for later (open without them; the window then
-calls ``autosave.keep_aside`` so new edits do not overwrite them).
+calls ``autosave.keep_aside`` so new edits do not overwrite them, and lists
+them under File › Kept edits).
 """
 
 from __future__ import annotations
@@ -103,6 +104,8 @@ class RestorePrompt(QDialog):
         self.restore_button.setObjectName("restoreButton")
         self.discard_button.setObjectName("discardButton")
         self.later_button.setObjectName("laterButton")
+        self.later_button.setToolTip("open the recording without them; they wait under "
+                                     "File › Kept edits")
         # A recipe that no longer reads cannot be restored; keeping it costs nothing.
         self.restore_button.setEnabled(info.recipe is not None)
         (self.restore_button if info.recipe is not None else self.later_button).setDefault(True)

@@ -101,7 +101,18 @@ def _alive(pid: int) -> bool:
         return False
     except OSError:
         return True  # exists, but belongs to someone else
-    return True
+    return not _zombie(pid)
+
+
+def _zombie(pid: int) -> bool:
+    """A killed process its parent has not reaped yet: it writes nothing any more."""
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            stat = fh.read()
+    except OSError:
+        return False     # no /proc (not Linux): take it as alive
+    # "pid (name) S ...": the state follows the last ')' (a name may hold one)
+    return stat[stat.rfind(b")") + 2:][:1] in (b"Z", b"X")
 
 
 def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[str]:
@@ -126,9 +137,11 @@ def remove_stale_temporaries(path: str | os.PathLike[str]) -> list[str]:
     except OSError:
         return removed
     for name in names:
-        if not (name.startswith(prefix) and name.endswith(suffix)):
+        # "." + prefix: the temporary of a temporary (files published together)
+        lead = prefix if name.startswith(prefix) else "." + prefix
+        if not (name.startswith(lead) and name.endswith(suffix)):
             continue
-        owner = name[len(prefix):].split("-", 1)[0]
+        owner = name[len(lead):].split("-", 1)[0]
         pid_text, _, tag = owner.partition(".")
         if not pid_text.isdigit() or tag != host:
             continue
@@ -232,6 +245,76 @@ def atomic_target(path: str | os.PathLike[str], *, force: bool = False,
         # After a successful publish the name is gone; after a failure it is removed.
         with contextlib.suppress(OSError):
             os.unlink(tmp)
+
+
+@contextlib.contextmanager
+def atomic_targets(paths: Iterable[str | os.PathLike[str]], *, force: bool = False,
+                   protect: Iterable[str | os.PathLike[str]] = ()) -> Iterator[list[str]]:
+    """Like :func:`atomic_target` for several files that appear together or not at all.
+
+    Yields one temporary path per target.  Only when every one was written
+    are they published; if publishing one fails, those published before it are
+    taken back (a file that was not there is removed, a file replaced with
+    ``force`` gets its old contents back), so a failure leaves every target as
+    it was.
+    """
+    targets = [check_target(p, force=force, protect=protect) for p in paths]
+    temps: list[str] = []
+    try:
+        for target in targets:
+            remove_stale_temporaries(target)
+            try:
+                temps.append(_temp_name(target))
+            except OSError as exc:
+                raise ScalesieveError(_os_message(exc), source=target) from None
+        yield list(temps)
+        published: list[tuple[str, str | None]] = []   # (target, backup of its old file)
+        current = targets[0] if targets else None
+        backup = None
+        try:
+            for tmp, target in zip(temps, targets):
+                current = target
+                os.chmod(tmp, _final_mode(target))
+                _fsync_file(tmp)
+                backup = None
+                if os.path.lexists(target):
+                    backup = _temp_name(target)
+                    os.unlink(backup)
+                    try:
+                        os.link(target, backup)   # the old file stays reachable until the end
+                    except OSError:
+                        os.replace(target, backup)    # no hard links here: move it aside
+                _publish(tmp, target, force)
+                published.append((target, backup))
+            for target in targets:
+                _fsync_folder(os.path.dirname(os.path.abspath(target)))
+        except BaseException as failure:
+            if backup is not None and (not published or published[-1][0] != current):
+                # the backup of a target whose publish failed: put back or drop
+                with contextlib.suppress(OSError):
+                    if os.path.lexists(current):
+                        os.unlink(backup)
+                    else:
+                        os.replace(backup, current)
+            for target, backup in reversed(published):
+                with contextlib.suppress(OSError):
+                    if backup is None:
+                        os.unlink(target)
+                    else:
+                        os.replace(backup, target)
+            published = []
+            if isinstance(failure, OSError):
+                raise ScalesieveError(_os_message(failure), source=current) from None
+            raise
+        finally:
+            for _, backup in published:
+                if backup is not None:
+                    with contextlib.suppress(OSError):
+                        os.unlink(backup)
+    finally:
+        for tmp in temps:
+            with contextlib.suppress(OSError):
+                os.unlink(tmp)
 
 
 def atomic_write(path: str | os.PathLike[str], write_fn: Callable[[str], T] | None = None,

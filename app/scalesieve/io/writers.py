@@ -120,6 +120,54 @@ def _check_finite(arr: np.ndarray, target: str) -> None:
                 "nothing was written", source=target)
 
 
+_NO_SPACE = "not enough disk space to write it"
+#: room left for a format's header and chunks beyond the samples (WAV/RF64/AIFF/CAF)
+_HEADER_BYTES = 1 << 12
+
+
+def _audio_bytes(fmt: str, sub: str, frames: int, channels: int) -> int | None:
+    """Bytes an uncompressed audio file of this size takes; None when compressed."""
+    width = _BYTES_PER_SAMPLE.get(sub)
+    if width is None or fmt in ("FLAC", "OGG"):
+        return None
+    return frames * channels * width + _HEADER_BYTES
+
+
+def _free_bytes(path: str) -> int | None:
+    import shutil
+
+    try:
+        return int(shutil.disk_usage(os.path.dirname(os.path.abspath(path))).free)
+    except OSError:
+        return None
+
+
+def _check_space(target: str, need: int) -> None:
+    """Refuse before writing when the target's disk cannot hold ``need`` bytes."""
+    free = _free_bytes(target)
+    if free is not None and free < need:
+        raise ScalesieveError(f"{_NO_SPACE} (needs {_megabytes(need)}, "
+                              f"{_megabytes(free)} free)", source=target)
+
+
+def _megabytes(n: int) -> str:
+    return f"{n / 1e6:.3g} MB" if n >= 1e5 else f"{n} bytes"
+
+
+def _disk_full(tmp: str, need: int | None) -> bool:
+    """After a failed write: is the disk (nearly) full, so that was the cause?"""
+    free = _free_bytes(tmp)
+    if free is None:
+        return False
+    try:
+        written = os.path.getsize(tmp)
+    except OSError:
+        written = 0
+    # Less room left than the rest of the file needed (or than one block of it).
+    rest = (need - written) if need is not None else _BLOCK_FRAMES * 8
+    return free < max(rest, 1 << 16)
+
+
 def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
                 subtype: str | None = None, format: str | None = None, force: bool = False,
                 protect: Iterable = ()) -> dict:
@@ -177,6 +225,9 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
         fmt = "RF64"  # same .wav name, 64-bit sizes; soundfile reads it back
     clips = sub not in _FLOAT_SUBTYPES
     clipped = 0
+    need = _audio_bytes(fmt, sub, n, channels)
+    if need is not None:
+        _check_space(target, need)
 
     def write(tmp: str) -> None:
         nonlocal clipped
@@ -193,6 +244,9 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
                             block = np.clip(block, -1.0, 1.0)
                     f.write(block)
         except _SF_ERRORS as exc:
+            # libsndfile says only "System error." when the disk fills: look at the disk.
+            if _disk_full(tmp, need):
+                raise ScalesieveError(_NO_SPACE, source=target) from None
             # libsndfile names the temporary file; the user knows only the target.
             reason = " ".join(str(exc).replace(tmp, os.path.basename(target)).split())
             if reason.startswith("Error opening") and ": " in reason:
