@@ -57,7 +57,7 @@ def energy_blocked(x: np.ndarray, block: int = BLOCK) -> float:
     """Sum of squares in float64, block by block (no full-length temporary)."""
     total = 0.0
     for i in range(0, x.shape[0], block):
-        b = np.asarray(x[i:i + block], dtype=np.float64)
+        b = np.ascontiguousarray(x[i:i + block], dtype=np.float64)
         total += float(np.dot(b, b))
     return total
 
@@ -68,13 +68,16 @@ def removed_figures(x: np.ndarray, cleaned: np.ndarray,
     e_rem = e_clean = 0.0
     top = 0.0
     tmp = np.empty(min(block, x.shape[0]))
+    cbuf = np.empty(min(block, x.shape[0]))
     for i in range(0, x.shape[0], block):
         j = min(i + block, x.shape[0])
         r = tmp[: j - i]
         np.subtract(x[i:j], cleaned[i:j], out=r)
-        c = np.asarray(cleaned[i:j], dtype=np.float64)
-        e_rem += float(np.dot(r, r))
-        e_clean += float(np.dot(c, c))
+        # copied into our own buffer: a strided column would sum in another order
+        c = cbuf[: j - i]
+        np.copyto(c, cleaned[i:j], casting="same_kind")
+        e_rem += float(np.einsum("i,i->", r, r))
+        e_clean += float(np.einsum("i,i->", c, c))
         if r.size:
             top = max(top, float(np.max(np.abs(r))))
     return e_rem, e_clean, top
