@@ -15,6 +15,7 @@ by level).
 from __future__ import annotations
 
 import math
+import threading
 import warnings
 from dataclasses import dataclass, replace
 from functools import lru_cache
@@ -650,14 +651,39 @@ def _swt_band_alone(band: np.ndarray, key, spec: TransformSpec, n: int) -> np.nd
     compares them); the cost is two FFTs instead of a Python loop per offset.
     """
     count = band.shape[0]
-    lo, hi = _swt_level_one_spectra(spec.wavelet, count)
-    top = spec.level if key == "a" else int(key)
-    k = np.arange(count // 2 + 1)
-    resp = (lo if key == "a" else hi)[(k << (top - 1)) % count].copy()
-    for j in range(1, top):
-        resp *= lo[(k << (j - 1)) % count]
+    resp = _swt_band_response(spec.wavelet, key, spec.level, count)
     out = np.fft.irfft(np.fft.rfft(np.asarray(band, dtype=np.float64)) * resp, count)
     return np.ascontiguousarray(out[:n], dtype=band.dtype)
+
+
+#: bytes of SWT band responses kept (a window shows the same bands again and again)
+SWT_RESPONSES_KEPT = 32 << 20
+_swt_responses: dict = {}
+_swt_responses_lock = threading.Lock()     # the window's threads share it
+
+
+def _swt_band_response(wavelet: str, key, level: int, count: int) -> np.ndarray:
+    """rfft-sized response of band ``key``'s synthesis (see ``_swt_band_alone``)."""
+    name = (wavelet, key if key == "a" else int(key), level if key == "a" else 0, count)
+    with _swt_responses_lock:
+        resp = _swt_responses.pop(name, None)
+        if resp is not None:
+            _swt_responses[name] = resp      # most recently used last
+            return resp
+    with _swt_responses_lock:
+        lo, hi = _swt_level_one_spectra(wavelet, count)
+    top = level if key == "a" else int(key)
+    k = np.arange(count // 2 + 1)
+    resp = (lo if key == "a" else hi)[(k << (top - 1)) % count]
+    for j in range(1, top):
+        resp *= lo[(k << (j - 1)) % count]
+    with _swt_responses_lock:
+        while _swt_responses and (sum(r.nbytes for r in _swt_responses.values())
+                                  + resp.nbytes > SWT_RESPONSES_KEPT):
+            _swt_responses.pop(next(iter(_swt_responses)))
+        if resp.nbytes <= SWT_RESPONSES_KEPT:
+            _swt_responses[name] = resp
+    return resp
 
 
 # --------------------------------------------------------------------------
