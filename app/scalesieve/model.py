@@ -910,24 +910,8 @@ class DecompositionModel:
         """
         ch = self._ch[channel]
         if ch.figures is None:
-            level = self.level
-            rate = self.recording.rate
-            n = self.recording.n
-            total = self._signal_energy(ch)
-            floor = bf.roundoff_floor(total, self.dtype)
-            rows = []
-            for key in self.band_keys:
-                c = ch.band(key, level)
-                lo, hi = tf.band_range_hz(key, level, rate)
-                # the band alone through the inverse: its own part of the samples
-                comp = tf.band_component(ch.coeffs, key, self.spec, n)
-                fig = bf.band_figures(comp, c, total, floor)
-                del comp
-                rows.append({"name": tf.band_name(key, level),
-                             "kind": "approx" if key == "a" else "detail",
-                             "level": level if key == "a" else int(key),
-                             "low_hz": lo, "high_hz": hi, **fig})
-            ch.figures = rows
+            ch.figures = bf.band_table(ch.x, ch.coeffs, self.spec, self.recording.rate,
+                                       self.dtype)
         return [dict(r) for r in ch.figures]
 
     def _signal_energy(self, ch: _Channel) -> float:

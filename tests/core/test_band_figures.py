@@ -264,3 +264,12 @@ def test_swt_universal_on_the_demo_removes_about_what_the_dwt_removes():
         kept[kind] = abs(np.fft.rfft(m.cleaned(0))[k]) / abs(np.fft.rfft(x)[k])
     assert out["dwt"] < 0.03 and out["swt"] < 1.5 * out["dwt"], out
     assert kept["dwt"] > 0.8 and kept["swt"] > kept["dwt"] - 0.05, kept
+
+
+def test_rows_come_in_the_contracts_order():
+    # shared/CONTRACT.md: bands listed d1 ... dJ, then aJ.
+    x = _signal(2048)
+    for kind in ("dwt", "swt"):
+        m = DecompositionModel(Recording(x[:, None], 1000.0, ["x"]),
+                               TransformSpec(kind, "db2", 4))
+        assert [r["name"] for r in m.band_table(0)] == ["d1", "d2", "d3", "d4", "a4"]

@@ -49,3 +49,19 @@ def test_window_figures_are_the_model_table_for_the_swt(window):
     for key, row in zip(m.band_keys, table):
         for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
             assert pic.stats[key][field] == row[field], (key, field)
+
+
+def test_long_recording_figures_come_later_and_are_the_same(window, monkeypatch):
+    # From FIGURES_LATER_FROM samples the window shows first and the band
+    # figures follow from the background thread: the model's own function on
+    # the same arrays, so the numbers equal band_table's bit for bit.
+    from scalesieve.gui import display_data
+
+    monkeypatch.setattr(display_data, "FIGURES_LATER_FROM", 0)
+    t = np.arange(1 << 14) / 8000.0
+    x = np.sin(2 * np.pi * 300 * t) + 0.05 * np.random.default_rng(5).standard_normal(t.size)
+    window.open_recording(Recording(x[:, None], 8000.0, ["mic"]),
+                          TransformSpec("dwt", "db4", 6, "symmetric"))
+    m, pic = _shown(window)
+    assert [pic.stats[key] for key in m.band_keys] == m.band_table(0)
+    assert "%" in window.bands.rows[1].info.text()

@@ -1,8 +1,10 @@
 """Band figures: a band's energy, share, RMS, peak and kurtosis (pure functions of arrays).
 
 The one implementation of these figures.  The model's ``band_table`` calls
-it, and everything else (``bands --json``, the band table export, the
-window's Bands pane, the scripting API) reads the model's table.
+``band_table`` here, and everything else (``bands --json``, the band table
+export, the scripting API) reads the model's table; the window reads it too,
+or, on a long recording, has this same function run on the same arrays in
+its background thread (the same numbers, bit for bit).
 
 Definitions (shared/CONTRACT.md, ``bands --json``):
 
@@ -27,6 +29,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
+
+from scalesieve.core import transforms as tf
 
 #: samples summed at a time (cache-sized)
 BLOCK = 1 << 16
@@ -132,3 +136,43 @@ def band_figures(component: np.ndarray, coefficients: np.ndarray, total_energy: 
         "peak": peak,
         "kurtosis": kurt if ce > floor else None,
     }
+
+
+def band_table(x: np.ndarray, coeffs: list[np.ndarray], spec, rate: float,
+               dtype=np.float64) -> list[dict]:
+    """Every band's figures, d1 ... dJ then aJ (the rows of ``bands --json``).
+
+    Parameters
+    ----------
+    x : ndarray
+        The channel's samples (a strided column is fine; it is only read).
+    coeffs : list of ndarray
+        Its decomposition by ``transforms.forward``, in PyWavelets order.
+    spec : TransformSpec
+        The resolved transform of ``coeffs``.
+    rate : float
+        Sampling rate in Hz (for the bands' Hz ranges).
+    dtype : float64 or float32
+        The working precision (it sets the round-off floor).
+
+    Each band's time-domain component is the band alone through
+    ``transforms.inverse_into``, made in one buffer band after band.
+    """
+    level = spec.level
+    n = x.shape[0]
+    lengths = [c.shape[0] for c in coeffs]
+    total = signal_energy(x)
+    floor = roundoff_floor(total, dtype)
+    comp = np.empty(n, dtype=coeffs[0].dtype)
+    rows = []
+    for key in list(range(1, level + 1)) + ["a"]:      # table order: d1 ... dJ, aJ
+        idx = tf.band_index(key, level)
+        c = coeffs[idx]
+        tf.inverse_into(lambda i: c if i == idx else None, lengths, spec, n, comp)
+        lo, hi = tf.band_range_hz(key, level, rate)
+        rows.append({"name": tf.band_name(key, level),
+                     "kind": "approx" if key == "a" else "detail",
+                     "level": level if key == "a" else int(key),
+                     "low_hz": lo, "high_hz": hi,
+                     **band_figures(comp, c, total, floor)})
+    return rows

@@ -21,6 +21,9 @@ from scalesieve.gui.decimate import BlockEnvelope, block_maxabs, preview_pair, r
 FULL_REBUILD_SHARE = 0.5
 
 
+#: from this many samples the band figures come from the background thread
+#: (band_envelopes.py) after the first paint: each band's synthesis takes a while
+FIGURES_LATER_FROM = 1 << 22
 #: coefficients read at a time when the block peaks are taken
 FIGURE_BLOCK = 1 << 16
 
@@ -115,8 +118,11 @@ class ChannelPictures:
             # the finest bands are the ones most often muted first.
             order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
             try:
-                #: band key -> the model's band_table row (the figures every view shows)
-                self.stats = {key: row for key, row in zip(keys, model.band_table(channel))}
+                #: band key -> the model's band_table row (the figures every view shows);
+                #: empty until ``put_figures`` on a long recording
+                self.stats: dict = {}
+                if self.n < FIGURES_LATER_FROM:
+                    self.put_figures(model.band_table(channel))
                 for i, key in enumerate(order):
                     check()
                     if progress:
@@ -135,6 +141,10 @@ class ChannelPictures:
                 self.coef_peaks = peaks.result()
         if progress:
             progress(1.0, "ready")
+
+    def put_figures(self, rows: list[dict]) -> None:
+        """Take the band table (``band_table`` rows, d1 ... dJ then aJ)."""
+        self.stats = {key: row for key, row in zip(self.keys, rows)}
 
     def missing_bands(self) -> list:
         """Bands whose unit envelope is still to come, finest first."""
