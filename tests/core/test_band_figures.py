@@ -273,3 +273,20 @@ def test_rows_come_in_the_contracts_order():
         m = DecompositionModel(Recording(x[:, None], 1000.0, ["x"]),
                                TransformSpec(kind, "db2", 4))
         assert [r["name"] for r in m.band_table(0)] == ["d1", "d2", "d3", "d4", "a4"]
+
+
+def test_demo_shares_are_pywavelets_component_energies():
+    # The demo pump recording, default transform (db4, symmetric, level 11):
+    # a11 and d9 shares against the components' energies from pywt.waverec.
+    import os
+
+    path = os.path.join(os.path.dirname(__file__), "..", "..", "sample_signals",
+                        "pump_bearing.wav")
+    rec = api.load(path)
+    x = rec.samples[:, 0]
+    rows = {r["name"]: r for r in api.build_model(rec).band_table(0)}
+    comps, _ = _pywt_components(x, "db4", "symmetric", 11)
+    ex = float(np.sum(x ** 2))
+    assert rows["a11"]["energy_fraction"] == pytest.approx(np.sum(comps[0] ** 2) / ex, rel=1e-9)
+    assert rows["d9"]["energy_fraction"] == pytest.approx(
+        np.sum(comps[tf.band_index(9, 11)] ** 2) / ex, rel=1e-9)
