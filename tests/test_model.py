@@ -100,15 +100,21 @@ def test_undo_redo_and_listeners():
 
 
 def test_gain_edit_is_a_multiple_of_the_band():
-    # Muting d1 removes exactly d1's time-domain component (linearity).
+    # Muting d1 removes exactly d1's time-domain component (linearity), taken
+    # from PyWavelets: waverec of d1 alone.
     rec = _rec(4096, 1, 4)
+    x = rec.samples[:, 0]
     m = DecompositionModel(rec, TransformSpec("dwt", "db4", 4))
-    comp = m.band_component(0, 1)
+    c = pywt.wavedec(x, "db4", mode="symmetric", level=4)
+    comps = [pywt.waverec([b if i == k else np.zeros_like(b) for i, b in enumerate(c)],
+                          "db4", mode="symmetric")[:4096] for k in range(len(c))]
     m.add_edit(Edit("gain", levels=(1,), gain=0.0))
-    assert np.allclose(m.removed(0), comp, atol=1e-12)
-    # components of all bands add up to the signal
-    total = sum(m.band_component(0, k, edited=False) for k in m.band_keys)
-    assert np.allclose(total, rec.samples[:, 0], atol=1e-10)
+    assert np.allclose(m.removed(0), comps[-1], rtol=0, atol=1e-12)
+    # the model's components are PyWavelets' and add up to the signal
+    for key in m.band_keys:
+        assert np.allclose(m.band_component(0, key, edited=False),
+                           comps[0 if key == "a" else 5 - key], rtol=0, atol=1e-12)
+    assert np.allclose(sum(comps), x, atol=1e-10)
 
 
 def test_channels_key_limits_an_edit():
@@ -138,6 +144,12 @@ def test_metrics_and_band_table():
     met = m.metrics(0)
     assert met["changed_fraction"] == pytest.approx(0.5, abs=1e-3)
     assert met["bands"][0]["zeroed"] == table[0]["count"]
-    e = float(np.dot(rec.samples[:, 0], rec.samples[:, 0]))
-    assert met["energy_removed_fraction"] == pytest.approx(table[0]["energy"] / e, rel=1e-9)
-    assert met["snr_db"] == pytest.approx(10 * np.log10(1 / met["energy_removed_fraction"]))
+    # Haar, periodization: d1 alone through the inverse is the difference of
+    # neighbours, x[2k] - x[2k+1] halved with opposite signs (Haar worked example:
+    # Stollnitz, DeRose & Salesin 1995), so its energy is sum (x[2k]-x[2k+1])^2 / 2.
+    x = rec.samples[:, 0]
+    e = float(np.sum(x ** 2))
+    e_d1 = float(np.sum((x[0::2] - x[1::2]) ** 2) / 2)
+    assert table[0]["energy"] == pytest.approx(e_d1, rel=1e-9)
+    assert met["energy_removed_fraction"] == pytest.approx(e_d1 / e, rel=1e-9)
+    assert met["snr_db"] == pytest.approx(10 * np.log10(e / e_d1), rel=1e-9)

@@ -177,10 +177,17 @@ def test_bad_recipe_refused_before_decomposing():
 
 
 def test_lean_noise_estimate_equals_mad_sigma():
-    # Reference: thresholds.mad_sigma (Donoho & Johnstone 1994 MAD / 0.6745).
+    # Donoho & Johnstone 1994: sigma = median |d| / Phi^-1(0.75) over the non-zero
+    # coefficients, written here with NumPy and scipy.stats.norm (not our code).
+    from scipy.stats import norm
+
     rng = np.random.default_rng(7)
     for n in (1, 2, 3, 10, 1001, 100000):
         d = rng.standard_normal(n)
         d[::7] = 0.0
         for v in (d, np.abs(d) + 1, d.astype(np.float32), np.zeros(n)):
-            assert _mad_sigma(v) == th.mad_sigma(v)
+            nz = np.abs(v[v != 0]).astype(np.float64)
+            want = float(np.median(nz)) / norm.ppf(0.75) if nz.size else 0.0
+            rel = 1e-6 if v.dtype == np.float32 else 1e-12     # the median taken in float32
+            assert _mad_sigma(v) == pytest.approx(want, rel=rel, abs=0.0)
+            assert _mad_sigma(v) == th.mad_sigma(v)      # the lean copy, bit for bit

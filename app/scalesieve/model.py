@@ -52,6 +52,7 @@ from typing import Callable, Iterable, Sequence
 
 import numpy as np
 
+from scalesieve.core import band_figures as bf
 from scalesieve.core import edits as ed
 from scalesieve.core import metrics as mt
 from scalesieve.core import thresholds as th
@@ -62,8 +63,6 @@ from scalesieve.recipe import Edit, Recipe, check_against
 
 #: below this share of a band's length a changed window is synthesised locally
 LOCAL_SHARE = 0.125
-#: [robustness] bands with less than this share of a channel's energy get no kurtosis
-ROUNDOFF_SHARE = 1e-20
 #: band components cached per channel for fast gain changes, at most ...
 COMPONENT_CACHE = 2
 #: ... and more than one only while they fit in this many bytes per channel
@@ -128,6 +127,8 @@ class _Channel:
         self.contexts: dict = {}         # key -> BandContext
         self._positions: dict = {}
         self._sigma: dict = {}
+        self.figures: list | None = None    # band_table of the original, once asked
+        self.metric_facts: dict = {}     # figures of the original that metrics reuse
 
     def band(self, key, level):
         return self.coeffs[tf.band_index(key, level)]
@@ -223,7 +224,8 @@ class DecompositionModel:
             ctx = ch.contexts[key] = ed.BandContext(
                 key=key, n_samples=self.recording.n, rate=self.recording.rate,
                 positions=lambda: self._positions(ch, key),
-                sigma_finest=lambda: self._sigma(ch, 1),
+                sigma_finest=lambda: self._sigma(ch, 1) * th.white_noise_gain(
+                    spec.kind, key, spec.level),
                 sigma_level=lambda: self._sigma(ch, key),
                 span=span)
         return ctx
@@ -411,6 +413,9 @@ class DecompositionModel:
                 if p.kind != "window":
                     ch.values.pop(p.key, None)
                 ch.chains[p.key] = p.new
+            if not any(ch.chains.values()):
+                # every edit undone: the recording exactly, not it plus round-off
+                self._recompute(ch)
             for span in spans:
                 if span is not None:
                     span_lo = span[0] if span_lo is None else min(span_lo, span[0])
@@ -886,48 +891,48 @@ class DecompositionModel:
         return self._sigma(self._ch[channel], key)
 
     def threshold_for(self, channel: int, key, edit: Edit) -> float:
-        """The threshold an edit would use on a band (for drawing it)."""
+        """The threshold an edit uses on a band: the one applied (for drawing it).
+
+        For an edit in force on the band this is the lambda of its chain
+        (SURE and BayesShrink look at the band as it stands when the edit
+        applies); for any other edit, what it would use on the band as edited.
+        """
         ch = self._ch[channel]
+        chain = ch.chains.get(key, ())
+        if edit.op == "threshold" and edit in chain:
+            at = [e for e in chain if e.op == "threshold"].index(edit)
+            return self._lams(ch, key, chain)[at]
         cur = self.edited_coefficients(channel, key)
         return ed.threshold_value(edit, cur, self._ctx(ch, key))
 
     def band_table(self, channel: int) -> list[dict]:
-        """Per-band figures of the original recording (shared/CONTRACT.md fields)."""
+        """Per-band figures of the original recording (shared/CONTRACT.md ``bands --json``).
+
+        Worked out by ``core.band_figures`` once per decomposition; every view
+        (command line, band table export, Bands pane, API) reads this table.
+        Returns copies: a caller may change its rows.
+        """
         ch = self._ch[channel]
-        level = self.level
-        rate = self.recording.rate
-        energies = {key: mt.energy(ch.band(key, level)) for key in self.band_keys}
-        total = sum(energies.values())
-        rows = []
-        for key in self.band_keys:
-            c = ch.band(key, level)
-            lo, hi = tf.band_range_hz(key, level, rate)
-            comp = self._component(ch, key)
-            rows.append({
-                "name": tf.band_name(key, level),
-                "kind": "approx" if key == "a" else "detail",
-                "level": level if key == "a" else int(key),
-                "low_hz": lo, "high_hz": hi,
-                "count": int(c.shape[0]),
-                "energy": energies[key],
-                "energy_fraction": energies[key] / total if total > 0 else 0.0,
-                "rms": mt.rms(comp), "peak": mt.peak(comp),
-                # [robustness] A band 200 dB below the channel holds float round-off
-                # only (a constant signal's details); its "shape" means nothing.
-                "kurtosis": (mt.pearson_kurtosis(c) if energies[key] > ROUNDOFF_SHARE * total
-                             else None),
-            })
-        return rows
+        if ch.figures is None:
+            ch.figures = bf.band_table(ch.x, ch.coeffs, self.spec, self.recording.rate,
+                                       self.dtype)
+        return [dict(r) for r in ch.figures]
+
+    def _signal_energy(self, ch: _Channel) -> float:
+        if "x" not in ch.metric_facts:
+            ch.metric_facts["x"] = bf.signal_energy(ch.x)
+        return ch.metric_facts["x"]
 
     def metrics(self, channel: int) -> dict:
-        """What the recipe did to one channel."""
+        """What the recipe did to one channel.
+
+        Every sum runs over contiguous blocks (``core.band_figures``), so a
+        channel's figures are the same bits whatever channels sit beside it.
+        """
         ch = self._ch[channel]
         level = self.level
-        # Sums over a strided column add up in another order; a contiguous copy
-        # gives the same figures whether the recording has one channel or more.
         x = ch.x
-        # Figures of the original never change: worked out once per decomposition.
-        facts = ch.__dict__.setdefault("_metric_facts", {})
+        facts = ch.metric_facts          # figures of the original, once per decomposition
         per_band = []
         changed = zeroed = total = 0
         for key in self.band_keys:
@@ -940,7 +945,7 @@ class DecompositionModel:
             elif gain == 0.0:
                 # c - 0 is c itself: every non-zero coefficient changed and zeroed
                 if key not in facts:
-                    facts[key] = (int(np.count_nonzero(c)), mt.energy(c))
+                    facts[key] = (int(np.count_nonzero(c)), bf.coefficient_moments(c)[0])
                 ch_count = z_count = facts[key][0]
                 e_removed = facts[key][1]
             else:
@@ -948,16 +953,14 @@ class DecompositionModel:
                 d = c - e
                 ch_count = int(np.count_nonzero(d))
                 z_count = int(np.count_nonzero((e == 0) & (c != 0)))
-                e_removed = mt.energy(d)
+                e_removed = bf.coefficient_moments(d)[0]
             changed += ch_count
             zeroed += z_count
             total += c.shape[0]
             per_band.append({"name": tf.band_name(key, level),
                              "energy_removed": e_removed,
                              "changed": ch_count, "zeroed": z_count, "count": int(c.shape[0])})
-        if "x" not in facts:
-            facts["x"] = mt.energy_blocked(x)
-        e_orig = facts["x"]
+        e_orig = self._signal_energy(ch)
         n = x.shape[0]
         e_rem, e_clean, peak = mt.removed_figures(x, self.cleaned(channel))
         return {

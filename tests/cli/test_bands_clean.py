@@ -9,6 +9,7 @@ import wave
 
 import numpy as np
 import pytest
+import pywt
 import soundfile as sf
 
 from scalesieve.cli import main
@@ -58,6 +59,12 @@ def test_bands_json_contract(tmp_path):
     # and energies sum to the signal's sum of squares (of the read samples)
     samples, _ = sf.read(str(f))
     assert sum(b["energy"] for b in bands) == pytest.approx(float(np.dot(samples, samples)))
+    assert sum(b["energy_fraction"] for b in bands) == pytest.approx(1.0)
+    # coef_energy: sum of squares of PyWavelets' coefficients, band by band
+    c = pywt.wavedec(samples, "db8", mode="periodization", level=8)
+    for b, coef in zip(bands, c[:0:-1] + [c[0]]):
+        assert b["coef_energy"] == pytest.approx(float(np.sum(coef ** 2)), rel=1e-10)
+    assert all("coef_energy" in b for b in bands)
 
 
 def test_clean_wav_read_back_by_wave_module(tmp_path):
@@ -72,12 +79,17 @@ def test_clean_wav_read_back_by_wave_module(tmp_path):
         assert w.getframerate() == 8000 and w.getnchannels() == 1 and w.getsampwidth() == 2
         frames = np.frombuffer(w.readframes(w.getnframes()), "<i2")
     assert frames.shape == (8000,)
-    # the same numbers as the API: build the model, mute d1, quantise like the writer
-    from scalesieve import api
-    from scalesieve.recipe import Edit
+    # PyWavelets alone: the default transform (README: db4, symmetric, level two
+    # short of pywt.dwt_max_level, at most 12), d1 set to zero, waverec, 16-bit.
+    import pywt
 
-    m = api.build_model(api.load(f), edits=[Edit("gain", levels=(1,), gain=0.0)])
-    expected = np.clip(np.round(m.cleaned(0) * 32768), -32768, 32767)
+    with wave.open(str(f), "rb") as w:
+        x = np.frombuffer(w.readframes(w.getnframes()), "<i2") / 32768.0
+    level = min(12, pywt.dwt_max_level(x.shape[0], pywt.Wavelet("db4").dec_len) - 2)
+    c = pywt.wavedec(x, "db4", mode="symmetric", level=level)
+    c[-1] = np.zeros_like(c[-1])
+    y = pywt.waverec(c, "db4", mode="symmetric")[:x.shape[0]]
+    expected = np.clip(np.round(y * 32768), -32768, 32767)
     assert np.max(np.abs(frames - expected)) <= 1
 
 

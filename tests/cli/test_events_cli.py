@@ -108,14 +108,28 @@ def test_levels_and_k_are_honoured(tmp_path, capsys):
     assert {e["channel"] for e in d["events"]} == {0}     # one channel read: it is channel 0
 
 
+def _count_line(text: str) -> int:
+    import re
+
+    return int(re.search(r"^(\d+) events$", text, re.M).group(1))
+
+
 def test_screen_output_lists_events_repetition_and_the_caution(capsys):
+    # The truth: the generator's own list of impacts and the knock
+    # (sample_signals/pump_bearing.events.csv, read with the csv module).
+    with open(DEMO_EVENTS, newline="") as fh:
+        truth = list(csv.DictReader(fh))
     assert main(["events", DEMO]) == 0
     out = capsys.readouterr().out
-    assert "349 events" in out and "repetition (channel 0): rate 87.3 Hz" in out
+    # Tolerance (ours): within 3 % of the true count - a ringing impact may
+    # split in two, two close ones merge, or a weak one stay below k sigma.
+    assert abs(_count_line(out) - len(truth)) <= 0.03 * len(truth), out
+    # the invented outer-race rate, 87.3 Hz (sample_signals/README.md), to 0.1 Hz
+    assert "repetition (channel 0): rate 87.3 Hz" in out
     assert "qualified people" in out and "not for diagnosis" in out
     assert main(["events", DEMO, "--summary"]) == 0
     short = capsys.readouterr().out
-    assert len(short.splitlines()) < 8 and "349 events" in short
+    assert len(short.splitlines()) < 8 and _count_line(short) == _count_line(out)
 
 
 def test_demo_impacts_and_their_rate(capsys):
@@ -134,6 +148,22 @@ def test_demo_impacts_and_their_rate(capsys):
     assert d["repetition_by_channel"] == [rep]
     knock = max(d["events"], key=lambda e: e["peak"])
     assert knock["start_s"] <= 2.618 <= knock["stop_s"]
+
+
+def test_demo_onsets_held_by_swt_and_dwt_as_core_events_says(capsys):
+    # core/events.py: on the demo recording all 349 true onsets (the generator's
+    # list) lie inside an SWT event, against 296 for the DWT; tolerance (ours)
+    # 5 % for the DWT's count, which moves with the impacts' jitter.
+    with open(DEMO_EVENTS, newline="") as fh:
+        truth = [float(r["time_s"]) for r in csv.DictReader(fh)]
+    held = {}
+    for kind in ("swt", "dwt"):
+        d = _json(capsys, DEMO, "--transform", kind)
+        starts = np.array([e["start_s"] for e in d["events"]])
+        stops = np.array([e["stop_s"] for e in d["events"]])
+        held[kind] = sum(bool(np.any((starts <= t) & (t <= stops))) for t in truth)
+    assert held["swt"] == len(truth) == 349, held
+    assert abs(held["dwt"] - 296) <= 0.05 * 296, held
 
 
 def test_no_train_gives_null_repetition(tmp_path, capsys):

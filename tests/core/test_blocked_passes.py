@@ -126,15 +126,23 @@ def test_inverse_into_equals_waverec(small_blocks, monkeypatch, wavelet, mode, d
 
 
 def test_inverse_into_swt_and_all_zero():
-    # SWT: PyWavelets' iswt (through transforms.inverse); no band at all gives zeros / base.
+    # SWT: PyWavelets' swt / iswt directly (norm=True, padded to 2^level as the
+    # model pads); no band at all gives zeros / base.
     n = 1000
     spec = TransformSpec("swt", "db2", 3, "symmetric").resolved(n)
     x = np.random.default_rng(4).standard_normal(n)
-    coeffs = tf.forward(x, spec)
+    xp = pywt.pad(x, (0, tf.swt_padded_length(n, 3) - n), "symmetric")
+    coeffs = pywt.swt(xp, "db2", level=3, trim_approx=True, norm=True)
     lengths = [c.shape[0] for c in coeffs]
     out = np.empty(n)
     tf.inverse_into(lambda i: coeffs[i], lengths, spec, n, out)
-    assert np.array_equal(out, tf.inverse(coeffs, spec, n))
+    assert np.array_equal(out, pywt.iswt(coeffs, "db2", norm=True)[:n])
+    # one band alone (a component): PyWavelets' iswt with the others zero
+    for idx in range(len(coeffs)):
+        alone = [c if i == idx else np.zeros_like(c) for i, c in enumerate(coeffs)]
+        tf.inverse_into(lambda i: coeffs[i] if i == idx else None, lengths, spec, n, out)
+        np.testing.assert_allclose(out, pywt.iswt(alone, "db2", norm=True)[:n], rtol=0,
+                                   atol=1e-12)
     dspec = TransformSpec("dwt", "db4", 3, "symmetric")
     dl = [c.shape[0] for c in tf.forward(x, dspec)]
     tf.inverse_into(lambda i: None, dl, dspec, n, out)
@@ -145,24 +153,30 @@ def test_inverse_into_swt_and_all_zero():
 
 
 def test_band_component_by_inverse_into(small_blocks):
-    # The model makes band components with inverse_into: the same numbers as band_component.
+    # The model makes band components with inverse_into, the band table with
+    # band_component: both are PyWavelets' waverec of the band alone, bit for bit.
     n = 3001
     for mode in ("symmetric", "periodization"):
         spec = TransformSpec("dwt", "sym5", 4, mode)
-        coeffs = tf.forward(np.random.default_rng(5).standard_normal(n), spec)
+        coeffs = pywt.wavedec(np.random.default_rng(5).standard_normal(n), "sym5", mode=mode,
+                              level=4)
         lengths = [c.shape[0] for c in coeffs]
         for key in tf.band_keys(4):
             idx = tf.band_index(key, 4)
+            alone = [c if i == idx else np.zeros_like(c) for i, c in enumerate(coeffs)]
+            ref = pywt.waverec(alone, "sym5", mode=mode)[:n]
             out = np.empty(n)
             tf.inverse_into(lambda i: coeffs[i] if i == idx else None, lengths, spec, n, out)
-            assert np.array_equal(out, tf.band_component(coeffs, key, spec, n))
+            assert np.array_equal(out, ref)
+            assert np.array_equal(tf.band_component(coeffs, key, spec, n), ref)
 
 
 @pytest.mark.parametrize("kind", ["dwt", "swt"])
 @pytest.mark.parametrize("wavelet", ["haar", "db4", "sym8", "bior3.5"])
 @pytest.mark.parametrize("mode", ["symmetric", "periodization"])
 def test_coefficient_slice_equals_searchsorted(kind, wavelet, mode):
-    # Reference: numpy.searchsorted over coefficient_positions (what region edits used).
+    # Consistency, not an outside reference: the closed-form slice equals a
+    # numpy.searchsorted over coefficient_positions (what region edits used).
     spec = TransformSpec(kind, wavelet, 5, mode)
     rng = np.random.default_rng(6)
     for key in tf.band_keys(5):
@@ -206,7 +220,9 @@ CHAINS = [
 
 @pytest.mark.parametrize("chain", CHAINS)
 def test_chain_values_block_by_block_equals_apply_chain(chain):
-    # Reference: ed.apply_chain on the whole band (with positions and searchsorted).
+    # Consistency, not an outside reference: block by block equals ed.apply_chain
+    # on the whole band; test_chain_matches_pywavelets_threshold below checks
+    # the numbers themselves against PyWavelets.
     spec = TransformSpec("dwt", "db4", 3, "symmetric")
     c = np.random.default_rng(7).standard_normal(700)
     ctx = _ctx(c, spec, 2)
@@ -244,3 +260,21 @@ def test_inverse_cascade_at_every_depth(small_blocks, monkeypatch, n, level):
     out = np.empty(n)
     tf.inverse_into(lambda i: coeffs[i], [c.shape[0] for c in coeffs], spec, n, out)
     assert np.array_equal(out, pywt.waverec(coeffs, "sym5", mode="symmetric")[:n])
+
+
+@pytest.mark.parametrize("shape", ["hard", "soft", "garrote"])
+def test_chain_matches_pywavelets_threshold(shape):
+    # PyWavelets' pywt.threshold (garrote = its "garrote" mode) after a gain and
+    # before a region mute, written out with NumPy: the chain's values.
+    spec = TransformSpec("dwt", "db4", 3, "symmetric")
+    c = np.random.default_rng(8).standard_normal(700)
+    ctx = _ctx(c, spec, 2)
+    chain = (Edit("gain", levels=(2,), gain=0.7),
+             Edit("threshold", levels=(2,), rule="manual", value=0.4, shape=shape),
+             Edit("region", levels=(2,), start_s=1.0, stop_s=2.0, gain=0.0))
+    lams = ed.chain_thresholds(c, chain, ctx)
+    got = ed.state_values(c, ed.chain_values(c, chain, ctx, lams, 0))
+    want = pywt.threshold(0.7 * c, 0.4, shape)
+    pos = tf.coefficient_positions(2, spec, c.shape[0]) / ctx.rate
+    want[(pos >= 1.0) & (pos <= 2.0)] = 0.0
+    np.testing.assert_allclose(got, want, rtol=1e-12, atol=0)

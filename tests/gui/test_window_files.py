@@ -79,12 +79,19 @@ def test_band_table_csv_has_the_contract_fields(window, tmp_path):
         rows = list(csv.DictReader(fh))
     assert len(rows) == 3 * (m.level + 1)
     for key in ("channel", "channel_name", "name", "low_hz", "high_hz", "energy",
-                "energy_fraction", "rms", "peak", "kurtosis"):
+                "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
         assert key in rows[0]
-    # Energy of d1 of channel 0 = sum of squares of PyWavelets' finest detail.
-    c = pywt.wavedec(m.original(0), m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)
+    # shared/CONTRACT.md: coef_energy = sum of squares of PyWavelets' finest detail;
+    # energy = sum of squares of d1's time-domain component (pywt.waverec, d1 alone).
+    x = m.original(0)
+    c = pywt.wavedec(x, m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)
+    alone = [np.zeros_like(b) for b in c[:-1]] + [c[-1]]
+    comp = pywt.waverec(alone, m.spec.wavelet, mode=m.spec.mode)[:x.shape[0]]
     d1 = next(r for r in rows if r["channel"] == "0" and r["name"] == "d1")
-    assert float(d1["energy"]) == pytest.approx(float(np.dot(c[-1], c[-1])), rel=1e-12)
+    assert float(d1["coef_energy"]) == pytest.approx(float(np.sum(c[-1] ** 2)), rel=1e-12)
+    assert float(d1["energy"]) == pytest.approx(float(np.sum(comp ** 2)), rel=1e-10)
+    assert float(d1["energy_fraction"]) == pytest.approx(
+        float(np.sum(comp ** 2) / np.sum(x ** 2)), rel=1e-10)
     assert float(d1["low_hz"]) == 250.0 and float(d1["high_hz"]) == 500.0   # fs/4..fs/2
 
 

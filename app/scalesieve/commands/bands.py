@@ -15,6 +15,18 @@ def configure(p) -> None:
     p.add_argument("--json", action="store_true", help="print JSON (shared contract) instead of a table")
     add_transform_options(p)
     add_input_options(p)
+    p.epilog = FIGURES_HELP
+
+
+#: how each figure is defined (shown by --help; the README says the same)
+FIGURES_HELP = (
+    "Figures per band: energy = sum of squared samples of the band's time-domain component "
+    "(the band alone through the inverse transform); energy % (energy_fraction) = that over "
+    "the signal's sum of squares (in boundary-extended modes the coefficients also hold the "
+    "extension, so this is not the coefficients' share; SWT shares need not sum to 100); "
+    "coef_energy = sum of squared coefficients; RMS and peak = of the time-domain component; "
+    "kurtosis = Pearson kurtosis of the coefficients (3 for Gaussian noise), '-' (null) where "
+    "the band holds only round-off.")
 
 
 def band_report(model, file_label: str) -> dict:

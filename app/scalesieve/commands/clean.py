@@ -22,7 +22,9 @@ def configure(p) -> None:
     g.add_argument("--shape", choices=("hard", "soft", "garrote"), default="soft",
                    help="threshold shape (default soft)")
     g.add_argument("--noise", choices=("finest", "level"), default="finest",
-                   help="noise from level 1 for every level (finest, default) or per level")
+                   help="finest (default): sigma of level 1, carried to level j by the "
+                        "transform's white-noise gain (1 for dwt, 2^-(j-1)/2 for swt); "
+                        "level: each level's own sigma")
     g.add_argument("--value", type=float, default=None,
                    help="threshold value in signal units for --threshold manual")
     g.add_argument("--scale", type=float, default=1.0,

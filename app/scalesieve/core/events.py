@@ -38,7 +38,7 @@ Measured with db4, levels 1-2, k = 5 (``tests/core/test_events.py`` has the
 invented bursts): on 56 invented bursts at 20 kHz the SWT's start times
 scatter by 0.02 ms (standard deviation about their mean offset), the DWT's
 by 0.10 ms; on the demo pump recording the SWT scatters by 0.04 ms against
-0.20 ms, and 348 of the 349 true onsets lie inside an event, against 296
+0.20 ms, and all 349 true onsets lie inside an event, against 296
 for the DWT, which sees the signal only at every 2**j-th position and
 misses 13 impacts outright.  The SWT is therefore the
 default for events.  Its coefficients of white noise are Gaussian with a

@@ -41,6 +41,21 @@ def mad_sigma(d: np.ndarray) -> float:
     return float(np.median(np.abs(nz)) / MAD_TO_SIGMA)
 
 
+def white_noise_gain(kind: str, key, level: int) -> float:
+    """How a transform carries white noise's sigma from level 1 to band ``key``.
+
+    1 at every level of the orthogonal DWT; 2^-(j-1)/2 at level j of the
+    normalised SWT (its level-j filters have energy 2^-j: Percival & Walden
+    2000, *Wavelet Methods for Time Series Analysis*, MODWT), the
+    approximation ``"a"`` taking its level's.  ``noise: finest`` multiplies
+    level 1's sigma by this.
+    """
+    if kind != "swt":
+        return 1.0
+    j = level if key == "a" else int(key)
+    return 2.0 ** (-(j - 1) / 2.0)
+
+
 def universal_threshold(sigma: float, n: int) -> float:
     """VisuShrink: ``sigma * sqrt(2 ln n)`` (Donoho & Johnstone 1994)."""
     if n < 2:

@@ -25,6 +25,8 @@ from scalesieve.core import transforms as tf
 from scalesieve.gui.decimate import BlockEnvelope
 from scalesieve.gui.thread_priority import lower_this_thread
 
+#: the key of a job that makes a channel's band table instead of an envelope
+FIGURES = "figures"
 #: samples synthesised at a time (a multiple of every envelope block size)
 CHUNK = 1 << 18
 
@@ -84,7 +86,9 @@ class EnvelopeThread(threading.Thread):
 
     Parameters
     ----------
-    jobs : list of (channel, key, coeffs, spec, n, block)
+    jobs : list of (channel, key, coeffs, spec, n, block), or (channel, FIGURES, fn)
+        the last kind delivers ``fn()`` (the band table, made by
+        ``core.band_figures.band_table`` on the same read-only arrays)
     deliver : callable(channel, key, envelope)
         Called from this thread for each envelope made (a queued Qt signal
         carries it to the GUI thread).
@@ -115,8 +119,14 @@ class EnvelopeThread(threading.Thread):
         lower_this_thread()
         problem = None
         try:
-            for channel, key, coeffs, spec, n, block in self._jobs:
+            for job in self._jobs:
                 self._check()
+                if job[1] == FIGURES:
+                    rows = job[2]()
+                    self._check()
+                    self._deliver(job[0], FIGURES, rows)
+                    continue
+                channel, key, coeffs, spec, n, block = job
                 env = unit_envelope(coeffs, key, spec, n, block, self._check)
                 self._check()
                 self._deliver(channel, key, env)

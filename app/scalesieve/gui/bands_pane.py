@@ -183,12 +183,16 @@ class BandRow(QWidget):
         """Show the band's figures and the recipe's say on it, without emitting."""
         key = self.key
         lo, hi = model.band_range_hz(key)
-        st = pictures.stats[key]
+        # the model's band table; on a long recording it comes a moment later
+        st = pictures.stats.get(key) or {"kurtosis": None, "energy_fraction": None,
+                                         "count": model.coefficients(channel, key).shape[0]}
         kurt = st["kurtosis"]
         kurt_text = "–" if kurt is None else f"{kurt:.3g}"
         name = model.band_name(key)
+        share = st["energy_fraction"]
+        share_text = "…" if share is None else percent_text(share)
         info = (f"<b>{name}</b>&nbsp; {hz_range(lo, hi)}<br>"
-                f"{html.escape(percent_text(st['energy_fraction']))} · kurt {kurt_text}")
+                f"{html.escape(share_text)} · kurt {kurt_text}")
         if info != self.info.text():
             self.info.setText(info)
             self.info.adjustSize()
@@ -198,7 +202,8 @@ class BandRow(QWidget):
         _, t = own_edit(edits, "threshold", key, scope)
         touching = edits_on_band(edits, key, channel, model.level)
         tip = [f"{name}: {hz_range(lo, hi)}, {st['count']} coefficients, "
-               f"{100 * st['energy_fraction']:.4g} % of the energy, kurtosis {kurt_text} "
+               + ("figures still being worked out, " if share is None else
+                  f"{100 * share:.4g} % of the energy, ") + f"kurtosis {kurt_text} "
                f"(3 for Gaussian noise; large for impulsive bands)"]
         tip += [f"edit {i + 1}: {edits[i].summary()}" for i in touching]
         self.info.setToolTip("\n".join(tip))
@@ -400,6 +405,7 @@ class BandsPane(QFrame):
         adapter.bandsKnown.connect(self._ensure_rows)
         adapter.recipeChanged.connect(self._on_recipe)
         adapter.bandDrawn.connect(self._band_drawn)
+        adapter.figuresKnown.connect(lambda channel: self._sync_controls())
         adapter.busyChanged.connect(lambda busy: self.setEnabled(not busy))
 
     def sizeHint(self):

@@ -1,7 +1,7 @@
 """What the panes draw for one channel, kept in step with the model's changes.
 
 Block envelopes of the original, cleaned and removed signals and of every
-band's time-domain component, plus each band's energy share and kurtosis.
+band's time-domain component, plus the model's band figures (``band_table``).
 They are built once per decomposition (in the worker thread, on a model no
 other thread touches) and afterwards updated from the model's change
 notices: a band gain rescales an envelope, a region refreshes only the
@@ -21,62 +21,30 @@ from scalesieve.gui.decimate import BlockEnvelope, block_maxabs, preview_pair, r
 FULL_REBUILD_SHARE = 0.5
 
 
-#: coefficients per block when the band figures are summed
+#: from this many samples the band figures come from the background thread
+#: (band_envelopes.py) after the first paint: each band's synthesis takes a while
+FIGURES_LATER_FROM = 1 << 22
+#: coefficients read at a time when the block peaks are taken
 FIGURE_BLOCK = 1 << 16
 
 
-def energy_and_kurtosis(c: np.ndarray) -> tuple[float, float | None, float, np.ndarray]:
-    """Energy (sum of squares), Pearson kurtosis E[(x - mean)^4] / var^2 and peak |c| of a band.
+def coefficient_peaks(arrays: dict) -> dict:
+    """Per band ``(block, largest |c| per block of block_size(len(c)) coefficients)``.
 
-    The formulas of ``core.metrics.energy`` and ``core.metrics.pearson_kurtosis``
-    summed block by block: no band-sized temporaries (on a long recording
-    their first touch costs more than the arithmetic).  The sums run in
-    another order, so the figures may differ from those in the last bits.
-    Also returned, from the same pass: the largest |c| per block of
-    ``block_size(len(c))`` coefficients (a zoomed-out Scale map reads them).
+    What a zoomed-out Scale map draws; the band figures themselves (energy
+    share, kurtosis, ...) are the model's ``band_table``, not worked out here.
     """
-    n = c.shape[0]
-    if n == 0:
-        return 0.0, None, 0.0, np.zeros(0)
-    per = block_size(n)
-    chunk = max(FIGURE_BLOCK, per)          # both powers of two: whole blocks per chunk
-    peaks = np.empty(-(-n // per))
-    total = 0.0
-    for b in range(0, n, chunk):
-        blk = np.asarray(c[b:b + chunk], dtype=np.float64)
-        total += float(blk.sum())
-        part = block_maxabs(blk, per)
-        peaks[b // per:b // per + part.shape[0]] = part
-    peak = float(peaks.max())
-    mean = total / n
-    e = s2 = s4 = 0.0
-    for b in range(0, n, FIGURE_BLOCK):
-        blk = np.asarray(c[b:b + FIGURE_BLOCK], dtype=np.float64)
-        e += float(np.dot(blk, blk))
-        d = blk - mean
-        d2 = d * d
-        s2 += float(d2.sum())
-        s4 += float(np.dot(d2, d2))
-    if n < 2:
-        return e, None, peak, peaks
-    m2 = s2 / n
-    if m2 <= 0.0 or not np.isfinite(m2):
-        return e, None, peak, peaks
-    return e, (s4 / n) / (m2 * m2), peak, peaks
-
-
-def band_figures(arrays: dict) -> tuple[dict, dict]:
-    """Per band: coefficient count, energy, energy share, Pearson kurtosis and peak |c|;
-    and per band ``(block, largest |c| per block)``."""
-    stats, block_peaks = {}, {}
+    out = {}
     for key, c in arrays.items():
-        e, k, peak, peaks = energy_and_kurtosis(c)
-        stats[key] = {"count": int(c.shape[0]), "energy": e, "kurtosis": k, "peak": peak}
-        block_peaks[key] = (block_size(c.shape[0]), peaks)
-    total = sum(st["energy"] for st in stats.values())
-    for st in stats.values():
-        st["energy_fraction"] = st["energy"] / total if total > 0 else 0.0
-    return stats, block_peaks
+        n = c.shape[0]
+        per = block_size(max(n, 1))
+        peaks = np.zeros(-(-n // per))
+        chunk = max(FIGURE_BLOCK, per)          # both powers of two: whole blocks per chunk
+        for b in range(0, n, chunk):
+            part = block_maxabs(np.asarray(c[b:b + chunk], dtype=np.float64), per)
+            peaks[b // per:b // per + part.shape[0]] = part
+        out[key] = (per, peaks)
+    return out
 
 
 class ExactCleaned:
@@ -140,16 +108,21 @@ class ChannelPictures:
         self.gains: dict = {}
         keys = list(model.band_keys)
         self.keys = keys
-        # Energy share and kurtosis read only the coefficient arrays (which the
-        # model never writes), so a second thread works them out while this one
-        # asks the model for the band components; numpy lets both run at once.
+        # The block peaks read only the coefficient arrays (which the model
+        # never writes), so a second thread takes them while this one asks the
+        # model for its band figures and components; numpy lets both run at once.
         arrays = {key: model.coefficients(channel, key) for key in keys}
         with ThreadPoolExecutor(max_workers=1) as pool:
-            figures = pool.submit(band_figures, arrays)
+            peaks = pool.submit(coefficient_peaks, arrays)
             # Coarse to fine: the model keeps the last component it made, and
             # the finest bands are the ones most often muted first.
             order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
             try:
+                #: band key -> the model's band_table row (the figures every view shows);
+                #: empty until ``put_figures`` on a long recording
+                self.stats: dict = {}
+                if self.n < FIGURES_LATER_FROM:
+                    self.put_figures(model.band_table(channel))
                 for i, key in enumerate(order):
                     check()
                     if progress:
@@ -164,10 +137,14 @@ class ChannelPictures:
                     del comp
                     self._take_state(model, key, full=True)
             finally:
-                #: and coef_peaks: band key -> (block, largest |coefficient| per block), as read
-                self.stats, self.coef_peaks = figures.result()
+                #: band key -> (block, largest |coefficient| per block), as read
+                self.coef_peaks = peaks.result()
         if progress:
             progress(1.0, "ready")
+
+    def put_figures(self, rows: list[dict]) -> None:
+        """Take the band table (``band_table`` rows, d1 ... dJ then aJ)."""
+        self.stats = {key: row for key, row in zip(self.keys, rows)}
 
     def missing_bands(self) -> list:
         """Bands whose unit envelope is still to come, finest first."""

@@ -27,7 +27,8 @@ from scalesieve import api
 from scalesieve.core.recording import Recording
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.band_envelopes import EnvelopeThread, coefficient_list
+from scalesieve.core import band_figures as bf
+from scalesieve.gui.band_envelopes import FIGURES, EnvelopeThread, coefficient_list
 from scalesieve.gui.display_data import ChannelPictures, Superseded
 from scalesieve.gui.thread_priority import lower_this_thread
 from scalesieve.model import FLUSH_STEP, Change, DecompositionModel
@@ -204,6 +205,7 @@ class ModelAdapter(QObject):
     failed = Signal(str)
     notice = Signal(str)             # a passing remark for the status bar
     bandDrawn = Signal(int, object)  # channel, band key: its envelope has come
+    figuresKnown = Signal(int)       # channel: its band figures have come (long recordings)
     tracesRefined = Signal(int)      # channel: more of its cleaned/removed envelopes are exact
     _submit = Signal(object)
     _envelope = Signal(int, int, object, object)   # generation, channel, key, envelope
@@ -430,6 +432,13 @@ class ModelAdapter(QObject):
         jobs = []
         for pic in self._pictures:
             coeffs = coefficient_list(m, pic.channel)
+            if not pic.stats:
+                # a long recording: the band figures by the model's own function
+                # on the same read-only arrays (the same numbers, bit for bit)
+                jobs.append((pic.channel, FIGURES,
+                             lambda x=m.original(pic.channel), c=coeffs, spec=m.spec,
+                             rate=m.recording.rate, dt=m.dtype:
+                             bf.band_table(x, c, spec, rate, dt)))
             for key in pic.missing_bands():
                 jobs.append((pic.channel, key, coeffs, m.spec, pic.n, pic.block))
         if not jobs:
@@ -453,6 +462,10 @@ class ModelAdapter(QObject):
             return
         pic = self.pictures(channel)
         if pic is None:
+            return
+        if key == FIGURES:
+            pic.put_figures(env)
+            self.figuresKnown.emit(channel)
             return
         pic.put_unit(self._model, key, env)
         self.bandDrawn.emit(channel, key)

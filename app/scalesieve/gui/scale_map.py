@@ -297,8 +297,9 @@ class ScaleMapPane(PaneFrame):
         self._ref = {}
         pic = self.adapter.pictures(self.channel)
         for key in self.keys:
-            if pic is not None and "peak" in pic.stats.get(key, {}):
-                self._ref[key] = pic.stats[key]["peak"]     # found in the worker
+            if pic is not None and key in pic.coef_peaks:
+                peaks = pic.coef_peaks[key][1]                # found in the worker
+                self._ref[key] = float(peaks.max()) if peaks.size else 0.0
                 continue
             c = m.coefficients(self.channel, key)
             self._ref[key] = float(max(c.max(), -c.min())) if c.size else 0.0
