@@ -348,3 +348,10 @@ def finest_detail(x: np.ndarray, wavelet: str, mode: str) -> np.ndarray:
     return pywt.dwt(np.asarray(x), wavelet, mode)[1]
 
 
+
+
+def band_signal(x: np.ndarray, path: str, wavelet: str, mode: str) -> np.ndarray:
+    """Time-domain component of one packet node of ``x`` (only its branch is computed)."""
+    x = np.asarray(x, dtype=np.float64)
+    c = forward(x, wavelet, mode, [path])[0]
+    return component(c, path, wavelet, mode, x.shape[0])
