@@ -180,6 +180,12 @@ def resolve_bands(edit: "Edit", spec) -> list:
     from scalesieve.core import transforms as tf
 
     if isinstance(spec, TransformSpec):
+        if spec.kind == "packet" and spec.basis == "best":
+            # the tiling is chosen from the data: names are checked once it is
+            if edit.bands is None and edit.levels not in LEVEL_WORDS:
+                raise ValueError("a packet transform has no detail levels; name its bands "
+                                 "(\"bands\": [\"w3.5\", ...])")
+            return []
         if edit.bands is not None:
             return [tf.key_named(spec, name) for name in edit.bands]
         if spec.kind == "packet":

@@ -58,6 +58,14 @@ class PacketKey:
     def __str__(self) -> str:
         return self.name
 
+    def __lt__(self, other) -> bool:
+        # frequency order within one basis (views sort band keys)
+        return self.position < other.position if isinstance(other, PacketKey) else NotImplemented
+
+    def __int__(self) -> int:
+        # the depth plays the part a DWT level plays for time steps: 2**depth samples
+        return self.depth
+
 
 def freq_index(path: str) -> int:
     """Frequency-order index of a node: the Gray-code decoding of its path bits.

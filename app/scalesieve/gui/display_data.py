@@ -148,7 +148,8 @@ class ChannelPictures:
             figures = pool.submit(band_figures, arrays)
             # Coarse to fine: the model keeps the last component it made, and
             # the finest bands are the ones most often muted first.
-            order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
+            order = (["a"] if "a" in keys else []) + sorted((k for k in keys if k != "a"),
+                                                             reverse=True)
             try:
                 for i, key in enumerate(order):
                     check()
