@@ -62,6 +62,11 @@ class Edit:
     def __post_init__(self):
         if isinstance(self.bands, list):
             object.__setattr__(self, "bands", tuple(self.bands))
+        lv = self.levels
+        if isinstance(lv, (list, tuple)) and lv and all(hasattr(v, "path") for v in lv):
+            # packet band keys given as levels (views pass the keys they show): by name
+            object.__setattr__(self, "bands", tuple(v.name for v in lv))
+            object.__setattr__(self, "levels", "details")
         if isinstance(self.levels, list):
             object.__setattr__(self, "levels", tuple(self.levels))
         if isinstance(self.channels, list):

@@ -196,7 +196,7 @@ class BandRow(QWidget):
         edits = model.edits
         _, g = own_edit(edits, "gain", key, scope)
         _, t = own_edit(edits, "threshold", key, scope)
-        touching = edits_on_band(edits, key, channel, model.level)
+        touching = edits_on_band(edits, key, channel, model.spec)
         tip = [f"{name}: {hz_range(lo, hi)}, {st['count']} coefficients, "
                f"{100 * st['energy_fraction']:.4g} % of the energy, kurtosis {kurt_text} "
                f"(3 for Gaussian noise; large for impulsive bands)"]
