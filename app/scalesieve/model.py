@@ -869,14 +869,13 @@ class DecompositionModel:
         if stop <= start:
             return np.zeros(0)
         ch = self._ch[channel]
-        if self.spec.kind == "packet":
-            return self.band_component(channel, key, edited)[start:stop].copy()
         c = ch.band(key, self.level)
         j = self.level if key == "a" else int(key)
         step = 2 ** j
         reach = tf.filter_length(self.spec.wavelet) * step
         near_edge = start < reach or stop > n - reach
-        if self.spec.kind != "dwt" or (self.spec.mode == "periodization" and near_edge):
+        if (self.spec.kind not in tf.LOCAL_KINDS
+                or (self.spec.mode == "periodization" and near_edge)):
             # No local synthesis for the SWT; periodization wraps at the ends.
             return self.band_component(channel, key, edited)[start:stop].copy()
         # Coefficient k reaches samples within about (L - 1) * 2**j of 2**j * k.
