@@ -61,6 +61,9 @@ def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window
     # choosing another cell demodulates that band
     imap.choose("w4.6")
     assert env.report["band"]["name"] == "w4.6" and env.report["band"]["low_hz"] == 4800.0
+    assert "level 4" in window.statusBar().currentMessage()     # the window shows level 3
+    imap.choose("w3.3")
+    assert "Bands pane" in window.statusBar().currentMessage()
     env.set_bearing("10,8.0,42.0,0", 29.5)
     bpfo = [ln for ln in env.report["lines"] if ln["name"] == "bpfo" and ln["harmonic"] == 1
             and not ln["sideband"]][0]

@@ -19,6 +19,7 @@ def add_impacts_dock(window) -> QDockWidget:
     impulse = ImpulseMapPane(window.adapter)
     envelope = EnvelopePane(window.adapter)
     impulse.bandChosen.connect(envelope.set_band)
+    impulse.bandChosen.connect(lambda name: show_band(window, name))
     split = QSplitter(Qt.Orientation.Horizontal)
     split.addWidget(impulse)
     split.addWidget(envelope)
@@ -41,3 +42,22 @@ def _refresh(dock) -> None:
     if dock.isVisible():
         dock.impulse_map.redraw()
         dock.envelope.redraw()
+
+
+def show_band(window, name: str) -> None:
+    """Bring a chosen packet band into view in the Bands pane, or say how to get it there."""
+    model = window.adapter.model
+    if model is None:
+        return
+    for key in model.band_keys:
+        if model.band_name(key) == name:
+            row = window.bands.rows.get(key)
+            if row is not None:
+                window.bands.scroll.ensureWidgetVisible(row)
+            window.statusBar().showMessage(f"{name}: shown in the Bands pane and demodulated "
+                                           "in the Envelope spectrum", 5000)
+            return
+    depth = name[1:].split(".")[0]
+    window.statusBar().showMessage(
+        f"{name} demodulated in the Envelope spectrum; to edit it, choose the packet "
+        f"transform at level {depth} (Transform dock)", 8000)
