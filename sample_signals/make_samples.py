@@ -116,6 +116,56 @@ def pump_bearing() -> tuple[np.ndarray, list[tuple[float, float, str]]]:
 
 
 # --------------------------------------------------------------------------
+# 1b. fan_bearing.wav: the diagnosis path (packet kurtosis, envelope, bearing lines)
+# --------------------------------------------------------------------------
+
+FAN = dict(
+    rate=25600, n=153600,                # 6.000 s
+    shaft_hz=29.5,                       # 1770 rpm
+    shaft=[(1, 0.10, 40.0), (2, 0.03, 110.0)],   # (order, amp, phase°)
+    blades=6,                            # blade pass 6 x shaft = 177 Hz
+    blade=[(1, 0.04, 15.0)],
+    noise_sigma=0.01,
+    # invented bearing: 10 rolling elements, element 8.0 mm, pitch 42.0 mm, 0°
+    elements=10, element_d=8.0, pitch_d=42.0, angle_deg=0.0,
+    first_impact_s=0.005, slip_frac=0.01,
+    impact_amp=0.05, impact_amp_spread=0.2,
+    impact_ring_hz=5200.0, impact_tau_s=0.0006,
+)
+
+
+def fan_bpfo_hz() -> float:
+    """BPFO of the invented fan bearing: n f_r / 2 (1 - d/D cos phi) (Randall & Antoni 2011)."""
+    f = FAN
+    r = f["element_d"] / f["pitch_d"] * np.cos(np.deg2rad(f["angle_deg"]))
+    return f["elements"] * f["shaft_hz"] / 2.0 * (1.0 - r)
+
+
+def fan_bearing() -> np.ndarray:
+    """Return int16 samples for the fan demo: an outer-race defect ringing at 5.2 kHz."""
+    f = FAN
+    rng = _rng(5)
+    rate, n = f["rate"], f["n"]
+    t = np.arange(n) / rate
+    x = np.zeros(n)
+    for order, amp, ph in f["shaft"]:
+        x += _tone(t, order * f["shaft_hz"], amp, ph)
+    for order, amp, ph in f["blade"]:
+        x += _tone(t, order * f["blades"] * f["shaft_hz"], amp, ph)
+    x += rng.standard_normal(n) * f["noise_sigma"]
+    period = 1.0 / fan_bpfo_hz()
+    count = int(np.floor((n / rate - 0.02 - f["first_impact_s"]) / period)) + 1
+    # rolling elements slip: each interval is off by up to ±slip, not accumulated
+    jitter = rng.uniform(-f["slip_frac"], f["slip_frac"], count) * period
+    spread = rng.uniform(-f["impact_amp_spread"], f["impact_amp_spread"], count)
+    for k in range(count):
+        tk = round(f["first_impact_s"] + k * period + jitter[k], 6)
+        ak = round(f["impact_amp"] * (1.0 + spread[k]), 4)
+        _add_ring(x, rate, tk, ak, f["impact_ring_hz"], f["impact_tau_s"])
+    return _to_pcm16(x)
+
+
+# --------------------------------------------------------------------------
 # 2. rig_strain_logger.csv: bench logger export, semicolon + decimal comma
 # --------------------------------------------------------------------------
 
@@ -337,6 +387,8 @@ def build_all() -> dict[str, tuple[bytes, tuple | None]]:
     out["pump_bearing.wav"] = (_audio_bytes(pump, PUMP["rate"], "WAV"), (pump, PUMP["rate"]))
     rows = ["time_s,amplitude,kind"] + [f"{t:.6f},{a:.4f},{k}" for t, a, k in pump_events]
     out["pump_bearing.events.csv"] = (("\n".join(rows) + "\n").encode("ascii"), None)
+    fan = fan_bearing()
+    out["fan_bearing.wav"] = (_audio_bytes(fan, FAN["rate"], "WAV"), (fan, FAN["rate"]))
     out["rig_strain_logger.csv"] = (rig_strain_logger(), None)
     mic, clicks = field_mic_clicks()
     out["field_mic_clicks.flac"] = (_audio_bytes(mic, FIELD["rate"], "FLAC"), (mic, FIELD["rate"]))

@@ -20,7 +20,7 @@ import soundfile as sf
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_signals"
 SCRIPT = SAMPLES / "make_samples.py"
-FILES = ["pump_bearing.wav", "pump_bearing.events.csv", "rig_strain_logger.csv",
+FILES = ["pump_bearing.wav", "pump_bearing.events.csv", "fan_bearing.wav", "rig_strain_logger.csv",
          "field_mic_clicks.flac", "field_mic_clicks.events.csv", "lab_trace_baseline.csv"]
 
 

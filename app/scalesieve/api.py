@@ -40,11 +40,12 @@ def load(path: str | os.PathLike, *, rate: float | None = None, channel: int | N
 
 def merge_transform(recipe_spec: TransformSpec | None, kind: str | None = None,
                     wavelet: str | None = None, level: int | None = None,
-                    mode: str | None = None) -> TransformSpec:
+                    mode: str | None = None, basis=None, cost: str | None = None) -> TransformSpec:
     """Defaults, then the recipe's own transform, then explicit options (which win)."""
     spec = recipe_spec or TransformSpec()
     over = {k: v for k, v in (("kind", kind), ("wavelet", wavelet), ("level", level),
-                              ("mode", mode)) if v is not None}
+                              ("mode", mode), ("basis", basis), ("cost", cost))
+            if v is not None}
     return replace(spec, **over)
 
 

@@ -133,6 +133,7 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         "outputs": reports,
         "clipped": int(sum(int(r.get("clipped") or 0) for r in reports)),
         "energy_removed_fraction": removed_energy / total if total > 0 else 0.0,
+        "recipe": model.recipe(),          # as applied: level and basis resolved
     }
 
 

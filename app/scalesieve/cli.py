@@ -1,6 +1,7 @@
 """The ``scalesieve`` command line (shared/CONTRACT.md).
 
-``bands``, ``clean``, ``events``, ``batch`` and ``--version`` never import Qt.
+``bands``, ``clean``, ``events``, ``batch``, ``kurtosis``, ``envelope`` and ``--version``
+never import Qt.
 Exit status: 0 success, 2 bad input or usage (one line on stderr), 1 an
 unexpected failure (a short message and the path of a log with details).
 """
@@ -22,6 +23,8 @@ COMMANDS = {
     "clean": ("scalesieve.commands.clean", "apply a recipe or quick edits and write the result"),
     "events": ("scalesieve.commands.events", "find and time-stamp transients at fine scales"),
     "batch": ("scalesieve.commands.batch", "apply one recipe to many recordings"),
+    "kurtosis": ("scalesieve.commands.kurtosis", "kurtosis of every packet band: where impacts live"),
+    "envelope": ("scalesieve.commands.envelope", "envelope spectrum of a band, bearing lines"),
 }
 WINDOW = "scalesieve.commands.window"
 

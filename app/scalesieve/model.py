@@ -165,7 +165,7 @@ class DecompositionModel:
         spec = self._resolve(transform or tf.TransformSpec())
         if edits:
             # a recipe that does not fit is refused before any work
-            self._check(edits, spec.level)
+            self._check(edits, spec)
         self._build(spec, 0.0, 0.5 if edits else 1.0)
         if edits:
             self._history[0] = edits
@@ -176,7 +176,17 @@ class DecompositionModel:
 
     def _resolve(self, spec: tf.TransformSpec) -> tf.TransformSpec:
         try:
-            return spec.resolved(self.recording.n)
+            spec = spec.resolved(self.recording.n)
+            if spec.kind == "packet" and spec.basis == "best":
+                # one tiling for every channel: the costs of the channels add up
+                from dataclasses import replace
+
+                from scalesieve.core import packets as wp
+
+                cols = [self.recording.samples[:, k] for k in range(self.recording.channels)]
+                spec = replace(spec, basis=wp.best_basis(cols, spec.wavelet, spec.mode,
+                                                         spec.level, spec.cost))
+            return spec
         except ValueError as exc:
             raise ScalesieveError(str(exc), self.recording.source or None) from None
 
@@ -224,8 +234,8 @@ class DecompositionModel:
             ctx = ch.contexts[key] = ed.BandContext(
                 key=key, n_samples=self.recording.n, rate=self.recording.rate,
                 positions=lambda: self._positions(ch, key),
-                sigma_finest=lambda: self._sigma(ch, 1) * th.white_noise_gain(
-                    spec.kind, key, spec.level),
+                sigma_finest=(lambda: self._sigma(ch, "finest")) if spec.kind == "packet"
+                else (lambda: self._sigma(ch, 1) * th.white_noise_gain(spec.kind, key, spec.level)),
                 sigma_level=lambda: self._sigma(ch, key),
                 span=span)
         return ctx
@@ -240,7 +250,14 @@ class DecompositionModel:
         # Noise comes from the original coefficients: earlier edits in the
         # recipe do not change what the recording's noise is.
         if key not in ch._sigma:
-            ch._sigma[key] = _mad_sigma(ch.band(key, self.spec.level))
+            if key == "finest":
+                # packet bands: sigma of the level-1 detail, as for the DWT (node "d")
+                from scalesieve.core import packets as wp
+
+                d1 = wp.finest_detail(ch.x, self.spec.wavelet, self.spec.mode)
+                ch._sigma[key] = _mad_sigma(d1.astype(self.dtype, copy=False))
+            else:
+                ch._sigma[key] = _mad_sigma(ch.band(key, self.spec.level))
         return ch._sigma[key]
 
     # -------------------------------------------------------------- listeners
@@ -264,8 +281,8 @@ class DecompositionModel:
 
     @property
     def band_keys(self) -> list:
-        """Bands in table order: d1 ... dJ, then aJ."""
-        return list(range(1, self.level + 1)) + ["a"]
+        """Bands in table order: d1 ... dJ, then aJ (packet bands: frequency order)."""
+        return tf.table_keys(self.spec)
 
     def band_name(self, key) -> str:
         return tf.band_name(key, self.level)
@@ -273,7 +290,7 @@ class DecompositionModel:
     def set_transform(self, spec: tf.TransformSpec) -> None:
         """Rerun the decomposition; the recipe is kept (levels must still exist)."""
         new = self._resolve(spec)
-        self._check(self.edits, new.level)
+        self._check(self.edits, new)
         old = self.spec
         self._ch = []                    # let the old decomposition go before the new one
         try:
@@ -300,8 +317,8 @@ class DecompositionModel:
     def recipe(self) -> Recipe:
         return Recipe(self.spec, self.edits)
 
-    def _check(self, edits: Iterable[Edit], level: int | None = None) -> None:
-        check_against(edits, self.level if level is None else level,
+    def _check(self, edits: Iterable[Edit], spec: tf.TransformSpec | None = None) -> None:
+        check_against(edits, self.spec if spec is None else spec,
                       self.recording.duration_s, self.recording.channels)
 
     def set_edits(self, edits: Sequence[Edit], record: bool = True) -> Change:
@@ -367,11 +384,10 @@ class DecompositionModel:
 
     def _chains(self, edits, channel: int) -> dict:
         """Every band's chain: the edits that apply to it, in recipe order."""
-        level = self.level
-        chains: dict = {key: [] for key in tf.band_keys(level)}
+        chains: dict = {key: [] for key in tf.spec_keys(self.spec)}
         for e in edits:
             if e.applies_to(channel):
-                for key in dict.fromkeys(e.band_keys(level)):
+                for key in dict.fromkeys(e.band_keys(self.spec)):
                     if key in chains:
                         chains[key].append(e)
         return {key: tuple(v) for key, v in chains.items()}
@@ -438,7 +454,7 @@ class DecompositionModel:
 
     def _syntheses(self, plans: list[_Plan]) -> int:
         """How many of these plans synthesise a whole band (gain changes not counted)."""
-        local = self.spec.kind == "dwt"     # the SWT has no local synthesis
+        local = self.spec.kind in tf.LOCAL_KINDS     # the SWT has no local synthesis
         return sum(p.kind == "band" or (p.kind == "window" and not local) for p in plans)
 
     def _set_chain(self, ch: _Channel, key, chain: tuple) -> None:
@@ -562,7 +578,7 @@ class DecompositionModel:
         """cleaned = x - inverse(c - e) in one inverse transform."""
         ch.incremental = False
         ch.owed = []                     # worked out afresh: nothing is owed any more
-        keys = tf.band_keys(self.level)
+        keys = tf.spec_keys(self.spec)
         if not any(ch.chains.get(key) for key in keys):
             if ch.cleaned is not ch.x and ch.cleaned.shape == ch.x.shape:
                 # No edit left (all undone): the recording exactly, in the array the
@@ -717,7 +733,7 @@ class DecompositionModel:
             if kept is not None:
                 kept[k0:k1] = new_vals
             deltas[p.key] = (old_vals - new_vals, k0)
-        if self.spec.kind != "dwt":
+        if self.spec.kind not in tf.LOCAL_KINDS:
             # no local synthesis for the SWT: each band's change is a full inverse
             spans = [s for s in (self._add_local(ch, key, d, k0)
                                  for key, (d, k0) in deltas.items()) if s is not None]
@@ -743,7 +759,7 @@ class DecompositionModel:
         k0 = int(np.argmax(nz))
         k1 = c.shape[0] - int(np.argmax(nz[::-1]))
         del nz
-        if self.spec.kind == "dwt" and (k1 - k0) <= LOCAL_SHARE * c.shape[0]:
+        if self.spec.kind in tf.LOCAL_KINDS and (k1 - k0) <= LOCAL_SHARE * c.shape[0]:
             return self._add_local(ch, p.key, delta[k0:k1], k0)
         idx = tf.band_index(p.key, self.level)
         tf.inverse_into(lambda i: delta if i == idx else None, ch.lengths, self.spec, n,
@@ -755,7 +771,7 @@ class DecompositionModel:
         n = self.recording.n
         if delta_removed.shape[0] == 0:
             return None
-        if self.spec.kind != "dwt":
+        if self.spec.kind not in tf.LOCAL_KINDS:
             idx = tf.band_index(key, self.level)
             full = np.zeros(ch.lengths[idx], dtype=self.dtype)
             full[k0:k0 + delta_removed.shape[0]] = delta_removed
@@ -867,7 +883,8 @@ class DecompositionModel:
         step = 2 ** j
         reach = tf.filter_length(self.spec.wavelet) * step
         near_edge = start < reach or stop > n - reach
-        if self.spec.kind != "dwt" or (self.spec.mode == "periodization" and near_edge):
+        if (self.spec.kind not in tf.LOCAL_KINDS
+                or (self.spec.mode == "periodization" and near_edge)):
             # No local synthesis for the SWT; periodization wraps at the ends.
             return self.band_component(channel, key, edited)[start:stop].copy()
         # Coefficient k reaches samples within about (L - 1) * 2**j of 2**j * k.

@@ -22,14 +22,15 @@ RECIPE_VERSION = 1
 OPS = ("gain", "threshold", "region")
 LEVEL_WORDS = ("details", "all")
 
-_COMMON_KEYS = {"op", "levels", "channels", "enabled"}
+_COMMON_KEYS = {"op", "levels", "bands", "channels", "enabled"}
 _OP_KEYS = {
     "gain": {"gain"},
     "threshold": {"rule", "shape", "noise", "value", "scale"},
     "region": {"start_s", "stop_s", "gain"},
 }
-_REQUIRED = {"gain": {"levels", "gain"}, "threshold": {"levels", "rule"},
-             "region": {"levels", "start_s", "stop_s"}}
+_REQUIRED = {"gain": {"gain"}, "threshold": {"rule"}, "region": {"start_s", "stop_s"}}
+#: longest list of band names one edit may carry (a packet tree to depth 12 has 4096)
+MAX_BAND_NAMES = 1 << 16
 
 # Largest recipe file we read: a recipe is a short list of edits.
 MAX_RECIPE_BYTES = 8 * 1024 * 1024
@@ -55,8 +56,17 @@ class Edit:
     stop_s: float = 0.0
     channels: tuple[int, ...] | None = None
     enabled: bool = True
+    #: band names as ``bands --json`` lists them ("d3", "a8", "w4.6"); used instead of levels
+    bands: tuple[str, ...] | None = None
 
     def __post_init__(self):
+        if isinstance(self.bands, list):
+            object.__setattr__(self, "bands", tuple(self.bands))
+        lv = self.levels
+        if isinstance(lv, (list, tuple)) and lv and all(hasattr(v, "path") for v in lv):
+            # packet band keys given as levels (views pass the keys they show): by name
+            object.__setattr__(self, "bands", tuple(v.name for v in lv))
+            object.__setattr__(self, "levels", "details")
         if isinstance(self.levels, list):
             object.__setattr__(self, "levels", tuple(self.levels))
         if isinstance(self.channels, list):
@@ -65,12 +75,16 @@ class Edit:
     def applies_to(self, channel: int) -> bool:
         return self.enabled and (self.channels is None or channel in self.channels)
 
-    def band_keys(self, level: int) -> list:
-        return resolve_levels(self.levels, level)
+    def band_keys(self, level) -> list:
+        """Band keys this edit names; ``level`` is a depth or a resolved TransformSpec."""
+        return resolve_bands(self, level)
 
     def to_json(self) -> dict:
         d: dict[str, Any] = {"op": self.op}
-        d["levels"] = self.levels if isinstance(self.levels, str) else list(self.levels)
+        if self.bands is not None:
+            d["bands"] = list(self.bands)
+        else:
+            d["levels"] = self.levels if isinstance(self.levels, str) else list(self.levels)
         if self.op == "gain":
             d["gain"] = self.gain
         elif self.op == "threshold":
@@ -93,7 +107,7 @@ class Edit:
 
     def summary(self) -> str:
         """A short line for lists and logs."""
-        lv = self.levels if isinstance(self.levels, str) else ",".join(str(v) for v in self.levels)
+        lv = ",".join(self.bands) if self.bands is not None else self.levels if isinstance(self.levels, str) else ",".join(str(v) for v in self.levels)
         if self.op == "gain":
             return f"gain ×{self.gain:g} on {lv}"
         if self.op == "threshold":
@@ -159,6 +173,40 @@ def parse_levels(text: str) -> Any:
         if v not in seen:
             seen.append(v)
     return tuple(seen)
+
+
+def resolve_bands(edit: "Edit", spec) -> list:
+    """Band keys an edit names, for a depth (DWT/SWT) or a resolved TransformSpec.
+
+    Packet transforms: ``details`` is every packet band but the lowest (the
+    all-approximation node, as the DWT's approximation), ``all`` every band;
+    level numbers name nothing there (name bands instead).
+    """
+    from scalesieve.core import transforms as tf
+
+    if isinstance(spec, TransformSpec):
+        if spec.kind == "packet" and spec.basis == "best":
+            # the tiling is chosen from the data: names are checked once it is
+            if edit.bands is None and edit.levels not in LEVEL_WORDS:
+                raise ValueError("a packet transform has no detail levels; name its bands "
+                                 "(\"bands\": [\"w3.5\", ...])")
+            return []
+        if edit.bands is not None:
+            return [tf.key_named(spec, name) for name in edit.bands]
+        if spec.kind == "packet":
+            keys = tf.table_keys(spec)
+            if edit.levels == "all":
+                return keys
+            if edit.levels == "details":
+                return [k for k in keys if set(k.path) != {"a"}]
+            raise ValueError("a packet transform has no detail levels; name its bands "
+                             "(\"bands\": [\"w3.5\", ...])")
+        return resolve_levels(edit.levels, spec.level)
+    if edit.bands is not None:
+        from scalesieve.core import transforms as tf
+
+        return [tf.key_named(TransformSpec(level=int(spec)), name) for name in edit.bands]
+    return resolve_levels(edit.levels, spec)
 
 
 def resolve_levels(levels: Any, level: int) -> list:
@@ -250,7 +298,18 @@ def check_edit(e: Edit, index: int = 1, source: str | None = None) -> None:
     if e.op == "region" and not e.start_s < e.stop_s:
         raise ScalesieveError(f"{where}: start_s {_num(e.start_s)} must be before stop_s "
                               f"{_num(e.stop_s)}", source)
-    if isinstance(e.levels, str):
+    if e.bands is not None:
+        if isinstance(e.bands, str) or not isinstance(e.bands, tuple) or not e.bands:
+            raise ScalesieveError(f"{where}: 'bands' must be a non-empty list of band names",
+                                  source)
+        if len(e.bands) > MAX_BAND_NAMES:
+            raise ScalesieveError(f"{where}: 'bands' names more than {MAX_BAND_NAMES} bands",
+                                  source)
+        for b in e.bands:
+            if not isinstance(b, str):
+                raise ScalesieveError(f"{where}: band {_short(repr(b), 40)} is not a band name "
+                                      "(d3, a8, w4.6, ...)", source)
+    elif isinstance(e.levels, str):
         if e.levels not in LEVEL_WORDS:
             raise ScalesieveError(f"{where}: levels {_short(repr(e.levels), 40)} is not a list "
                                   "of levels, 'details' or 'all'", source)
@@ -279,11 +338,13 @@ def check_edit(e: Edit, index: int = 1, source: str | None = None) -> None:
         raise ScalesieveError(f"{where}: 'enabled' must be true or false", source)
 
 
-def check_against(recipe_edits: Iterable[Edit], level: int, duration_s: float | None = None,
+def check_against(recipe_edits: Iterable[Edit], level, duration_s: float | None = None,
                   channels: int | None = None, source: str | None = None) -> None:
     """Check edits against a resolved transform and recording; raise naming the edit.
 
-    Each edit's own values are checked first (:func:`check_edit`), then its
+    ``level`` is the transform's depth or the resolved TransformSpec itself
+    (needed for band names and packet transforms).  Each edit's own values
+    are checked first (:func:`check_edit`), then its
     levels against the transform's depth, its channels against the
     recording's, and a region's times against the recording's span: a region
     must start inside the recording and end by its end.
@@ -295,7 +356,7 @@ def check_against(recipe_edits: Iterable[Edit], level: int, duration_s: float | 
     for i, e in enumerate(edits, 1):
         check_edit(e, i, source)
         try:
-            resolve_levels(e.levels, level)
+            resolve_bands(e, level)
         except ValueError as exc:
             raise ScalesieveError(f"edit {i} ({e.op}): {exc}", source) from None
         if channels is not None and e.channels is not None:
@@ -333,18 +394,25 @@ def _schema() -> dict:
             "transform": {
                 "type": "object", "additionalProperties": False,
                 "properties": {
-                    "kind": {"enum": ["dwt", "swt"]},
+                    "kind": {"enum": ["dwt", "swt", "packet"]},
                     "wavelet": {"type": "string"},
                     "level": {"anyOf": [level, {"type": "null"}]},
                     "mode": {"enum": list(MODES)},
+                    "basis": {"anyOf": [{"enum": ["full", "best"]},
+                                        {"type": "array", "minItems": 1, "maxItems": 1 << 16,
+                                         "items": {"type": "string",
+                                                   "pattern": "^[ad]{1,64}$"}}]},
+                    "cost": {"enum": ["shannon", "log-energy"]},
                 },
             },
             "edits": {"type": "array", "maxItems": MAX_EDITS, "items": {
                 "type": "object",
-                "required": ["op", "levels"],
+                "required": ["op"],
                 "properties": {
                     "op": {"enum": list(OPS)},
                     "levels": {"anyOf": [level_list, {"enum": list(LEVEL_WORDS)}]},
+                    "bands": {"type": "array", "minItems": 1, "maxItems": MAX_BAND_NAMES,
+                              "items": {"type": "string", "maxLength": 64}},
                     "channels": {"type": "array", "minItems": 1, "maxItems": MAX_CHANNEL + 1,
                                  "items": {"type": "integer", "minimum": 0,
                                            "maximum": MAX_CHANNEL}},
@@ -514,9 +582,9 @@ def from_json(data: Any, source: str | None = None) -> Recipe:
     if "transform" in data and not isinstance(transform, dict):
         raise ScalesieveError("recipe key 'transform' must be an object", source)
     for key in transform or ():
-        if key not in ("kind", "wavelet", "level", "mode"):
+        if key not in ("kind", "wavelet", "level", "mode", "basis", "cost"):
             raise ScalesieveError(f"key 'transform': unknown key {_short(repr(key), 60)} "
-                                  "(known: kind, wavelet, level, mode)", source)
+                                  "(known: kind, wavelet, level, mode, basis, cost)", source)
     # Named checks first: they give plainer messages than the schema.
     for i, e in enumerate(edits_raw, 1):
         if not isinstance(e, dict):
@@ -533,6 +601,10 @@ def from_json(data: Any, source: str | None = None) -> Recipe:
         for key in sorted(_REQUIRED[op]):
             if key not in e:
                 raise ScalesieveError(f"edit {i} ({op}): missing key '{key}'", source)
+        if "levels" not in e and "bands" not in e:
+            raise ScalesieveError(f"edit {i} ({op}): missing key 'levels' (or 'bands')", source)
+        if "levels" in e and "bands" in e:
+            raise ScalesieveError(f"edit {i} ({op}): give 'levels' or 'bands', not both", source)
         if op == "threshold" and e.get("rule") == "manual" and "value" not in e:
             raise ScalesieveError(f"edit {i} (threshold): rule 'manual' needs a 'value'", source)
     import jsonschema  # only when a recipe is read: keeps small commands quick
@@ -546,8 +618,16 @@ def from_json(data: Any, source: str | None = None) -> Recipe:
     spec = None
     if transform is not None:
         t = transform
+        basis = t.get("basis", "full")
         spec = TransformSpec(kind=t.get("kind", "dwt"), wavelet=t.get("wavelet", "db4"),
-                             level=t.get("level"), mode=t.get("mode", "symmetric"))
+                             level=t.get("level"), mode=t.get("mode", "symmetric"),
+                             basis=basis if isinstance(basis, str) else tuple(basis),
+                             cost=t.get("cost", "shannon"))
+        if spec.kind == "packet":
+            try:
+                spec.validate()
+            except ValueError as exc:
+                raise ScalesieveError(f"key 'transform': {exc}", source) from None
         if spec.wavelet not in discrete_wavelets():
             raise ScalesieveError(
                 f"key 'transform.wavelet': {_short(repr(spec.wavelet), 40)} is not a discrete "

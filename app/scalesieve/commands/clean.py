@@ -35,6 +35,9 @@ def configure(p) -> None:
     o.add_argument("--removed", metavar="OUT2", help="also write what was removed")
     o.add_argument("--subtype", metavar="SUBTYPE",
                    help="output sample format, e.g. PCM_16, PCM_24, FLOAT (default: as input)")
+    o.add_argument("--save-recipe", metavar="R.json", dest="save_recipe",
+                   help="also write the recipe as applied (every default resolved: level, "
+                        "basis, the chosen packet paths)")
     o.add_argument("--force", action="store_true", help="replace existing output files")
     add_transform_options(p)
     add_input_options(p)
@@ -77,6 +80,14 @@ def run(args) -> int:
     if recipe is None and not quick:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
     spec = transform_from(args, recipe.transform if recipe else None)
+    if args.save_recipe:
+        from scalesieve import api
+
+        api.check_target(args.save_recipe, args.force,
+                         [args.file] + ([args.recipe] if args.recipe else []))
+        if args.save_recipe in (args.output, args.removed):
+            raise ScalesieveError("--save-recipe names the same file as an output",
+                                  args.save_recipe)
     facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
     # The same function cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
@@ -84,6 +95,10 @@ def run(args) -> int:
                          removed=args.removed, subtype=args.subtype, force=args.force,
                          rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
                          progress=bar)
+    if args.save_recipe:
+        from scalesieve import api
+
+        api.save_recipe(res["recipe"], args.save_recipe, force=args.force)
     for rep in res["outputs"]:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",

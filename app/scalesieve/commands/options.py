@@ -39,14 +39,20 @@ def _channel(text: str) -> int:
 
 def add_transform_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("transform")
-    g.add_argument("--transform", choices=("dwt", "swt"), default=None,
-                   help="dwt (decimated, default) or swt (undecimated)")
+    g.add_argument("--transform", choices=("dwt", "swt", "packet"), default=None,
+                   help="dwt (decimated, default), swt (undecimated) or packet (wavelet "
+                        "packet bands wJ.K of equal width)")
     g.add_argument("--wavelet", default=None, metavar="NAME",
                    help="any discrete PyWavelets wavelet (default db4)")
     g.add_argument("--level", type=_level, default=None, metavar="N",
                    help="decomposition depth (default: two short of the deepest the data allow, at most 12)")
     g.add_argument("--mode", default=None, metavar="MODE",
                    help="boundary mode as PyWavelets names it (default symmetric)")
+    g.add_argument("--basis", choices=("full", "best"), default=None,
+                   help="packet transform: every node at depth N (full, default) or the "
+                        "least-cost tiling (best, Coifman & Wickerhauser 1992)")
+    g.add_argument("--cost", choices=("shannon", "log-energy"), default=None,
+                   help="cost of the best basis: shannon (-sum p ln p, default) or log-energy")
 
 
 def add_input_options(p: argparse.ArgumentParser) -> None:
@@ -74,4 +80,5 @@ def transform_from(args, recipe_spec=None):
                               f"(for example db4, sym8, coif3, bior3.5, haar)")
     if args.mode is not None and args.mode not in MODES:
         raise ScalesieveError(f"--mode {args.mode!r} is not one of {', '.join(MODES)}")
-    return api.merge_transform(recipe_spec, args.transform, args.wavelet, args.level, args.mode)
+    return api.merge_transform(recipe_spec, args.transform, args.wavelet, args.level, args.mode,
+                               basis=getattr(args, "basis", None), cost=getattr(args, "cost", None))

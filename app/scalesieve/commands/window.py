@@ -23,6 +23,16 @@ def configure(p) -> None:
                    help="draw the window offscreen at 1600x1000, write the PNG and exit")
     p.add_argument("--force", action="store_true",
                    help="let --snapshot replace an existing file")
+    g = p.add_argument_group("impacts (Impulse map and Envelope spectrum)")
+    g.add_argument("--impacts", action="store_true",
+                   help="open the Impacts dock (Impulse map, Envelope spectrum) on start")
+    g.add_argument("--band", default=None, metavar="NAME",
+                   help="packet band wJ.K to demodulate in the Envelope spectrum "
+                        "(default: the most impulsive)")
+    g.add_argument("--bearing", default=None, metavar="N,d,D,ANGLE",
+                   help="bearing geometry whose lines the Envelope spectrum marks")
+    g.add_argument("--shaft", type=float, default=None, metavar="HZ",
+                   help="shaft rate in Hz, with --bearing")
     add_transform_options(p)
     add_input_options(p)
 

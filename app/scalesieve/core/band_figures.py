@@ -140,7 +140,7 @@ def band_figures(component: np.ndarray, coefficients: np.ndarray, total_energy: 
 
 def band_table(x: np.ndarray, coeffs: list[np.ndarray], spec, rate: float,
                dtype=np.float64) -> list[dict]:
-    """Every band's figures, d1 ... dJ then aJ (the rows of ``bands --json``).
+    """Every band's figures, d1 ... dJ then aJ, or packet bands in frequency order.
 
     Parameters
     ----------
@@ -165,14 +165,19 @@ def band_table(x: np.ndarray, coeffs: list[np.ndarray], spec, rate: float,
     floor = roundoff_floor(total, dtype)
     comp = np.empty(n, dtype=coeffs[0].dtype)
     rows = []
-    for key in list(range(1, level + 1)) + ["a"]:      # table order: d1 ... dJ, aJ
+    for key in tf.table_keys(spec):      # d1 ... dJ, aJ; packet bands in frequency order
         idx = tf.band_index(key, level)
         c = coeffs[idx]
-        tf.inverse_into(lambda i: c if i == idx else None, lengths, spec, n, comp)
+        if spec.kind == "packet":
+            comp = tf.band_component(coeffs, key, spec, n)
+            meta = {"name": key.name, "kind": "packet", "level": key.depth,
+                    "index": key.index, "path": key.path}
+        else:
+            tf.inverse_into(lambda i: c if i == idx else None, lengths, spec, n, comp)
+            meta = {"name": tf.band_name(key, level),
+                    "kind": "approx" if key == "a" else "detail",
+                    "level": level if key == "a" else int(key)}
         lo, hi = tf.band_range_hz(key, level, rate)
-        rows.append({"name": tf.band_name(key, level),
-                     "kind": "approx" if key == "a" else "detail",
-                     "level": level if key == "a" else int(key),
-                     "low_hz": lo, "high_hz": hi,
+        rows.append({**meta, "low_hz": lo, "high_hz": hi,
                      **band_figures(comp, c, total, floor)})
     return rows

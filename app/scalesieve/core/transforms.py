@@ -23,7 +23,9 @@ from functools import lru_cache
 import numpy as np
 import pywt
 
-KINDS = ("dwt", "swt")
+KINDS = ("dwt", "swt", "packet")
+#: kinds whose coefficient windows are synthesised locally (their cost follows the window)
+LOCAL_KINDS = ("dwt", "packet")
 MODES = tuple(pywt.Modes.modes)
 DEFAULT_WAVELET = "db4"
 DEFAULT_MODE = "symmetric"
@@ -43,6 +45,10 @@ class TransformSpec:
     wavelet: str = DEFAULT_WAVELET
     level: int | None = None
     mode: str = DEFAULT_MODE
+    #: packet transform only: "full", "best" or a tuple of node paths (see core/packets.py)
+    basis: object = "full"
+    #: packet transform only: the best-basis cost, "shannon" or "log-energy"
+    cost: str = "shannon"
 
     def validate(self) -> "TransformSpec":
         if self.kind not in KINDS:
@@ -58,6 +64,17 @@ class TransformSpec:
                 raise ValueError(f"level {self.level!r} is not a whole number")
             if self.level < 1:
                 raise ValueError(f"level {self.level} must be at least 1")
+        if self.kind == "packet":
+            from scalesieve.core import packets as wp
+
+            if self.cost not in wp.COSTS:
+                raise ValueError(f"cost {self.cost!r} is not one of {', '.join(wp.COSTS)}")
+            if isinstance(self.basis, str):
+                if self.basis not in wp.BASES:
+                    raise ValueError(f"basis {self.basis!r} is not full, best or a list of "
+                                     "node paths")
+            else:
+                wp.check_basis(self.basis, self.level or 64)
         return self
 
     def resolved(self, n: int) -> "TransformSpec":
@@ -69,6 +86,20 @@ class TransformSpec:
                 f"{n} samples are too few for wavelet {self.wavelet} "
                 f"(filter length {filter_length(self.wavelet)}); "
                 f"use a shorter wavelet such as haar or a longer recording")
+        if self.kind == "packet":
+            from scalesieve.core import packets as wp
+
+            spec = self
+            if not isinstance(self.basis, str):
+                deepest = max(len(p) for p in self.basis)
+                spec = replace(self, basis=wp.check_basis(self.basis, self.level or deepest),
+                               level=self.level or deepest)
+            elif self.level is None:
+                spec = replace(self, level=wp.default_depth(n, self.wavelet))
+            if spec.level > top:
+                raise ValueError(f"level {spec.level} is deeper than {n} samples allow for "
+                                 f"{self.wavelet} (at most {top})")
+            return spec
         if self.level is None:
             return replace(self, level=default_level(n, self.wavelet))
         if self.level > top:
@@ -81,7 +112,48 @@ class TransformSpec:
         d = {"kind": self.kind, "wavelet": self.wavelet, "mode": self.mode}
         if self.level is not None:
             d["level"] = int(self.level)
-        return {k: d[k] for k in ("kind", "wavelet", "level", "mode") if k in d}
+        if self.kind == "packet":
+            d["basis"] = self.basis if isinstance(self.basis, str) else list(self.basis)
+            if self.basis == "best":
+                d["cost"] = self.cost
+        return {k: d[k] for k in ("kind", "wavelet", "level", "mode", "basis", "cost") if k in d}
+
+
+def basis_paths(spec: TransformSpec) -> tuple[str, ...]:
+    """Node paths of a packet spec's basis in frequency order ("best" must be chosen first)."""
+    from scalesieve.core import packets as wp
+
+    if spec.basis == "full":
+        return wp.full_basis(spec.level)
+    if isinstance(spec.basis, str):
+        raise ValueError("the best basis is chosen from the data (model or packets.best_basis)")
+    return tuple(spec.basis)
+
+
+def spec_keys(spec: TransformSpec) -> list:
+    """Band keys in coefficient-list order (PyWavelets order for DWT/SWT)."""
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return wp.keys(basis_paths(spec))
+    return band_keys(spec.level)
+
+
+def table_keys(spec: TransformSpec) -> list:
+    """Band keys in table order: d1 ... dJ, aJ; packet bands in frequency order."""
+    if spec.kind == "packet":
+        return spec_keys(spec)
+    return list(range(1, spec.level + 1)) + ["a"]
+
+
+def key_named(spec: TransformSpec, name: str):
+    """The band key of a name as ``bands --json`` lists it; ValueError naming the bands."""
+    for key in table_keys(spec):
+        if band_name(key, spec.level) == name:
+            return key
+    names = [band_name(k, spec.level) for k in table_keys(spec)]
+    shown = ", ".join(names) if len(names) <= 12 else ", ".join(names[:3] + ["…"] + names[-2:])
+    raise ValueError(f"band {name!r} is not in the transform (its bands: {shown})")
 
 
 @lru_cache(maxsize=256)
@@ -111,11 +183,15 @@ def band_keys(level: int) -> list:
 
 
 def band_name(key, level: int) -> str:
+    if hasattr(key, "path"):
+        return key.name
     return f"a{level}" if key == "a" else f"d{key}"
 
 
 def band_index(key, level: int) -> int:
     """Position of a band key in the PyWavelets coefficient list."""
+    if hasattr(key, "path"):
+        return key.position
     return 0 if key == "a" else level - int(key) + 1
 
 
@@ -123,8 +199,12 @@ def band_range_hz(key, level: int, rate: float) -> tuple[float, float]:
     """Nominal frequency range of a band (common practice: dyadic halving).
 
     Detail level j spans fs/2^(j+1) ... fs/2^j; the approximation at level J
-    spans 0 ... fs/2^(J+1).
+    spans 0 ... fs/2^(J+1).  Packet band wJ.K spans K fs/2^(J+1) ... (K+1) fs/2^(J+1).
     """
+    if hasattr(key, "path"):
+        from scalesieve.core import packets as wp
+
+        return wp.range_hz(key.path, rate)
     if key == "a":
         return 0.0, rate / 2 ** (level + 1)
     j = int(key)
@@ -182,6 +262,10 @@ def forward(x: np.ndarray, spec: TransformSpec, dtype=np.float64,
     x = np.asarray(x, dtype=dtype)
     if spec.kind == "dwt":
         return _wavedec_blocked(x, spec, progress)
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return wp.forward(x, spec.wavelet, spec.mode, basis_paths(spec))
     n = x.shape[0]
     total = swt_padded_length(n, spec.level)
     if total != n:
@@ -393,6 +477,10 @@ class _Carry:
 
 def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray:
     """Reconstruct ``n`` samples from a coefficient list of ``forward``."""
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return wp.inverse(coeffs, basis_paths(spec), spec.wavelet, spec.mode, n)
     if spec.kind == "dwt":
         out = pywt.waverec(coeffs, spec.wavelet, mode=spec.mode)
     else:
@@ -426,6 +514,14 @@ def inverse_into(band, lengths: list[int], spec: TransformSpec, n: int, out: np.
     bit for bit; a None band gives what zeros give (up to the sign of a zero).
     """
     level = spec.level
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        basis = basis_paths(spec)
+        r = wp.inverse([band(i) for i in range(len(basis))], basis, spec.wavelet, spec.mode,
+                       n, out.dtype)
+        _finish(out, base, r, 0)
+        return out
     if spec.kind != "dwt":
         full = [band(i) for i in range(level + 1)]
         given = [i for i, b in enumerate(full) if b is not None]
@@ -544,8 +640,8 @@ def coefficient_slice(key, spec: TransformSpec, count: int, lo: float, hi: float
 @lru_cache(maxsize=1024)
 def _position_formula(key, spec: TransformSpec) -> tuple[float, float]:
     """(step, shift): coefficient k sits at ``step * k + shift`` samples."""
-    j = spec.level if key == "a" else int(key)
-    if spec.kind == "dwt":
+    j = key.depth if hasattr(key, "path") else spec.level if key == "a" else int(key)
+    if spec.kind in LOCAL_KINDS:
         L = filter_length(spec.wavelet)
         s = (L - 1) / 2 - _offset(spec.wavelet, spec.mode)
         return float(2 ** j), s * (2 ** j - 1)
@@ -577,6 +673,11 @@ def _first_position(v: float, step: float, shift: float, count: int, right: bool
 
 def band_lengths(n: int, spec: TransformSpec) -> list[int]:
     """Coefficient count of each band, in PyWavelets order."""
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        lengths = wp.node_lengths(n, spec.wavelet, spec.mode, spec.level)
+        return [lengths[len(p)] for p in basis_paths(spec)]
     if spec.kind == "swt":
         return [swt_padded_length(n, spec.level)] * (spec.level + 1)
     L = filter_length(spec.wavelet)
@@ -597,6 +698,10 @@ def band_component(coeffs: list[np.ndarray], key, spec: TransformSpec, n: int,
     level = spec.level
     idx = band_index(key, level)
     band = coeffs[idx] if values is None else values
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return wp.component(band, key.path, spec.wavelet, spec.mode, n)
     if spec.kind == "swt":
         if band.shape[0] <= SWT_FFT_MAX:
             return _swt_band_alone(band, key, spec, n)
@@ -704,8 +809,8 @@ def coefficient_positions(key, spec: TransformSpec, count: int) -> np.ndarray:
     filters' centre of energy at that level.
     """
     level = spec.level
-    j = level if key == "a" else int(key)
-    if spec.kind == "dwt":
+    j = key.depth if hasattr(key, "path") else level if key == "a" else int(key)
+    if spec.kind in LOCAL_KINDS:
         L = filter_length(spec.wavelet)
         s = (L - 1) / 2 - _offset(spec.wavelet, spec.mode)
         return (2 ** j) * np.arange(count, dtype=np.float64) + s * (2 ** j - 1)
@@ -751,6 +856,11 @@ def local_synthesis_bands(windows: dict, coeffs_lengths: list[int], spec: Transf
     worked through once for all the bands (a region over three levels costs
     about as much as its finest one alone).
     """
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return wp.local_synthesis({key.path: v for key, v in windows.items()},
+                                  spec.wavelet, spec.mode, n)
     w = pywt.Wavelet(spec.wavelet)
     level = spec.level
     off = _offset(spec.wavelet, spec.mode)

@@ -100,6 +100,7 @@ def run_window(args) -> int:
 
         window.session_keeper = SessionKeeper(window)
     window.show()
+    _impacts_options(window, args)
     window.open_recording(rec, spec, edits)
     if snapshot:
         problem = window.adapter.wait_idle()
@@ -115,6 +116,32 @@ def run_window(args) -> int:
     reporter.uninstall()
     _dispose(app, window)
     return code
+
+
+def _impacts_options(window, args) -> None:
+    """``--impacts``, ``--band``, ``--bearing`` and ``--shaft``: the Impacts dock set up."""
+    from scalesieve.errors import ScalesieveError
+
+    bearing = getattr(args, "bearing", None)
+    band = getattr(args, "band", None)
+    if bearing is not None:
+        from scalesieve.core import bearing as br
+
+        try:
+            br.parse_geometry(bearing)
+        except ValueError as exc:
+            raise ScalesieveError(f"--bearing: {exc}") from None
+        if getattr(args, "shaft", None) is None:
+            raise ScalesieveError("--bearing needs --shaft HZ (the shaft's rotation rate)")
+    if not (getattr(args, "impacts", False) or bearing or band):
+        return
+    dock = window.impacts_dock
+    if band:
+        dock.envelope.band = band
+    if bearing:
+        dock.envelope.geometry.setText(bearing)
+        dock.envelope.shaft.setValue(float(args.shaft))
+    dock.show()
 
 
 def _dispose(app, window) -> None:

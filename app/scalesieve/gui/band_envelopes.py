@@ -38,7 +38,7 @@ class Stopped(Exception):
 def coefficient_list(model, channel: int) -> list[np.ndarray]:
     """The model's coefficient arrays of one channel, in PyWavelets order."""
     level = model.level
-    coeffs: list = [None] * (level + 1)
+    coeffs: list = [None] * len(model.band_keys)
     for key in model.band_keys:
         coeffs[tf.band_index(key, level)] = model.coefficients(channel, key)
     return coeffs

@@ -35,7 +35,9 @@ def levels_text(levels) -> str:
 
 
 def level_sort_key(key):
-    """Detail levels first (finest first), then the approximation."""
+    """Detail levels first (finest first), then the approximation; packet bands by frequency."""
+    if hasattr(key, "position"):
+        return (0, key.position)
     return (1, 0) if key == "a" else (0, int(key))
 
 

@@ -200,7 +200,7 @@ class BandRow(QWidget):
         edits = model.edits
         _, g = own_edit(edits, "gain", key, scope)
         _, t = own_edit(edits, "threshold", key, scope)
-        touching = edits_on_band(edits, key, channel, model.level)
+        touching = edits_on_band(edits, key, channel, model.spec)
         tip = [f"{name}: {hz_range(lo, hi)}, {st['count']} coefficients, "
                + ("figures still being worked out, " if share is None else
                   f"{100 * share:.4g} % of the energy, ") + f"kurtosis {kurt_text} "

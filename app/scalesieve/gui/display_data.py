@@ -116,7 +116,8 @@ class ChannelPictures:
             peaks = pool.submit(coefficient_peaks, arrays)
             # Coarse to fine: the model keeps the last component it made, and
             # the finest bands are the ones most often muted first.
-            order = ["a"] + sorted((k for k in keys if k != "a"), reverse=True)
+            order = (["a"] if "a" in keys else []) + sorted((k for k in keys if k != "a"),
+                                                             reverse=True)
             try:
                 #: band key -> the model's band_table row (the figures every view shows);
                 #: empty until ``put_figures`` on a long recording

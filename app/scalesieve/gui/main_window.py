@@ -100,6 +100,9 @@ class MainWindow(QMainWindow):
         self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, self.transform_dock)
         self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, self.recipe_dock)
         self.events_dock = self._add_events_dock()
+        from scalesieve.gui.impacts_dock import add_impacts_dock
+
+        self.impacts_dock = add_impacts_dock(self)
         self.resizeDocks([self.transform_dock, self.recipe_dock], [230, 700],
                          Qt.Orientation.Vertical)
         for d in (self.transform_dock, self.recipe_dock, self.events_dock):
@@ -246,7 +249,7 @@ class MainWindow(QMainWindow):
         for a in (self.act_all, self.act_zoom_in, self.act_zoom_out):
             m.addAction(a)
         m.addSeparator()
-        for d in (self.transform_dock, self.recipe_dock, self.events_dock):
+        for d in (self.transform_dock, self.recipe_dock, self.events_dock, self.impacts_dock):
             if d is not None:
                 m.addAction(d.toggleViewAction())
         m = mb.addMenu("&Listen")
@@ -399,6 +402,8 @@ class MainWindow(QMainWindow):
         ev = getattr(self, "_events_pane", None)
         if ev is not None and hasattr(ev, "set_channel"):
             ev.set_channel(index)
+        self.impacts_dock.impulse_map.set_channel(index)
+        self.impacts_dock.envelope.set_channel(index)
 
     def _scope_changed(self, on: bool) -> None:
         self.adapter.this_channel_only = on
@@ -665,6 +670,9 @@ class MainWindow(QMainWindow):
         for pane in (self.scale_map, self.bands, self.reconstruction, self.overview):
             pane.redraw()
         self.reconstruction.update_metrics()
+        if self.impacts_dock.isVisible():
+            self.impacts_dock.impulse_map.redraw()
+            self.impacts_dock.envelope.redraw()
         QApplication.processEvents()
 
         def write(tmp: str) -> None:

@@ -25,6 +25,7 @@ from PySide6.QtCore import QObject, QThread, QTimer, Signal, Slot
 
 from scalesieve import api
 from scalesieve.core.recording import Recording
+from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
 from scalesieve.core import band_figures as bf
@@ -70,7 +71,7 @@ class Result:
     label: str = ""
 
 
-def _fits(edits, level: int, rec) -> bool:
+def _fits(edits, level, rec) -> bool:
     try:
         check_against(edits, level, rec.duration_s, rec.channels)
     except ScalesieveError:
@@ -78,7 +79,7 @@ def _fits(edits, level: int, rec) -> bool:
     return True
 
 
-def _transform_with_edits(model: DecompositionModel, spec: TransformSpec, level: int,
+def _transform_with_edits(model: DecompositionModel, spec: TransformSpec, level,
                           edits: tuple) -> None:
     """A new transform and a new edit list, in an order the model accepts.
 
@@ -88,7 +89,7 @@ def _transform_with_edits(model: DecompositionModel, spec: TransformSpec, level:
     """
     rec = model.recording
     check_against(edits, level, rec.duration_s, rec.channels, rec.source or None)
-    if _fits(edits, model.level, rec):
+    if _fits(edits, model.spec, rec):
         model.set_edits(edits)
         model.set_transform(spec)
     elif _fits(model.edits, level, rec):
@@ -132,12 +133,12 @@ class _Worker(QObject):
                 check()
                 self.progress.emit(job.token, 0.05, "decomposing")
                 try:
-                    early = (job.spec or TransformSpec()).resolved(rec.n).level
+                    early = (job.spec or TransformSpec()).resolved(rec.n)
                 except ValueError:
                     early = None            # build_model says why, in one line
-                if early is not None:
+                if early is not None and early.basis != "best":
                     # The panes lay out their rows while the recording is decomposed.
-                    self.built.emit(job.token, list(range(1, early + 1)) + ["a"])
+                    self.built.emit(job.token, tf.table_keys(early))
                 model = api.build_model(rec, transform=job.spec, edits=job.edits,
                                         progress=self.model_progress)
             else:
@@ -145,7 +146,7 @@ class _Worker(QObject):
                 # set_transform would leave the model rebuilt without its edits.
                 rec = model.recording
                 try:
-                    level = job.spec.resolved(rec.n).level
+                    level = job.spec.resolved(rec.n)     # edits are checked against it
                 except ValueError as exc:
                     raise ScalesieveError(str(exc), rec.source or None) from None
                 if job.then_edits is None:

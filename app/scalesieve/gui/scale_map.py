@@ -480,7 +480,7 @@ class ScaleMapPane(PaneFrame):
         for i, e in enumerate(m.edits):
             if e.op != "region" or (e.channels is not None and self.channel not in e.channels):
                 continue
-            for row0, count in contiguous_runs(self._key_rows(e, m.level)):
+            for row0, count in contiguous_runs(self._key_rows(e, m.spec)):
                 roi = RegionOutline(i, e.start_s, e.stop_s, row0, count, e.enabled)
                 if i == self.selected:
                     roi.set_selected(True)
@@ -526,7 +526,7 @@ class ScaleMapPane(PaneFrame):
         if stop <= start:
             QTimer.singleShot(0, self._draw_outlines)
             return
-        runs = contiguous_runs(self._key_rows(e, m.level))
+        runs = contiguous_runs(self._key_rows(e, m.spec))
         levels = e.levels
         if len(runs) == 1:
             r0 = int(np.clip(round(pos.y()), 0, len(self.keys) - 1))

@@ -13,7 +13,12 @@ from PySide6.QtWidgets import (QComboBox, QFormLayout, QHBoxLayout, QLabel, QSli
 
 from scalesieve.core import transforms as tf
 
-KIND_LABELS = (("dwt", "DWT (decimated)"), ("swt", "SWT (undecimated)"))
+KIND_LABELS = (("dwt", "DWT (decimated)"), ("swt", "SWT (undecimated)"),
+               ("packet", "Packet (equal-width bands)"))
+#: packet tilings: (basis, cost) and their labels
+BASIS_LABELS = ((("full", "shannon"), "every band at the level"),
+                (("best", "shannon"), "least cost (Shannon)"),
+                (("best", "log-energy"), "least cost (log energy)"))
 
 
 def discrete_families() -> list[tuple[str, str, list[str]]]:
@@ -80,6 +85,13 @@ class TransformControls(QWidget):
         form.addRow("", self.description)
         form.addRow("Level", level_row)
         form.addRow("Boundary", self.mode)
+        self.basis = QComboBox()
+        for data, label in BASIS_LABELS:
+            self.basis.addItem(label, data)
+        self.basis.setToolTip("packet bands: all 2^level of equal width, or the tiling of "
+                              "least cost (Coifman & Wickerhauser best basis)")
+        form.addRow("Tiling", self.basis)
+        self.basis.currentIndexChanged.connect(self._changed)
         for box in (self.kind, self.family, self.order, self.mode):
             # Long family names must not widen the dock.
             box.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
@@ -134,12 +146,20 @@ class TransformControls(QWidget):
                 widget.setValue(int(spec.level))
                 widget.blockSignals(False)
             self.mode.setCurrentIndex(self.mode.findData(spec.mode))
+            if spec.kind == "packet":
+                # a resolved best basis is a list of paths; its cost says which rule chose it
+                chosen = ("full", "shannon") if spec.basis == "full" else ("best", spec.cost)
+                self.basis.setCurrentIndex(max(0, self.basis.findData(chosen)))
+            self.basis.setEnabled(spec.kind == "packet")
         finally:
             self._quiet = False
 
     def spec(self) -> tf.TransformSpec:
-        return tf.TransformSpec(kind=self.kind.currentData(), wavelet=self.order.currentData(),
-                                level=int(self.level_spin.value()), mode=self.mode.currentData())
+        kind = self.kind.currentData()
+        basis, cost = self.basis.currentData() if kind == "packet" else ("full", "shannon")
+        return tf.TransformSpec(kind=kind, wavelet=self.order.currentData(),
+                                level=int(self.level_spin.value()), mode=self.mode.currentData(),
+                                basis=basis, cost=cost)
 
     # ------------------------------------------------------------- changing
 

@@ -1,0 +1,91 @@
+"""Packet bands in the window, the Impulse map and the Envelope spectrum pane.
+
+References: PyWavelets' WaveletPacket reconstruction for the edited signal,
+Python's csv module for the exported spectrum, and the invented fan recording's
+facts in sample_signals/README.md (resonance 5200 Hz, BPFO 119.405 Hz).
+"""
+
+import csv
+import math
+
+import numpy as np
+import pytest
+import pywt
+from PySide6.QtWidgets import QApplication
+
+from sample_files import sample
+from scalesieve.core.transforms import TransformSpec
+
+FAN = "fan_bearing.wav"
+BPFO_HZ = 10 * 29.5 / 2 * (1 - 8.0 / 42.0)     # Randall & Antoni 2011, eq. 2
+
+
+def _open_packet(window, level=3):
+    from scalesieve import api
+
+    rec = api.load(sample(FAN))
+    window.open_recording(rec, TransformSpec("packet", "db4", level, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    return window.adapter.model
+
+
+def test_a_packet_band_gain_in_the_window_matches_pywavelets(window, qtbot):
+    m = _open_packet(window)
+    assert [m.band_name(k) for k in window.bands.rows] == [f"w3.{k}" for k in range(8)]
+    row = window.bands.rows[m.band_keys[5]]
+    row.gain.setValue(-6.0)
+    assert window.adapter.wait_idle(60) is None
+    assert [e.to_json() for e in m.edits] == [{"op": "gain", "bands": ["w3.5"],
+                                              "gain": pytest.approx(10 ** (-6 / 20))}]
+    x = m.original(0)
+    tree = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=3)
+    nodes = tree.get_level(3, "freq")
+    nodes[5].data = nodes[5].data * 10 ** (-6 / 20)
+    ref = tree.reconstruct(update=False)[:x.shape[0]]
+    np.testing.assert_allclose(m.cleaned(0), ref, atol=1e-10)
+    window.adapter.undo()
+    assert window.adapter.wait_idle(60) is None
+    np.testing.assert_allclose(m.cleaned(0), x, atol=1e-12)
+
+
+def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window, tmp_path):
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()
+    QApplication.processEvents()
+    imap, env = dock.impulse_map, dock.envelope
+    best = imap.table["best"]
+    assert best["low_hz"] <= 5200.0 <= best["high_hz"]      # README: resonance 5200 Hz
+    assert env.report["band"]["name"] == best["name"]
+    assert abs(env.report["peaks"][0]["hz"] - BPFO_HZ) < 0.5
+    # choosing another cell demodulates that band
+    imap.choose("w4.6")
+    assert env.report["band"]["name"] == "w4.6" and env.report["band"]["low_hz"] == 4800.0
+    assert "level 4" in window.statusBar().currentMessage()     # the window shows level 3
+    imap.choose("w3.3")
+    assert "Bands pane" in window.statusBar().currentMessage()
+    env.set_bearing("10,8.0,42.0,0", 29.5)
+    bpfo = [ln for ln in env.report["lines"] if ln["name"] == "bpfo" and ln["harmonic"] == 1
+            and not ln["sideband"]][0]
+    assert abs(bpfo["found_hz"] - BPFO_HZ) < 0.5
+    assert "BPFO" in env.readout.text() and len(env.markers) == len(env.report["lines"])
+    out = tmp_path / "spec.csv"
+    env.export_csv(str(out))
+    with open(out, newline="") as fh:
+        rows = list(csv.reader(fh))
+    assert rows[0] == ["hz", "amplitude"] and len(rows) - 1 == env.report["freqs"].shape[0]
+    pic = tmp_path / "spec.png"
+    env.export_picture(str(pic))
+    assert pic.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    for pane in (imap, env):
+        texts = " ".join(w.text() for w in pane.findChildren(type(env.readout)))
+        assert "qualified people" in texts
+
+
+def test_cell_under_a_point():
+    from scalesieve.gui.impulse_map import cell_at
+
+    # depth 3 of a 16 kHz recording: bands 1 kHz wide, row 2 (from the top) is depth 3
+    assert cell_at(5500.0, 2.5, 4, 16000.0) == (3, 5)
+    assert cell_at(9000.0, 0.1, 4, 16000.0) is None
+    assert math.isclose(16000.0 / 2 ** 4, 1000.0)

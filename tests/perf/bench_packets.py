@@ -1,0 +1,185 @@
+"""Benchmark: packet bands, the kurtosis table and the envelope spectrum.
+
+Prints one JSON line of figures measured side by side in one run (medians of
+``--repeat``, alternating):
+
+* ``bands_packet_s`` vs ``bare_packet_s``: ``scalesieve bands FILE --transform
+  packet --level 6 --json`` against a bare script that reads the same file
+  with soundfile and walks ``pywt.WaveletPacket(...).get_level(6, "freq")``,
+  each as a fresh process (imports included) on ``--bands-samples`` (4 M);
+  the target is a ratio within 1.5;
+* ``kurtosis_s``, ``envelope_s`` (band ``best``: the kurtosis search is part of
+  it) and ``envelope_named_s`` (a named band) against ``forward_dwt_s``, one
+  forward DWT of the recording at its default depth, on ``--samples`` (10 M);
+  targets: within 3;
+* with ``--window``: a packet band's gain change in the window at
+  ``--samples``, from the click to the repainted 1600x1000 window (target
+  150 ms), beside one pass over the signal's memory.
+
+    python tests/perf/bench_packets.py [--samples 10000000] [--bands-samples 4000000]
+                                       [--repeat 3] [--window]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+import numpy as np
+import soundfile as sf
+
+BARE = """
+import sys, soundfile as sf, pywt
+x, rate = sf.read(sys.argv[1])
+wp = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=6)
+nodes = wp.get_level(6, order="freq")
+print(len(nodes), sum(float((n.data ** 2).sum()) for n in nodes))
+"""
+
+
+def recording(n: int, rate: float) -> np.ndarray:
+    """Invented: hiss, a shaft tone, impacts at 97 Hz ringing at 4.1 kHz."""
+    rng = np.random.default_rng(7)
+    x = rng.normal(0.0, 0.01, n)
+    t = np.arange(n) / rate
+    x += 0.1 * np.sin(2 * np.pi * 25.0 * t)
+    ring = np.arange(int(0.004 * rate)) / rate
+    shape = 0.05 * np.exp(-ring / 0.0008) * np.sin(2 * np.pi * 4100.0 * ring)
+    for tk in np.arange(0.003, n / rate - 0.01, 1 / 97.0):
+        i = int(tk * rate)
+        x[i:i + shape.size] += shape[:max(0, min(shape.size, n - i))]
+    return x
+
+
+def timed(fn, repeat: int) -> float:
+    out = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        out.append(time.perf_counter() - t)
+    return statistics.median(out)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--samples", type=int, default=10_000_000)
+    ap.add_argument("--bands-samples", type=int, default=4_000_000)
+    ap.add_argument("--rate", type=float, default=25600.0)
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--window", action="store_true")
+    ap.add_argument("--window-level", type=int, default=6)
+    args = ap.parse_args()
+    from scalesieve.core import envelope as en
+    from scalesieve.core import impulsive_bands as ib
+    from scalesieve.core import transforms as tf
+
+    res: dict = {"benchmark": "packets", "load_average": os.getloadavg()[0]}
+    with tempfile.TemporaryDirectory() as tmp:
+        path = os.path.join(tmp, "long.wav")
+        sf.write(path, recording(args.bands_samples, args.rate).astype(np.float32),
+                 int(args.rate), subtype="FLOAT")
+        cmd = [sys.executable, "-m", "scalesieve", "bands", path, "--transform", "packet",
+               "--level", "6", "--json"]
+        bare = [sys.executable, "-c", BARE, path]
+        ours, theirs = [], []
+        for _ in range(args.repeat):
+            for argv, acc in ((cmd, ours), (bare, theirs)):
+                t = time.perf_counter()
+                subprocess.run(argv, check=True, stdout=subprocess.DEVNULL)
+                acc.append(time.perf_counter() - t)
+        res["bands_samples"] = args.bands_samples
+        res["bands_packet_s"] = round(statistics.median(ours), 3)
+        res["bare_packet_s"] = round(statistics.median(theirs), 3)
+        res["ratio_bands_to_bare"] = round(res["bands_packet_s"] / res["bare_packet_s"], 2)
+
+    x = recording(args.samples, args.rate)
+    spec = tf.TransformSpec().resolved(x.shape[0])
+    fwd, kur, env, named = [], [], [], []
+    for _ in range(args.repeat):
+        fwd.append(timed(lambda: tf.forward(x, spec), 1))
+        kur.append(timed(lambda: ib.table(x, args.rate, "db4", "symmetric", 6), 1))
+        env.append(timed(lambda: en.report(x, args.rate, "best"), 1))
+        named.append(timed(lambda: en.report(x, args.rate, "w3.2"), 1))
+    f = statistics.median(fwd)
+    res.update({"samples": args.samples, "forward_dwt_s": round(f, 3),
+                "kurtosis_s": round(statistics.median(kur), 3),
+                "envelope_s": round(statistics.median(env), 3),
+                "envelope_named_s": round(statistics.median(named), 3)})
+    res["ratio_kurtosis_to_dwt"] = round(res["kurtosis_s"] / f, 2)
+    res["ratio_envelope_to_dwt"] = round(res["envelope_s"] / f, 2)
+    res["ratio_envelope_named_to_dwt"] = round(res["envelope_named_s"] / f, 2)
+    if args.window:
+        res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
+    print(json.dumps(res))
+
+
+def window_gain(x: np.ndarray, rate: float, level: int, repeat: int) -> dict:
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from PySide6.QtWidgets import QApplication
+
+    from scalesieve.core.recording import Recording
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.app import SNAPSHOT_SIZE, make_application
+    from scalesieve.gui.main_window import MainWindow
+
+    with tempfile.TemporaryDirectory() as tmp:
+        app = make_application()
+        app.setProperty("scalesieve_quiet_errors", True)
+        window = MainWindow(ws.open_settings(os.path.join(tmp, "settings.ini")))
+        window.resize(*SNAPSHOT_SIZE)
+        window.show()
+        rec = Recording(samples=x[:, None], rate=rate, channel_names=["ch0"], source="")
+        t = time.perf_counter()
+        window.open_recording(rec, TransformSpec("packet", "db4", level, "symmetric"))
+        problem = window.adapter.wait_idle(1200)
+        if problem:
+            sys.exit(f"bench_packets: {problem}")
+        pending = getattr(window.adapter, "bands_pending", lambda: False)
+        while pending():
+            QApplication.processEvents()
+            time.sleep(0.002)
+        load_s = time.perf_counter() - t
+        m = window.adapter.model
+        row = window.bands.rows[m.band_keys[len(m.band_keys) // 3]]
+        refining = getattr(window.adapter, "refining", lambda: False)
+
+        def click() -> None:
+            row.keep.click()
+            QApplication.processEvents()
+            window.grab()
+
+        click()            # first mute: the model makes the band's component
+        while refining():
+            QApplication.processEvents()
+            time.sleep(0.001)
+        click()
+        times = []
+        for _ in range(repeat):
+            t = time.perf_counter()
+            click()
+            times.append(time.perf_counter() - t)
+            while refining():
+                QApplication.processEvents()
+                time.sleep(0.001)
+        buf = np.empty_like(x)
+        passes = []
+        for _ in range(5):
+            t = time.perf_counter()
+            np.copyto(buf, x)
+            passes.append(time.perf_counter() - t)
+        window.close()
+        app.processEvents()
+        return {"window_level": level, "window_load_s": round(load_s, 2),
+                "window_band_gain_ms": round(1000 * statistics.median(times), 1),
+                "one_pass_ms": round(1000 * statistics.median(passes), 1)}
+
+
+if __name__ == "__main__":
+    main()
