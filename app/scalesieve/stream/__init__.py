@@ -1,0 +1,8 @@
+"""Recordings longer than memory: the DWT, a recipe and the output, block by block.
+
+``dwt`` pushes blocks of samples through the forward cascade of
+``core.transforms`` and synthesises blocks of output from the coefficients
+as they arrive; ``statistics`` gathers, in first passes, the few whole-band
+figures a threshold needs (medians for the noise, band sums for BayesShrink,
+a band's values for SURE); ``pipeline`` runs one file from guard to output.
+"""

@@ -1,0 +1,174 @@
+"""The DWT of a recording handed in block by block, and its inverse handed out likewise.
+
+Both reuse the machinery of ``core.transforms``: the forward cascade
+(``_Cascade``) reads its input from a sliding stretch of samples instead of
+a whole array and hands each block of coefficients on instead of storing
+it; the inverse synthesises each block of output with ``_synthesise`` from
+windows of coefficients kept only until no later block reads them.  Only
+the boundary modes that extend the signal from samples near its edge can
+stream (``periodic`` and ``periodization`` read the far end).
+
+The coefficients are those of ``pywt.wavedec`` of the whole recording, bit
+for bit; the output is ``pywt.waverec`` of them.
+"""
+
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+import pywt
+
+from scalesieve.core import transforms as tf
+
+#: boundary modes whose transform can run block by block
+STREAM_MODES = tf._LOCAL_MODES
+
+#: a level of the cascade works once this many of its coefficients are ready (or at
+#: the end): small, so coarse levels lag the input little and the windows kept stay short
+MIN_STEP = 512
+
+
+def can_stream(spec: tf.TransformSpec) -> bool:
+    return spec.kind == "dwt" and spec.mode in STREAM_MODES
+
+
+class _Samples:
+    """Stands in for the cascade's whole input: the samples not yet consumed."""
+
+    def __init__(self, dtype):
+        self.dtype = np.dtype(dtype)
+        self.carry = tf._Carry(0, self.dtype)
+
+    def __getitem__(self, sl: slice) -> np.ndarray:
+        return self.carry.view(sl.start, sl.stop)
+
+
+class _Sink:
+    """Stands in for one output band of the cascade: hands each block on."""
+
+    def __init__(self, put: Callable, key):
+        self.put, self.key = put, key
+
+    def __setitem__(self, sl: slice, values: np.ndarray) -> None:
+        self.put(self.key, sl.start, values)
+
+
+class ForwardStream:
+    """``pywt.wavedec`` of ``n`` samples given in blocks, handed out per band as made.
+
+    Parameters
+    ----------
+    n : int
+        Samples the recording holds (all of them must be fed).
+    spec : TransformSpec
+        Resolved; ``can_stream(spec)`` must hold.
+    put : callable(key, k0, values)
+        Told each block of coefficients of band ``key`` (``"a"`` or a level),
+        starting at index ``k0``; blocks of one band come in order.  ``values``
+        may be a view the cascade reuses: copy what must outlive the call.
+    depth : int, optional
+        Run only levels 1 .. depth (a first pass that needs fine levels only);
+        then no approximation is handed out.
+    """
+
+    def __init__(self, n: int, spec: tf.TransformSpec, put: Callable,
+                 depth: int | None = None, dtype=np.float64):
+        if not can_stream(spec):
+            raise ValueError(f"the {spec.kind} in mode {spec.mode} cannot run block by block")
+        w = pywt.Wavelet(spec.wavelet)
+        depth = spec.level if depth is None else depth
+        sizes = [n]
+        for _ in range(depth):
+            sizes.append(pywt.dwt_coeff_len(sizes[-1], w.dec_len, spec.mode))
+        self.n, self.L = n, w.dec_len
+        self.x = _Samples(dtype)
+        approx = _Sink(put, "a") if depth == spec.level else _Sink(lambda *a: None, "a")
+        details = [None] + [_Sink(put, j) for j in range(1, depth + 1)]
+        self.cascade = tf._Cascade(self.x, w, spec.mode, sizes, details, approx,
+                                   [0] * (depth + 1), list(sizes))
+        self.cascade.min_step = max(2 * self.L, MIN_STEP)
+
+    @property
+    def fed(self) -> int:
+        return self.cascade.done
+
+    def feed(self, block: np.ndarray) -> None:
+        """Push the next samples; the last block completes every level."""
+        c = self.cascade
+        if c.done + block.shape[0] > self.n:
+            raise ValueError(f"fed more than the {self.n} samples announced")
+        self.x.carry.append(block)
+        c.done += block.shape[0]
+        c._push(1)
+        # what level 1 reads next (as _Cascade._push works it out): nothing before
+        keep = min(2 * c.next[1] - self.L + 2, self.n - 2 * self.L)
+        self.x.carry.drop_below(max(0, keep - keep % 2))
+
+
+class _Window:
+    """Absolute indexing into a sliding stretch of one band (what ``_synthesise`` reads)."""
+
+    def __init__(self, dtype):
+        self.carry = tf._Carry(0, dtype)
+
+    def __getitem__(self, sl: slice) -> np.ndarray:
+        return self.carry.view(sl.start, sl.stop)
+
+
+class InverseStream:
+    """``pywt.waverec`` of coefficients handed in per band, handed out in blocks of samples.
+
+    Parameters
+    ----------
+    n : int
+        Samples to make.
+    spec : TransformSpec
+        Resolved, streamable.
+    out : callable(start, samples)
+        Told each block of output, in order.
+    """
+
+    def __init__(self, n: int, spec: tf.TransformSpec, out: Callable, dtype=np.float64,
+                 block: int = tf.BLOCK):
+        self.n, self.spec, self.out, self.block = n, spec, out, block
+        self.level = spec.level
+        self.lengths = tf.band_lengths(n, spec)
+        self.w = pywt.Wavelet(spec.wavelet)
+        self.L = self.w.rec_len
+        self.bands = [_Window(dtype) for _ in range(self.level + 1)]
+        self.made = 0
+
+    def put(self, key, k0: int, values: np.ndarray) -> None:
+        b = self.bands[tf.band_index(key, self.level)].carry
+        if k0 != b.hi:
+            raise ValueError(f"band {key}: block at {k0}, expected {b.hi}")
+        b.append(values)
+
+    def _needs(self, s0: int, s1: int) -> list[tuple[int, int]]:
+        """Coefficients (k0, k1) of each band (PyWavelets order) outputs s0 .. s1 read."""
+        L, lengths = self.L, self.lengths
+        need = [(0, 0)] * (self.level + 1)
+        lo, hi = s0, s1
+        for i in range(self.level, 0, -1):
+            k0, k1 = lo // 2, min(lengths[i], -(-(hi + L - 2) // 2))
+            need[i] = (k0, k1)
+            lo, hi = k0, k1
+        need[0] = need[1]
+        return need
+
+    def pump(self) -> None:
+        """Make every block of output the coefficients handed in so far allow."""
+        while self.made < self.n:
+            s0, s1 = self.made, min(self.made + self.block, self.n)
+            need = self._needs(s0, s1)
+            if any(self.bands[i].carry.hi < need[i][1] for i in range(self.level + 1)):
+                return
+            seg = tf._synthesise(self.bands[0], dict(enumerate(self.bands)), 1, self.level,
+                                 self.lengths, s0, s1, self.w, self.spec.mode)
+            self.out(s0, seg)
+            self.made = s1
+            if s1 < self.n:
+                nxt = self._needs(s1, s1 + 1)
+                for i, b in enumerate(self.bands):
+                    b.carry.drop_below(nxt[i][0])
