@@ -75,7 +75,8 @@ def run(args) -> int:
     if recipe is None and not quick:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
     spec = transform_from(args, recipe.transform if recipe else None)
-    facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
+    facts = memory_guard.check(args.file, channel=args.channel, transform=spec,
+                               outputs=[args.output] + ([args.removed] if args.removed else []))
     # The same function cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
@@ -86,6 +87,11 @@ def run(args) -> int:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
                   file=sys.stderr)
+    if res.get("blocks"):
+        b = res["blocks"]
+        print(f"scalesieve: note: {args.file}: cleaned in blocks of {b['frames_per_block']} "
+              f"frames, {b['passes']} pass{'es' if b['passes'] > 1 else ''} over the file, "
+              f"about {b['bytes'] / 2**20:.0f} MiB of memory", file=sys.stderr)
     print(f"wrote {args.output}: {res['samples']} samples x {res['channels']} channels at "
           f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")
     return 0
