@@ -117,7 +117,8 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
 
 
 def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float64,
-          transform=None, available: int | None = None, outputs=None) -> dict:
+          transform=None, available: int | None = None, outputs=None,
+          fill_gaps: str | None = None) -> dict:
     """Probe ``path`` and refuse it when its model would need more memory than is free.
 
     Parameters
@@ -129,9 +130,11 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         Bytes free; default ``psutil.virtual_memory().available``.
 
     outputs : list of str, optional
-        The files a clean will write: a recording too long for memory is
-        then not refused when it can be cleaned block by block, and the
-        facts say ``"in_blocks": {"bytes": ...}`` (about what that takes).
+        Given (empty for ``bands`` and ``events``, the files a clean will
+        write) when the command can work block by block: a recording past
+        ``STREAM_ABOVE`` or too long for memory is then not refused when the
+        blocks can do it, and the facts say ``"in_blocks": {"bytes": ...}``
+        (about what that takes).
 
     Returns
     -------
@@ -170,7 +173,8 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
     need = estimate(facts, channel=channel, dtype=dtype, transform=transform)
     facts = dict(facts, needed_bytes=need, available_bytes=int(available))
     blocks, why = (False, None) if outputs is None else in_blocks(
-        facts, channel=channel, transform=transform, outputs=outputs, available=available)
+        facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
+        available=available)
     if blocks:
         from scalesieve.stream.pipeline import stream_bytes
 
@@ -180,7 +184,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         if cost <= available:
             return facts
         raise ScalesieveError(
-            f"needs about {_gib(cost)} of memory even cleaned in blocks, but only "
+            f"needs about {_gib(cost)} of memory even in blocks, but only "
             f"{_gib(available)} is available; close other programs or clean one channel "
             "at a time (--channel K)", source=source)
     if need <= available:
@@ -204,7 +208,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
                        transform=replace(transform, kind="dwt"))
         ways.append(f"the DWT (--transform dwt) needs about {_gib(dwt)}")
     if why is not None:
-        ways.append(f"it cannot be cleaned in blocks ({why})")
+        ways.append(f"it cannot be worked on in blocks ({why})")
     ways.append("or cut the recording into shorter files")
     raise ScalesieveError(
         f"needs about {_gib(need)} of memory ({what}), but only {_gib(available)} is "

@@ -134,7 +134,7 @@ def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monke
     assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1", "--mode",
                  "periodization"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "cannot be cleaned in blocks" in err[0]
+    assert len(err) == 1 and "cannot be worked on in blocks" in err[0]
     assert "periodization" in err[0]
     assert not (tmp_path / "q.wav").exists()
 

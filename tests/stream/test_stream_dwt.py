@@ -116,3 +116,24 @@ def test_median_in_two_passes_is_numpys(values):
             break
     a = np.abs(values[values != 0])
     assert m.value == (float(np.median(a)) if a.size else 0.0)
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "zero", "smooth"])
+def test_one_band_alone_is_waverec_with_the_others_zero(mode):
+    # reference: pywt.waverec of a coefficient list that is zero but for one band
+    n, level = 30_001, 6
+    x = np.random.default_rng(9).standard_normal(n)
+    spec = TransformSpec("dwt", "db3", level, mode)
+    ref = pywt.wavedec(x, "db3", mode=mode, level=level)
+    for key in tf.band_keys(level):
+        i = tf.band_index(key, level)
+        alone = [c if j == i else np.zeros_like(c) for j, c in enumerate(ref)]
+        want = pywt.waverec(alone, "db3", mode=mode)[:n]
+        outs = []
+        inv = InverseStream(n, spec, lambda s0, seg: outs.append(seg.copy()), block=4096,
+                            only=key)
+        for s in range(0, ref[i].shape[0], 1000):
+            inv.put(key, s, ref[i][s:s + 1000])
+            inv.pump()
+        y = np.concatenate(outs)
+        np.testing.assert_allclose(y, want, rtol=0, atol=1e-12 * max(1, np.max(np.abs(want))))

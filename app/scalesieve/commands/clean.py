@@ -76,7 +76,8 @@ def run(args) -> int:
         raise ScalesieveError("nothing to do: give --recipe, --zero or --threshold")
     spec = transform_from(args, recipe.transform if recipe else None)
     facts = memory_guard.check(args.file, channel=args.channel, transform=spec,
-                               outputs=[args.output] + ([args.removed] if args.removed else []))
+                               outputs=[args.output] + ([args.removed] if args.removed else []),
+                               fill_gaps=args.fill_gaps)
     # The same function cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,

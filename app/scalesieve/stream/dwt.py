@@ -127,20 +127,29 @@ class InverseStream:
         Resolved, streamable.
     out : callable(start, samples)
         Told each block of output, in order.
+    only : band key, optional
+        Synthesise this band alone (its time-domain component); the others
+        are zeros and need not be handed in.
     """
 
     def __init__(self, n: int, spec: tf.TransformSpec, out: Callable, dtype=np.float64,
-                 block: int = tf.BLOCK):
+                 block: int = tf.BLOCK, only=None):
         self.n, self.spec, self.out, self.block = n, spec, out, block
         self.level = spec.level
         self.lengths = tf.band_lengths(n, spec)
         self.w = pywt.Wavelet(spec.wavelet)
         self.L = self.w.rec_len
         self.bands = [_Window(dtype) for _ in range(self.level + 1)]
+        self.used = list(range(self.level + 1)) if only is None else \
+            [tf.band_index(only, self.level)]
+        self.windows = [b if i in self.used else None for i, b in enumerate(self.bands)]
         self.made = 0
 
     def put(self, key, k0: int, values: np.ndarray) -> None:
-        b = self.bands[tf.band_index(key, self.level)].carry
+        i = tf.band_index(key, self.level)
+        if i not in self.used:
+            return
+        b = self.bands[i].carry
         if k0 != b.hi:
             raise ValueError(f"band {key}: block at {k0}, expected {b.hi}")
         b.append(values)
@@ -162,13 +171,13 @@ class InverseStream:
         while self.made < self.n:
             s0, s1 = self.made, min(self.made + self.block, self.n)
             need = self._needs(s0, s1)
-            if any(self.bands[i].carry.hi < need[i][1] for i in range(self.level + 1)):
+            if any(self.bands[i].carry.hi < need[i][1] for i in self.used):
                 return
-            seg = tf._synthesise(self.bands[0], dict(enumerate(self.bands)), 1, self.level,
+            seg = tf._synthesise(self.windows[0], dict(enumerate(self.windows)), 1, self.level,
                                  self.lengths, s0, s1, self.w, self.spec.mode)
-            self.out(s0, seg)
+            self.out(s0, np.zeros(s1 - s0) if seg is None else seg)
             self.made = s1
             if s1 < self.n:
                 nxt = self._needs(s1, s1 + 1)
-                for i, b in enumerate(self.bands):
-                    b.carry.drop_below(nxt[i][0])
+                for i in self.used:
+                    self.bands[i].carry.drop_below(nxt[i][0])

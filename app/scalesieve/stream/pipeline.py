@@ -470,3 +470,92 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
         "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
                    "bytes": stream_bytes(src.channels, spec)},
     }
+
+
+# --------------------------------------------------------------------------
+# band figures
+
+
+#: [robustness] a band below this share of its channel's energy holds round-off only
+#: (the same rule as the whole-array table: its kurtosis means nothing)
+ROUNDOFF_SHARE = 1e-20
+
+
+def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None,
+                        rate: float | None = None, progress=None) -> tuple[dict, list]:
+    """The figures of ``bands --json`` for every band of every channel, in one pass.
+
+    Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples`` and
+    the resolved ``spec``; ``channels`` a list of band rows per channel
+    (shared/CONTRACT.md: ``energy`` of the band's time-domain component,
+    ``energy_fraction`` over the channel's energy, ``coef_energy``, ``rms``
+    and ``peak`` of the component, ``kurtosis`` of the coefficients).  Each
+    component is synthesised block by block on its own and summed as it
+    comes, so nothing is held at full length.
+    """
+    from scalesieve.io.csv_reader import check_channel, check_rate
+
+    probe_src = _Source(input_path, None)
+    pick = check_channel(channel, probe_src.file_channels, input_path)
+    src = _Source(input_path, pick)
+    given = check_rate(rate, input_path)
+    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
+        raise ScalesieveError(f"the file's header says {src.rate:g} Hz; --rate {given:g} "
+                              "does not match (leave out --rate)", input_path)
+    n = src.frames
+    try:
+        spec = spec.resolved(n)
+    except ValueError as exc:
+        raise ScalesieveError(str(exc), input_path) from None
+    if not can_stream(spec):
+        raise ScalesieveError(not_streamable({"kind": "audio", "frames_exact": True}, spec,
+                                             ()), input_path)
+    keys = tf.band_keys(spec.level)
+    energy = [0.0] * src.channels
+    moments = [{key: st.Moments() for key in keys} for _ in range(src.channels)]
+    comp = [{key: [0.0, 0.0] for key in keys} for _ in range(src.channels)]   # sum sq, peak
+    forwards, inverses = [], []
+    for k in range(src.channels):
+        def add(s0, seg, acc):
+            acc[0] += float(np.dot(seg, seg))
+            if seg.size:
+                acc[1] = max(acc[1], float(np.max(np.abs(seg))))
+        invs = {key: InverseStream(n, spec, lambda s0, seg, acc=comp[k][key]: add(s0, seg, acc),
+                                   only=key) for key in keys}
+
+        def put(key, k0, c, k=k, invs=invs):
+            moments[k][key].add(c)
+            invs[key].put(key, k0, c)
+        inverses.append(invs)
+        forwards.append(ForwardStream(n, spec, put))
+    for block in src.blocks():
+        for k in range(src.channels):
+            col = block[:, k]
+            energy[k] += float(np.dot(col, col))
+            forwards[k].feed(col)
+            for inv in inverses[k].values():
+                inv.pump()
+        if progress:
+            progress(forwards[0].fed / n, "band figures")
+    lengths = tf.band_lengths(n, spec)
+    channels = []
+    for k in range(src.channels):
+        rows = []
+        for key in keys:
+            lo, hi = tf.band_range_hz(key, spec.level, src.rate)
+            e, pk = comp[k][key]
+            m = moments[k][key]
+            rows.append({
+                "name": tf.band_name(key, spec.level),
+                "kind": "approx" if key == "a" else "detail",
+                "level": spec.level if key == "a" else int(key),
+                "low_hz": lo, "high_hz": hi,
+                "count": int(lengths[tf.band_index(key, spec.level)]),
+                "energy": e,
+                "energy_fraction": e / energy[k] if energy[k] > 0 else 0.0,
+                "coef_energy": m.square_sum,
+                "rms": float(np.sqrt(e / n)), "peak": pk,
+                "kurtosis": m.pearson_kurtosis() if e > ROUNDOFF_SHARE * energy[k] else None,
+            })
+        channels.append(rows)
+    return {"rate": src.rate, "samples": n, "spec": spec}, channels

@@ -113,3 +113,48 @@ class BandValues:
         v = np.concatenate(self.parts) if self.parts else np.zeros(0)
         self.parts = []
         return th.sureshrink_threshold(v, sigma)
+
+
+class Moments:
+    """Count, mean and central moments 2..4 of a band, merged block by block.
+
+    Blocks are combined with the pairwise update of Chan, Golub & LeVeque (1979)
+    extended to the third and fourth moments (Pebay 2008, Sandia report
+    SAND2008-6212, eqs. 1.5-1.6): stable where raw power sums would cancel.
+    """
+
+    def __init__(self):
+        self.n = 0
+        self.mean = self.m2 = self.m3 = self.m4 = 0.0
+        self.square_sum = 0.0
+
+    def add(self, values: np.ndarray) -> None:
+        b = np.asarray(values, dtype=np.float64)
+        nb = b.shape[0]
+        if nb == 0:
+            return
+        self.square_sum += float(np.dot(b, b))
+        mb = float(b.mean())
+        d = b - mb
+        d2 = d * d
+        m2b, m3b, m4b = float(d2.sum()), float(np.dot(d2, d)), float(np.dot(d2, d2))
+        na, n = self.n, self.n + nb
+        delta = mb - self.mean
+        m4 = (self.m4 + m4b + delta ** 4 * na * nb * (na * na - na * nb + nb * nb) / n ** 3
+              + 6 * delta ** 2 * (na * na * m2b + nb * nb * self.m2) / n ** 2
+              + 4 * delta * (na * m3b - nb * self.m3) / n)
+        m3 = (self.m3 + m3b + delta ** 3 * na * nb * (na - nb) / n ** 2
+              + 3 * delta * (na * m2b - nb * self.m2) / n)
+        self.m2 = self.m2 + m2b + delta * delta * na * nb / n
+        self.m3, self.m4 = m3, m4
+        self.mean += delta * nb / n
+        self.n = n
+
+    def pearson_kurtosis(self) -> float | None:
+        """``E[(x - mean)^4] / var^2``, as ``core.metrics.pearson_kurtosis`` defines it."""
+        if self.n < 2:
+            return None
+        m2 = self.m2 / self.n
+        if m2 <= 0.0 or not math.isfinite(m2):
+            return None
+        return float((self.m4 / self.n) / (m2 * m2))
