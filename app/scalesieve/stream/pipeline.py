@@ -28,6 +28,7 @@ from scalesieve.core import edits as ed
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
+from scalesieve.stream.statistics import plain_dot
 from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
 
 #: frames read at a time
@@ -517,7 +518,7 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     forwards, inverses = [], []
     for k in range(src.channels):
         def add(s0, seg, acc):
-            acc[0] += float(np.dot(seg, seg))
+            acc[0] += float(plain_dot(seg, seg))
             if seg.size:
                 acc[1] = max(acc[1], float(np.max(np.abs(seg))))
         invs = {key: InverseStream(n, spec, lambda s0, seg, acc=comp[k][key]: add(s0, seg, acc),
@@ -531,7 +532,7 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     for block in src.blocks():
         for k in range(src.channels):
             col = block[:, k]
-            energy[k] += float(np.dot(col, col))
+            energy[k] += float(plain_dot(col, col))
             forwards[k].feed(col)
             for inv in inverses[k].values():
                 inv.pump()
