@@ -90,12 +90,14 @@ def probe_quietly(path: str | os.PathLike) -> dict | None:
 
 
 def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
-              fill_gaps=None, available: int | None = None) -> tuple[bool, str | None]:
+              fill_gaps=None, available: int | None = None,
+              swt: bool = False) -> tuple[bool, str | None]:
     """Whether a clean of ``facts`` runs block by block, and why not when it cannot.
 
     Returns ``(True, None)`` when the whole-array work would need more than
     ``STREAM_ABOVE`` (or than is ``available``) and the blocks can do it;
     ``(False, reason)`` when they cannot (``reason`` None: no need).
+    ``swt``: the command takes the SWT in blocks too (``events``).
     """
     from scalesieve.core.transforms import TransformSpec
     from scalesieve.stream.pipeline import not_streamable
@@ -112,7 +114,7 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
         from scalesieve.core import transforms as tf
 
         spec = replace(spec, level=tf.default_level(max(int(facts["frames"]), 2), spec.wavelet))
-    why = not_streamable(facts, spec, list(outputs), fill_gaps, channel)
+    why = not_streamable(facts, spec, list(outputs), fill_gaps, channel, swt)
     return why is None, why
 
 

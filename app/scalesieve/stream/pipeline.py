@@ -36,17 +36,23 @@ READ_FRAMES = tf.BLOCK
 
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
-                   fill_gaps: str | None = None, channel=None) -> str | None:
-    """Why a clean cannot run block by block, or None when it can."""
+                   fill_gaps: str | None = None, channel=None, swt: bool = False) -> str | None:
+    """Why a command cannot run block by block, or None when it can.
+
+    ``swt``: the command reads SWT coefficients away from the edges only
+    (``events``), which blocks give in any boundary mode.
+    """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION
 
     if facts is None or facts.get("kind") != "audio":
         return "only audio files (WAV, FLAC, AIFF, ...) are read in blocks"
     if not facts.get("frames_exact"):
         return "its header's frame count cannot be trusted"
-    if spec.kind != "dwt":
+    if spec.kind == "swt" and swt:
+        pass
+    elif spec.kind != "dwt":
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
-    if not can_stream(spec):
+    elif not can_stream(spec):
         return (f"boundary mode {spec.mode} reads the far end of the recording "
                 "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect)")
     for out in outputs:
