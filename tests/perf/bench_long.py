@@ -2,7 +2,7 @@
 
 Writes a float32 mono WAV of ``--samples`` (default 2**28) and one a quarter
 as long, then runs, on each, `scalesieve clean --threshold universal`,
-`scalesieve bands --json` and `scalesieve events --json --transform dwt`
+`scalesieve bands --json` and `scalesieve events --json` (SWT, levels 1,2)
 and the bare whole-array PyWavelets script doing the same clean (read,
 wavedec, VisuShrink, waverec, write).  Each is a whole process, timed by
 wall clock, its peak resident memory read from ``wait4``.  Prints one JSON
@@ -76,7 +76,7 @@ def _commands(src: str, out: str) -> dict:
     return {
         "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
         "bands": me + ["bands", src, "--json"],
-        "events": me + ["events", src, "--json", "--transform", "dwt"],
+        "events": me + ["events", src, "--json"],
     }
 
 
