@@ -75,6 +75,9 @@ def run(args) -> int:
                                fill_gaps=args.fill_gaps)
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if facts and facts.get("in_blocks"):
+            print(f"scalesieve: note: {args.file}: read in blocks, one pass over the file, "
+                  f"about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
+                  file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)
         else:
             rec = load_input(args, args.file)

@@ -181,7 +181,11 @@ def _in_blocks(args):
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
         return None
     from scalesieve.stream.events import events_stream
+    from scalesieve.stream.pipeline import stream_bytes
 
+    chans = 1 if args.channel is not None else int(facts["channels"])
+    print(f"scalesieve: note: {args.file}: read in blocks, four passes over the file, about "
+          f"{stream_bytes(chans, spec) / 2**20:.0f} MiB of memory", file=sys.stderr)
     levels = levels_from(args.levels, spec, int(facts["frames"]))
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
                                        rate=args.rate)

@@ -68,16 +68,18 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
 def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
     """About what a clean in blocks holds, whatever the length (see docs/performance.md).
 
-    Per channel: a block of samples, the level-1 input history, the
-    coefficients waiting for the inverse (the coarse levels lag the input by
-    about MIN_STEP * 2^J samples) and a block of output, in float64.
+    Per channel: blocks of samples and their temporaries, the level-1 input
+    history, the coefficients waiting for the inverse (the coarse levels lag
+    the input by about MIN_STEP * 2^J samples) and blocks of output, in
+    float64; and the interpreter with its libraries (about 85 MiB).  Fitted
+    to the peaks tests/perf/bench_long.py measures (see docs/performance.md).
     """
     from scalesieve.stream.dwt import MIN_STEP
 
     level = spec.level or tf.MAX_DEFAULT_LEVEL
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
-    per_channel = 8 * (6 * READ_FRAMES + 2 * lag)
-    return int(channels * per_channel + (64 << 20))
+    per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
+    return int(channels * per_channel + (96 << 20))
 
 
 # --------------------------------------------------------------------------
