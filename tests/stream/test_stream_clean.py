@@ -193,10 +193,16 @@ def test_a_killed_export_in_blocks_leaves_no_torn_file(tmp_path):
         return y.shape == whole.shape and np.array_equal(y, whole)
 
     torn_temporaries = 0
-    for share in (0.3, 0.5, 0.7, 0.85, 0.95):
+    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
         out.write_bytes(old)
         p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        time.sleep(share * took)
+        # kill while the new file is being written: once its temporary file appears
+        deadline = time.monotonic() + 10 * took + 30
+        while p.poll() is None and time.monotonic() < deadline:
+            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
+                break
+            time.sleep(0.005)
+        time.sleep(extra)
         p.send_signal(signal.SIGKILL)
         p.wait()
         assert intact()

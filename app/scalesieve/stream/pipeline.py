@@ -103,13 +103,17 @@ class _Source:
             raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
         self.channels = 1 if channel is not None else self.file_channels
 
-    def blocks(self, frames: int = READ_FRAMES):
+    def blocks(self, frames: int = READ_FRAMES, start: int = 0, stop: int | None = None):
+        """Frames ``start .. stop`` (default all) in blocks of ``frames``."""
         from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_unusable
 
-        done = 0
+        stop = self.frames if stop is None else stop
+        done = start
         with sf.SoundFile(self.path) as f:
-            while True:
-                block = f.read(frames, dtype="float64", always_2d=True)
+            if start:
+                f.seek(start)
+            while done < stop:
+                block = f.read(min(frames, stop - done), dtype="float64", always_2d=True)
                 if block.shape[0] == 0:
                     break
                 if self.pick is not None:
@@ -127,7 +131,7 @@ class _Source:
                     raise ScalesieveError(f"{where} {what}", self.path)
                 done += block.shape[0]
                 yield block
-        if done != self.frames:
+        if done != stop:
             raise ScalesieveError(f"holds {done} readable frames, but its header says "
                                   f"{self.frames} (truncated?)", self.path)
 
@@ -377,25 +381,15 @@ class _Plan:
 # the file
 
 
-def clean_stream(input_path: str, output: str, *, recipe=None,
-                 transform: tf.TransformSpec | None = None, edits: Sequence = (),
-                 removed: str | None = None, subtype: str | None = None, force: bool = False,
-                 rate: float | None = None, channel: int | None = None,
-                 fill_gaps: str | None = None, progress=None) -> dict:
-    """``scalesieve.batch.clean_file`` block by block: the same arguments and report.
-
-    The report also says ``"blocks": {"passes", "frames_per_block", "bytes"}``:
-    how many times the file was read, in blocks of how many frames, and
-    about how much memory that took.
-    """
+def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force, rate,
+             channel, fill_gaps):
+    """Every check a clean makes before it reads a sample: ``(src, spec, plan)``."""
+    from scalesieve.io.atomic import check_target
     from scalesieve.io.csv_reader import check_channel, check_rate
     from scalesieve.recipe import check_against
 
-    outputs = [output] + ([removed] if removed else [])
     if len(outputs) == 2 and os.path.realpath(outputs[0]) == os.path.realpath(outputs[1]):
-        raise ScalesieveError("-o and --removed name the same file", output)
-    from scalesieve.io.atomic import check_target
-
+        raise ScalesieveError("-o and --removed name the same file", outputs[0])
     for out in outputs:
         check_target(out, force=force, protect=[input_path])
     if fill_gaps is not None:
@@ -414,21 +408,18 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
         spec = spec.resolved(n)
     except ValueError as exc:
         raise ScalesieveError(str(exc), input_path) from None
-    if not can_stream(spec):
-        raise ScalesieveError(not_streamable({"kind": "audio", "frames_exact": True}, spec,
-                                             outputs), input_path)
+    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, outputs)
+    if why is not None:
+        raise ScalesieveError(why, input_path)
     all_edits = tuple(recipe.edits if recipe is not None else ()) + tuple(edits)
     check_against(all_edits, spec.level, n / src.rate, src.channels, source=input_path)
+    return src, spec, _Plan(all_edits, src.channels, spec, n, src.rate)
 
-    plan = _Plan(all_edits, src.channels, spec, n, src.rate)
+
+def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> int:
+    """The first passes: every threshold of the recipe worked out; returns how many passes."""
+    n = src.frames
     passes = 0
-    # a threshold rule needs two passes for a median, one for band sums
-    expected = 1 + (2 if plan.medians else 0)
-
-    def report(p, fed, text):
-        if progress:
-            progress(min(1.0, (p + fed / n) / expected), text)
-
     while not plan.resolve():
         depth = plan.next_pass()
         if depth == 0:  # pragma: no cover - resolve() always leaves something to gather
@@ -441,8 +432,46 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
             report(passes, streams[0].fed, "gathering the noise and band figures")
         plan.end_pass()
         passes += 1
-        expected = max(expected, passes + 1)
+    return passes
 
+
+def _result(src, reports, join, passes, spec) -> dict:
+    return {
+        "samples": src.frames,
+        "channels": src.channels,
+        "rate": src.rate,
+        "outputs": reports,
+        "clipped": int(sum(r["clipped"] for r in reports)),
+        "energy_removed_fraction": join.removed_energy / join.energy if join.energy > 0 else 0.0,
+        "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
+                   "bytes": stream_bytes(src.channels, spec)},
+    }
+
+
+def clean_stream(input_path: str, output: str, *, recipe=None,
+                 transform: tf.TransformSpec | None = None, edits: Sequence = (),
+                 removed: str | None = None, subtype: str | None = None, force: bool = False,
+                 rate: float | None = None, channel: int | None = None,
+                 fill_gaps: str | None = None, progress=None) -> dict:
+    """``scalesieve.batch.clean_file`` block by block: the same arguments and report.
+
+    The report also says ``"blocks": {"passes", "frames_per_block", "bytes"}``:
+    how many times the file was read, in blocks of how many frames, and
+    about how much memory that took.
+    """
+    outputs = [output] + ([removed] if removed else [])
+    src, spec, plan = _prepare(input_path, outputs, recipe=recipe, transform=transform,
+                               edits=edits, force=force, rate=rate, channel=channel,
+                               fill_gaps=fill_gaps)
+    n = src.frames
+    # a threshold rule needs two passes for a median, one for band sums
+    expected = 1 + (2 if plan.medians else 0)
+
+    def report(p, fed, text):
+        if progress:
+            progress(min(1.0, (p + fed / n) / max(expected, p + 1)), text)
+
+    passes = _thresholds(src, spec, plan, report)
     with contextlib.ExitStack() as stack:
         targets = [_AudioTarget(stack, out, src, n, subtype, force, [input_path])
                    for out in outputs]
@@ -469,16 +498,7 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
         reports = [t.finished() for t in targets]
     if progress:
         progress(1.0, "cleaned")
-    return {
-        "samples": n,
-        "channels": src.channels,
-        "rate": src.rate,
-        "outputs": reports,
-        "clipped": int(sum(r["clipped"] for r in reports)),
-        "energy_removed_fraction": join.removed_energy / join.energy if join.energy > 0 else 0.0,
-        "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
-                   "bytes": stream_bytes(src.channels, spec)},
-    }
+    return _result(src, reports, join, passes, spec)
 
 
 # --------------------------------------------------------------------------
