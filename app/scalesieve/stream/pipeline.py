@@ -213,7 +213,7 @@ class _Join:
         self.clean[k].append(seg)
 
     def flush(self) -> None:
-        r = min(c.hi for c in self.clean)
+        r = min(min(c.hi for c in self.clean), min(c.hi for c in self.orig))
         w = self.written
         if r <= w:
             return
@@ -277,6 +277,7 @@ class _Plan:
 
     def __init__(self, edits, channels: int, spec: tf.TransformSpec, n: int, rate: float):
         self.spec, self.n = spec, n
+        self.edits = tuple(edits)
         self.lengths = tf.band_lengths(n, spec)
         self.medians: dict = {}            # (channel, key) -> MedianOfMagnitudes
         self.bands: list[dict] = []
