@@ -75,6 +75,8 @@ def _commands(src: str, out: str) -> dict:
     me = [sys.executable, "-m", "scalesieve"]
     return {
         "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
+        "clean_workers": me + ["clean", src, "-o", out, "--threshold", "universal", "--force",
+                               "--workers", "2"],
         "bands": me + ["bands", src, "--json"],
         "events": me + ["events", src, "--json"],
     }
@@ -85,7 +87,9 @@ def main() -> None:
     ap.add_argument("--samples", type=int, default=1 << 28)
     ap.add_argument("--no-bare", action="store_true", help="leave out the bare script")
     ap.add_argument("--only", default="clean,bands,events",
-                    help="commands to run, comma-separated (default all three)")
+                    help="commands to run, comma-separated: clean, clean_workers (the same "
+                         "clean in two local processes), bands, events (default "
+                         "clean,bands,events)")
     ap.add_argument("--dir", default=None, help="folder for the test files (default a temp one)")
     args = ap.parse_args()
     wanted = args.only.split(",")
@@ -111,6 +115,9 @@ def main() -> None:
     ratios = {}
     if "bare" in long and "clean" in long:
         ratios["clean_over_bare_time"] = round(long["clean"]["seconds"] / long["bare"]["seconds"], 3)
+    if "clean" in long and "clean_workers" in long:
+        ratios["clean_workers_over_clean_time"] = round(
+            long["clean_workers"]["seconds"] / long["clean"]["seconds"], 3)
     for name in wanted:
         if name in long:
             ratios[f"{name}_long_over_short_time"] = round(
