@@ -114,7 +114,8 @@ def main() -> None:
     long, short = figures["long"], figures["short"]
     ratios = {}
     if "bare" in long and "clean" in long:
-        ratios["clean_over_bare_time"] = round(long["clean"]["seconds"] / long["bare"]["seconds"], 3)
+        ratios["clean_over_bare_time"] = round(
+            long["clean"]["seconds"] / long["bare"]["seconds"], 3)
     if "clean" in long and "clean_workers" in long:
         ratios["clean_workers_over_clean_time"] = round(
             long["clean_workers"]["seconds"] / long["clean"]["seconds"], 3)

@@ -94,9 +94,9 @@ class SquareSum:
         self.total += float(plain_dot(v, v))
 
     def bayes_threshold(self, sigma: float) -> float:
-        """BayesShrink ``sigma^2 / sqrt(max(mean(d^2) - sigma^2, eps))`` (Chang, Yu & Vetterli 2000).
+        """BayesShrink ``sigma^2 / sqrt(max(mean(d^2) - sigma^2, eps))``, from the band's sums.
 
-        The same formula as ``thresholds.bayes_threshold``, from the band's sums.
+        Chang, Yu & Vetterli 2000; the formula of ``thresholds.bayes_threshold``.
         """
         var = sigma * sigma
         if self.count == 0 or var == 0.0:
