@@ -109,11 +109,19 @@ class _Source:
 
         stop = self.frames if stop is None else stop
         done = start
-        with sf.SoundFile(self.path) as f:
+        try:
+            f = sf.SoundFile(self.path)
+        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
+            raise ScalesieveError(f"could not read the audio samples ({exc})", self.path) from None
+        with f:
             if start:
                 f.seek(start)
             while done < stop:
-                block = f.read(min(frames, stop - done), dtype="float64", always_2d=True)
+                try:
+                    block = f.read(min(frames, stop - done), dtype="float64", always_2d=True)
+                except Exception as exc:  # noqa: BLE001 - as above
+                    raise ScalesieveError(f"could not read the audio samples after frame "
+                                          f"{done} ({exc})", self.path) from None
                 if block.shape[0] == 0:
                     break
                 if self.pick is not None:
