@@ -23,7 +23,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
 from scalesieve.stream.dwt import ForwardStream, can_stream
-from scalesieve.stream.pipeline import READ_FRAMES, _Source
+from scalesieve.stream.pipeline import READ_FRAMES, _Source, open_source
 
 
 class SwtStream:
@@ -101,15 +101,8 @@ def events_stream(input_path: str, spec: tf.TransformSpec, levels, k: float, *,
     command does).  Returns ``(events, noise, facts)`` with ``facts`` the
     ``rate``, ``samples``, ``channels`` and ``channel_names``.
     """
-    from scalesieve.io.csv_reader import check_channel, check_rate
-
-    probe_src = _Source(input_path, None)
-    pick = check_channel(channel, probe_src.file_channels, input_path)
-    src = _Source(input_path, pick)
-    given = check_rate(rate, input_path)
-    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
-        raise ScalesieveError(f"the file's header says {src.rate:g} Hz; --rate {given:g} "
-                              "does not match (leave out --rate)", input_path)
+    src = open_source(input_path, channel, rate)
+    pick = src.pick
     if spec.kind == "dwt" and not can_stream(spec):
         raise ScalesieveError(f"boundary mode {spec.mode} reads the far end of the recording; "
                               "events in blocks need another mode or the SWT", input_path)

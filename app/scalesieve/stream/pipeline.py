@@ -144,6 +144,20 @@ class _Source:
                                   f"{self.frames} (truncated?)", self.path)
 
 
+def open_source(input_path: str, channel=None, rate: float | None = None) -> _Source:
+    """The recording to read in blocks, its channel and rate checked as the readers check them."""
+    from scalesieve.io.csv_reader import check_channel, check_rate
+
+    whole = _Source(input_path, None)
+    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path))
+    given = check_rate(rate, input_path)
+    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
+        raise ScalesieveError(
+            f"the file's header says {src.rate:g} Hz; --rate {given:g} does not match "
+            "(the rate of an audio file comes from its header; leave out --rate)", input_path)
+    return src
+
+
 # --------------------------------------------------------------------------
 # writing
 
@@ -394,7 +408,6 @@ def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force,
              channel, fill_gaps):
     """Every check a clean makes before it reads a sample: ``(src, spec, plan)``."""
     from scalesieve.io.atomic import check_target
-    from scalesieve.io.csv_reader import check_channel, check_rate
     from scalesieve.recipe import check_against
 
     if len(outputs) == 2 and os.path.realpath(outputs[0]) == os.path.realpath(outputs[1]):
@@ -403,14 +416,7 @@ def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force,
         check_target(out, force=force, protect=[input_path])
     if fill_gaps is not None:
         raise ScalesieveError("--fill-gaps needs the whole recording", input_path)
-    probe_src = _Source(input_path, None)
-    pick = check_channel(channel, probe_src.file_channels, input_path)
-    src = _Source(input_path, pick)
-    given = check_rate(rate, input_path)
-    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
-        raise ScalesieveError(
-            f"the file's header says {src.rate:g} Hz; --rate {given:g} does not match "
-            "(the rate of an audio file comes from its header; leave out --rate)", input_path)
+    src = open_source(input_path, channel, rate)
     n = src.frames
     spec = transform or (recipe.transform if recipe is not None else None) or tf.TransformSpec()
     try:
@@ -531,15 +537,7 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     component is synthesised block by block on its own and summed as it
     comes, so nothing is held at full length.
     """
-    from scalesieve.io.csv_reader import check_channel, check_rate
-
-    probe_src = _Source(input_path, None)
-    pick = check_channel(channel, probe_src.file_channels, input_path)
-    src = _Source(input_path, pick)
-    given = check_rate(rate, input_path)
-    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
-        raise ScalesieveError(f"the file's header says {src.rate:g} Hz; --rate {given:g} "
-                              "does not match (leave out --rate)", input_path)
+    src = open_source(input_path, channel, rate)
     n = src.frames
     try:
         spec = spec.resolved(n)
