@@ -213,3 +213,19 @@ def test_a_killed_export_in_blocks_leaves_no_torn_file(tmp_path):
     assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
     assert intact() and out.read_bytes() != old
     assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+
+
+def test_one_channel_and_a_wrong_rate_in_blocks(tmp_path):
+    src = tmp_path / "in.wav"
+    _recording(src, n=30_001, channels=2)
+    edits = [Edit("gain", levels=(1,), gain=0.0)]
+    a, b = tmp_path / "a.wav", tmp_path / "b.wav"
+    clean_file(str(src), str(a), edits=edits, channel=1, subtype="DOUBLE")
+    res = clean_stream(str(src), str(b), edits=edits, channel=1, subtype="DOUBLE")
+    assert res["channels"] == 1
+    np.testing.assert_allclose(sf.read(b)[0], sf.read(a)[0], rtol=0, atol=1e-12)
+    with pytest.raises(ScalesieveError, match="header says 8000 Hz; --rate 44100 does not"):
+        clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, rate=44100)
+    with pytest.raises(ScalesieveError, match="channel"):
+        clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, channel=5)
+    assert not (tmp_path / "c.wav").exists()
