@@ -103,3 +103,35 @@ def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys):
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--workers and --scheduler clean in blocks" in err[0]
     assert not (tmp_path / "o.wav").exists()
+
+
+def test_pieces_on_a_tls_cluster_with_the_certificates_in_dasks_configuration(tmp_path,
+                                                                              capsys):
+    # TLS as docs/batch.md describes it: a scheduler that takes certificates signed by
+    # one authority, the client's own in Dask's configuration (PEM contents here)
+    import dask
+    from dask.distributed import LocalCluster
+    from distributed.security import Security
+
+    src = tmp_path / "long.wav"
+    _two_channels(src, n=600_000)
+    sec = Security.temporary()
+    args = ["clean", str(src), "-o", str(tmp_path / "t.wav"), "--zero", "1", "--pieces", "2"]
+    with LocalCluster(host="127.0.0.1", protocol="tls://", security=sec, n_workers=1,
+                      processes=False, dashboard_address=":0") as cluster:
+        address = cluster.scheduler_address
+        assert address.startswith("tls://")
+        # without a certificate: one line, no file
+        assert main(args + ["--scheduler", address]) == 2
+        err = capsys.readouterr().err
+        assert "needs this machine's certificate" in err and not (tmp_path / "t.wav").exists()
+        with dask.config.set({"distributed.comm.require-encryption": True,
+                              "distributed.comm.tls.ca-file": sec.tls_ca_file,
+                              "distributed.comm.tls.client.cert": sec.tls_client_cert,
+                              "distributed.comm.tls.client.key": sec.tls_client_key}):
+            assert main(args + ["--scheduler", address]) == 0
+    assert "cleaned in 2 pieces on tls://127.0.0.1" in capsys.readouterr().err
+    ref = tmp_path / "ref.wav"
+    assert main(["clean", str(src), "-o", str(ref), "--zero", "1"]) == 0
+    np.testing.assert_allclose(sf.read(tmp_path / "t.wav")[0], sf.read(ref)[0], rtol=0,
+                               atol=1e-12)
