@@ -101,9 +101,19 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         For a target that may not be written, unreadable input, or a recipe
         that does not fit the recording.
     """
-    from scalesieve import api
+    from scalesieve import api, memory_guard
 
     outputs = [output] + ([removed] if removed else [])
+    facts = memory_guard.probe_quietly(input_path)
+    spec = transform or (recipe.transform if recipe is not None else None)
+    if memory_guard.in_blocks(facts, channel=channel, transform=spec, outputs=outputs,
+                              fill_gaps=fill_gaps)[0]:
+        # longer than the budget: the same numbers, block by block
+        from scalesieve.stream.pipeline import clean_stream
+
+        return clean_stream(input_path, output, recipe=recipe, transform=transform,
+                            edits=edits, removed=removed, subtype=subtype, force=force,
+                            rate=rate, channel=channel, fill_gaps=fill_gaps, progress=progress)
     if len(outputs) == 2 and os.path.realpath(outputs[0]) == os.path.realpath(outputs[1]):
         raise ScalesieveError("-o and --removed name the same file", output)
     for out in outputs:

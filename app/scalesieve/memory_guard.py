@@ -25,6 +25,9 @@ EDIT_TEMPORARIES = 1
 TEXT_FACTOR = 3
 #: the interpreter, NumPy, PyWavelets and the model's small parts (bytes)
 BASE_BYTES = 64 << 20
+#: a command whose whole-array work would need more than this runs block by block,
+#: where it can (see scalesieve.stream): the budget a long recording is held to
+STREAM_ABOVE = 1 << 30
 
 
 def _gib(b: float) -> str:
@@ -73,8 +76,51 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
     return int(need)
 
 
+def probe_quietly(path: str | os.PathLike) -> dict | None:
+    """The facts of an audio file, or None (a text table, or a file reading will refuse)."""
+    from scalesieve.io.readers import TEXT_EXTENSIONS, probe
+
+    source = os.fspath(path)
+    if os.path.splitext(source)[1].lower() in TEXT_EXTENSIONS:
+        return None
+    try:
+        return probe(source)
+    except ScalesieveError:
+        return None
+
+
+def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
+              fill_gaps=None, available: int | None = None,
+              swt: bool = False) -> tuple[bool, str | None]:
+    """Whether a clean of ``facts`` runs block by block, and why not when it cannot.
+
+    Returns ``(True, None)`` when the whole-array work would need more than
+    ``STREAM_ABOVE`` (or than is ``available``) and the blocks can do it;
+    ``(False, reason)`` when they cannot (``reason`` None: no need).
+    ``swt``: the command takes the SWT in blocks too (``events``).
+    """
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.stream.pipeline import not_streamable
+
+    if facts is None or facts.get("frames") is None:
+        return False, None
+    spec = transform or TransformSpec()
+    limit = STREAM_ABOVE if available is None else min(STREAM_ABOVE, available)
+    if estimate(facts, channel=channel, transform=spec) <= limit:
+        return False, None
+    if spec.level is None:
+        from dataclasses import replace
+
+        from scalesieve.core import transforms as tf
+
+        spec = replace(spec, level=tf.default_level(max(int(facts["frames"]), 2), spec.wavelet))
+    why = not_streamable(facts, spec, list(outputs), fill_gaps, channel, swt)
+    return why is None, why
+
+
 def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float64,
-          transform=None, available: int | None = None) -> dict:
+          transform=None, available: int | None = None, outputs=None,
+          fill_gaps: str | None = None) -> dict:
     """Probe ``path`` and refuse it when its model would need more memory than is free.
 
     Parameters
@@ -84,6 +130,13 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         As for ``estimate``.
     available : int, optional
         Bytes free; default ``psutil.virtual_memory().available``.
+
+    outputs : list of str, optional
+        Given (empty for ``bands`` and ``events``, the files a clean will
+        write) when the command can work block by block: a recording past
+        ``STREAM_ABOVE`` or too long for memory is then not refused when the
+        blocks can do it, and the facts say ``"in_blocks": {"bytes": ...}``
+        (about what that takes).
 
     Returns
     -------
@@ -121,6 +174,21 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         return None
     need = estimate(facts, channel=channel, dtype=dtype, transform=transform)
     facts = dict(facts, needed_bytes=need, available_bytes=int(available))
+    blocks, why = (False, None) if outputs is None else in_blocks(
+        facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
+        available=available)
+    if blocks:
+        from scalesieve.stream.pipeline import stream_bytes
+
+        chans = 1 if channel is not None else int(facts["channels"])
+        cost = stream_bytes(chans, transform or _default_spec())
+        facts["in_blocks"] = {"bytes": cost}
+        if cost <= available:
+            return facts
+        raise ScalesieveError(
+            f"needs about {_gib(cost)} of memory even in blocks, but only "
+            f"{_gib(available)} is available; close other programs or clean one channel "
+            "at a time (--channel K)", source=source)
     if need <= available:
         return facts
     chans = int(facts["channels"]) if channel is None else 1
@@ -141,7 +209,15 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         dwt = estimate(facts, channel=channel, dtype=dtype,
                        transform=replace(transform, kind="dwt"))
         ways.append(f"the DWT (--transform dwt) needs about {_gib(dwt)}")
+    if why is not None:
+        ways.append(f"it cannot be worked on in blocks ({why})")
     ways.append("or cut the recording into shorter files")
     raise ScalesieveError(
         f"needs about {_gib(need)} of memory ({what}), but only {_gib(available)} is "
         f"available; " + "; ".join(ways), source=os.fspath(path))
+
+
+def _default_spec():
+    from scalesieve.core.transforms import TransformSpec
+
+    return TransformSpec()

@@ -42,6 +42,25 @@ def band_report(model, file_label: str) -> dict:
     }
 
 
+def _report_in_blocks(args, spec, progress) -> dict:
+    """``band_report``'s fields for a recording longer than the budget, in one pass."""
+    from scalesieve.stream.pipeline import band_figures_stream
+
+    facts, channels = band_figures_stream(
+        args.file, spec, channel=args.channel, rate=args.rate,
+        progress=None if progress is None else (lambda f, t: progress(f, t)))
+    pick = args.channel
+    return {
+        "file": os.path.basename(args.file),
+        "rate": facts["rate"],
+        "samples": facts["samples"],
+        "duration_s": facts["samples"] / facts["rate"],
+        "transform": facts["spec"].to_json(),
+        "channels": [{"index": k, "name": f"ch{k if pick is None else pick}", "bands": rows}
+                     for k, rows in enumerate(channels)],
+    }
+
+
 def format_table(report: dict) -> str:
     t = report["transform"]
     lines = [f"{report['file']}: {report['samples']} samples at {report['rate']:g} Hz "
@@ -64,11 +83,18 @@ def run(args) -> int:
     from scalesieve.commands import progress
 
     spec = transform_from(args)
-    facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
+    facts = memory_guard.check(args.file, channel=args.channel, transform=spec, outputs=(),
+                               fill_gaps=args.fill_gaps)
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
-        rec = load_input(args, args.file)
-        model = api.build_model(rec, transform=spec, progress=bar)
-    report = band_report(model, os.path.basename(args.file))
+        if facts and facts.get("in_blocks"):
+            print(f"scalesieve: note: {args.file}: read in blocks, one pass over the file, "
+                  f"about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
+                  file=sys.stderr)
+            report = _report_in_blocks(args, spec, bar)
+        else:
+            rec = load_input(args, args.file)
+            model = api.build_model(rec, transform=spec, progress=bar)
+            report = band_report(model, os.path.basename(args.file))
     if args.json:
         json.dump(report, sys.stdout)
         sys.stdout.write("\n")

@@ -39,8 +39,55 @@ def configure(p) -> None:
                    help="also write the recipe as applied (every default resolved: level, "
                         "basis, the chosen packet paths)")
     o.add_argument("--force", action="store_true", help="replace existing output files")
+    w = p.add_argument_group("one long recording on several workers (read in blocks)")
+    where = w.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=_workers, default=None, metavar="N",
+                       help="clean time pieces of the recording in N local processes")
+    where.add_argument("--scheduler", metavar="ADDRESS",
+                       help="clean time pieces on an existing Dask cluster (tcp:// or tls://; "
+                            "its workers must reach FILE and OUT's folder under the same paths)")
+    w.add_argument("--pieces", type=_workers, default=None, metavar="P",
+                   help="cut the recording into P pieces (default: one per worker)")
     add_transform_options(p)
     add_input_options(p)
+
+
+def _workers(text: str) -> int:
+    import argparse
+
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError("must be at least 1")
+    return value
+
+
+def _clean_in_pieces(args, recipe, quick, spec, bar) -> dict:
+    """``--workers`` / ``--scheduler``: the recording cut in time pieces, cleaned apart, joined."""
+    from scalesieve import memory_guard
+    from scalesieve.stream.pieces import clean_pieces
+    from scalesieve.stream.pipeline import not_streamable
+
+    outputs = [args.output] + ([args.removed] if args.removed else [])
+    facts = memory_guard.probe_quietly(args.file)
+    resolved = spec
+    if facts is not None and spec.level is None:
+        from dataclasses import replace
+
+        from scalesieve.core.transforms import default_level
+
+        resolved = replace(spec, level=default_level(max(int(facts["frames"]), 2), spec.wavelet))
+    why = not_streamable(facts, resolved, outputs, args.fill_gaps, args.channel)
+    if why is not None:
+        raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
+                              f"{why}", args.file)
+    return clean_pieces(args.file, args.output, workers=args.workers, scheduler=args.scheduler,
+                        pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
+                        removed=args.removed, subtype=args.subtype, force=args.force,
+                        rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
+                        progress=bar)
 
 
 def edits_from_args(args):
@@ -88,13 +135,18 @@ def run(args) -> int:
         if args.save_recipe in (args.output, args.removed):
             raise ScalesieveError("--save-recipe names the same file as an output",
                                   args.save_recipe)
-    facts = memory_guard.check(args.file, channel=args.channel, transform=spec)
+    facts = memory_guard.check(args.file, channel=args.channel, transform=spec,
+                               outputs=[args.output] + ([args.removed] if args.removed else []),
+                               fill_gaps=args.fill_gaps)
     # The same function cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
-        res = clean_file(args.file, args.output, recipe=recipe, transform=spec, edits=quick,
-                         removed=args.removed, subtype=args.subtype, force=args.force,
-                         rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
-                         progress=bar)
+        if args.workers or args.scheduler:
+            res = _clean_in_pieces(args, recipe, quick, spec, bar)
+        else:
+            res = clean_file(args.file, args.output, recipe=recipe, transform=spec,
+                             edits=quick, removed=args.removed, subtype=args.subtype,
+                             force=args.force, rate=args.rate, channel=args.channel,
+                             fill_gaps=args.fill_gaps, progress=bar)
     if args.save_recipe:
         from scalesieve import api
 
@@ -103,6 +155,16 @@ def run(args) -> int:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
                   file=sys.stderr)
+    if res.get("pieces"):
+        spans = "; ".join(f"{p['start']}-{p['stop']}: {p['seconds']:.2f} s on {p['host']}"
+                          f" ({p['pid']})" for p in res["pieces"])
+        print(f"scalesieve: note: {args.file}: cleaned in {len(res['pieces'])} pieces on "
+              f"{res['where']} in {res['pieces_seconds']:.2f} s: {spans}", file=sys.stderr)
+    if res.get("blocks"):
+        b = res["blocks"]
+        print(f"scalesieve: note: {args.file}: cleaned in blocks of {b['frames_per_block']} "
+              f"frames, {b['passes']} pass{'es' if b['passes'] > 1 else ''} over the file, "
+              f"about {b['bytes'] / 2**20:.0f} MiB of memory", file=sys.stderr)
     print(f"wrote {args.output}: {res['samples']} samples x {res['channels']} channels at "
           f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")
     return 0

@@ -167,6 +167,34 @@ def format_report(report: dict, rows: bool = True) -> str:
     return "\n".join(lines)
 
 
+def _in_blocks(args):
+    """The events of a recording past the memory budget, found block by block; else None."""
+    from types import SimpleNamespace
+
+    from scalesieve import memory_guard
+
+    facts = memory_guard.probe_quietly(args.file)
+    if facts is None:
+        return None
+    spec = spec_from(args, int(facts["frames"]), args.file)
+    if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
+                                  fill_gaps=args.fill_gaps, swt=True)[0]:
+        return None
+    from scalesieve.stream.events import events_stream
+    from scalesieve.stream.pipeline import stream_bytes
+
+    chans = 1 if args.channel is not None else int(facts["channels"])
+    print(f"scalesieve: note: {args.file}: read in blocks, four passes over the file, about "
+          f"{stream_bytes(chans, spec) / 2**20:.0f} MiB of memory", file=sys.stderr)
+    levels = levels_from(args.levels, spec, int(facts["frames"]))
+    events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
+                                       rate=args.rate)
+    rec = SimpleNamespace(rate=got["rate"], n=got["samples"], channels=got["channels"],
+                          duration_s=got["samples"] / got["rate"],
+                          channel_names=got["channel_names"])
+    return rec, spec, levels, events, noise
+
+
 def run(args) -> int:
     from scalesieve import api
     from scalesieve.core import events as ev
@@ -176,11 +204,16 @@ def run(args) -> int:
         api.check_target(args.csv, args.force, [args.file])
     if not (args.k > 0 and math.isfinite(args.k)):  # pragma: no cover - argparse checks
         raise ScalesieveError("--k must be a finite number above 0")
-    rec = load_input(args, args.file)
-    spec = spec_from(args, rec.n, rec.source or args.file)
-    levels = levels_from(args.levels, spec, rec.n)
-    prepared = {c: ev.prepare_signal(rec.channel(c), spec, levels) for c in range(rec.channels)}
-    events, noise = ev.detect_channels(prepared, rec.channel, rec.rate, args.k)
+    blocks = _in_blocks(args)
+    if blocks is not None:
+        rec, spec, levels, events, noise = blocks
+    else:
+        rec = load_input(args, args.file)
+        spec = spec_from(args, rec.n, rec.source or args.file)
+        levels = levels_from(args.levels, spec, rec.n)
+        prepared = {c: ev.prepare_signal(rec.channel(c), spec, levels)
+                    for c in range(rec.channels)}
+        events, noise = ev.detect_channels(prepared, rec.channel, rec.rate, args.k)
     report = events_report(rec, spec, levels, args.k, events, noise, os.path.basename(args.file))
     if args.csv:
         write_table_csv(args.csv, [e.to_json() for e in events], force=args.force,

@@ -387,8 +387,18 @@ def detect(bands: Sequence[LevelBand], x: np.ndarray, rate: float, k: float,
     """
     k = check_k(k)
     x = np.asarray(x)
-    n = x.shape[0]
     runs = [r for r in (_level_runs(b, k) for b in bands) if r is not None]
+    return events_from_runs(runs, x.shape[0], rate, channel,
+                            lambda s0, s1: _peak_between(x, s0, s1))
+
+
+def events_from_runs(runs: Sequence, n: int, rate: float, channel: int, peaks) -> list[Event]:
+    """Events from the runs of every level (``_level_runs``), merged across levels.
+
+    ``peaks(s0, s1)`` gives the signal's largest ``|x|`` over each event's
+    samples ``s0[i] .. s1[i]`` (disjoint, in order): from the samples in
+    memory, or from a pass over a file too long to hold.
+    """
     if not runs:
         return []
     first, last, score, level, centre = (np.concatenate(col) for col in zip(*runs))
@@ -411,7 +421,7 @@ def detect(bands: Sequence[LevelBand], x: np.ndarray, rate: float, k: float,
     # strongest member of each event: sort by (event, score), take the last of each
     group = np.cumsum(new) - 1
     b = np.lexsort((score, group))[ends - 1]
-    peaks = _peak_between(x, s0, s1)
+    peaks = peaks(s0, s1)
     # columns to Python numbers first: building many events stays cheap
     return list(map(Event, (s0 / rate).tolist(), (s1 / rate).tolist(),
                     (centre[b] / rate).tolist(), level[b].tolist(), peaks.tolist(),

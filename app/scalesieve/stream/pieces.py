@@ -1,0 +1,207 @@
+"""One long recording cleaned in pieces on several workers, joined into one output.
+
+The recording is cut into time pieces; each worker runs the cascade over
+its piece widened by what the filters read on either side (``dwt.stretch``),
+applies the recipe with thresholds the first passes found once, and writes
+the piece's cleaned samples to a raw temporary file beside the output; the
+output is then written from those files in order.  The samples are those of
+the one-process run within float round-off.  Workers are local processes
+(``workers=N``) or an existing Dask cluster (``scheduler=ADDRESS``), whose
+workers must reach the input and the output's folder under the same paths.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import socket
+import tempfile
+import time
+from typing import Sequence
+
+import numpy as np
+
+from scalesieve.core import transforms as tf
+from scalesieve.errors import ScalesieveError
+from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
+from scalesieve.stream.pipeline import (READ_FRAMES, _AudioTarget, _Join, _Plan, _prepare,
+                                        _result, _Source, _thresholds)
+
+
+def clean_piece(job: dict) -> dict:
+    """Clean samples ``job["start"] .. job["stop"]`` into the raw float64 file ``job["raw"]``.
+
+    Runs on a worker: it opens the input itself.  Returns the piece's span,
+    where it ran and how long it took.
+    """
+    t0 = time.perf_counter()
+    src = _Source(job["input"], job["channel"])
+    n = src.frames
+    spec = tf.TransformSpec(**job["spec"])
+    plan = _Plan(job["edits"], src.channels, spec, n, src.rate)
+    for (k, key), lams in job["lams"].items():
+        plan.bands[k][key].lams = list(lams)
+    o0, o1 = job["start"], job["stop"]
+    first, last = stretch(n, spec, o0, o1)
+    level = spec.level
+    starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
+    cleaned = [tf._Carry(o0, np.float64) for _ in range(src.channels)]
+    with open(job["raw"], "wb") as fh:
+        inverses, forwards = [], []
+        for k in range(src.channels):
+            inv = InverseStream(n, spec, lambda s0, seg, k=k: cleaned[k].append(seg),
+                                start=o0, stop=o1, band_starts=starts)
+            bands = plan.bands[k]
+
+            def put(key, k0, c, inv=inv, bands=bands):
+                inv.put(key, k0, bands[key].edited(c, k0))
+            inverses.append(inv)
+            forwards.append(ForwardStream(n, spec, put, first=first, last=last))
+        written = o0
+        for block in src.blocks(start=first[0], stop=last[0]):
+            for k in range(src.channels):
+                forwards[k].feed(block[:, k])
+                inverses[k].pump()
+            ready = min(c.hi for c in cleaned)
+            if ready > written:
+                fh.write(np.stack([c.view(written, ready) for c in cleaned], axis=1).tobytes())
+                for c in cleaned:
+                    c.drop_below(ready)
+                written = ready
+        if written != o1:  # pragma: no cover - the inverse makes every sample of the piece
+            raise AssertionError(f"piece {o0}..{o1} made {written - o0} samples")
+    return {"start": o0, "stop": o1, "seconds": round(time.perf_counter() - t0, 3),
+            "host": socket.gethostname(), "pid": os.getpid()}
+
+
+def cut(n: int, pieces: int) -> list[tuple[int, int]]:
+    """``pieces`` spans of about equal length covering 0 .. n."""
+    pieces = max(1, min(pieces, n // READ_FRAMES or 1))
+    bounds = [round(n * i / pieces) for i in range(pieces + 1)]
+    return list(zip(bounds[:-1], bounds[1:]))
+
+
+def _run_local(jobs: list[dict], workers: int) -> list[dict]:
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    # spawned, not forked: the caller may hold threads (a progress bar, a pool)
+    with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")) as pool:
+        return list(pool.map(clean_piece, jobs))
+
+
+def _check_tls(scheduler: str) -> None:
+    """A ``tls://`` scheduler needs this client's certificate in Dask's configuration."""
+    if not scheduler.startswith("tls://"):
+        return
+    import dask
+
+    tls = dask.config.get("distributed.comm.tls", default={}) or {}
+    client = tls.get("client") or {}
+    if not (tls.get("ca-file") and client.get("cert")):
+        raise ScalesieveError(
+            "a tls:// scheduler needs this machine's certificate in Dask's configuration "
+            "(distributed.comm.tls.ca-file, .client.cert and .client.key; see docs/batch.md)",
+            scheduler)
+
+
+def _run_dask(jobs: list[dict], scheduler: str) -> list[dict]:
+    from scalesieve.batch import connect
+
+    _check_tls(scheduler)
+    client = connect(scheduler)
+    try:
+        futures = [client.submit(clean_piece, job, pure=False) for job in jobs]
+        return client.gather(futures)
+    finally:
+        client.close()
+
+
+def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
+                 scheduler: str | None = None, pieces: int | None = None, recipe=None,
+                 transform: tf.TransformSpec | None = None, edits: Sequence = (),
+                 removed: str | None = None, subtype: str | None = None, force: bool = False,
+                 rate: float | None = None, channel: int | None = None,
+                 fill_gaps: str | None = None, progress=None) -> dict:
+    """``pipeline.clean_stream`` with the cleaning shared out in time pieces.
+
+    ``pieces`` defaults to the number of workers (local), or twice the
+    cluster's worker threads.  The report also lists ``"pieces"``: each
+    piece's ``start``, ``stop`` (samples), ``seconds``, ``host`` and ``pid``.
+    """
+    outputs = [output] + ([removed] if removed else [])
+    src, spec, plan = _prepare(input_path, outputs, recipe=recipe, transform=transform,
+                               edits=edits, force=force, rate=rate, channel=channel,
+                               fill_gaps=fill_gaps)
+    n = src.frames
+
+    def report(p, fed, text):
+        if progress:
+            progress(min(1.0, 0.3 * (p + fed / n) / 3), text)
+
+    passes = _thresholds(src, spec, plan, report)
+    lams = {(k, key): tuple(band.lams) for k, bands in enumerate(plan.bands)
+            for key, band in bands.items() if band.lams}
+    if pieces is None:
+        pieces = workers or 2
+    spans = cut(n, pieces)
+    folder = os.path.dirname(os.path.abspath(output))
+    raws = []
+    try:
+        for i in range(len(spans)):
+            fd, path = tempfile.mkstemp(dir=folder, suffix=".raw",
+                                        prefix=f".{os.path.basename(output)}.tmp-scalesieve-"
+                                               f"piece{i}-")
+            os.close(fd)
+            raws.append(path)
+        jobs = [{"input": os.path.abspath(input_path), "channel": src.pick,
+                 "spec": {"kind": spec.kind, "wavelet": spec.wavelet, "level": spec.level,
+                          "mode": spec.mode},
+                 "edits": plan.edits, "lams": lams, "start": a, "stop": b, "raw": raw}
+                for (a, b), raw in zip(spans, raws)]
+        if progress:
+            progress(0.3, f"cleaning {len(jobs)} pieces")
+        t0 = time.perf_counter()
+        done = _run_dask(jobs, scheduler) if scheduler else _run_local(jobs, workers or 2)
+        spent = time.perf_counter() - t0
+        with contextlib.ExitStack() as stack:
+            targets = [_AudioTarget(stack, out, src, n, subtype, force, [input_path])
+                       for out in outputs]
+            join = _Join(src.channels, targets, removed is not None)
+            pieces_in = _raw_blocks(raws, spans, src.channels)
+            fed = have = 0
+            for block in src.blocks():
+                join.add_input(block)
+                fed += block.shape[0]
+                while have < fed:
+                    piece = next(pieces_in)
+                    for k in range(src.channels):
+                        join.put(k, 0, piece[:, k])
+                    have += piece.shape[0]
+                join.flush()
+            reports = [t.finished() for t in targets]
+    finally:
+        for path in raws:
+            with contextlib.suppress(OSError):
+                os.unlink(path)
+    if progress:
+        progress(1.0, "cleaned")
+    res = _result(src, reports, join, passes + 1, spec, plan.edits)
+    res["pieces"] = sorted(done, key=lambda p: p["start"])
+    res["pieces_seconds"] = round(spent, 3)
+    res["where"] = scheduler or f"{workers or 2} local processes"
+    return res
+
+
+def _raw_blocks(raws: list[str], spans: list, channels: int):
+    """The pieces' cleaned samples, in order, in blocks of at most READ_FRAMES frames."""
+    for path, (a, b) in zip(raws, spans):
+        size = os.path.getsize(path)
+        if size != (b - a) * channels * 8:
+            raise ScalesieveError(f"a worker left {size} bytes for samples {a} .. {b}; "
+                                  "the piece is incomplete", path)
+        # plain reads, not a memory map: mapped pages would count against the budget
+        with open(path, "rb") as fh:
+            for s in range(0, b - a, READ_FRAMES):
+                m = min(READ_FRAMES, b - a - s)
+                yield np.fromfile(fh, dtype=np.float64, count=m * channels).reshape(m, channels)

@@ -1,0 +1,133 @@
+"""Benchmark: long recordings in bounded memory (clean, bands, events).
+
+Writes a float32 mono WAV of ``--samples`` (default 2**28) and one a quarter
+as long, then runs, on each, `scalesieve clean --threshold universal`,
+`scalesieve bands --json` and `scalesieve events --json` (SWT, levels 1,2)
+and the bare whole-array PyWavelets script doing the same clean (read,
+wavedec, VisuShrink, waverec, write).  Each is a whole process, timed by
+wall clock, its peak resident memory read from ``wait4``.  Prints one JSON
+line: the figures and the ratios the budgets are about, measured side by
+side in this run (clean / bare time, long / short time and memory).
+
+    python tests/perf/bench_long.py --samples 4194304      # small, a minute
+    python tests/perf/bench_long.py                        # 2**28: needs ~9 GiB free for the
+                                                           # bare script, ~2 GiB of disk
+
+The full size is for a quiet machine: the bare script alone holds about
+8 GiB.  ``--no-bare`` leaves it out.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import tempfile
+import time
+
+import numpy as np
+import soundfile as sf
+
+BARE = r"""
+import sys, numpy as np, pywt, soundfile as sf
+x, rate = sf.read(sys.argv[1], dtype="float64")
+level = pywt.dwt_max_level(x.shape[0], 8) - 2
+level = max(1, min(level, 12))
+c = pywt.wavedec(x, "db4", mode="symmetric", level=level)
+d1 = np.abs(c[-1])
+sigma = np.median(d1[d1 != 0]) / 0.6744897501960817
+lam = sigma * np.sqrt(2 * np.log(x.shape[0]))
+c = [c[0]] + [pywt.threshold(d, lam, mode="soft") for d in c[1:]]
+y = pywt.waverec(c, "db4", mode="symmetric")[: x.shape[0]]
+sf.write(sys.argv[2], y, rate, subtype="FLOAT")
+"""
+
+
+def _write(path: str, n: int, rate: int = 51200) -> None:
+    """Invented vibration: a shaft line, broadband noise and an impact every 0.1 s."""
+    rng = np.random.default_rng(7)
+    block = 1 << 20
+    with sf.SoundFile(path, "w", samplerate=rate, channels=1, subtype="FLOAT") as f:
+        for s in range(0, n, block):
+            t = np.arange(s, min(n, s + block)) / rate
+            x = 0.2 * np.sin(2 * np.pi * 24.5 * t) + 0.02 * rng.standard_normal(t.shape[0])
+            x[(np.arange(s, s + t.shape[0]) % (rate // 10)) < 8] += 0.3
+            f.write(x.astype(np.float32))
+
+
+def _run(cmd: list[str]) -> dict:
+    """Wall time and peak resident memory of one process (ru_maxrss: KiB on Linux)."""
+    t0 = time.perf_counter()
+    p = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(p.pid, 0)
+    seconds = time.perf_counter() - t0
+    err = p.stderr.read().decode(errors="replace")
+    p.stderr.close()
+    p.returncode = os.waitstatus_to_exitcode(status)
+    if p.returncode != 0:
+        raise SystemExit(f"{' '.join(cmd)} failed ({p.returncode}): {err.strip()[-400:]}")
+    return {"seconds": round(seconds, 3), "peak_mib": round(usage.ru_maxrss / 1024, 1)}
+
+
+def _commands(src: str, out: str) -> dict:
+    me = [sys.executable, "-m", "scalesieve"]
+    return {
+        "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
+        "clean_workers": me + ["clean", src, "-o", out, "--threshold", "universal", "--force",
+                               "--workers", "2"],
+        "bands": me + ["bands", src, "--json"],
+        "events": me + ["events", src, "--json"],
+    }
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--samples", type=int, default=1 << 28)
+    ap.add_argument("--no-bare", action="store_true", help="leave out the bare script")
+    ap.add_argument("--only", default="clean,bands,events",
+                    help="commands to run, comma-separated: clean, clean_workers (the same "
+                         "clean in two local processes), bands, events (default "
+                         "clean,bands,events)")
+    ap.add_argument("--dir", default=None, help="folder for the test files (default a temp one)")
+    args = ap.parse_args()
+    wanted = args.only.split(",")
+    sizes = {"long": args.samples, "short": args.samples // 4}
+    figures: dict = {"samples": sizes, "machine": {"cpus": os.cpu_count()}}
+    with tempfile.TemporaryDirectory(dir=args.dir) as tmp:
+        for label, n in sizes.items():
+            src = os.path.join(tmp, f"{label}.wav")
+            _write(src, n)
+            out = os.path.join(tmp, f"{label}-out.wav")
+            row = {}
+            for name, cmd in _commands(src, out).items():
+                if name in wanted:
+                    row[name] = _run(cmd)
+            if not args.no_bare and "clean" in wanted:
+                script = os.path.join(tmp, "bare.py")
+                with open(script, "w") as fh:
+                    fh.write(BARE)
+                row["bare"] = _run([sys.executable, script, src, os.path.join(tmp, "bare.wav")])
+            figures[label] = row
+            os.unlink(src)
+    long, short = figures["long"], figures["short"]
+    ratios = {}
+    if "bare" in long and "clean" in long:
+        ratios["clean_over_bare_time"] = round(
+            long["clean"]["seconds"] / long["bare"]["seconds"], 3)
+    if "clean" in long and "clean_workers" in long:
+        ratios["clean_workers_over_clean_time"] = round(
+            long["clean_workers"]["seconds"] / long["clean"]["seconds"], 3)
+    for name in wanted:
+        if name in long:
+            ratios[f"{name}_long_over_short_time"] = round(
+                long[name]["seconds"] / short[name]["seconds"], 3)
+            ratios[f"{name}_long_over_short_memory"] = round(
+                long[name]["peak_mib"] / short[name]["peak_mib"], 3)
+    figures["ratios"] = ratios
+    print(json.dumps(figures))
+
+
+if __name__ == "__main__":
+    main()

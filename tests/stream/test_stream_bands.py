@@ -1,0 +1,76 @@
+"""`bands` block by block against PyWavelets, NumPy and SciPy on the whole recording."""
+
+import json
+
+import numpy as np
+import pytest
+import pywt
+import soundfile as sf
+from scipy import stats
+
+from scalesieve import memory_guard
+from scalesieve.cli import main
+from scalesieve.core import transforms as tf
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.stream.pipeline import band_figures_stream
+
+
+def _figures(x, wavelet, level, mode):
+    """The CONTRACT's band figures from PyWavelets on the whole recording: the reference."""
+    c = pywt.wavedec(x, wavelet, mode=mode, level=level)
+    total = float(np.dot(x, x))
+    rows = {}
+    for i, band in enumerate(c):
+        alone = [b if j == i else np.zeros_like(b) for j, b in enumerate(c)]
+        comp = pywt.waverec(alone, wavelet, mode=mode)[:x.shape[0]]
+        e = float(np.dot(comp, comp))
+        name = f"a{level}" if i == 0 else f"d{level - i + 1}"
+        rows[name] = {"energy": e, "energy_fraction": e / total,
+                      "coef_energy": float(np.dot(band, band)),
+                      "rms": float(np.sqrt(np.mean(comp * comp))),
+                      "peak": float(np.max(np.abs(comp))),
+                      # Pearson kurtosis (3 for a Gaussian): scipy.stats, fisher=False
+                      "kurtosis": float(stats.kurtosis(band, fisher=False, bias=True)),
+                      "count": band.shape[0]}
+    return rows
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "reflect", "zero", "smooth", "antisymmetric"])
+def test_band_figures_in_blocks_are_the_whole_recording_ones(tmp_path, mode):
+    n, level = 300_007, 8
+    rng = np.random.default_rng(11)
+    t = np.arange(n) / 20_000
+    x = np.stack([0.5 + 0.2 * np.sin(2 * np.pi * 13 * t) + 0.02 * rng.standard_normal(n),
+                  0.1 * rng.laplace(size=n)], axis=1)
+    src = tmp_path / "two.wav"
+    sf.write(src, x, 20_000, subtype="DOUBLE")
+    facts, channels = band_figures_stream(str(src), TransformSpec("dwt", "db5", level, mode))
+    assert facts["samples"] == n and len(channels) == 2
+    for k, rows in enumerate(channels):
+        want = _figures(x[:, k], "db5", level, mode)
+        assert [r["name"] for r in rows] == [f"d{j}" for j in range(1, level + 1)] + ["a8"] \
+            or [r["name"] for r in rows] == ["a8"] + [f"d{j}" for j in range(level, 0, -1)]
+        for r in rows:
+            w = want[r["name"]]
+            assert r["count"] == w["count"]
+            for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
+                assert r[field] == pytest.approx(w[field], rel=1e-9, abs=1e-300), \
+                    (r["name"], field)
+
+
+def test_the_command_reads_a_long_recording_in_blocks(tmp_path, monkeypatch, capsys):
+    n = 70_001
+    x = 0.1 * np.random.default_rng(3).standard_normal(n)
+    src = tmp_path / "long.wav"
+    sf.write(src, x, 8000, subtype="DOUBLE")
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    assert main(["bands", str(src), "--json", "--wavelet", "sym4", "--level", "5"]) == 0
+    rep = json.loads(capsys.readouterr().out)
+    assert rep["samples"] == n and rep["transform"]["level"] == 5
+    want = _figures(x, "sym4", 5, "symmetric")
+    got = {b["name"]: b for b in rep["channels"][0]["bands"]}
+    assert set(got) == set(want)
+    for name, w in want.items():
+        assert got[name]["energy"] == pytest.approx(w["energy"], rel=1e-9)
+        lo, hi = tf.band_range_hz("a" if name[0] == "a" else int(name[1:]), 5, 8000)
+        assert (got[name]["low_hz"], got[name]["high_hz"]) == (lo, hi)

@@ -1,0 +1,231 @@
+"""`clean` block by block: the numbers of the whole-array computation, files that are whole."""
+
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import time
+
+import numpy as np
+import pytest
+import pywt
+import soundfile as sf
+
+from scalesieve import memory_guard
+from scalesieve.batch import clean_file
+from scalesieve.cli import main
+from scalesieve.core.transforms import TransformSpec, default_level
+from scalesieve.errors import ScalesieveError
+from scalesieve.recipe import Edit
+from scalesieve.stream.dwt import STREAM_MODES
+from scalesieve.stream.pipeline import clean_stream
+
+RATE = 8000
+
+
+def _recording(path, n=60_007, channels=2, seed=0):
+    rng = np.random.default_rng(seed)
+    t = np.arange(n) / RATE
+    x = np.stack([0.3 * np.sin(2 * np.pi * (50 + 30 * k) * t) + 0.05 * rng.standard_normal(n)
+                  for k in range(channels)], axis=1)
+    x[n // 3:n // 3 + 9, 0] += 0.6                       # an impact on channel 0
+    sf.write(path, x, RATE, subtype="DOUBLE")
+    return x
+
+
+def _visushrink(x, wavelet, level, mode):
+    """Whole-array VisuShrink with PyWavelets (Donoho & Johnstone 1994): the reference."""
+    c = pywt.wavedec(x, wavelet, mode=mode, level=level)
+    d1 = np.abs(c[-1])
+    sigma = np.median(d1[d1 != 0]) / 0.6744897501960817
+    lam = sigma * np.sqrt(2 * np.log(x.shape[0]))
+    c = [c[0]] + [pywt.threshold(d, lam, mode="soft") for d in c[1:]]
+    return pywt.waverec(c, wavelet, mode=mode)[:x.shape[0]]
+
+
+@pytest.mark.parametrize("mode", sorted(STREAM_MODES))
+def test_visushrink_in_blocks_is_pywavelets_on_the_whole_recording(tmp_path, mode):
+    src = tmp_path / "in.wav"
+    x = _recording(src)
+    out = tmp_path / "out.wav"
+    res = clean_stream(str(src), str(out), transform=TransformSpec("dwt", "sym6", 7, mode),
+                       edits=[Edit("threshold", levels="details", rule="universal",
+                                   shape="soft", noise="finest")], subtype="DOUBLE")
+    y, rate = sf.read(out)
+    assert rate == RATE and y.shape == x.shape
+    for k in range(2):
+        want = _visushrink(x[:, k], "sym6", 7, mode)
+        np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12 * np.max(np.abs(want)))
+    assert res["blocks"]["passes"] == 3            # count d1, keep its middle, clean
+
+
+RECIPES = {
+    "gain and region": [Edit("gain", levels=(2,), gain=0.5),
+                        Edit("region", levels=(1, 2), start_s=1.0, stop_s=2.5, gain=0.0)],
+    "bayes per level": [Edit("threshold", levels="details", rule="bayes", shape="soft",
+                             noise="level")],
+    "sure after a gain": [Edit("gain", levels=(2,), gain=0.5),
+                          Edit("threshold", levels="details", rule="sure", shape="hard",
+                               noise="finest")],
+    "minimax on one channel": [Edit("threshold", levels=(1, 3), rule="minimax",
+                                    shape="garrote", noise="finest", scale=1.3, channels=(1,))],
+    "two bayes in a row": [Edit("threshold", levels=(1, 2), rule="bayes", shape="soft"),
+                           Edit("threshold", levels=(1,), rule="bayes", shape="hard")],
+    "mute the approximation": [Edit("gain", levels=("a",), gain=0.0)],
+}
+
+
+@pytest.mark.parametrize("name", sorted(RECIPES))
+def test_every_rule_gives_what_the_whole_array_clean_gives(tmp_path, name):
+    # the CONTRACT's promise: the same numbers either way (the whole-array model is
+    # itself tested against PyWavelets and scikit-image elsewhere)
+    src = tmp_path / "in.wav"
+    _recording(src, n=50_001, channels=2, seed=4)
+    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    a, b = tmp_path / "a.wav", tmp_path / "b.wav"
+    ra = clean_file(str(src), str(a), transform=spec, edits=RECIPES[name],
+                    removed=str(tmp_path / "ar.wav"), subtype="DOUBLE")
+    rb = clean_stream(str(src), str(b), transform=spec, edits=RECIPES[name],
+                      removed=str(tmp_path / "br.wav"), subtype="DOUBLE")
+    for x, y in ((a, b), (tmp_path / "ar.wav", tmp_path / "br.wav")):
+        u, v = sf.read(x)[0], sf.read(y)[0]
+        np.testing.assert_allclose(v, u, rtol=0, atol=1e-11 * max(1.0, np.max(np.abs(u))))
+    assert rb["energy_removed_fraction"] == pytest.approx(ra["energy_removed_fraction"],
+                                                          rel=1e-9, abs=1e-15)
+    assert (rb["samples"], rb["channels"], rb["rate"]) == (ra["samples"], ra["channels"],
+                                                           ra["rate"])
+
+
+def test_the_command_chooses_blocks_by_length_and_says_so(tmp_path, monkeypatch, capsys):
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=40_003, channels=1)
+    args = ["--threshold", "universal", "--subtype", "DOUBLE"]
+    assert main(["clean", str(src), "-o", str(tmp_path / "whole.wav"), *args]) == 0
+    assert "in blocks" not in capsys.readouterr().err
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    assert main(["clean", str(src), "-o", str(tmp_path / "blocks.wav"), *args]) == 0
+    err = capsys.readouterr().err
+    assert "cleaned in blocks" in err and "3 passes" in err
+    u, v = sf.read(tmp_path / "whole.wav")[0], sf.read(tmp_path / "blocks.wav")[0]
+    np.testing.assert_allclose(v, u, rtol=0, atol=1e-12)
+    level = default_level(40_003, "db4")             # what the command chooses
+    np.testing.assert_allclose(v, _visushrink(x[:, 0], "db4", level, "symmetric"), atol=1e-12)
+
+
+def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monkeypatch,
+                                                                   capsys):
+    src = tmp_path / "in.wav"
+    _recording(src, n=30_000, channels=1)
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    # periodization reads the far end: whole-array while memory allows ...
+    out = tmp_path / "p.wav"
+    assert main(["clean", str(src), "-o", str(out), "--zero", "1", "--mode",
+                 "periodization"]) == 0
+    assert "in blocks" not in capsys.readouterr().err
+
+    class Tight:
+        available = 8 << 20
+
+    import psutil
+
+    monkeypatch.setattr(psutil, "virtual_memory", lambda: Tight())
+    # ... and refused, saying why, when it does not fit
+    assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1", "--mode",
+                 "periodization"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "cannot be worked on in blocks" in err[0]
+    assert "periodization" in err[0]
+    assert not (tmp_path / "q.wav").exists()
+
+
+def test_a_bad_sample_mid_file_is_one_message_and_no_output(tmp_path):
+    src = tmp_path / "in.wav"
+    x = np.random.default_rng(1).standard_normal((700_000, 1)) * 0.1
+    x[650_001, 0] = np.nan
+    sf.write(src, x, RATE, subtype="FLOAT")
+    out = tmp_path / "out.wav"
+    with pytest.raises(ScalesieveError, match=r"sample 650001 .* of channel 0 is NaN"):
+        clean_stream(str(src), str(out), edits=[Edit("gain", levels=(1,), gain=0.0)])
+    assert os.listdir(tmp_path) == ["in.wav"]
+
+
+def test_an_existing_output_is_kept_without_force(tmp_path):
+    src = tmp_path / "in.wav"
+    _recording(src, n=5000, channels=1)
+    out = tmp_path / "out.wav"
+    out.write_bytes(b"mine")
+    with pytest.raises(ScalesieveError, match="exists"):
+        clean_stream(str(src), str(out), edits=[Edit("gain", levels=(1,), gain=0.0)])
+    assert out.read_bytes() == b"mine"
+
+
+_KILLED = textwrap.dedent("""
+    import sys
+    from scalesieve import memory_guard
+    from scalesieve.cli import main
+    memory_guard.STREAM_ABOVE = 1 << 16
+    sys.exit(main(sys.argv[1:]))
+""")
+
+
+def test_a_killed_export_in_blocks_leaves_no_torn_file(tmp_path):
+    src = tmp_path / "in.wav"
+    x = (np.random.default_rng(2).standard_normal((3_000_000, 1)) * 0.1).astype(np.float32)
+    sf.write(src, x, 48000, subtype="FLOAT")
+    out = tmp_path / "out.wav"
+    old = b"an older export"
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
+    cmd = [sys.executable, "-c", _KILLED, "clean", str(src), "-o", str(out), "--force",
+           "--threshold", "universal"]
+    t0 = time.perf_counter()
+    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
+    took = time.perf_counter() - t0
+    assert done.returncode == 0, done.stderr
+    assert "cleaned in blocks" in done.stderr
+    whole = sf.read(out, dtype="float32")[0]
+
+    def intact():
+        # the old bytes, or the complete new samples (libsndfile stamps a time in the header)
+        if out.read_bytes() == old:
+            return True
+        y = sf.read(out, dtype="float32")[0]
+        return y.shape == whole.shape and np.array_equal(y, whole)
+
+    torn_temporaries = 0
+    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
+        out.write_bytes(old)
+        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        # kill while the new file is being written: once its temporary file appears
+        deadline = time.monotonic() + 10 * took + 30
+        while p.poll() is None and time.monotonic() < deadline:
+            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
+                break
+            time.sleep(0.005)
+        time.sleep(extra)
+        p.send_signal(signal.SIGKILL)
+        p.wait()
+        assert intact()
+        for name in os.listdir(tmp_path):
+            assert name in ("in.wav", "out.wav") or ".tmp-scalesieve-" in name
+            torn_temporaries += ".tmp-scalesieve-" in name
+    assert torn_temporaries >= 1                       # some kills did land mid-write
+    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
+    assert intact() and out.read_bytes() != old
+    assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+
+
+def test_one_channel_and_a_wrong_rate_in_blocks(tmp_path):
+    src = tmp_path / "in.wav"
+    _recording(src, n=30_001, channels=2)
+    edits = [Edit("gain", levels=(1,), gain=0.0)]
+    a, b = tmp_path / "a.wav", tmp_path / "b.wav"
+    clean_file(str(src), str(a), edits=edits, channel=1, subtype="DOUBLE")
+    res = clean_stream(str(src), str(b), edits=edits, channel=1, subtype="DOUBLE")
+    assert res["channels"] == 1
+    np.testing.assert_allclose(sf.read(b)[0], sf.read(a)[0], rtol=0, atol=1e-12)
+    with pytest.raises(ScalesieveError, match="header says 8000 Hz; --rate 44100 does not"):
+        clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, rate=44100)
+    with pytest.raises(ScalesieveError, match="channel"):
+        clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, channel=5)
+    assert not (tmp_path / "c.wav").exists()

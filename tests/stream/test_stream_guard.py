@@ -1,0 +1,70 @@
+"""The memory guard's choice: blocks when the whole array would pass the budget, and why not."""
+
+import numpy as np
+import pytest
+import soundfile as sf
+
+from scalesieve import memory_guard
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.errors import ScalesieveError
+
+
+@pytest.fixture
+def wav(tmp_path):
+    path = tmp_path / "long.wav"
+    sf.write(path, np.zeros((200_000, 2)), 8000, subtype="PCM_16")
+    return path
+
+
+def test_a_recording_past_the_budget_is_cleaned_in_blocks_and_says_what_that_costs(
+        wav, monkeypatch):
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 20)
+    facts = memory_guard.check(wav, transform=TransformSpec(), outputs=["out.wav"],
+                               available=8 << 30)
+    assert facts["in_blocks"]["bytes"] > 0
+    # the whole-array estimate is still given beside it
+    assert facts["needed_bytes"] > (1 << 20)
+    # the same file within the budget: no blocks
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 40)
+    assert "in_blocks" not in memory_guard.check(wav, transform=TransformSpec(),
+                                                 outputs=["out.wav"], available=8 << 30)
+
+
+def test_too_long_for_memory_but_fine_in_blocks_is_not_refused(wav, monkeypatch):
+    import scalesieve.io.readers as readers
+
+    real = readers.probe(wav)
+    # a header of a day at 51.2 kHz on two channels: 4.4 G frames
+    monkeypatch.setattr(readers, "probe", lambda path: dict(real, frames=4_423_680_000,
+                                                                  frames_at_most=4_423_680_000))
+    facts = memory_guard.check(wav, transform=TransformSpec(), outputs=["out.wav"],
+                               available=2 << 30)
+    assert facts["needed_bytes"] > 100 * (2 << 30) > facts["in_blocks"]["bytes"]
+    with pytest.raises(ScalesieveError, match="even in blocks"):
+        memory_guard.check(wav, transform=TransformSpec(), outputs=["out.wav"],
+                           available=100 << 20)
+    # without outputs (a caller that cannot work in blocks) it is refused as before
+    with pytest.raises(ScalesieveError, match="needs about"):
+        memory_guard.check(wav, transform=TransformSpec(), available=2 << 30)
+
+
+@pytest.mark.parametrize("spec,why", [
+    (TransformSpec(kind="swt"), "SWT keeps every level"),
+    (TransformSpec(mode="periodization"), "reads the far end")])
+def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, why):
+    with pytest.raises(ScalesieveError, match=why):
+        memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20)
+
+
+def test_blocks_cannot_take_text_tables_or_csv_outputs(wav, tmp_path):
+    facts = memory_guard.probe_quietly(wav)
+    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.csv"],
+                                     available=1)
+    assert not ok and "only audio outputs" in why
+    ok, why = memory_guard.in_blocks(dict(facts, kind="text"), transform=TransformSpec(),
+                                     outputs=["o.wav"], available=1)
+    assert not ok and "only audio files" in why
+    # events take the SWT in blocks
+    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(kind="swt"), outputs=(),
+                                     available=1, swt=True)
+    assert ok and why is None
