@@ -242,9 +242,17 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
 
     meta: dict = {"format_info": info.format_info, "subtype_info": info.subtype_info,
                   "file_channels": int(info.channels), "filled_gaps": 0}
-    if samples.shape[0] < info.frames:
-        meta["header_frames"] = int(info.frames)
+    warns: list[str] = []
+    declared = int(info.frames)
+    if info.format in ("WAV", "WAVEX", "RF64"):
+        from scalesieve.io.wav_header import declared_frames
+
+        declared = max(declared, declared_frames(source) or 0)
+    if samples.shape[0] < declared:
+        meta["header_frames"] = declared
         meta["truncated"] = True
+        warns.append(f"the header declares {declared} frames but the file holds "
+                     f"{samples.shape[0]}; the recording is incomplete (read what is there)")
     if pick is not None:
         meta["channel_index"] = pick
 
@@ -280,7 +288,7 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
     if pick is not None:
         names = [names[pick]]
     return Recording(samples, file_rate, names, source=source, format=info.format,
-                     subtype=info.subtype, meta=meta)
+                     subtype=info.subtype, meta=meta, warnings=tuple(warns))
 
 
 def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
