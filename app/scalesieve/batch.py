@@ -63,8 +63,9 @@ _GLOB_CHARS = set("*?[")
 def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
                transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
                removed: str | None = None, subtype: str | None = None, force: bool = False,
-               rate: float | None = None, channel: int | None = None,
-               fill_gaps: str | None = None, progress=None) -> dict:
+               rate: float | None = None, channel: int | str | None = None,
+               fill_gaps: str | None = None, progress=None, group: str | None = None,
+               dataset: str | None = None) -> dict:
     """Read ``input_path``, apply the recipe and edits, write the cleaned signal.
 
     This is the body of ``scalesieve clean``; the batch calls it for every
@@ -108,7 +109,8 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         raise ScalesieveError("-o and --removed name the same file", output)
     for out in outputs:
         api.check_target(out, force, [input_path])
-    rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps)
+    rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps, group=group,
+                   dataset=dataset)
     model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits),
                             progress=progress)
     reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
@@ -133,6 +135,7 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         "outputs": reports,
         "clipped": int(sum(int(r.get("clipped") or 0) for r in reports)),
         "energy_removed_fraction": removed_energy / total if total > 0 else 0.0,
+        "warnings": list(rec.warnings),
     }
 
 

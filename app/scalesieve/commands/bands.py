@@ -27,6 +27,8 @@ def band_report(model, file_label: str) -> dict:
         "transform": model.spec.to_json(),
         "channels": [{"index": k, "name": rec.channel_names[k], "bands": model.band_table(k)}
                      for k in range(rec.channels)],
+        "start_time": rec.start_time.isoformat() if rec.start_time is not None else None,
+        "warnings": list(rec.warnings),
     }
 
 

@@ -106,6 +106,21 @@ def levels_from(text: str, spec, n: int):
         raise ScalesieveError(f"--levels: {exc}") from None
 
 
+#: clock columns beside the seconds when the recording has its own clock
+CLOCK_FIELDS = ("start_clock", "stop_clock", "peak_clock")
+
+
+def event_rows(recording, events) -> list[dict]:
+    """Events as dicts; with the recording's clock, its ISO 8601 times beside the seconds."""
+    rows = [e.to_json() for e in events]
+    if recording.start_time is not None:
+        for row in rows:
+            for field in CLOCK_FIELDS:
+                at = recording.clock_at(row[field.replace("_clock", "_s")])
+                row[field] = at.isoformat(timespec="microseconds")
+    return rows
+
+
 def events_report(recording, spec, levels, k, events, noise, file_label: str) -> dict:
     """The ``events --json`` document (shared/CONTRACT.md, plus compatible keys)."""
     from scalesieve.core.events import repetition_by_channel
@@ -117,7 +132,10 @@ def events_report(recording, spec, levels, k, events, noise, file_label: str) ->
         "levels": list(levels),
         "k": k,
         "noise": noise,
-        "events": [e.to_json() for e in events],
+        "events": event_rows(recording, events),
+        "start_time": (recording.start_time.isoformat()
+                       if recording.start_time is not None else None),
+        "warnings": list(recording.warnings),
         "samples": recording.n,
         "duration_s": recording.duration_s,
         "transform": spec.to_json(),
@@ -183,8 +201,9 @@ def run(args) -> int:
     events, noise = ev.detect_channels(prepared, rec.channel, rec.rate, args.k)
     report = events_report(rec, spec, levels, args.k, events, noise, os.path.basename(args.file))
     if args.csv:
-        write_table_csv(args.csv, [e.to_json() for e in events], force=args.force,
-                        fieldnames=ev.FIELDS, protect=[args.file])
+        fields = ev.FIELDS + (CLOCK_FIELDS if rec.start_time is not None else ())
+        write_table_csv(args.csv, event_rows(rec, events), force=args.force,
+                        fieldnames=fields, protect=[args.file])
     if args.json:
         json.dump(report, sys.stdout)
         sys.stdout.write("\n")

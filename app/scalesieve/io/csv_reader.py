@@ -567,10 +567,24 @@ def check_rate(rate, source: str | None = None) -> float | None:
     return r
 
 
-def check_channel(channel, count: int, source: str | None = None) -> int | None:
-    """Validate a 0-based channel index against ``count`` channels."""
+def check_channel(channel, count: int, source: str | None = None,
+                  names: list[str] | None = None) -> int | None:
+    """Validate a 0-based channel index (or, given ``names``, a channel's name)."""
     if channel is None:
         return None
+    if isinstance(channel, str) and not channel.strip().isdigit():
+        wanted = channel.strip()
+        if names is not None:
+            for rule in (lambda n: n == wanted, lambda n: n.lower() == wanted.lower(),
+                         lambda n: n.split(" [")[0].lower() == wanted.lower()):
+                hits = [k for k, n in enumerate(names) if rule(n)]
+                if len(hits) == 1:
+                    return hits[0]
+        listed = ", ".join(repr(n) for n in (names or [])[:12])
+        raise ScalesieveError(
+            f"--channel {wanted!r} names no channel; the file's channels are {listed}"
+            if names else f"--channel must be a 0-based channel number or a channel's name, "
+            f"got {channel!r}", source=source)
     if isinstance(channel, bool):
         raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
                               source=source)
@@ -594,7 +608,7 @@ def _time_axis_rate(t: np.ndarray, line_of, source: str) -> float:
 
 def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
               channel: int | None = None, fill_gaps: str | None = None,
-              dtype=np.float64, _bulk: bool = True) -> Recording:
+              dtype=np.float64, _bulk: bool = True, _text: str | None = None) -> Recording:
     """Read a numeric text table into a :class:`Recording`.
 
     Parameters
@@ -637,7 +651,10 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
     except ValueError as exc:
         raise ScalesieveError(str(exc), source=source) from None
     rate = check_rate(rate, source)
-    source, text, encoding = read_text_file(path)
+    if _text is None:
+        source, text, encoding = read_text_file(path)
+    else:
+        text, encoding = _text, "utf-8"  # a spreadsheet's sheet, already text
     layout = scan_layout(text, source, encoding)
     try:
         values, linenos = parse_values(text, layout, source, bulk=_bulk)
@@ -727,7 +744,7 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
     units = [_unit_of(n) for n in names]
 
     count = samples.shape[1]
-    pick = check_channel(channel, count, source)
+    pick = check_channel(channel, count, source, names)
     if pick is not None:
         samples = samples[:, pick:pick + 1]
         names = [names[pick]]

@@ -1,0 +1,641 @@
+"""Measurement formats, each read through its own library (the ``formats`` extra).
+
+TDMS (npTDMS), EDF/BDF (edfio), MATLAB ``.mat`` v5 (scipy.io) and v7.3 (h5py),
+HDF5 (h5py), ASAM MDF 4 (asammdf) and Excel ``.xlsx`` (openpyxl, its first
+sheet read as a text table). Channel names and units come from the file, the
+rate where the format stores it, else ``--rate``.
+
+Each format opens as a :class:`Source`: names, units, rate, ``frames`` and
+``read(start, stop)``, so the facts (for the memory guard) come without the
+samples, and a span can be read where the format allows it cheaply (TDMS,
+HDF5 slice on disk; the others read whole and cut).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import warnings
+from dataclasses import dataclass, field
+from datetime import datetime, timedelta, timezone
+
+import numpy as np
+
+from scalesieve.errors import ScalesieveError
+
+#: Extension -> format name, for files whose content does not say.
+EXTENSIONS = {".tdms": "tdms", ".edf": "edf", ".bdf": "bdf", ".mat": "mat", ".h5": "hdf5",
+              ".hdf5": "hdf5", ".hdf": "hdf5", ".he5": "hdf5", ".mf4": "mdf", ".mdf": "mdf",
+              ".xlsx": "xlsx", ".xlsm": "xlsx"}
+
+#: What each format is called in messages, and the library that reads it.
+NAMES = {"tdms": ("TDMS", "npTDMS", "nptdms"), "edf": ("EDF", "edfio", "edfio"),
+         "bdf": ("BDF", "edfio", "edfio"), "mat": ("MATLAB", "scipy", "scipy.io"),
+         "mat73": ("MATLAB v7.3", "h5py", "h5py"), "hdf5": ("HDF5", "h5py", "h5py"),
+         "mdf": ("ASAM MDF", "asammdf", "asammdf"), "xlsx": ("Excel", "openpyxl", "openpyxl")}
+
+#: Names of a scalar that gives the rate in Hz (case-insensitive).
+RATE_NAMES = ("fs", "rate", "sample_rate", "samplerate", "sampling_rate")
+
+_HDF5_MAGIC = b"\x89HDF\r\n\x1a\n"
+
+
+def kind_of(head: bytes, ext: str) -> str | None:
+    """The measurement format a file's first bytes (then its extension) name, else None."""
+    if head.startswith(b"TDSm"):
+        return "tdms"
+    if head.startswith(_HDF5_MAGIC):
+        return "hdf5"
+    if head.startswith(b"MATLAB 7.3 MAT-file"):
+        return "mat73"
+    if head.startswith(b"MDF     ") or head.startswith(b"UnFinMF "):
+        return "mdf"
+    if head.startswith(b"\xffBIOSEMI"):
+        return "bdf"
+    if head.startswith(b"0       ") and len(head) >= 256 and ext in (".edf", ".rec", ""):
+        return "edf"
+    kind = EXTENSIONS.get(ext)
+    if kind == "mat" and head.startswith(b"MATLAB 5.0 MAT-file"):
+        return "mat"
+    return kind
+
+
+def _library(kind: str, source: str):
+    """Import the library for ``kind``; a missing one is one line naming the extra."""
+    import importlib
+
+    label, package, module = NAMES[kind]
+    try:
+        return importlib.import_module(module)
+    except ImportError:
+        raise ScalesieveError(
+            f"reading {label} files needs the {package} package; install it with "
+            "pip install 'scalesieve[formats]'", source=source) from None
+
+
+@dataclass
+class Source:
+    """A recording in a measurement file, its facts known before its samples."""
+
+    names: list[str]
+    units: list[str]
+    rate: float | None
+    frames: int
+    reader: object                     # callable (start, stop, columns) -> (n, k) array
+    start_time: datetime | None = None
+    warnings: list[str] = field(default_factory=list)
+    format: str = ""
+    detail: dict = field(default_factory=dict)
+
+    def read(self, start: int = 0, stop: int | None = None,
+             columns: list[int] | None = None) -> np.ndarray:
+        stop = self.frames if stop is None else stop
+        cols = list(range(len(self.names))) if columns is None else list(columns)
+        return self.reader(start, stop, cols)
+
+
+def _float_array(a, what: str, source: str) -> np.ndarray:
+    arr = np.asarray(a)
+    if arr.dtype.kind == "b":
+        arr = arr.astype(np.float64)
+    if arr.dtype.kind not in "iuf":
+        raise ScalesieveError(f"{what} holds {arr.dtype.name} values, not numbers",
+                              source=source)
+    return arr
+
+
+def _rate_near_whole(rate: float) -> float:
+    if abs(rate - round(rate)) <= 1e-9 * rate:
+        return float(round(rate))
+    return float(rate)
+
+
+def _choose(candidates: list[str], wanted: str | None, option: str, what: str,
+            source: str) -> str:
+    """The candidate ``wanted`` names, the only one, or an error listing them."""
+    if wanted is not None:
+        if wanted in candidates:
+            return wanted
+        low = [c for c in candidates if c.lower() == wanted.lower()]
+        if len(low) == 1:
+            return low[0]
+        listed = ", ".join(repr(c) for c in candidates) or "none"
+        raise ScalesieveError(f"{option} {wanted!r} is not in the file; its {what}: {listed}",
+                              source=source)
+    if len(candidates) == 1:
+        return candidates[0]
+    listed = ", ".join(repr(c) for c in candidates[:12])
+    more = f" and {len(candidates) - 12} more" if len(candidates) > 12 else ""
+    raise ScalesieveError(f"holds {len(candidates)} {what} ({listed}{more}); choose one "
+                          f"with {option} NAME", source=source)
+
+
+# ---------------------------------------------------------------------------- TDMS
+
+def _tdms(source: str, group: str | None, dataset: str | None) -> Source:
+    nptdms = _library("tdms", source)
+    try:
+        f = nptdms.TdmsFile.read_metadata(source)
+    except Exception as exc:  # npTDMS raises many kinds on damaged files
+        raise ScalesieveError(f"is not a readable TDMS file ({_reason(exc)})",
+                              source=source) from None
+    groups = [g for g in f.groups()]
+    with_data = [g.name for g in groups if any(len(c) > 0 for c in g.channels())]
+    if not with_data:
+        empty = ", ".join(repr(g.name) for g in groups) or "none"
+        raise ScalesieveError(f"holds no channel with samples (groups: {empty})",
+                              source=source)
+    name = _choose(with_data, group, "--group", "groups with samples", source)
+    g = f[name]
+    chans = [c for c in g.channels() if len(c) > 0]
+    numeric = [c for c in chans if np.dtype(c.dtype).kind in "iufb"] if all(
+        getattr(c, "dtype", None) is not None for c in chans) else chans
+    if not numeric:
+        raise ScalesieveError(f"group {name!r} holds no numeric channel", source=source)
+    lengths = {len(c) for c in numeric}
+    incs = {float(c.properties.get("wf_increment", 0) or 0) for c in numeric}
+    if len(lengths) > 1 or len(incs) > 1:
+        parts = ", ".join(f"{c.name!r} ({len(c)} samples"
+                          + (f", {1 / float(c.properties['wf_increment']):g} Hz"
+                             if c.properties.get("wf_increment") else "") + ")"
+                          for c in numeric)
+        raise ScalesieveError(f"group {name!r} holds channels of different lengths or rates: "
+                              f"{parts}; choose one with --channel NAME", source=source)
+    inc = incs.pop()
+    rate = _rate_near_whole(1.0 / inc) if inc > 0 else None
+    start = numeric[0].properties.get("wf_start_time")
+    start_time = None
+    if start is not None:
+        try:
+            # npTDMS gives UTC as numpy datetime64
+            start_time = (datetime(1970, 1, 1, tzinfo=timezone.utc)
+                          + timedelta(microseconds=int(np.datetime64(start, "us").astype(
+                              np.int64))))
+        except (TypeError, ValueError, OverflowError):
+            start_time = None
+    names = [c.name for c in numeric]
+    units = [str(c.properties.get("unit_string", "") or "") for c in numeric]
+
+    def read(a: int, b: int, cols: list[int]) -> np.ndarray:
+        out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
+        with nptdms.TdmsFile.open(source) as fh:
+            grp = fh[name]
+            for j, k in enumerate(cols):
+                out[:, j] = grp[names[k]][a:b]
+        return out
+
+    return Source(names, units, rate, lengths.pop(), read, start_time, format="TDMS",
+                  detail={"group": name})
+
+
+# ------------------------------------------------------------------------- EDF/BDF
+
+def _edf(source: str, kind: str, channel) -> Source:
+    edfio = _library(kind, source)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            edf = edfio.read_bdf(source) if kind == "bdf" else edfio.read_edf(source)
+    except Exception as exc:  # edfio raises ValueError and others on damaged headers
+        raise ScalesieveError(f"is not a readable {NAMES[kind][0]} file ({_reason(exc)})",
+                              source=source) from None
+    signals = list(edf.signals)
+    if not signals:
+        notes = len(edf.annotations)
+        raise ScalesieveError(f"holds annotations only ({notes} annotation"
+                              f"{'' if notes == 1 else 's'}) and no signal to analyse",
+                              source=source)
+    names = [s.label.strip() or f"ch{k}" for k, s in enumerate(signals)]
+    units = [s.physical_dimension.strip() for s in signals]
+    rates = [float(s.sampling_frequency) for s in signals]
+    detail: dict = {"rates": rates}
+    if len(set(rates)) > 1:
+        # Signals at other rates need --channel: choose first, then check the rest agree.
+        detail["mixed_rates"] = True
+    try:
+        start_time = edf.startdatetime
+    except Exception:  # anonymised or damaged dates
+        start_time = None
+
+    def read(a: int, b: int, cols: list[int]) -> np.ndarray:
+        return np.column_stack([np.asarray(signals[k].data, dtype=np.float64)[a:b]
+                                for k in cols]) if cols else np.empty((b - a, 0))
+
+    # at mixed rates the reader takes the chosen channel's own length
+    frames = min(len(s.data) for s in signals)
+    src = Source(names, units, rates[0], frames, read, start_time, format=NAMES[kind][0],
+                 detail=detail)
+    src.detail["lengths"] = [len(s.data) for s in signals]
+    return src
+
+
+# --------------------------------------------------------------------- HDF5 / MAT
+
+def _hdf5_rate(obj, f) -> float | None:
+    for holder in (obj, obj.parent, f):
+        for key, value in holder.attrs.items():
+            if key.lower() in RATE_NAMES:
+                try:
+                    v = float(np.asarray(value).ravel()[0])
+                except (TypeError, ValueError, IndexError):
+                    continue
+                if v > 0 and np.isfinite(v):
+                    return v
+    for key in f.keys():
+        if key.lower() in RATE_NAMES:
+            try:
+                v = float(np.asarray(f[key][()]).ravel()[0])
+            except (TypeError, ValueError, IndexError, AttributeError):
+                continue
+            if v > 0 and np.isfinite(v):
+                return v
+    return None
+
+
+def _text_attr(obj, *keys) -> str | None:
+    for key in keys:
+        if key in obj.attrs:
+            v = obj.attrs[key]
+            if isinstance(v, bytes):
+                return v.decode("utf-8", "replace")
+            if isinstance(v, str):
+                return v
+            arr = np.asarray(v)
+            if arr.size == 1:
+                item = arr.ravel()[0]
+                return item.decode("utf-8", "replace") if isinstance(item, bytes) else str(item)
+    return None
+
+
+def _hdf5(source: str, dataset: str | None, matlab: bool) -> Source:
+    h5py = _library("hdf5", source)
+    try:
+        f = h5py.File(source, "r")
+    except Exception as exc:  # h5py raises OSError with HDF5's own words
+        raise ScalesieveError(f"is not a readable HDF5 file ({_reason(exc)})",
+                              source=source) from None
+    found: dict[str, object] = {}
+    refused: list[str] = []
+    empty: list[str] = []
+
+    def visit(name, obj):
+        if isinstance(obj, h5py.Group):
+            if len(obj) == 0:
+                empty.append("/" + name)
+            return
+        if not isinstance(obj, h5py.Dataset) or any(p.startswith("#") for p in name.split("/")):
+            return
+        if name.split("/")[-1].lower() in RATE_NAMES or obj.shape is None:
+            return
+        if obj.dtype.kind not in "iufb":
+            refused.append(f"{name!r} ({obj.dtype.kind == 'S' and 'text' or obj.dtype.name})")
+            return
+        if matlab and _text_attr(obj, "MATLAB_class") in ("char", "logical", "cell"):
+            refused.append(f"{name!r} ({_text_attr(obj, 'MATLAB_class')})")
+            return
+        if obj.ndim > 2:
+            refused.append(f"{name!r} ({obj.ndim}-D, shape {'x'.join(map(str, obj.shape))})")
+            return
+        if obj.size < 2:
+            return
+        found[name] = obj
+
+    try:
+        f.visititems(visit)
+        target = None if dataset is None else dataset.strip("/")
+        if target is not None and target not in found and target in f \
+                and isinstance(f[target], h5py.Dataset):
+            raise ScalesieveError(f"dataset {dataset!r} is not a 1-D or 2-D array of numbers",
+                                  source=source)
+        if not found:
+            bits = []
+            if refused:
+                bits.append("not usable: " + ", ".join(refused[:6]))
+            if empty:
+                bits.append("empty groups: " + ", ".join(empty[:6]))
+            raise ScalesieveError("holds no 1-D or 2-D array of numbers to analyse"
+                                  + (f" ({'; '.join(bits)})" if bits else ""), source=source)
+        what = "numeric variables" if matlab else "numeric datasets"
+        name = _choose(sorted(found), target, "--dataset", what, source)
+        obj = found[name]
+        rate = _hdf5_rate(obj, f)
+        shape = obj.shape
+        # MATLAB stores column-major: a (samples x channels) variable lands transposed.
+        if obj.ndim == 1:
+            frames, width, time_axis = shape[0], 1, 0
+        else:
+            time_axis = 0 if shape[0] >= shape[1] else 1
+            frames, width = shape[time_axis], shape[1 - time_axis]
+        short = name.split("/")[-1]
+        labels = obj.attrs.get("channel_names") if not matlab else None
+        if labels is not None and len(labels) == width:
+            names = [x.decode() if isinstance(x, bytes) else str(x) for x in labels]
+        else:
+            names = [short] if width == 1 else [f"{short}[{k}]" for k in range(width)]
+        unit = _text_attr(obj, "unit", "units") or ""
+    finally:
+        f.close()
+
+    def read(a: int, b: int, cols: list[int]) -> np.ndarray:
+        with h5py.File(source, "r") as fh:
+            d = fh[name]
+            if d.ndim == 1:
+                block = d[a:b][:, None]
+            elif time_axis == 0:
+                block = d[a:b, :]
+            else:
+                block = d[:, a:b].T
+        return np.asarray(block, dtype=np.float64)[:, cols]
+
+    return Source(names, [unit] * width, rate, int(frames), read,
+                  format="MATLAB v7.3" if matlab else "HDF5", detail={"dataset": name})
+
+
+def _mat5(source: str, dataset: str | None) -> Source:
+    sio = _library("mat", source)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            data = sio.loadmat(source, squeeze_me=False, mat_dtype=False)
+    except NotImplementedError:
+        # scipy points v7.3 files to HDF5 readers
+        return _hdf5(source, dataset, matlab=True)
+    except Exception as exc:  # scipy raises ValueError, TypeError, MatReadError...
+        raise ScalesieveError(f"is not a readable MATLAB file ({_reason(exc)})",
+                              source=source) from None
+    variables = {k: v for k, v in data.items() if not k.startswith("__")}
+    rate = None
+    for k, v in variables.items():
+        if k.lower() in RATE_NAMES:
+            arr = np.asarray(v)
+            if arr.dtype.kind in "iuf" and arr.size == 1:
+                rate = float(arr.ravel()[0])
+    found, refused = {}, []
+    for k, v in variables.items():
+        if k.lower() in RATE_NAMES:
+            continue
+        arr = np.asarray(v)
+        if arr.dtype.kind not in "iufb":
+            refused.append(f"{k!r} ({'text' if arr.dtype.kind in 'US' else 'not numbers'})")
+            continue
+        if arr.ndim > 2:
+            refused.append(f"{k!r} ({arr.ndim}-D, shape {'x'.join(map(str, arr.shape))})")
+            continue
+        if arr.size < 2:
+            continue
+        found[k] = arr
+    if dataset is not None and dataset in variables and dataset not in found:
+        raise ScalesieveError(f"variable {dataset!r} is not a 1-D or 2-D array of numbers",
+                              source=source)
+    if not found:
+        extra = f" (not usable: {', '.join(refused[:6])})" if refused else ""
+        raise ScalesieveError(f"holds no 1-D or 2-D numeric variable to analyse{extra}",
+                              source=source)
+    name = _choose(sorted(found), dataset, "--dataset", "numeric variables", source)
+    arr = found[name]
+    if arr.ndim == 2 and arr.shape[0] < arr.shape[1]:
+        arr = arr.T
+    arr = arr.reshape(arr.shape[0], -1).astype(np.float64)
+    width = arr.shape[1]
+    names = [name] if width == 1 else [f"{name}[{k}]" for k in range(width)]
+
+    def read(a: int, b: int, cols: list[int]) -> np.ndarray:
+        return arr[a:b, cols]
+
+    return Source(names, [""] * width, rate, arr.shape[0], read, format="MATLAB",
+                  detail={"dataset": name})
+
+
+# ---------------------------------------------------------------------------- MDF
+
+def _mdf(source: str, group: str | None) -> Source:
+    asammdf = _library("mdf", source)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            mdf = asammdf.MDF(source)
+    except Exception as exc:  # asammdf raises many kinds on damaged files
+        raise ScalesieveError(f"is not a readable MDF file ({_reason(exc)})",
+                              source=source) from None
+    try:
+        groups = []
+        for gi, g in enumerate(mdf.groups):
+            chans = [(ci, c) for ci, c in enumerate(g.channels) if c.channel_type != 2
+                     and getattr(c, "component_addr", 0) == 0 and c.name]
+            cycles = int(g.channel_group.cycles_nr)
+            if chans and cycles > 0:
+                label = (getattr(g.channel_group, "acq_name", "") or "").strip() or str(gi)
+                groups.append((gi, label, cycles, chans))
+        if not groups:
+            raise ScalesieveError("holds no channel group with samples", source=source)
+        if group is None and len(groups) > 1:
+            parts = "; ".join(f"{label!r} ({', '.join(c.name for _, c in chans[:4])}"
+                              f"{', ...' if len(chans) > 4 else ''}; {cycles} samples)"
+                              for _, label, cycles, chans in groups)
+            raise ScalesieveError(f"holds {len(groups)} channel groups on different time "
+                                  f"bases: {parts}; choose one with --group NAME or number",
+                                  source=source)
+        if group is None:
+            chosen = groups[0]
+        else:
+            chosen = next((x for x in groups if x[1] == group or str(x[0]) == group), None)
+            if chosen is None:
+                listed = ", ".join(f"{label!r} ({gi})" for gi, label, _, _ in groups)
+                raise ScalesieveError(f"--group {group!r} is not in the file; its channel "
+                                      f"groups: {listed}", source=source)
+        gi, label, cycles, chans = chosen
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            sigs = [mdf.get(group=gi, index=ci) for ci, _ in chans]
+        t = np.asarray(sigs[0].timestamps, dtype=np.float64)
+        columns, names, units = [], [], []
+        for s in sigs:
+            arr = np.asarray(s.samples)
+            if arr.ndim != 1 or arr.dtype.kind not in "iufb":
+                continue
+            columns.append(arr.astype(np.float64))
+            names.append(s.name)
+            units.append(str(s.unit or ""))
+        if not columns:
+            raise ScalesieveError(f"channel group {label!r} holds no numeric channel",
+                                  source=source)
+        try:
+            start_time = mdf.header.start_time
+        except Exception:  # a header without a usable time stamp
+            start_time = None
+    finally:
+        mdf.close()
+    rate = None
+    if t.size >= 2:
+        from scalesieve.io import time_column as tc
+
+        rate = tc.analyse_steps(t - t[0], lambda i: None, source).rate
+        if start_time is not None and t[0] != 0:
+            start_time = start_time + timedelta(seconds=float(t[0]))
+    data = np.column_stack(columns)
+
+    def read(a: int, b: int, cols: list[int]) -> np.ndarray:
+        return data[a:b, cols]
+
+    return Source(names, units, rate, data.shape[0], read, start_time, format="MDF",
+                  detail={"group": label})
+
+
+# --------------------------------------------------------------------------- xlsx
+
+def xlsx_as_text(source: str) -> str:
+    """The first sheet of a workbook as tab-separated text (dates as ISO 8601)."""
+    openpyxl = _library("xlsx", source)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            wb = openpyxl.load_workbook(source, read_only=True, data_only=True)
+    except Exception as exc:  # zip, XML and openpyxl errors alike
+        raise ScalesieveError(f"is not a readable Excel workbook ({_reason(exc)})",
+                              source=source) from None
+    try:
+        if not wb.worksheets:
+            raise ScalesieveError("holds no worksheet", source=source)
+        ws = wb.worksheets[0]
+        lines = []
+        for row in ws.iter_rows(values_only=True):
+            cells = []
+            for v in row:
+                if v is None:
+                    cells.append("")
+                elif isinstance(v, datetime):
+                    cells.append(v.isoformat(timespec="microseconds"))
+                elif isinstance(v, float):
+                    cells.append(repr(v))
+                else:
+                    cells.append(" ".join(str(v).split()))
+            while cells and cells[-1] == "":
+                cells.pop()
+            lines.append("\t".join(cells))
+    finally:
+        wb.close()
+    while lines and not lines[-1]:
+        lines.pop()
+    if not lines:
+        raise ScalesieveError("its first worksheet is empty", source=source)
+    return "\n".join(lines) + "\n"
+
+
+# --------------------------------------------------------------------------- public
+
+def _reason(exc: Exception) -> str:
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= 120 else text[:119] + "…"
+
+
+def open_source(source: str, kind: str, *, group: str | None = None,
+                dataset: str | None = None, channel=None) -> Source:
+    """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`)."""
+    try:
+        if kind == "tdms":
+            return _tdms(source, group, dataset)
+        if kind in ("edf", "bdf"):
+            return _edf(source, kind, channel)
+        if kind == "mat":
+            return _mat5(source, dataset)
+        if kind in ("mat73", "hdf5"):
+            return _hdf5(source, dataset, matlab=kind == "mat73")
+        if kind == "mdf":
+            return _mdf(source, group)
+    except ScalesieveError:
+        raise
+    except MemoryError:
+        raise ScalesieveError("is too large to load into memory", source=source) from None
+    except Exception as exc:  # a library's own failure on a damaged file: one line
+        raise ScalesieveError(f"could not be read as {NAMES[kind][0]} ({_reason(exc)})",
+                              source=source) from None
+    raise ValueError(f"unknown measurement format {kind!r}")  # pragma: no cover
+
+
+def _edf_header_facts(source: str) -> tuple[int, int, float | None]:
+    """(most samples of one signal, signals, its rate) from an EDF/BDF header alone."""
+    with open(source, "rb") as fh:
+        head = fh.read(256)
+        ns = int(head[252:256].decode("ascii", "replace").strip() or 0)
+        records = int(head[236:244].decode("ascii", "replace").strip() or -1)
+        duration = float(head[244:252].decode("ascii", "replace").strip() or 0)
+        labels = [fh.read(16).decode("latin-1").strip() for _ in range(ns)]
+        fh.seek(256 + ns * 208)
+        per = [int(fh.read(8).decode("ascii", "replace").strip() or 0) for _ in range(ns)]
+    keep = [p for p, lab in zip(per, labels) if "annotations" not in lab.lower()]
+    if records < 0:  # unknown count: the file size tells
+        size = os.path.getsize(source)
+        width = 3 if head.startswith(b"\xff") else 2
+        records = max(0, (size - 256 * (ns + 1)) // max(1, width * sum(per)))
+    most = max(keep) if keep else 0
+    return records * most, len(keep), (most / duration if duration > 0 and most else None)
+
+
+def probe_facts(source: str, kind: str) -> dict:
+    """Frames, channels and rate of a measurement file without reading its samples.
+
+    Raises ScalesieveError when the file cannot be opened (or its library is missing).
+    """
+    frames, names, rate = 0, [], None
+    try:
+        if kind == "tdms":
+            nptdms = _library(kind, source)
+            f = nptdms.TdmsFile.read_metadata(source)
+            best = max(f.groups(), key=lambda g: sum(len(c) for c in g.channels()),
+                       default=None)
+            if best is not None:
+                chans = [c for c in best.channels() if len(c) > 0]
+                frames = max((len(c) for c in chans), default=0)
+                names = [c.name for c in chans]
+                inc = chans[0].properties.get("wf_increment") if chans else None
+                rate = 1.0 / float(inc) if inc else None
+        elif kind in ("hdf5", "mat73"):
+            h5py = _library("hdf5", source)
+            shapes = []
+            with h5py.File(source, "r") as f:
+                f.visititems(lambda n, o: shapes.append((n, o.shape)) if isinstance(
+                    o, h5py.Dataset) and o.shape and o.dtype.kind in "iufb" else None)
+            if shapes:
+                n, shape = max(shapes, key=lambda x: int(np.prod(x[1])))
+                frames = max(shape)
+                width = int(np.prod(shape)) // max(1, frames)
+                names = [f"{n}[{k}]" for k in range(width)]
+        elif kind == "mat":
+            sio = _library(kind, source)
+            found = [(n, shape) for n, shape, cls in sio.whosmat(source)
+                     if cls not in ("char", "cell", "struct", "logical") and len(shape) <= 2]
+            if found:
+                n, shape = max(found, key=lambda x: int(np.prod(x[1])))
+                frames = max(shape)
+                names = [f"{n}[{k}]" for k in range(int(np.prod(shape)) // max(1, frames))]
+        elif kind in ("edf", "bdf"):
+            frames, count, rate = _edf_header_facts(source)
+            names = [f"ch{k}" for k in range(count)]
+        elif kind == "mdf":
+            asammdf = _library(kind, source)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                mdf = asammdf.MDF(source)
+            try:
+                for g in mdf.groups:
+                    if int(g.channel_group.cycles_nr) > frames:
+                        frames = int(g.channel_group.cycles_nr)
+                        names = [c.name for c in g.channels if c.channel_type != 2]
+            finally:
+                mdf.close()
+        elif kind == "xlsx":
+            openpyxl = _library(kind, source)
+            wb = openpyxl.load_workbook(source, read_only=True)
+            try:
+                ws = wb.worksheets[0]
+                frames = int(ws.max_row or 0)
+                names = [f"ch{k}" for k in range(int(ws.max_column or 1))]
+            finally:
+                wb.close()
+    except ScalesieveError:
+        raise
+    except Exception as exc:  # the reader will say what is wrong in its own words
+        raise ScalesieveError(f"could not be probed as {NAMES[kind][0]} ({_reason(exc)})",
+                              source=source) from None
+    return {"frames": int(frames), "channels": len(names), "channel_names": names,
+            "rate": rate, "format": NAMES[kind][0]}
