@@ -14,7 +14,11 @@ HDF5 slice on disk; the others read whole and cut).
 from __future__ import annotations
 
 import contextlib
+import gc
+import io
+import logging
 import os
+import sys
 import warnings
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta, timezone
@@ -58,6 +62,51 @@ def kind_of(head: bytes, ext: str) -> str | None:
     if kind == "mat" and head.startswith(b"MATLAB 5.0 MAT-file"):
         return "mat"
     return kind
+
+
+_LIBRARY_LOGGERS = ("nptdms", "asammdf", "edfio", "h5py", "openpyxl")
+
+
+class _Notes(logging.Handler):
+    """Collects what a library logs, so it reaches the user as our warnings, not as noise."""
+
+    def __init__(self):
+        super().__init__(logging.WARNING)
+        self.lines: list[str] = []
+
+    def emit(self, record):
+        text = " ".join(record.getMessage().split())
+        if text and text not in self.lines:
+            self.lines.append(text if len(text) <= 160 else text[:159] + "…")
+
+
+@contextlib.contextmanager
+def _quiet_libraries():
+    """Library log lines and Python warnings gathered instead of printed."""
+    notes = _Notes()
+    saved = []
+    # npTDMS hangs a console handler on each of its module loggers: take them all.
+    names = set(_LIBRARY_LOGGERS) | {
+        n for n in list(logging.root.manager.loggerDict)
+        if n.split(".")[0] in _LIBRARY_LOGGERS}
+    for name in sorted(names):
+        log = logging.getLogger(name)
+        saved.append((log, log.propagate, list(log.handlers)))
+        log.handlers = [notes]
+        log.propagate = False
+    hook = sys.unraisablehook
+    # asammdf's __del__ fails on an object whose opening failed; that is no news to the user
+    sys.unraisablehook = lambda unraisable: None
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            yield notes
+    finally:
+        gc.collect()
+        sys.unraisablehook = hook
+        for log, propagate, handlers in saved:
+            log.handlers = handlers
+            log.propagate = propagate
 
 
 def _library(kind: str, source: str):
@@ -132,10 +181,28 @@ def _choose(candidates: list[str], wanted: str | None, option: str, what: str,
 
 # ---------------------------------------------------------------------------- TDMS
 
+class _CappedFile(io.FileIO):
+    """A file whose reads never ask for more than it holds.
+
+    A damaged length field makes a library call ``read(2**28)``; a plain file
+    allocates that much before finding the end, this one only what is left.
+    """
+
+    def __init__(self, path: str):
+        super().__init__(path, "rb")
+        self._size = os.fstat(self.fileno()).st_size
+
+    def read(self, size: int = -1) -> bytes:
+        if size is not None and size > 0:
+            size = min(size, max(0, self._size - self.tell()))
+        return super().read(size)
+
+
 def _tdms(source: str, group: str | None, dataset: str | None) -> Source:
     nptdms = _library("tdms", source)
     try:
-        f = nptdms.TdmsFile.read_metadata(source)
+        with _CappedFile(source) as fh:
+            f = nptdms.TdmsFile.read_metadata(fh)
     except Exception as exc:  # npTDMS raises many kinds on damaged files
         raise ScalesieveError(f"is not a readable TDMS file ({_reason(exc)})",
                               source=source) from None
@@ -178,7 +245,7 @@ def _tdms(source: str, group: str | None, dataset: str | None) -> Source:
 
     def read(a: int, b: int, cols: list[int]) -> np.ndarray:
         out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
-        with nptdms.TdmsFile.open(source) as fh:
+        with _CappedFile(source) as raw, nptdms.TdmsFile.open(raw) as fh:
             grp = fh[name]
             for j, k in enumerate(cols):
                 out[:, j] = grp[names[k]][a:b]
@@ -410,13 +477,14 @@ def _mat5(source: str, dataset: str | None) -> Source:
 
 def _mdf(source: str, group: str | None) -> Source:
     asammdf = _library("mdf", source)
+    reason = None
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            mdf = asammdf.MDF(source)
+        mdf = asammdf.MDF(source)
     except Exception as exc:  # asammdf raises many kinds on damaged files
-        raise ScalesieveError(f"is not a readable MDF file ({_reason(exc)})",
-                              source=source) from None
+        reason = _reason(exc)
+    if reason is not None:
+        gc.collect()  # the half-made object goes now, while its complaints are quietened
+        raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
     try:
         groups = []
         for gi, g in enumerate(mdf.groups):
@@ -531,17 +599,38 @@ def _reason(exc: Exception) -> str:
 def open_source(source: str, kind: str, *, group: str | None = None,
                 dataset: str | None = None, channel=None) -> Source:
     """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`)."""
+    _library(kind, source)  # imported first: its loggers must exist to be quietened
     try:
-        if kind == "tdms":
-            return _tdms(source, group, dataset)
-        if kind in ("edf", "bdf"):
-            return _edf(source, kind, channel)
-        if kind == "mat":
-            return _mat5(source, dataset)
-        if kind in ("mat73", "hdf5"):
-            return _hdf5(source, dataset, matlab=kind == "mat73")
-        if kind == "mdf":
-            return _mdf(source, group)
+        with _quiet_libraries() as notes:
+            if kind == "tdms":
+                src = _tdms(source, group, dataset)
+            elif kind in ("edf", "bdf"):
+                src = _edf(source, kind, channel)
+            elif kind == "mat":
+                src = _mat5(source, dataset)
+            elif kind in ("mat73", "hdf5"):
+                src = _hdf5(source, dataset, matlab=kind == "mat73")
+            elif kind == "mdf":
+                src = _mdf(source, group)
+            else:  # pragma: no cover - kind_of names only these
+                raise ValueError(f"unknown measurement format {kind!r}")
+        label = NAMES[kind][1]
+        src.warnings.extend(f"{label}: {line}" for line in notes.lines)
+        reader = src.reader
+
+        def quiet_reader(a, b, cols):
+            try:
+                with _quiet_libraries():
+                    return reader(a, b, cols)
+            except MemoryError:
+                raise ScalesieveError("is too large to load into memory",
+                                      source=source) from None
+            except Exception as exc:  # a damaged file's samples: one line
+                raise ScalesieveError(f"could not read the {NAMES[kind][0]} samples "
+                                      f"({_reason(exc)})", source=source) from None
+
+        src.reader = quiet_reader
+        return src
     except ScalesieveError:
         raise
     except MemoryError:
@@ -549,7 +638,6 @@ def open_source(source: str, kind: str, *, group: str | None = None,
     except Exception as exc:  # a library's own failure on a damaged file: one line
         raise ScalesieveError(f"could not be read as {NAMES[kind][0]} ({_reason(exc)})",
                               source=source) from None
-    raise ValueError(f"unknown measurement format {kind!r}")  # pragma: no cover
 
 
 def _edf_header_facts(source: str) -> tuple[int, int, float | None]:
@@ -577,10 +665,14 @@ def probe_facts(source: str, kind: str) -> dict:
     Raises ScalesieveError when the file cannot be opened (or its library is missing).
     """
     frames, names, rate = 0, [], None
+    _library(kind, source)
+    quiet = _quiet_libraries()
+    quiet.__enter__()
     try:
         if kind == "tdms":
             nptdms = _library(kind, source)
-            f = nptdms.TdmsFile.read_metadata(source)
+            with _CappedFile(source) as fh:
+                f = nptdms.TdmsFile.read_metadata(fh)
             best = max(f.groups(), key=lambda g: sum(len(c) for c in g.channels()),
                        default=None)
             if best is not None:
@@ -637,5 +729,7 @@ def probe_facts(source: str, kind: str) -> dict:
     except Exception as exc:  # the reader will say what is wrong in its own words
         raise ScalesieveError(f"could not be probed as {NAMES[kind][0]} ({_reason(exc)})",
                               source=source) from None
+    finally:
+        quiet.__exit__(None, None, None)
     return {"frames": int(frames), "channels": len(names), "channel_names": names,
             "rate": rate, "format": NAMES[kind][0]}
