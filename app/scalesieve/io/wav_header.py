@@ -11,6 +11,9 @@ import struct
 
 # Chunks walked before giving up (a damaged file may hold garbage sizes).
 _MOST_CHUNKS = 64
+# Format tags whose frames are a fixed number of bytes: PCM, IEEE float, A-law,
+# u-law, WAVE_FORMAT_EXTENSIBLE (Microsoft's WAVE format registration).
+_PLAIN_TAGS = (1, 3, 6, 7, 0xFFFE)
 
 
 def declared_frames(path: str) -> int | None:
@@ -38,9 +41,14 @@ def declared_frames(path: str) -> int | None:
                 (size,) = struct.unpack(end + "I", ch[4:])
                 if cid == b"fmt ":
                     body = fh.read(min(size, 64))
-                    if len(body) < 14:
+                    if len(body) < 16:
                         return None
-                    block_align = struct.unpack(end + "H", body[12:14])[0]
+                    tag, channels = struct.unpack(end + "HH", body[:4])
+                    bits = struct.unpack(end + "H", body[14:16])[0]
+                    if tag not in _PLAIN_TAGS:
+                        return None  # compressed: frames do not follow from bytes
+                    # from channels and sample width: some writers get block_align wrong
+                    block_align = channels * ((bits + 7) // 8)
                     fh.seek(size - len(body) + (size & 1), 1)
                 elif cid == b"ds64":
                     body = fh.read(min(size, 28))
