@@ -733,3 +733,83 @@ def probe_facts(source: str, kind: str) -> dict:
         quiet.__exit__(None, None, None)
     return {"frames": int(frames), "channels": len(names), "channel_names": names,
             "rate": rate, "format": NAMES[kind][0]}
+
+
+def contents(source: str, kind: str) -> tuple[str | None, dict[str, list[tuple[str, str, float | None]]]]:
+    """What a measurement file holds, for a window to offer: ``(option, parts)``.
+
+    ``option`` is ``"group"``, ``"dataset"`` or ``None`` (one part only);
+    ``parts`` maps each group or dataset to its channels as (name, unit, rate).
+    """
+    _library(kind, source)
+    parts: dict[str, list[tuple[str, str, float | None]]] = {}
+    option: str | None = None
+    with _quiet_libraries():
+        try:
+            if kind == "tdms":
+                option = "group"
+                nptdms = _library(kind, source)
+                with _CappedFile(source) as fh:
+                    f = nptdms.TdmsFile.read_metadata(fh)
+                for g in f.groups():
+                    chans = []
+                    for c in g.channels():
+                        if len(c) == 0:
+                            continue
+                        inc = c.properties.get("wf_increment")
+                        chans.append((c.name, str(c.properties.get("unit_string", "") or ""),
+                                      1.0 / float(inc) if inc else None))
+                    if chans:
+                        parts[g.name] = chans
+            elif kind == "mdf":
+                option = "group"
+                asammdf = _library(kind, source)
+                mdf = asammdf.MDF(source)
+                try:
+                    for gi, g in enumerate(mdf.groups):
+                        if int(g.channel_group.cycles_nr) <= 0:
+                            continue
+                        label = (getattr(g.channel_group, "acq_name", "") or "").strip() \
+                            or str(gi)
+                        chans = [(c.name, str(c.unit or ""), None) for c in g.channels
+                                 if c.channel_type != 2 and c.name]
+                        if chans:
+                            parts[label] = chans
+                finally:
+                    mdf.close()
+            elif kind in ("hdf5", "mat73", "mat"):
+                option = "dataset"
+                if kind == "mat":
+                    sio = _library(kind, source)
+                    for n, shape, cls in sio.whosmat(source):
+                        if cls in ("char", "cell", "struct") or len(shape) > 2 or \
+                                n.lower() in RATE_NAMES or int(np.prod(shape)) < 2:
+                            continue
+                        width = min(shape) if len(shape) == 2 else 1
+                        parts[n] = [(n if width == 1 else f"{n}[{k}]", "", None)
+                                    for k in range(width)]
+                else:
+                    h5py = _library("hdf5", source)
+                    with h5py.File(source, "r") as f:
+                        def visit(n, o):
+                            if not isinstance(o, h5py.Dataset) or o.dtype.kind not in "iufb" \
+                                    or o.ndim not in (1, 2) or o.size < 2 or \
+                                    n.split("/")[-1].lower() in RATE_NAMES or \
+                                    any(p.startswith("#") for p in n.split("/")):
+                                return
+                            width = 1 if o.ndim == 1 else min(o.shape)
+                            short = n.split("/")[-1]
+                            unit = _text_attr(o, "unit", "units") or ""
+                            parts[n] = [(short if width == 1 else f"{short}[{k}]", unit, None)
+                                        for k in range(width)]
+                        f.visititems(visit)
+            else:  # EDF/BDF: one set of signals, each at its own rate
+                src = _edf(source, kind, None)
+                parts[""] = [(n, u, r) for n, u, r in
+                             zip(src.names, src.units, src.detail["rates"])]
+        except ScalesieveError:
+            raise
+        except Exception as exc:  # damaged files: the reader says the rest
+            raise ScalesieveError(f"could not be read as {NAMES[kind][0]} ({_reason(exc)})",
+                                  source=source) from None
+    return option, parts
