@@ -386,7 +386,11 @@ class MeasurementImportDialog(QDialog):
         self.resize(640, 460)
         lay = QVBoxLayout(self)
         label = mr.NAMES[kind][0]
-        lay.addWidget(QLabel(f"{label} file, read by {mr.NAMES[kind][1]}."))
+        note = QLabel(f"{label} file, read by {mr.NAMES[kind][1]}."
+                      + (" Physiological traces: for research only, not for diagnosis."
+                         if kind in ("edf", "bdf") else ""))
+        note.setWordWrap(True)
+        lay.addWidget(note)
         form = QFormLayout()
         self.part = QComboBox()
         for name, chans in self.parts.items():
