@@ -81,6 +81,8 @@ def test_edf_round_trip_and_rates_that_differ(tmp_path):
     np.testing.assert_allclose(rec0.samples[:, 0], a, atol=(200 / 65535) * 2)
     assert rec0.start_time == datetime.datetime.fromisoformat("2026-01-31T22:30:05")
     assert probe(p)["channels"] == 2
+    # the EDF header alone (without edfio) gives the longest signal's samples
+    assert probe(p)["frames"] == 10000
 
 
 def test_bdf_round_trip(tmp_path):
@@ -108,6 +110,7 @@ def test_mat_v5_round_trip_picks_dataset_and_rate(tmp_path):
     rec = read_recording(p, dataset="accel")
     assert rec.rate == 5000.0 and rec.channels == 3
     np.testing.assert_array_equal(rec.samples, x)
+    assert probe(p)["frames"] == 1200
     speed = read_recording(p, dataset="speed")
     np.testing.assert_array_equal(speed.samples[:, 0], x[:, 0] * 2)
 
@@ -159,6 +162,7 @@ def test_hdf5_round_trip_and_unusable_datasets(tmp_path):
     rec = read_recording(p)
     assert rec.rate == 25600.0 and rec.units == ["m/s^2", "m/s^2"]
     np.testing.assert_array_equal(rec.samples, x)
+    assert probe(p)["frames"] == 1000
     with pytest.raises(ScalesieveError, match="not a 1-D or 2-D"):
         read_recording(p, dataset="run1/cube")
     q = tmp_path / "bad.h5"
@@ -193,6 +197,7 @@ def test_mdf4_round_trip_groups_units_and_clock(tmp_path):
     assert rec.units == ["g", "Nm"]
     np.testing.assert_array_equal(rec.samples, x)
     assert rec.start_time == datetime.datetime.fromisoformat("2026-02-28T23:59:58+00:00")
+    assert probe(p)["frames"] == 4000
 
 
 def test_xlsx_first_sheet_as_a_text_table(tmp_path):
@@ -230,3 +235,15 @@ def test_missing_library_is_one_line_naming_the_extra(tmp_path):
     assert res.returncode == 2
     lines = res.stderr.strip().splitlines()
     assert len(lines) == 1 and "scalesieve[formats]" in lines[0] and "npTDMS" in lines[0]
+
+
+def test_memory_guard_estimates_a_measurement_file_before_reading(tmp_path):
+    from scalesieve import memory_guard
+
+    p = tmp_path / "big.h5"
+    with h5py.File(p, "w") as f:
+        f.create_dataset("x", shape=(2_000_000, 4), dtype="f8")   # declared, not written
+        f["x"].attrs["fs"] = 1000.0
+    with pytest.raises(ScalesieveError, match="needs about .* GiB") as err:
+        memory_guard.check(p, available=32 << 20)
+    assert "2,000,000 samples x 4 channels" in err.value.message

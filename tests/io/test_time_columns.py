@@ -169,3 +169,12 @@ def test_truncated_wav_warning_in_json_and_on_stderr():
     doc = json.loads(res.stdout)
     assert doc["start_time"] is None and "4410" in doc["warnings"][0]
     assert res.stderr.startswith("scalesieve: warning: ")
+
+
+def test_whitespace_table_keeps_date_and_time_together(tmp_path):
+    p = tmp_path / "ws.txt"
+    p.write_text("# logger\n2026-03-01 08:00:00.00 1.0 2.0\n2026-03-01 08:00:00.10 1.5 2.5\n"
+                 "2026-03-01 08:00:00.20 1.7 2.7\n")
+    rec = read_recording(p)
+    assert rec.rate == 10.0 and rec.channels == 2
+    assert rec.start_time == datetime.fromisoformat("2026-03-01 08:00:00.00")

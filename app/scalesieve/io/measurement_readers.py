@@ -648,7 +648,7 @@ def _edf_header_facts(source: str) -> tuple[int, int, float | None]:
         records = int(head[236:244].decode("ascii", "replace").strip() or -1)
         duration = float(head[244:252].decode("ascii", "replace").strip() or 0)
         labels = [fh.read(16).decode("latin-1").strip() for _ in range(ns)]
-        fh.seek(256 + ns * 208)
+        fh.seek(256 + ns * 216)  # label 16, transducer 80, five fields of 8, prefilter 80
         per = [int(fh.read(8).decode("ascii", "replace").strip() or 0) for _ in range(ns)]
     keep = [p for p, lab in zip(per, labels) if "annotations" not in lab.lower()]
     if records < 0:  # unknown count: the file size tells
