@@ -247,3 +247,26 @@ def test_memory_guard_estimates_a_measurement_file_before_reading(tmp_path):
     with pytest.raises(ScalesieveError, match="needs about .* GiB") as err:
         memory_guard.check(p, available=32 << 20)
     assert "2,000,000 samples x 4 channels" in err.value.message
+
+
+def test_mat_whose_dimensions_claim_more_than_the_file_is_refused_before_reading(tmp_path):
+    # MAT-File Format (MathWorks, Level 5): 128-byte header, then the miMATRIX tag,
+    # the array-flags element (16 bytes) and the dimensions element (tag, then int32s).
+    import struct
+    import tracemalloc
+
+    p = tmp_path / "claim.mat"
+    scipy_io.savemat(p, {"fs": 100.0, "x": np.arange(64.0)[:, None]})
+    raw = bytearray(p.read_bytes())
+    assert struct.unpack("<II", raw[128:136])[0] == 14          # miMATRIX
+    assert struct.unpack("<II", raw[152:160]) == (5, 8)           # miINT32 dims, 2 of them
+    raw[160:164] = struct.pack("<i", 1 << 30)
+    p.write_bytes(bytes(raw))
+    tracemalloc.start()
+    try:
+        with pytest.raises(ScalesieveError, match="declares more values"):
+            read_recording(p)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak < 64 << 20

@@ -418,12 +418,98 @@ def _hdf5(source: str, dataset: str | None, matlab: bool) -> Source:
                   format="MATLAB v7.3" if matlab else "HDF5", detail={"dataset": name})
 
 
+# zlib's deflate packs at most about 1032 bytes into one (its format's limit)
+_MOST_INFLATION = 1032
+
+
+def _mat5_matrix_fits(body: bytes, nbytes: int, end: str) -> bool:
+    """Whether a miMATRIX element's dimensions fit in its ``nbytes`` (its first bytes given).
+
+    Every element of a numeric or text array takes at least one byte on disk, so
+    a product of dimensions beyond ``nbytes`` is a damaged tag (sparse arrays aside).
+    """
+    import struct
+
+    if len(body) < 24:
+        return True
+    kind, size = struct.unpack(end + "II", body[:8])
+    if kind != 6 or size < 8:  # miUINT32 array flags
+        return True
+    cls = struct.unpack(end + "I", body[8:12])[0] & 0xFF
+    dkind, dsize = struct.unpack(end + "II", body[16:24])
+    if dkind >> 16:  # dimensions packed into the tag
+        dsize, dkind = dkind >> 16, dkind & 0xFFFF
+        dims_bytes = body[20:20 + dsize]
+    else:
+        dims_bytes = body[24:24 + dsize]
+    if dkind != 5 or dsize % 4 or len(dims_bytes) < dsize:  # miINT32 dimensions
+        return True
+    dims = struct.unpack(end + f"{dsize // 4}i", dims_bytes)
+    if any(d < 0 for d in dims):
+        return False
+    count = 1
+    for d in dims:
+        count *= d
+    return cls == 5 or count <= nbytes  # class 5: sparse
+
+
+def _mat5_sizes_fit(source: str) -> str | None:
+    """Why a MATLAB v5 file's element sizes cannot be right, or None when they fit.
+
+    scipy allocates what a variable's tag declares before reading it; a damaged
+    tag would ask for gigabytes. Each top-level element must fit in the file, and
+    a compressed one's inner size in what its bytes can inflate to.
+    """
+    import struct
+    import zlib
+
+    size = os.path.getsize(source)
+    with open(source, "rb") as fh:
+        head = fh.read(128)
+        if len(head) < 128:
+            return "the header is cut short"
+        end = "<" if head[126:128] == b"IM" else ">"
+        pos = 128
+        while pos + 8 <= size:
+            fh.seek(pos)
+            tag = fh.read(8)
+            kind, nbytes = struct.unpack(end + "II", tag)
+            if kind not in (14, 15):  # only arrays (miMATRIX) and miCOMPRESSED live here
+                return f"the variable tag at byte {pos} is damaged (type {kind})"
+            if nbytes > size - pos - 8:
+                return (f"a variable at byte {pos} declares {nbytes} bytes, more than the "
+                        f"{size - pos - 8} left in the file")
+            if kind == 15:  # miCOMPRESSED: check the inner tag's size
+                try:
+                    inner = zlib.decompressobj().decompress(fh.read(min(nbytes, 4096)), 512)
+                except zlib.error:
+                    return f"the compressed variable at byte {pos} is damaged"
+                if len(inner) >= 8:
+                    inner_kind, inner_bytes = struct.unpack(end + "II", inner[:8])
+                    if inner_bytes > _MOST_INFLATION * nbytes + 64:
+                        return (f"the compressed variable at byte {pos} declares {inner_bytes} "
+                                f"bytes, more than its {nbytes} bytes can hold")
+                    if inner_kind == 14 and not _mat5_matrix_fits(inner[8:], inner_bytes, end):
+                        return f"the variable at byte {pos} declares more values than it holds"
+            elif kind == 14 and not _mat5_matrix_fits(fh.read(min(nbytes, 512)), nbytes, end):
+                return f"the variable at byte {pos} declares more values than it holds"
+            pos += 8 + nbytes + ((-nbytes) % 8 if kind != 15 else 0)
+    return None
+
+
 def _mat5(source: str, dataset: str | None) -> Source:
     sio = _library("mat", source)
+    with open(source, "rb") as fh:
+        v5 = fh.read(128)[:10] == b"MATLAB 5.0"
+    wrong = _mat5_sizes_fit(source) if v5 else None
+    if wrong is not None:
+        raise ScalesieveError(f"is not a readable MATLAB file ({wrong})", source=source)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            data = sio.loadmat(source, squeeze_me=False, mat_dtype=False)
+            # a damaged length field must not make scipy allocate beyond the file
+            with _CappedFile(source) as fh:
+                data = sio.loadmat(fh, squeeze_me=False, mat_dtype=False)
     except NotImplementedError:
         # scipy points v7.3 files to HDF5 readers
         return _hdf5(source, dataset, matlab=True)
@@ -694,7 +780,9 @@ def probe_facts(source: str, kind: str) -> dict:
                 names = [f"{n}[{k}]" for k in range(width)]
         elif kind == "mat":
             sio = _library(kind, source)
-            found = [(n, shape) for n, shape, cls in sio.whosmat(source)
+            with _CappedFile(source) as fh:
+                listed = sio.whosmat(fh)
+            found = [(n, shape) for n, shape, cls in listed
                      if cls not in ("char", "cell", "struct", "logical") and len(shape) <= 2]
             if found:
                 n, shape = max(found, key=lambda x: int(np.prod(x[1])))
@@ -781,7 +869,9 @@ def contents(source: str, kind: str) -> tuple[str | None, dict[str, list[tuple[s
                 option = "dataset"
                 if kind == "mat":
                     sio = _library(kind, source)
-                    for n, shape, cls in sio.whosmat(source):
+                    with _CappedFile(source) as fh:
+                        listed = sio.whosmat(fh)
+                    for n, shape, cls in listed:
                         if cls in ("char", "cell", "struct") or len(shape) > 2 or \
                                 n.lower() in RATE_NAMES or int(np.prod(shape)) < 2:
                             continue
