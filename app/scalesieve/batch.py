@@ -579,10 +579,11 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
               transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
               workers: int | None = None, scheduler: str | None = None,
               send_data: bool = False, force: bool = False, subtype: str | None = None,
-              rate: float | None = None, channel: int | None = None,
+              rate: float | None = None, channel: int | str | None = None,
               fill_gaps: str | None = None, on_start: Callable[[int], None] | None = None,
               on_result: Callable[[dict], None] | None = None,
-              recipe_file: str | None = None) -> dict:
+              recipe_file: str | None = None, group: str | None = None,
+              dataset: str | None = None) -> dict:
     """Clean every input with one recipe into ``outdir``; write and return the report.
 
     Everything that can be refused is refused before any file is read (see
@@ -595,7 +596,7 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         Recordings, folders of recordings, or patterns (see :func:`expand_inputs`).
     outdir : str
         Gets ``<input name>`` per input and ``batch-report.json``.
-    recipe, transform, edits, force, subtype, rate, channel, fill_gaps
+    recipe, transform, edits, force, subtype, rate, channel, fill_gaps, group, dataset
         As for :func:`clean_file`.
     workers : int, optional
         Local processes (default: the CPUs available).
@@ -624,7 +625,8 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
     pairs = plan_outputs(expand_inputs(inputs), outdir, force)
     spec = transform if transform is not None else (recipe.transform if recipe else None)
     options = {"recipe": recipe, "transform": spec, "edits": tuple(edits), "subtype": subtype,
-               "force": force, "rate": rate, "channel": channel, "fill_gaps": fill_gaps}
+               "force": force, "rate": rate, "channel": channel, "fill_gaps": fill_gaps,
+               "group": group, "dataset": dataset}
     client = None
     if scheduler is not None:
         client = connect(scheduler)
