@@ -97,3 +97,32 @@ def test_clock_labels_follow_the_spacing():
     start = datetime.datetime(2026, 1, 31, 23, 59, 59, 750000)
     assert clock_labels([0.0, 0.25], 0.25, start) == ["23:59:59.75", "00:00:00.00"]
     assert clock_labels([0.0, 86400.0], 86400.0, start) == ["2026-01-31", "2026-02-01"]
+
+
+def test_text_import_preview_reads_timestamp_cells(qtbot):
+    from sample_files import sample
+
+    from scalesieve.gui.csv_import_dialog import CsvImportDialog
+
+    dlg = CsvImportDialog(sample("cooling_loop_logger.csv"))
+    qtbot.addWidget(dlg)
+    assert dlg.buttons.button(dlg.buttons.StandardButton.Ok).isEnabled()
+    # 20 ms between rows (sample_signals/README.md): 50 Hz
+    assert "50 Hz" in dlg.status.text()
+    assert dlg.table.item(0, 0).text() == "2026-03-31 23:59:40.000+02:00"
+
+
+def test_a_shortened_wav_is_opened_with_its_warning_in_the_window(window):
+    import os
+
+    import scipy
+
+    path = os.path.join(os.path.dirname(scipy.__file__), "io", "tests", "data",
+                        "test-44100Hz-le-1ch-4bytes-early-eof.wav")
+    if not os.path.exists(path):
+        pytest.skip("scipy's early-eof WAV is not installed")
+    window.open_path(path, ask_text_settings=False)
+    assert window.adapter.wait_idle(60) is None
+    text = window.statusBar().currentMessage()
+    # the header's data chunk declares 4410 frames; 236 are in the file
+    assert "4410" in text and "236" in text
