@@ -331,7 +331,8 @@ def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype
         raise ScalesieveError(f"the file says {file_rate:g} Hz; --rate {given:g} does not "
                               "match (leave out --rate)", source=source)
     cols = list(range(len(src.names))) if pick is None else [pick]
-    samples = np.ascontiguousarray(src.read(0, frames, cols), dtype=dtype)
+    # checked as float64 first: a value beyond float32's range is refused, not made inf
+    samples = np.asarray(src.read(0, frames, cols), dtype=np.float64)
     if samples.shape[0] == 0:
         raise ScalesieveError(f"this {label} file holds no samples", source=source)
     names = [src.names[k] for k in cols]
@@ -359,6 +360,7 @@ def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype
         raise ScalesieveError(f"sample {r} of channel {names[c]!r} is "
                               + ("infinite" if np.isinf(v) else
                                  f"{v:.3g}, beyond ±{MAX_ABS_SAMPLE:g}"), source=source)
+    samples = np.ascontiguousarray(samples, dtype=dtype)
     meta = {"measurement_format": label, "file_channels": len(src.names),
             "filled_gaps": filled, "samples_checked": True, **src.detail}
     if pick is not None:
