@@ -7,7 +7,7 @@ import os
 import sys
 
 from scalesieve.commands.options import (add_input_options, add_transform_options,
-                                         load_input, transform_from)
+                                         load_input, print_warnings, transform_from)
 
 
 def configure(p) -> None:
@@ -59,6 +59,7 @@ def run(args) -> int:
         rec = load_input(args, args.file)
         model = api.build_model(rec, transform=spec, progress=bar)
     report = band_report(model, os.path.basename(args.file))
+    print_warnings(rec, args.file)
     if args.json:
         json.dump(report, sys.stdout)
         sys.stdout.write("\n")

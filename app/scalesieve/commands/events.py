@@ -30,7 +30,8 @@ import os
 import sys
 from dataclasses import replace
 
-from scalesieve.commands.options import add_input_options, add_transform_options, load_input
+from scalesieve.commands.options import (add_input_options, add_transform_options, load_input,
+                                         print_warnings)
 from scalesieve.errors import ScalesieveError
 
 CAUTION = ("Note: event times and rates support a judgement, they do not make one: "
@@ -200,6 +201,7 @@ def run(args) -> int:
     prepared = {c: ev.prepare_signal(rec.channel(c), spec, levels) for c in range(rec.channels)}
     events, noise = ev.detect_channels(prepared, rec.channel, rec.rate, args.k)
     report = events_report(rec, spec, levels, args.k, events, noise, os.path.basename(args.file))
+    print_warnings(rec, args.file)
     if args.csv:
         fields = ev.FIELDS + (CLOCK_FIELDS if rec.start_time is not None else ())
         write_table_csv(args.csv, event_rows(rec, events), force=args.force,

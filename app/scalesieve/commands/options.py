@@ -69,14 +69,16 @@ def add_input_options(p: argparse.ArgumentParser) -> None:
 def load_input(args, path: str):
     from scalesieve import api
 
-    rec = api.load(path, rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
-                   group=getattr(args, "group", None), dataset=getattr(args, "dataset", None))
-    print_warnings(rec, path)
-    return rec
+    return api.load(path, rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
+                    group=getattr(args, "group", None), dataset=getattr(args, "dataset", None))
 
 
 def print_warnings(rec, path: str) -> None:
-    """Each of the reader's warnings as one line on stderr (shared/CONTRACT.md)."""
+    """Each of the reader's warnings as one line on stderr (shared/CONTRACT.md).
+
+    Called once the command has done its work, so a run that fails prints its
+    one error line only.
+    """
     import sys
 
     for w in rec.warnings:
