@@ -178,3 +178,13 @@ def test_whitespace_table_keeps_date_and_time_together(tmp_path):
     rec = read_recording(p)
     assert rec.rate == 10.0 and rec.channels == 2
     assert rec.start_time == datetime.fromisoformat("2026-03-01 08:00:00.00")
+
+
+def test_channel_by_name_in_a_text_table(tmp_path):
+    p = _write(tmp_path / "n.csv", [[str(i / 10), str(i), str(-i)] for i in range(8)],
+               "time [s],strain_1 [µm/m],strain_2 [µm/m]")
+    rec = read_recording(p, channel="strain_2")          # the name without its unit
+    assert rec.channel_names == ["strain_2 [µm/m]"] and rec.units == ["µm/m"]
+    np.testing.assert_array_equal(rec.samples[:, 0], -np.arange(8.0))
+    with pytest.raises(ScalesieveError, match="names no channel"):
+        read_recording(p, channel="strain_9")
