@@ -363,6 +363,52 @@ def lab_trace_baseline() -> bytes:
 
 
 # --------------------------------------------------------------------------
+# 5. cooling_loop_logger.csv: a clocked logger export (ISO 8601 timestamps)
+# --------------------------------------------------------------------------
+
+COOLING = dict(
+    rate=50, n=2048,                          # 40.96 s, one row per 20 ms
+    # Local time with its UTC offset, across midnight and the end of March.
+    start="2026-03-31 23:59:40.000+02:00",
+    pressure_bar=2.40, flow_lpm=118.0,         # steady values before the valve closes
+    pump_hz=1.25, pump_amp_bar=0.03,          # pressure ripple of the circulating pump
+    valve_close_s=22.0,                       # 00:00:02.000 local time, on the next day
+    surge_bar=0.65, surge_hz=3.5, surge_decay_s=1.2,   # damped pressure ring at the valve
+    flow_after_lpm=96.0, flow_tau_s=0.8,      # flow settles lower after the closure
+    noise_bar=0.004, noise_lpm=0.35,
+)
+
+
+def cooling_loop_logger() -> bytes:
+    """An invented cooling-water loop logger: pressure and flow with a valve surge."""
+    from datetime import datetime, timedelta
+
+    c = COOLING
+    rng = _rng(5)
+    rate, n = c["rate"], c["n"]
+    t = np.arange(n) / rate
+    after = np.clip(t - c["valve_close_s"], 0.0, None)
+    on = t >= c["valve_close_s"]
+    p = c["pressure_bar"] + _tone(t, c["pump_hz"], c["pump_amp_bar"], 0.0)
+    p += on * c["surge_bar"] * np.exp(-after / c["surge_decay_s"]) * np.sin(
+        2 * np.pi * c["surge_hz"] * after)
+    q = c["flow_lpm"] - on * (c["flow_lpm"] - c["flow_after_lpm"]) * (
+        1 - np.exp(-after / c["flow_tau_s"]))
+    p += rng.standard_normal(n) * c["noise_bar"]
+    q += rng.standard_normal(n) * c["noise_lpm"]
+    t0 = datetime.fromisoformat(c["start"])
+    lines = ["# Logger: demo loop logger CL-2 (invented for the Scalesieve demo)",
+             "# Site: cooling-water loop, return line after the heat exchanger",
+             "timestamp,pressure [bar],flow [l/min]"]
+    for i in range(n):
+        stamp = (t0 + timedelta(milliseconds=20 * i)).isoformat(sep=" ",
+                                                                 timespec="milliseconds")
+        lines.append(f"{stamp},{round(float(p[i]), 4) + 0.0:.4f},"
+                     f"{round(float(q[i]), 2) + 0.0:.2f}")
+    return ("\n".join(lines) + "\n").encode("ascii")
+
+
+# --------------------------------------------------------------------------
 # encoding and writing
 # --------------------------------------------------------------------------
 
@@ -396,6 +442,7 @@ def build_all() -> dict[str, tuple[bytes, tuple | None]]:
         f"{t:.4f},{a:.2f},{' '.join(str(c) for c in ch)}" for t, a, ch in clicks]
     out["field_mic_clicks.events.csv"] = (("\n".join(rows) + "\n").encode("ascii"), None)
     out["lab_trace_baseline.csv"] = (lab_trace_baseline(), None)
+    out["cooling_loop_logger.csv"] = (cooling_loop_logger(), None)
     return out
 
 

@@ -21,7 +21,8 @@ import soundfile as sf
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_signals"
 SCRIPT = SAMPLES / "make_samples.py"
 FILES = ["pump_bearing.wav", "pump_bearing.events.csv", "fan_bearing.wav", "rig_strain_logger.csv",
-         "field_mic_clicks.flac", "field_mic_clicks.events.csv", "lab_trace_baseline.csv"]
+         "field_mic_clicks.flac", "field_mic_clicks.events.csv", "lab_trace_baseline.csv",
+         "cooling_loop_logger.csv"]
 
 
 def _load_script():
@@ -357,3 +358,32 @@ def test_lab_pulses_mains_and_wander(lab):
     amp = 2.0 * np.abs(np.fft.rfft(y)) / len(y)
     assert abs(amp[np.argmin(np.abs(f - 50.0))] - 0.06) < 0.005     # 20.48 s: 50 Hz on a bin
     assert 0.25 <= _peak_hz(y - y.mean(), 500.0, 0.2, 1.0) <= 0.35  # baseline wander
+
+
+# ---------------------------------------------------------------- cooling_loop_logger
+
+def test_cooling_logger_clock_against_fromisoformat():
+    # Python's datetime.fromisoformat and csv module read the file independently.
+    from datetime import datetime, timedelta
+
+    from scalesieve.io.readers import read_recording
+
+    comments, rows = _text_rows(SAMPLES / "cooling_loop_logger.csv", ",")
+    assert len(comments) == 2 and rows[0] == ["timestamp", "pressure [bar]", "flow [l/min]"]
+    stamps = [datetime.fromisoformat(r[0]) for r in rows[1:]]
+    assert len(stamps) == 2048
+    assert stamps[0] == datetime.fromisoformat("2026-03-31T23:59:40+02:00")
+    assert stamps[-1] == datetime.fromisoformat("2026-04-01T00:00:20.940+02:00")
+    assert set(np.diff([s.timestamp() for s in stamps]).round(6)) == {0.02}
+    rec = read_recording(SAMPLES / "cooling_loop_logger.csv")
+    assert rec.rate == 50.0 and rec.start_time == stamps[0]
+    assert rec.clock_at(22.0) == datetime.fromisoformat("2026-04-01T00:00:02+02:00")
+    want = np.array([[float(r[1]), float(r[2])] for r in rows[1:]])
+    np.testing.assert_array_equal(rec.samples, want)
+    assert rec.units == ["bar", "l/min"]
+    # the surge starts at the stated closure time: nothing above the ripple before it
+    t = np.arange(2048) / 50.0
+    p = want[:, 0]
+    assert np.abs(p[t < 22.0] - 2.40).max() < 0.03 + 5 * 0.004
+    assert p[(t > 22.0) & (t < 22.3)].max() > 2.40 + 0.5
+    assert (stamps[0] + timedelta(seconds=22)).strftime("%H:%M:%S") == "00:00:02"

@@ -29,13 +29,15 @@ __all__ = ["load", "load_recipe", "build_model", "export", "Edit", "Recipe", "Tr
            "DecompositionModel", "Recording", "parse_levels", "merge_transform", "save_recipe"]
 
 
-def load(path: str | os.PathLike, *, rate: float | None = None, channel: int | None = None,
-         fill_gaps: str | None = None, dtype=np.float64) -> Recording:
-    """Read a WAV/FLAC/AIFF/OGG or CSV/TSV/TXT recording."""
+def load(path: str | os.PathLike, *, rate: float | None = None,
+         channel: int | str | None = None, fill_gaps: str | None = None, dtype=np.float64,
+         group: str | None = None, dataset: str | None = None) -> Recording:
+    """Read a recording: WAV/FLAC/AIFF/OGG, CSV/TSV/TXT, TDMS, EDF/BDF, MATLAB, HDF5,
+    MDF 4 or Excel (see ``scalesieve.io.readers.read_recording``)."""
     from scalesieve.io.readers import read_recording
 
     return read_recording(os.fspath(path), rate=rate, channel=channel, fill_gaps=fill_gaps,
-                          dtype=dtype)
+                          dtype=dtype, group=group, dataset=dataset)
 
 
 def merge_transform(recipe_spec: TransformSpec | None, kind: str | None = None,

@@ -63,8 +63,9 @@ _GLOB_CHARS = set("*?[")
 def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
                transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
                removed: str | None = None, subtype: str | None = None, force: bool = False,
-               rate: float | None = None, channel: int | None = None,
-               fill_gaps: str | None = None, progress=None) -> dict:
+               rate: float | None = None, channel: int | str | None = None,
+               fill_gaps: str | None = None, progress=None, group: str | None = None,
+               dataset: str | None = None) -> dict:
     """Read ``input_path``, apply the recipe and edits, write the cleaned signal.
 
     This is the body of ``scalesieve clean``; the batch calls it for every
@@ -118,7 +119,8 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         raise ScalesieveError("-o and --removed name the same file", output)
     for out in outputs:
         api.check_target(out, force, [input_path])
-    rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps)
+    rec = api.load(input_path, rate=rate, channel=channel, fill_gaps=fill_gaps, group=group,
+                   dataset=dataset)
     model = api.build_model(rec, recipe, transform=transform, edits=tuple(edits),
                             progress=progress)
     if removed:
@@ -144,6 +146,7 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
         "clipped": int(sum(int(r.get("clipped") or 0) for r in reports)),
         "energy_removed_fraction": removed_energy / total if total > 0 else 0.0,
         "recipe": model.recipe(),          # as applied: level and basis resolved
+        "warnings": list(rec.warnings),
     }
 
 
@@ -738,10 +741,11 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
               transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
               workers: int | None = None, scheduler: str | None = None,
               send_data: bool = False, force: bool = False, subtype: str | None = None,
-              rate: float | None = None, channel: int | None = None,
+              rate: float | None = None, channel: int | str | None = None,
               fill_gaps: str | None = None, on_start: Callable[[int], None] | None = None,
               on_result: Callable[[dict], None] | None = None,
-              recipe_file: str | None = None) -> dict:
+              recipe_file: str | None = None, group: str | None = None,
+              dataset: str | None = None) -> dict:
     """Clean every input with one recipe into ``outdir``; write and return the report.
 
     Everything that can be refused is refused before any file is read (see
@@ -754,7 +758,7 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         Recordings, folders of recordings, or patterns (see :func:`expand_inputs`).
     outdir : str
         Gets ``<input name>`` per input and ``batch-report.json``.
-    recipe, transform, edits, force, subtype, rate, channel, fill_gaps
+    recipe, transform, edits, force, subtype, rate, channel, fill_gaps, group, dataset
         As for :func:`clean_file`.
     workers : int, optional
         Local processes (default: the CPUs available).
@@ -783,7 +787,8 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
     pairs = plan_outputs(expand_inputs(inputs), outdir, force)
     spec = transform if transform is not None else (recipe.transform if recipe else None)
     options = {"recipe": recipe, "transform": spec, "edits": tuple(edits), "subtype": subtype,
-               "force": force, "rate": rate, "channel": channel, "fill_gaps": fill_gaps}
+               "force": force, "rate": rate, "channel": channel, "fill_gaps": fill_gaps,
+               "group": group, "dataset": dataset}
     client = None
     if scheduler is not None:
         client = connect(scheduler)

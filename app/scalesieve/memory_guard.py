@@ -73,6 +73,10 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
     need = chans * one + chans * per_channel + temporaries + BASE_BYTES
     if facts.get("kind") == "text":
         need += TEXT_FACTOR * int(facts.get("file_bytes") or 0)
+    elif facts.get("kind") == "measurement":
+        # the format's library holds its own copy while it reads (a spreadsheet far more)
+        factor = TEXT_FACTOR * 4 if facts.get("format") == "Excel" else 1
+        need += factor * int(facts.get("file_bytes") or 0)
     return int(need)
 
 

@@ -413,3 +413,120 @@ def recipe_bytes(rng: random.Random) -> tuple[bytes, str]:
     raw = text.encode(rng.choice(["utf-8", "utf-8", "utf-8-sig", "utf-16", "latin-1"]),
                       "replace")
     return raw, ".json"
+
+
+# ------------------------------------------------------------ measurement formats
+# Each valid seed is written by the format's own library (npTDMS, edfio, h5py,
+# scipy.io.savemat, asammdf, openpyxl); the unusual ones are the cases a reader
+# must refuse plainly (3-D or text datasets, empty groups, annotations only,
+# NaN runs, channels at different rates).
+
+MEASUREMENT_KINDS = ("tdms", "edf", "bdf", "mat5", "mat5_nan", "h5", "h5_3d", "h5_text",
+                     "h5_empty", "mf4", "mf4_two_rates", "xlsx", "edf_annotations",
+                     "edf_two_rates")
+
+
+def _via_file(suffix: str, write) -> bytes:
+    import os
+    import tempfile
+
+    fd, path = tempfile.mkstemp(suffix=suffix)
+    os.close(fd)
+    try:
+        write(path)
+        with open(path, "rb") as fh:
+            return fh.read()
+    finally:
+        os.unlink(path)
+
+
+def valid_measurement(rng: random.Random, kind: str | None = None) -> tuple[bytes, str]:
+    """A small measurement file's bytes and suffix, written by the format's library."""
+    import datetime
+    import warnings
+
+    kind = kind or rng.choice(MEASUREMENT_KINDS)
+    frames = rng.choice([16, 64, 200])
+    channels = rng.choice([1, 2, 3])
+    x = _signal(rng, frames, channels)
+    rate = float(rng.choice([100, 1000, 2000]))
+    if kind == "tdms":
+        from nptdms import ChannelObject, TdmsWriter
+
+        def write(p):
+            with TdmsWriter(p) as w:
+                w.write_segment([ChannelObject("rig", f"s{k}", x[:, k],
+                                               properties={"wf_increment": 1 / rate})
+                                 for k in range(channels)])
+        return _via_file(".tdms", write), ".tdms"
+    if kind in ("edf", "bdf", "edf_annotations", "edf_two_rates"):
+        import edfio
+
+        cls = edfio.Bdf if kind == "bdf" else edfio.Edf
+        sig = edfio.BdfSignal if kind == "bdf" else edfio.EdfSignal
+        secs = 2
+        sigs = [sig(np.resize(x[:, 0], secs * 100), 100, label="a")]
+        if kind == "edf_two_rates":
+            sigs.append(sig(np.resize(x[:, 0], secs * 250), 250, label="b"))
+        if kind == "edf_annotations":
+            sigs = []
+        notes = [edfio.EdfAnnotation(0.5, None, "marker")]
+        rec = cls(sigs, annotations=notes)
+        suffix = ".bdf" if kind == "bdf" else ".edf"
+        return _via_file(suffix, rec.write), suffix
+    if kind in ("mat5", "mat5_nan"):
+        import scipy.io
+
+        data = x.copy()
+        if kind == "mat5_nan":
+            data[frames // 4: frames // 4 + 3, 0] = np.nan
+        return _via_file(".mat", lambda p: scipy.io.savemat(p, {"fs": rate, "x": data})), ".mat"
+    if kind.startswith("h5"):
+        import h5py
+
+        def write(p):
+            with h5py.File(p, "w") as f:
+                if kind == "h5":
+                    d = f.create_dataset("run/x", data=x)
+                    d.attrs["fs"] = rate
+                elif kind == "h5_3d":
+                    f.create_dataset("cube", data=np.zeros((4, 3, 2)))
+                elif kind == "h5_text":
+                    f.create_dataset("labels", data=np.array([b"a", b"b", b"c"]))
+                else:
+                    f.create_group("nothing")
+        return _via_file(".h5", write), ".h5"
+    if kind in ("mf4", "mf4_two_rates"):
+        from asammdf import MDF, Signal
+
+        def write(p):
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                m = MDF(version="4.10")
+                t = np.arange(frames) / rate
+                m.append([Signal(x[:, k], t, name=f"s{k}", unit="g") for k in range(channels)])
+                if kind == "mf4_two_rates":
+                    t2 = np.arange(8) / 2.0
+                    m.append([Signal(np.ones(8), t2, name="slow")])
+                m.save(p, overwrite=True)
+                m.close()
+        return _via_file(".mf4", write), ".mf4"
+    import openpyxl
+
+    def write(p):
+        wb = openpyxl.Workbook()
+        ws = wb.active
+        ws.append(["timestamp"] + [f"s{k}" for k in range(channels)])
+        t0 = datetime.datetime(2026, 5, 4, 9, 30)
+        for i in range(frames):
+            ws.append([t0 + datetime.timedelta(milliseconds=10 * i)] + x[i].tolist())
+        wb.save(p)
+    return _via_file(".xlsx", write), ".xlsx"
+
+
+def damaged_measurement(rng: random.Random, kind: str | None = None) -> tuple[bytes, str]:
+    """A measurement file, unusual by construction or damaged in its bytes."""
+    raw, suffix = valid_measurement(rng, kind)
+    if rng.random() < 0.35:
+        return raw, suffix
+    return damage_bytes(rng, raw, header=512), suffix

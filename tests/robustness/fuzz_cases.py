@@ -93,6 +93,18 @@ def _cli_events(rng):
     return "cli", data, suffix, {"argv": ["events", "{path}", "--json"]}
 
 
+def _measurement(rng):
+    data, suffix = di.damaged_measurement(rng)
+    return "read", data, suffix, _read_options(rng, False)
+
+
+def _cli_measurement(rng):
+    data, suffix = di.damaged_measurement(rng)
+    argv = ["clean", "{path}", "-o", rng.choice(["out.wav", "out.csv"]), "--force",
+            "--zero", "1", "--wavelet", "haar", "--level", "1"]
+    return "cli", data, suffix, {"argv": argv}
+
+
 #: name -> (weight, maker)
 FAMILIES = {
     "wav_header": (4, _audio(["wav16", "wav8", "wav24", "wavfloat", "wavdouble", "wavex"])),
@@ -107,6 +119,8 @@ FAMILIES = {
     "cli_bands": (1, _cli_bands),
     "cli_clean": (1, _cli_clean),
     "cli_events": (1, _cli_events),
+    "measurement_formats": (2, _measurement),
+    "cli_measurement": (1, _cli_measurement),
 }
 
 

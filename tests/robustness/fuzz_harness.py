@@ -113,6 +113,12 @@ class _Worker:
         import scalesieve.commands.clean  # noqa: F401
         from scalesieve.core.recording import Recording
 
+        # The measurement formats' libraries, where installed (the formats extra).
+        for name in ("nptdms", "edfio", "h5py", "asammdf", "openpyxl", "scipy.io"):
+            try:
+                __import__(name)
+            except ImportError:
+                pass
         self.api = api
         # Inside the runner's home when there is one: removed with it, even after a kill.
         self.folder = tempfile.mkdtemp(prefix="scalesieve-fuzz-",

@@ -39,6 +39,8 @@ def band_report(model, file_label: str) -> dict:
         "transform": model.spec.to_json(),
         "channels": [{"index": k, "name": rec.channel_names[k], "bands": model.band_table(k)}
                      for k in range(rec.channels)],
+        "start_time": rec.start_time.isoformat() if rec.start_time is not None else None,
+        "warnings": list(rec.warnings),
     }
 
 
@@ -56,9 +58,21 @@ def _report_in_blocks(args, spec, progress) -> dict:
         "samples": facts["samples"],
         "duration_s": facts["samples"] / facts["rate"],
         "transform": facts["spec"].to_json(),
+        "start_time": None,              # audio files carry no clock
+        "warnings": _audio_warnings(args.file, facts["samples"]),
         "channels": [{"index": k, "name": f"ch{k if pick is None else pick}", "bands": rows}
                      for k, rows in enumerate(channels)],
     }
+
+
+def _audio_warnings(path: str, held: int) -> list[str]:
+    """The reader's warnings for an audio file read in blocks (a header promising more)."""
+    import soundfile as sf
+
+    from scalesieve.io.readers import truncation
+
+    warning = truncation(path, sf.info(path), held)[1]
+    return [warning] if warning else []
 
 
 def format_table(report: dict) -> str:
@@ -100,4 +114,7 @@ def run(args) -> int:
         sys.stdout.write("\n")
     else:
         print(format_table(report))
+    # after the work, so a failing run prints its one error line only
+    for w in report["warnings"]:
+        print(f"scalesieve: warning: {args.file}: {w}", file=sys.stderr)
     return 0

@@ -87,7 +87,8 @@ def run(args) -> int:
             args.inputs, args.output, recipe, transform=spec, workers=args.workers,
             scheduler=args.scheduler, send_data=args.send_data, force=args.force,
             subtype=args.subtype, rate=args.rate, channel=args.channel,
-            fill_gaps=args.fill_gaps, on_start=start, on_result=note, recipe_file=args.recipe)
+            fill_gaps=args.fill_gaps, on_start=start, on_result=note, recipe_file=args.recipe,
+            group=args.group, dataset=args.dataset)
     finally:
         if bar is not None:
             bar.close()

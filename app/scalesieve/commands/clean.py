@@ -146,7 +146,10 @@ def run(args) -> int:
             res = clean_file(args.file, args.output, recipe=recipe, transform=spec,
                              edits=quick, removed=args.removed, subtype=args.subtype,
                              force=args.force, rate=args.rate, channel=args.channel,
-                             fill_gaps=args.fill_gaps, progress=bar)
+                             fill_gaps=args.fill_gaps, progress=bar, group=args.group,
+                             dataset=args.dataset)
+    for w in res.get("warnings", ()):
+        print(f"scalesieve: warning: {args.file}: {w}", file=sys.stderr)
     if args.save_recipe:
         from scalesieve import api
 

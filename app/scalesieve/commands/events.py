@@ -30,7 +30,8 @@ import os
 import sys
 from dataclasses import replace
 
-from scalesieve.commands.options import add_input_options, add_transform_options, load_input
+from scalesieve.commands.options import (add_input_options, add_transform_options, load_input,
+                                         print_warnings)
 from scalesieve.errors import ScalesieveError
 
 CAUTION = ("Note: event times and rates support a judgement, they do not make one: "
@@ -106,6 +107,21 @@ def levels_from(text: str, spec, n: int):
         raise ScalesieveError(f"--levels: {exc}") from None
 
 
+#: clock columns beside the seconds when the recording has its own clock
+CLOCK_FIELDS = ("start_clock", "stop_clock", "peak_clock")
+
+
+def event_rows(recording, events) -> list[dict]:
+    """Events as dicts; with the recording's clock, its ISO 8601 times beside the seconds."""
+    rows = [e.to_json() for e in events]
+    if recording.start_time is not None:
+        for row in rows:
+            for field in CLOCK_FIELDS:
+                at = recording.clock_at(row[field.replace("_clock", "_s")])
+                row[field] = at.isoformat(timespec="microseconds")
+    return rows
+
+
 def events_report(recording, spec, levels, k, events, noise, file_label: str) -> dict:
     """The ``events --json`` document (shared/CONTRACT.md, plus compatible keys)."""
     from scalesieve.core.events import repetition_by_channel
@@ -117,7 +133,10 @@ def events_report(recording, spec, levels, k, events, noise, file_label: str) ->
         "levels": list(levels),
         "k": k,
         "noise": noise,
-        "events": [e.to_json() for e in events],
+        "events": event_rows(recording, events),
+        "start_time": (recording.start_time.isoformat()
+                       if recording.start_time is not None else None),
+        "warnings": list(recording.warnings),
         "samples": recording.n,
         "duration_s": recording.duration_s,
         "transform": spec.to_json(),
@@ -189,9 +208,13 @@ def _in_blocks(args):
     levels = levels_from(args.levels, spec, int(facts["frames"]))
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
                                        rate=args.rate)
+    from scalesieve.commands.bands import _audio_warnings
+
     rec = SimpleNamespace(rate=got["rate"], n=got["samples"], channels=got["channels"],
                           duration_s=got["samples"] / got["rate"],
-                          channel_names=got["channel_names"])
+                          channel_names=got["channel_names"],
+                          start_time=None,       # audio files carry no clock
+                          warnings=tuple(_audio_warnings(args.file, got["samples"])))
     return rec, spec, levels, events, noise
 
 
@@ -215,9 +238,11 @@ def run(args) -> int:
                     for c in range(rec.channels)}
         events, noise = ev.detect_channels(prepared, rec.channel, rec.rate, args.k)
     report = events_report(rec, spec, levels, args.k, events, noise, os.path.basename(args.file))
+    print_warnings(rec, args.file)
     if args.csv:
-        write_table_csv(args.csv, [e.to_json() for e in events], force=args.force,
-                        fieldnames=ev.FIELDS, protect=[args.file])
+        fields = ev.FIELDS + (CLOCK_FIELDS if rec.start_time is not None else ())
+        write_table_csv(args.csv, event_rows(rec, events), force=args.force,
+                        fieldnames=fields, protect=[args.file])
     if args.json:
         json.dump(report, sys.stdout)
         sys.stdout.write("\n")

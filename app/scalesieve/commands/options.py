@@ -27,11 +27,14 @@ def _level(text: str) -> int:
     return v
 
 
-def _channel(text: str) -> int:
+def _channel(text: str) -> int | str:
+    """A 0-based channel number, or a channel's name (looked up when the file is read)."""
     try:
         v = int(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a channel number") from None
+        if not text.strip():
+            raise argparse.ArgumentTypeError("give a channel number or name") from None
+        return text
     if v < 0:
         raise argparse.ArgumentTypeError("channels are numbered from 0")
     return v
@@ -60,7 +63,11 @@ def add_input_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--rate", type=_positive_float, default=None, metavar="HZ",
                    help="sample rate, needed for a CSV/TXT without a time column")
     g.add_argument("--channel", type=_channel, default=None, metavar="K",
-                   help="use only channel K (0-based; default all)")
+                   help="use only channel K (0-based number or the channel's name; default all)")
+    g.add_argument("--group", default=None, metavar="NAME",
+                   help="TDMS group or MDF channel group to read, when the file holds several")
+    g.add_argument("--dataset", default=None, metavar="NAME",
+                   help="MATLAB variable or HDF5 dataset to read, when there are several")
     g.add_argument("--fill-gaps", choices=("linear",), default=None, dest="fill_gaps",
                    help="fill empty or NaN cells of a text file by linear interpolation")
 
@@ -68,7 +75,20 @@ def add_input_options(p: argparse.ArgumentParser) -> None:
 def load_input(args, path: str):
     from scalesieve import api
 
-    return api.load(path, rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps)
+    return api.load(path, rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
+                    group=getattr(args, "group", None), dataset=getattr(args, "dataset", None))
+
+
+def print_warnings(rec, path: str) -> None:
+    """Each of the reader's warnings as one line on stderr (shared/CONTRACT.md).
+
+    Called once the command has done its work, so a run that fails prints its
+    one error line only.
+    """
+    import sys
+
+    for w in rec.warnings:
+        print(f"scalesieve: warning: {path}: {w}", file=sys.stderr)
 
 
 def transform_from(args, recipe_spec=None):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from datetime import datetime
 
 import numpy as np
 
@@ -13,6 +14,12 @@ class Recording:
 
     ``subtype`` and ``format`` are the soundfile names of the source file
     (``None`` for text input) so that writers can keep them.
+
+    ``start_time`` is the recording's own clock at its first sample (from a
+    timestamp column or a file's header), else ``None``; ``warnings`` holds
+    one-line notes on what the reader found wrong but could read (a header
+    declaring more frames than the file holds, a filled clock gap);
+    ``units`` one unit string per channel (``""`` where the file names none).
     """
 
     samples: np.ndarray
@@ -22,6 +29,9 @@ class Recording:
     format: str | None = None
     subtype: str | None = None
     meta: dict = field(default_factory=dict)
+    start_time: datetime | None = None
+    warnings: tuple[str, ...] = ()
+    units: list[str] | None = None
 
     def __post_init__(self) -> None:
         s = np.asarray(self.samples)
@@ -36,6 +46,11 @@ class Recording:
             raise ValueError(
                 f"{len(self.channel_names)} channel names for {s.shape[1]} channels")
         self.rate = float(self.rate)
+        self.warnings = tuple(str(w) for w in self.warnings)
+        if self.units is None:
+            self.units = [""] * s.shape[1]
+        elif len(self.units) != s.shape[1]:
+            raise ValueError(f"{len(self.units)} units for {s.shape[1]} channels")
 
     @property
     def n(self) -> int:
@@ -56,4 +71,13 @@ class Recording:
         """A recording holding only the given channels (0-based)."""
         return Recording(self.samples[:, channels], self.rate,
                          [self.channel_names[k] for k in channels], self.source,
-                         self.format, self.subtype, dict(self.meta))
+                         self.format, self.subtype, dict(self.meta), self.start_time,
+                         self.warnings, [self.units[k] for k in channels])
+
+    def clock_at(self, seconds: float) -> datetime | None:
+        """The recording's own clock ``seconds`` after its first sample, or ``None``."""
+        if self.start_time is None:
+            return None
+        from datetime import timedelta
+
+        return self.start_time + timedelta(seconds=float(seconds))

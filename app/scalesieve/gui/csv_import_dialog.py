@@ -112,9 +112,13 @@ class TextChoice:
             scale, unit = found if found else (None, None)
         if scale is not None and self.unit != AUTO:
             scale, unit = cr.TIME_UNITS[self.unit], self.unit
+        same_time = scale is not None and unit == f.time_unit and f.time_kind is not None
         return cr.TextLayout(d, k, names, [ln[0] for ln in self.lines[:head_count]],
                              first_data[1], first_data[0], scale, unit, self.encoding,
-                             [(ln[0], ln[2]) for ln in self.lines[head_count:]])
+                             [(ln[0], ln[2]) for ln in self.lines[head_count:]],
+                             f.time_kind if same_time else ("number" if scale else None),
+                             f.time_origin if same_time else None,
+                             f.clock_form if same_time else None)
 
     def read(self, rate: float | None, fill_gaps: str | None) -> Recording:
         """Read the whole file under the chosen settings."""
@@ -270,15 +274,22 @@ class CsvImportDialog(QDialog):
         self.table.setVerticalHeaderLabels([str(r[0]) for r in rows])
         problems = []
         times = []
+        convert = layout.time_converter() if has_time else None
         for i, (lineno, line) in enumerate(rows):
             cells = cr.split_cells(cr._data_part(line), layout.dialect)
             if len(cells) != k:
                 problems.append(f"line {lineno}: {len(cells)} cells, expected {k}")
             for j in range(k):
                 text = cells[j] if j < len(cells) else ""
-                v = cr.cell_value(text, layout.dialect.decimal)
-                shown = text if not isinstance(v, float) else (
-                    "(gap)" if math.isnan(v) else f"{v:.10g}")
+                if j == 0 and convert is not None:
+                    try:  # timestamps and clock times: shown as written, read as seconds
+                        v = convert(text)
+                    except ValueError:
+                        v = None
+                else:
+                    v = cr.cell_value(text, layout.dialect.decimal)
+                shown = text if not isinstance(v, float) or convert is not None and j == 0 \
+                    else ("(gap)" if math.isnan(v) else f"{v:.10g}")
                 item = QTableWidgetItem(shown)
                 if not isinstance(v, float):
                     item.setBackground(_BAD)
@@ -353,3 +364,144 @@ class CsvImportDialog(QDialog):
     def settings_text(self) -> str:
         self._read_choices()
         return "as found" if self.choice.as_found() else "set by hand"
+
+
+class MeasurementImportDialog(QDialog):
+    """Preview the channels of a measurement file (TDMS, EDF, MAT, HDF5, MDF) and choose.
+
+    Groups or datasets (when the file holds several) in a list; the chosen
+    one's channels, with units and rates, ticked to load. The reading itself
+    is the command line's (``api.load`` with ``group``/``dataset``/``channel``).
+    """
+
+    def __init__(self, path: str, kind: str, parent=None):
+        super().__init__(parent)
+        from scalesieve.io import measurement_readers as mr
+
+        self.path = path
+        self.option, self.parts = mr.contents(path, kind)  # ScalesieveError: caller shows it
+        if not self.parts:
+            raise ScalesieveError("holds no channel to load", path)
+        self.setWindowTitle(f"Import {os.path.basename(path)}")
+        self.resize(640, 460)
+        lay = QVBoxLayout(self)
+        label = mr.NAMES[kind][0]
+        note = QLabel(f"{label} file, read by {mr.NAMES[kind][1]}."
+                      + (" Physiological traces: for research only, not for diagnosis."
+                         if kind in ("edf", "bdf") else ""))
+        note.setWordWrap(True)
+        lay.addWidget(note)
+        form = QFormLayout()
+        self.part = QComboBox()
+        for name, chans in self.parts.items():
+            self.part.addItem(f"{name}  ({len(chans)} channel{'s' if len(chans) != 1 else ''})",
+                              name)
+        if self.option is not None:
+            form.addRow("Group" if self.option == "group" else "Dataset", self.part)
+        lay.addLayout(form)
+        lay.addWidget(QLabel("Channels"))
+        self.channels = QListWidget()
+        self.channels.setToolTip("untick the channels not to load")
+        lay.addWidget(self.channels, 1)
+        self.status = QLabel("")
+        self.status.setWordWrap(True)
+        lay.addWidget(self.status)
+        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
+                                        | QDialogButtonBox.StandardButton.Cancel)
+        self.buttons.button(QDialogButtonBox.StandardButton.Ok).setText("Import")
+        self.buttons.accepted.connect(self.accept)
+        self.buttons.rejected.connect(self.reject)
+        lay.addWidget(self.buttons)
+        self.part.currentIndexChanged.connect(self._fill)
+        self.channels.itemChanged.connect(self._check)
+        self._fill()
+
+    def _fill(self, *_):
+        self.channels.blockSignals(True)
+        self.channels.clear()
+        for name, unit, rate in self.parts[self.part.currentData()]:
+            bits = [b for b in (unit and f"[{unit}]", rate and f"{rate:g} Hz") if b]
+            item = QListWidgetItem(name + ("   " + "  ".join(bits) if bits else ""))
+            item.setFlags(item.flags() | Qt.ItemFlag.ItemIsUserCheckable)
+            item.setCheckState(Qt.CheckState.Checked)
+            self.channels.addItem(item)
+        rates = {r for _, _, r in self.parts[self.part.currentData()]}
+        if len(rates) > 1:
+            # Only channels at one rate load together: start with the first one's.
+            first = self.parts[self.part.currentData()][0][2]
+            for i, (_, _, r) in enumerate(self.parts[self.part.currentData()]):
+                if r != first:
+                    self.channels.item(i).setCheckState(Qt.CheckState.Unchecked)
+        self.channels.blockSignals(False)
+        self._check()
+
+    def chosen_channels(self) -> list[int]:
+        return [i for i in range(self.channels.count())
+                if self.channels.item(i).checkState() == Qt.CheckState.Checked]
+
+    def _check(self, *_):
+        chans = self.parts[self.part.currentData()]
+        chosen = self.chosen_channels()
+        rates = {chans[i][2] for i in chosen}
+        ok = self.buttons.button(QDialogButtonBox.StandardButton.Ok)
+        if not chosen:
+            self.status.setText("tick at least one channel")
+            ok.setEnabled(False)
+        elif len(rates) > 1:
+            self.status.setText("the ticked channels have different rates; tick channels "
+                                "of one rate")
+            ok.setEnabled(False)
+        else:
+            self.status.setText(f"{len(chosen)} of {len(chans)} channels")
+            ok.setEnabled(True)
+
+    def loader(self):
+        """A function reading the chosen channels (no Qt: runs in the worker)."""
+        from scalesieve import api
+
+        path, part, option = self.path, self.part.currentData(), self.option
+        chans = self.chosen_channels()
+        total = self.channels.count()
+        rates = {r for _, _, r in self.parts[part]}
+        kwargs = {option: part} if option else {}
+
+        def load() -> Recording:
+            if len(rates) > 1 or len(chans) == 1:
+                parts = [api.load(path, channel=k, **kwargs) for k in chans]
+                if len(parts) == 1:
+                    return parts[0]
+                n = min(p.n for p in parts)
+                first = parts[0]
+                return Recording(np.column_stack([p.samples[:n, 0] for p in parts]), first.rate,
+                                 [p.channel_names[0] for p in parts], source=path,
+                                 meta=dict(first.meta), start_time=first.start_time,
+                                 warnings=first.warnings, units=[p.units[0] for p in parts])
+            rec = api.load(path, **kwargs)
+            return rec.select(chans) if len(chans) != total else rec
+
+        return load
+
+
+def ask_measurement_channels(parent, path: str):
+    """A loader for ``path`` after the channel preview, or None (cancelled or refused).
+
+    A file with one group or dataset holding one channel opens without asking.
+    """
+    from scalesieve import api
+    from scalesieve.gui.error_dialog import show_error
+    from scalesieve.io import measurement_readers as mr
+    from scalesieve.io.readers import _read_head
+
+    ext = os.path.splitext(path)[1].lower()
+    try:
+        kind = mr.kind_of(_read_head(path), ext)
+        dlg = MeasurementImportDialog(path, kind, parent) if kind else None
+    except ScalesieveError as exc:
+        show_error(parent, exc.one_line())
+        return None
+    if dlg is None or (len(dlg.parts) == 1 and dlg.channels.count() == 1):
+        return lambda: api.load(path)
+    parent._import_dialog = dlg
+    if dlg.exec() != QDialog.DialogCode.Accepted:
+        return None
+    return dlg.loader()

@@ -30,8 +30,12 @@ from scalesieve.gui.transform_controls import TransformControls
 from scalesieve.io.atomic import atomic_write
 from scalesieve.io.readers import AUDIO_EXTENSIONS, TEXT_EXTENSIONS
 
-OPEN_FILTER = ("Recordings (*.wav *.flac *.aiff *.aif *.ogg *.csv *.tsv *.txt *.dat);;"
+from scalesieve.io.measurement_readers import EXTENSIONS as MEASUREMENT_EXTENSIONS
+
+OPEN_FILTER = ("Recordings (*.wav *.flac *.aiff *.aif *.ogg *.csv *.tsv *.txt *.dat "
+               + " ".join("*" + e for e in MEASUREMENT_EXTENSIONS) + ");;"
                "Audio (*.wav *.flac *.aiff *.aif *.ogg);;Text tables (*.csv *.tsv *.txt *.dat);;"
+               "Measurement files (" + " ".join("*" + e for e in MEASUREMENT_EXTENSIONS) + ");;"
                "All files (*)")
 EVENTS_MODULE = "scalesieve.gui.events_pane"
 
@@ -248,6 +252,7 @@ class MainWindow(QMainWindow):
         m = mb.addMenu("&View")
         for a in (self.act_all, self.act_zoom_in, self.act_zoom_out):
             m.addAction(a)
+        m.addAction(self.time_axis.clock_action(self))
         m.addSeparator()
         for d in (self.transform_dock, self.recipe_dock, self.events_dock, self.impacts_dock):
             if d is not None:
@@ -353,6 +358,9 @@ class MainWindow(QMainWindow):
             name = self.adapter.source_name()
             self.setWindowTitle(f"Scalesieve — {name}" if name else "Scalesieve")
             self.status_file.setText(self.describe_recording())
+            self.time_axis.set_clock(rec.start_time)
+            if rec.warnings:  # e.g. a header declaring more frames than the file holds
+                self.statusBar().showMessage("warning: " + "; ".join(rec.warnings), 20000)
             if rec.source and os.path.exists(rec.source):
                 ws.add_recent(self.settings, rec.source)
                 ws.set_last_folder(self.settings, rec.source)
@@ -432,6 +440,12 @@ class MainWindow(QMainWindow):
             if dlg.exec() != CsvImportDialog.DialogCode.Accepted:
                 return
             load = dlg.loader()
+        elif ask_text_settings and ext in MEASUREMENT_EXTENSIONS and ext not in (".xlsx", ".xlsm"):
+            from scalesieve.gui.csv_import_dialog import ask_measurement_channels
+
+            load = ask_measurement_channels(self, path)
+            if load is None:
+                return
         else:
             def load():
                 return api.load(path)
@@ -456,7 +470,8 @@ class MainWindow(QMainWindow):
         urls = ev.mimeData().urls() if ev.mimeData().hasUrls() else []
         if urls and urls[0].isLocalFile():
             ext = os.path.splitext(urls[0].toLocalFile())[1].lower()
-            if ext in TEXT_EXTENSIONS or ext in AUDIO_EXTENSIONS or ext == ".json":
+            if (ext in TEXT_EXTENSIONS or ext in AUDIO_EXTENSIONS or ext == ".json"
+                    or ext in MEASUREMENT_EXTENSIONS):
                 ev.acceptProposedAction()
                 return
         ev.ignore()

@@ -27,17 +27,19 @@ import os
 import re
 import warnings
 from dataclasses import dataclass, field
+from datetime import timezone
 
 import numpy as np
 
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
+from scalesieve.io import time_column as tc
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
                                        os_error_message)
 
 #: Largest relative spread of time steps, (max - min) / median, still called uniform.
-UNIFORM_STEP_TOLERANCE = 1e-3
+UNIFORM_STEP_TOLERANCE = tc.UNIFORM_STEP_TOLERANCE
 
 #: Cells that mean "no value here" (case-insensitive, after stripping).
 GAP_TOKENS = frozenset({"", "nan", "-nan", "+nan", "na", "n/a", "null", "none"})
@@ -54,7 +56,8 @@ TIME_UNITS = {
 # Unit suffixes distinctive enough to mark a time column on any name (``accel_ms``
 # would be odd, ``pressure_s`` is plausible for something else).
 _DISTINCT_SUFFIX_UNITS = ("ms", "msec", "us", "µs", "μs", "usec", "ns")
-_TIME_WORDS = frozenset({"time", "t", "timestamp", "elapsed", "zeit", "temps", "tiempo"})
+_TIME_WORDS = frozenset({"time", "t", "timestamp", "elapsed", "zeit", "temps", "tiempo",
+                         "datetime", "date_time", "date time", "date/time", "clock"})
 _PLAIN_UNIT_HEADERS = frozenset({"seconds", "sec", "secs", "ms", "msec", "us", "µs", "μs",
                                  "usec"})
 
@@ -95,6 +98,18 @@ class TextLayout:
     time_unit: str | None
     encoding: str
     sample_rows: list[tuple[int, str]] = field(default_factory=list)
+    # "number" (in time_unit), "iso" (ISO 8601 date-times) or "clock" (hh:mm:ss)
+    time_kind: str | None = None
+    time_origin: object = None           # datetime of the first row, for "iso"
+    clock_form: object = None            # time_column.ClockForm, for "iso"
+
+    def time_converter(self):
+        """Cell -> seconds for column 0 when it holds timestamps or clock times, else None."""
+        if self.time_kind == "iso":
+            return tc.iso_converter(self.time_origin)
+        if self.time_kind == "clock":
+            return tc.clock_seconds
+        return None
 
 
 # ----------------------------------------------------------------------------- text
@@ -187,6 +202,8 @@ def split_cells(line: str, dialect: Dialect) -> list[str]:
     cells = [c.strip().strip('"').strip() for c in cells]
     if dialect.trailing and cells and cells[-1] == "":
         cells.pop()
+    if d is None:
+        cells = tc.split_date_time(cells)
     return cells
 
 
@@ -260,7 +277,8 @@ def detect_dialect(rows: list[str]) -> tuple[Dialect, int]:
         k = max(set(body_counts), key=lambda v: (body_counts.count(v), v))
         consistency = sum(1 for c in counts if c == k) / len(counts)
         cells = [c for cs in (split[1:] if len(rows) > 1 else split) if len(cs) == k for c in cs]
-        numeric = (sum(1 for c in cells if _is_numeric(c, decimal)) / len(cells)) if cells else 0.0
+        numeric = (sum(1 for c in cells if _is_numeric(c, decimal) or tc.cell_kind(c))
+                   / len(cells)) if cells else 0.0
         # A decimal comma must be seen to be chosen; otherwise '.' is the same reading.
         if decimal == "," and not any("," in c for c in cells):
             numeric *= 0.999
@@ -367,7 +385,8 @@ def scan_layout(text: str, source: str, encoding: str = "utf-8") -> TextLayout:
     dialect, k = detect_dialect(sample)
 
     first_cells = split_cells(rows[0][2], dialect)
-    header = any(not _is_numeric(c, dialect.decimal) for c in first_cells)
+    header = any(not _is_numeric(c, dialect.decimal) and not tc.cell_kind(c)
+                 for c in first_cells)
     names: list[str] | None = None
     header_lines: list[int] = []
     data_index = 0
@@ -405,9 +424,22 @@ def scan_layout(text: str, source: str, encoding: str = "utf-8") -> TextLayout:
             raise ScalesieveError(str(exc), source=source, line=header_lines[0]) from None
         if found is not None:
             time_scale, time_unit = found
-    lineno, offset, _ = rows[data_index]
+    lineno, offset, first_row = rows[data_index]
+    time_kind = origin = form = None
+    first_cells = split_cells(_data_part(first_row), dialect)
+    kind = tc.cell_kind(first_cells[0]) if first_cells else None
+    if kind == "iso" or (kind == "clock" and (names is None or time_scale is not None)):
+        # Timestamps mark a time column whatever its header says; clock times need
+        # a time header or none at all.
+        time_kind, time_scale, time_unit = kind, 1.0, kind
+        if kind == "iso":
+            origin = tc.parse_iso(first_cells[0])
+            form = tc.clock_form_of(first_cells[0])
+    elif time_scale is not None:
+        time_kind = "number"
     return TextLayout(dialect, k, names, header_lines, offset, lineno, time_scale, time_unit,
-                      encoding, [(r[0], r[2]) for r in rows[data_index:]])
+                      encoding, [(r[0], r[2]) for r in rows[data_index:]], time_kind,
+                      origin, form)
 
 
 # ----------------------------------------------------------------------- parsing
@@ -419,15 +451,59 @@ def _parse_bulk(body: str, layout: TextLayout) -> np.ndarray | None:
         body = re.sub(re.escape(d.delimiter) + r"[ \t]*$", "", body, flags=re.M)
     if d.decimal == ",":
         body = body.replace(",", ".")
+    convert = layout.time_converter()
+    if convert is not None and d.delimiter is None:
+        return None  # a date and time split by whitespace: row by row joins them
+    if layout.time_kind == "iso":
+        values = _parse_bulk_iso(body, layout)
+        if values is not None:
+            return values
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             values = np.loadtxt(io.StringIO(body), delimiter=d.delimiter, comments="#",
-                                quotechar='"', dtype=np.float64, ndmin=2)
-    except (ValueError, IndexError):
+                                quotechar='"', dtype=np.float64, ndmin=2,
+                                converters=None if convert is None else {0: convert})
+    except (ValueError, IndexError, TypeError):
         return None
     if values.shape[1] != layout.columns and values.shape[0] > 0:
         return None
+    return values
+
+
+def _parse_bulk_iso(body: str, layout: TextLayout) -> np.ndarray | None:
+    """Timestamps parsed by numpy's datetime64 (in C), numbers by loadtxt; None to fall back.
+
+    numpy takes ``T`` or a space and turns an offset into UTC, which keeps elapsed time
+    right across an offset change; a mix of stamps with and without offsets, a comma
+    before the fraction or anything odd falls back to the exact row-by-row reader.
+    """
+    d = layout.dialect
+    k = layout.columns
+    origin = layout.time_origin
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            stamps = np.loadtxt(io.StringIO(body), delimiter=d.delimiter, comments="#",
+                                quotechar='"', dtype=str, usecols=0, ndmin=1)
+            if stamps.size == 0 or (np.char.find(stamps, ",") >= 0).any():
+                return None
+            aware = ((np.char.find(stamps, "+", 19) >= 0) | (np.char.find(stamps, "Z") >= 0)
+                     | (np.char.find(stamps, "-", 19) >= 0))
+            if aware.any() != aware.all() or bool(aware[0]) != (origin.tzinfo is not None):
+                return None
+            when = stamps.astype("datetime64[ns]")
+            rest = np.loadtxt(io.StringIO(body), delimiter=d.delimiter, comments="#",
+                              quotechar='"', dtype=np.float64, ndmin=2,
+                              usecols=range(1, k)) if k > 1 else np.empty((stamps.size, 0))
+    except (ValueError, IndexError, TypeError, OverflowError):
+        return None
+    if rest.shape[0] != stamps.size or np.isnat(when).any():
+        return None
+    first = origin.astimezone(timezone.utc).replace(tzinfo=None) if origin.tzinfo else origin
+    values = np.empty((stamps.size, k), dtype=np.float64)
+    values[:, 0] = (when - np.datetime64(first, "ns")).astype(np.int64) / 1e9
+    values[:, 1:] = rest
     return values
 
 
@@ -449,6 +525,7 @@ def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray,
     rows: list[list[float]] = []
     linenos: list[int] = []
     where = "the header" if layout.names is not None else f"line {layout.data_line}"
+    convert = layout.time_converter()
     for lineno, _, line in _lines(text, layout.data_offset, layout.data_line):
         part = _data_part(line)
         if not part:
@@ -459,6 +536,13 @@ def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray,
                                   source=source, line=lineno)
         row = []
         for j, cell in enumerate(cells):
+            if j == 0 and convert is not None:
+                try:
+                    row.append(convert(cell))
+                except ValueError as exc:
+                    raise ScalesieveError(f"{_column_label(layout, 0)}: time value {exc}",
+                                          source=source, line=lineno) from None
+                continue
             v = cell_value(cell, d.decimal)
             if v is _NOT_A_NUMBER:
                 what = "time value" if (j == 0 and layout.time_scale is not None) else "cell"
@@ -524,10 +608,24 @@ def check_rate(rate, source: str | None = None) -> float | None:
     return r
 
 
-def check_channel(channel, count: int, source: str | None = None) -> int | None:
-    """Validate a 0-based channel index against ``count`` channels."""
+def check_channel(channel, count: int, source: str | None = None,
+                  names: list[str] | None = None) -> int | None:
+    """Validate a 0-based channel index (or, given ``names``, a channel's name)."""
     if channel is None:
         return None
+    if isinstance(channel, str) and not channel.strip().isdigit():
+        wanted = channel.strip()
+        if names is not None:
+            for rule in (lambda n: n == wanted, lambda n: n.lower() == wanted.lower(),
+                         lambda n: n.split(" [")[0].lower() == wanted.lower()):
+                hits = [k for k, n in enumerate(names) if rule(n)]
+                if len(hits) == 1:
+                    return hits[0]
+        listed = ", ".join(repr(n) for n in (names or [])[:12])
+        raise ScalesieveError(
+            f"--channel {wanted!r} names no channel; the file's channels are {listed}"
+            if names else f"--channel must be a 0-based channel number or a channel's name, "
+            f"got {channel!r}", source=source)
     if isinstance(channel, bool):
         raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
                               source=source)
@@ -545,39 +643,13 @@ def check_channel(channel, count: int, source: str | None = None) -> int | None:
 
 
 def _time_axis_rate(t: np.ndarray, line_of, source: str) -> float:
-    """Rate from a time axis in seconds; error when it is not evenly spaced."""
-    if t.size < 2:
-        raise ScalesieveError("a single row cannot give a rate from its time column; "
-                              "give --rate", source=source)
-    steps = np.diff(t)
-    bad = np.flatnonzero(~(steps > 0))
-    if bad.size:
-        i = int(bad[0]) + 1
-        line = line_of(i)
-        raise ScalesieveError(
-            f"time does not increase ({t[i - 1]:.9g} s, then {t[i]:.9g} s)",
-            source=source, line=line)
-    typical = float(np.median(steps))
-    spread = float(steps.max() - steps.min()) / typical
-    if not spread < UNIFORM_STEP_TOLERANCE:
-        i = int(np.argmax(np.abs(steps - typical))) + 1
-        line = line_of(i)
-        raise ScalesieveError(
-            f"time steps are not uniform (relative spread {spread:.3g}, limit "
-            f"{UNIFORM_STEP_TOLERANCE:g}): a step of {steps[i - 1]:.9g} s where most are "
-            f"{typical:.9g} s; resample the data, or give --rate to treat the rows as "
-            "evenly spaced", source=source, line=line)
-    # The whole span is far more precise than any single printed step.
-    rate = float((t.size - 1) / (t[-1] - t[0]))
-    # Drop float noise from unit scaling (1e5 rather than 100000.00000000001).
-    if abs(rate - round(rate)) <= 1e-9 * rate:
-        rate = float(round(rate))
-    return rate
+    """Rate from a time axis in seconds; error when it is not evenly spaced (or jumps)."""
+    return tc.analyse_steps(t, line_of, source).rate
 
 
 def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
               channel: int | None = None, fill_gaps: str | None = None,
-              dtype=np.float64, _bulk: bool = True) -> Recording:
+              dtype=np.float64, _bulk: bool = True, _text: str | None = None) -> Recording:
     """Read a numeric text table into a :class:`Recording`.
 
     Parameters
@@ -620,7 +692,10 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
     except ValueError as exc:
         raise ScalesieveError(str(exc), source=source) from None
     rate = check_rate(rate, source)
-    source, text, encoding = read_text_file(path)
+    if _text is None:
+        source, text, encoding = read_text_file(path)
+    else:
+        text, encoding = _text, "utf-8"  # a spreadsheet's sheet, already text
     layout = scan_layout(text, source, encoding)
     try:
         values, linenos = parse_values(text, layout, source, bulk=_bulk)
@@ -672,6 +747,8 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
             f"to analyse (beyond ±{MAX_ABS_SAMPLE:g})", source=source, line=int(linenos[r]))
 
     time_start = None
+    start_time = layout.time_origin if layout.time_kind == "iso" else None
+    notes: list[str] = []
     if rate is None:
         if not has_time:
             raise ScalesieveError(
@@ -679,6 +756,8 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
                 "name the first column time, t, or with a unit such as [s] or (ms))",
                 source=source)
         t = values[:, 0] * layout.time_scale
+        if layout.time_kind == "clock":
+            t = tc.unwrap_midnight(t)
 
         def line_of(i: int) -> int:
             # Line numbers are found only when a message needs one.
@@ -687,9 +766,14 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
                 linenos = _data_linenos(text, layout)
             return int(linenos[i])
 
-        rate = _time_axis_rate(t, line_of, source)
+        axis = tc.analyse_steps(t, line_of, source, origin=start_time, fill=fill_gaps)
+        rate = axis.rate
         time_start = float(t[0])
         samples = values[:, 1:]
+        if axis.gaps:
+            notes = tc.gap_warnings(t, axis.gaps, rate, line_of, start_time)
+            samples = tc.fill_jumps(samples, axis.gaps)
+            filled += sum(m for _, m in axis.gaps) * samples.shape[1]
     else:
         samples = values
 
@@ -698,12 +782,14 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
     else:
         names = [f"ch{j}" for j in range(samples.shape[1])]
     names = _unique(names)
+    units = [_unit_of(n) for n in names]
 
     count = samples.shape[1]
-    pick = check_channel(channel, count, source)
+    pick = check_channel(channel, count, source, names)
     if pick is not None:
         samples = samples[:, pick:pick + 1]
         names = [names[pick]]
+        units = [units[pick]]
     samples = np.ascontiguousarray(samples, dtype=dtype)
 
     meta = {
@@ -713,8 +799,10 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
             "encoding": layout.encoding,
             "header": layout.names is not None,
             "columns": list(layout.names) if layout.names is not None else None,
-            "time_column": layout.names[0] if has_time else None,
+            "time_column": (layout.names[0] if layout.names is not None else "column 1")
+            if has_time else None,
             "time_unit": layout.time_unit,
+            "time_kind": layout.time_kind,
         },
         "file_channels": count,
         "filled_gaps": filled,
@@ -726,8 +814,16 @@ def read_text(path: str | os.PathLike[str], *, rate: float | None = None,
         meta["channel_index"] = pick
     if time_start is not None:
         meta["time_start_s"] = time_start
+    if start_time is not None:
+        meta["clock"] = layout.clock_form.to_json()
     return Recording(samples, rate, names, source=source, format=None, subtype=None,
-                     meta=meta)
+                     meta=meta, start_time=start_time, warnings=tuple(notes), units=units)
+
+
+def _unit_of(name: str) -> str:
+    """The unit a column header carries (``strain [µm/m]`` -> ``µm/m``), else ``""``."""
+    m = _BRACKET_RE.match(name.strip())
+    return m.group(2).strip() if m else ""
 
 
 def probe_text(path: str | os.PathLike[str]) -> dict:
@@ -763,11 +859,18 @@ def probe_text(path: str | os.PathLike[str]) -> dict:
     rate = None
     if has_time:
         t = []
+        convert = layout.time_converter()
         for _, line in layout.sample_rows:
             part = _data_part(line)
             cells = split_cells(part, layout.dialect) if part else []
             if cells:
-                v = cell_value(cells[0], layout.dialect.decimal)
+                if convert is not None:
+                    try:
+                        v = convert(cells[0])
+                    except ValueError:
+                        continue
+                else:
+                    v = cell_value(cells[0], layout.dialect.decimal)
                 if v is not _NOT_A_NUMBER and math.isfinite(v):
                     t.append(v * layout.time_scale)
         if len(t) >= 2 and t[-1] > t[0]:

@@ -14,7 +14,7 @@ import soundfile as sf
 
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
-from scalesieve.io import csv_reader
+from scalesieve.io import csv_reader, measurement_readers
 from scalesieve.io.csv_reader import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
@@ -55,6 +55,19 @@ _SF_ERRORS = (getattr(sf, "SoundFileError", RuntimeError), RuntimeError, ValueEr
 _HEAD_BYTES = 1 << 16
 
 
+
+def truncation(source: str, info, held: int) -> tuple[int, str | None]:
+    """(frames the header declares, a warning when the file holds fewer, else None)."""
+    declared = int(info.frames)
+    if info.format in ("WAV", "WAVEX", "RF64"):
+        from scalesieve.io.wav_header import declared_frames
+
+        declared = max(declared, declared_frames(source) or 0)
+    if held < declared:
+        return declared, (f"the header declares {declared} frames but the file holds "
+                          f"{held}; the recording is incomplete (read what is there)")
+    return declared, None
+
 def _audio_extensions() -> frozenset[str]:
     exts = {"." + name.lower() for name in sf.available_formats()}
     exts |= {".aif", ".aiff", ".aifc", ".oga", ".opus", ".mp3", ".wave", ".snd", ".bwf"}
@@ -82,8 +95,12 @@ def _has_audio_magic(head: bytes) -> bool:
 
 
 def _kind(source: str) -> str:
-    """``"audio"`` or ``"text"``: content first, then the extension."""
+    """``"audio"``, ``"text"`` or a measurement format: content first, then the extension."""
     head = _read_head(source)
+    ext = os.path.splitext(source)[1].lower()
+    measured = measurement_readers.kind_of(head, ext)
+    if measured is not None:
+        return measured
     if _has_audio_magic(head):
         return "audio"
     ext = os.path.splitext(source)[1].lower()
@@ -233,7 +250,8 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
             f"the file's header says {file_rate:g} Hz; --rate {given:g} does not match "
             "(the rate of an audio file comes from its header; leave out --rate)",
             source=source)
-    pick = check_channel(channel, info.channels, source)
+    pick = check_channel(channel, info.channels, source,
+                         [f"ch{k}" for k in range(info.channels)])
     frames, trusted = _plausible_frames(info, size)
     with quiet_native_stderr():
         samples = _read_audio_samples(source, info, frames, trusted, size, pick, dtype)
@@ -242,9 +260,12 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
 
     meta: dict = {"format_info": info.format_info, "subtype_info": info.subtype_info,
                   "file_channels": int(info.channels), "filled_gaps": 0}
-    if samples.shape[0] < info.frames:
-        meta["header_frames"] = int(info.frames)
+    warns: list[str] = []
+    declared, warning = truncation(source, info, samples.shape[0])
+    if warning:
+        meta["header_frames"] = declared
         meta["truncated"] = True
+        warns.append(warning)
     if pick is not None:
         meta["channel_index"] = pick
 
@@ -280,12 +301,89 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
     if pick is not None:
         names = [names[pick]]
     return Recording(samples, file_rate, names, source=source, format=info.format,
-                     subtype=info.subtype, meta=meta)
+                     subtype=info.subtype, meta=meta, warnings=tuple(warns))
+
+
+def _nan_runs(col: np.ndarray) -> list[tuple[int, int]]:
+    """(first, last) sample of each run of NaN in one channel."""
+    bad = np.isnan(col).astype(np.int8)
+    edges = np.diff(np.concatenate(([0], bad, [0])))
+    return list(zip(np.flatnonzero(edges == 1).tolist(),
+                    (np.flatnonzero(edges == -1) - 1).tolist()))
+
+
+def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype, group,
+                      dataset) -> Recording:
+    """A TDMS, EDF/BDF, MATLAB, HDF5 or MDF file through its own library."""
+    src = measurement_readers.open_source(source, kind, group=group, dataset=dataset,
+                                          channel=channel)
+    label = src.format
+    pick = check_channel(channel, len(src.names), source, src.names)
+    file_rate = src.rate
+    frames = src.frames
+    rates = src.detail.get("rates")
+    if rates is not None and len(set(rates)) > 1:
+        if pick is None:
+            listed = ", ".join(f"{n!r} {r:g} Hz" for n, r in zip(src.names, rates))
+            raise ScalesieveError(f"holds signals at different rates ({listed}); choose one "
+                                  "with --channel NAME", source=source)
+        file_rate = rates[pick]
+        frames = src.detail["lengths"][pick]
+    given = check_rate(rate, source)
+    if file_rate is None:
+        if given is None:
+            raise ScalesieveError(f"this {label} file stores no sampling rate (no scalar "
+                                  "fs, rate or sample_rate); give --rate HZ", source=source)
+        file_rate = given
+    elif given is not None and abs(given - file_rate) > 1e-9 * file_rate:
+        raise ScalesieveError(f"the file says {file_rate:g} Hz; --rate {given:g} does not "
+                              "match (leave out --rate)", source=source)
+    cols = list(range(len(src.names))) if pick is None else [pick]
+    # checked as float64 first: a value beyond float32's range is refused, not made inf
+    samples = np.asarray(src.read(0, frames, cols), dtype=np.float64)
+    if samples.shape[0] == 0:
+        raise ScalesieveError(f"this {label} file holds no samples", source=source)
+    names = [src.names[k] for k in cols]
+    notes = list(src.warnings)
+    filled = 0
+    if np.isnan(samples).any():
+        col = int(np.flatnonzero(np.isnan(samples).any(axis=0))[0])
+        runs = _nan_runs(samples[:, col])
+        a, b = runs[0]
+        where = (f"channel {names[col]!r} holds NaN from sample {a} to {b} ({b - a + 1} "
+                 f"samples, at {a / file_rate:.6g} s)"
+                 + (f" and {len(runs) - 1} more run{'s' if len(runs) > 2 else ''}"
+                    if len(runs) > 1 else ""))
+        if fill_gaps is None:
+            raise ScalesieveError(f"{where}; use --fill-gaps linear to fill gaps",
+                                  source=source)
+        if np.isnan(samples).all(axis=0).any():
+            raise ScalesieveError("a channel holds only NaN samples", source=source)
+        filled = int(fill_linear(samples).sum())
+        notes.append(f"filled {filled} NaN samples by linear interpolation ({where})")
+    first = first_unusable(samples)
+    if first is not None:
+        r, c = first
+        v = float(samples[r, c])
+        raise ScalesieveError(f"sample {r} of channel {names[c]!r} is "
+                              + ("infinite" if np.isinf(v) else
+                                 f"{v:.3g}, beyond ±{MAX_ABS_SAMPLE:g}"), source=source)
+    samples = np.ascontiguousarray(samples, dtype=dtype)
+    meta = {"measurement_format": label, "file_channels": len(src.names),
+            "filled_gaps": filled, "samples_checked": True, **src.detail}
+    if pick is not None:
+        meta["channel_index"] = pick
+    if src.start_time is not None:
+        meta["clock"] = {"sep": "T", "digits": 6, "offset": None}
+    return Recording(samples, float(file_rate), names, source=source, meta=meta,
+                     start_time=src.start_time, warnings=tuple(notes),
+                     units=[src.units[k] for k in cols])
 
 
 def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
-                   channel: int | None = None, fill_gaps: str | None = None,
-                   dtype=np.float64) -> Recording:
+                   channel: int | str | None = None, fill_gaps: str | None = None,
+                   dtype=np.float64, group: str | None = None,
+                   dataset: str | None = None) -> Recording:
     """Read an audio file or a numeric text table into a :class:`Recording`.
 
     Parameters
@@ -300,16 +398,20 @@ def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
         column and overriding one. For audio input the rate comes from the
         header; a ``rate`` that differs from it is an error (equal is accepted),
         so a wrong ``--rate`` never silently retimes a recording.
-    channel : int, optional
+    channel : int or str, optional
         0-based channel index (for text: among the columns after the time
-        column); ``None`` keeps all. Out of range is an error naming how many
-        channels there are.
+        column) or a channel's name; ``None`` keeps all. Out of range is an
+        error naming how many channels there are.
     fill_gaps : {None, "linear"}
         Opt-in interpolation of empty/NaN cells (text) or NaN samples (float
         audio). Without it they are an error naming the line (text) or the
         sample (audio).
     dtype : float64 or float32
         Sample type; float32 halves memory for very long recordings.
+    group : str, optional
+        TDMS group or MDF channel group (name or number) when a file holds several.
+    dataset : str, optional
+        MATLAB variable or HDF5 dataset when a file holds several numeric ones.
 
     Returns
     -------
@@ -334,9 +436,18 @@ def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
     except ValueError as exc:
         raise ScalesieveError(str(exc), source=given) from None
     source, size = check_readable(path)
-    if _kind(source) == "text":
+    kind = _kind(source)
+    if kind == "text":
         return csv_reader.read_text(source, rate=rate, channel=channel, fill_gaps=fill_gaps,
                                     dtype=dt)
+    if kind == "xlsx":
+        rec = csv_reader.read_text(source, rate=rate, channel=channel, fill_gaps=fill_gaps,
+                                   dtype=dt, _text=measurement_readers.xlsx_as_text(source))
+        rec.meta["measurement_format"] = "Excel"
+        return rec
+    if kind != "audio":
+        return _read_measurement(source, kind, rate=rate, channel=channel,
+                                 fill_gaps=fill_gaps, dtype=dt, group=group, dataset=dataset)
     return _read_audio(source, size, rate=rate, channel=channel, fill_gaps=fill_gaps, dtype=dt)
 
 
@@ -346,7 +457,7 @@ def probe(path: str | os.PathLike[str]) -> dict:
     Returns
     -------
     dict
-        ``path``, ``kind`` (``"audio"`` or ``"text"``), ``frames``,
+        ``path``, ``kind`` (``"audio"``, ``"text"`` or ``"measurement"``), ``frames``,
         ``frames_exact`` (false when estimated from the file size, or when the
         header claimed more than the file holds), ``frames_at_most`` (audio: the
         most frames the file can hold; for a compressed file whose header
@@ -363,8 +474,16 @@ def probe(path: str | os.PathLike[str]) -> dict:
         When the file cannot be opened or recognised.
     """
     source, size = check_readable(path)
-    if _kind(source) == "text":
+    kind = _kind(source)
+    if kind == "text":
         facts = csv_reader.probe_text(source)
+    elif kind != "audio":
+        found = measurement_readers.probe_facts(source, kind)
+        facts = {"path": source, "kind": "measurement", "frames": found["frames"],
+                 "frames_exact": kind != "xlsx", "rate": found["rate"],
+                 "channels": found["channels"], "channel_names": found["channel_names"],
+                 "format": found["format"], "subtype": None, "file_bytes": size,
+                 "estimated_bytes": found["frames"] * max(found["channels"], 1) * 8}
     else:
         info = _audio_info(source, os.path.splitext(source)[1].lower())
         frames, trusted = _plausible_frames(info, size)

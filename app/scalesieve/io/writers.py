@@ -266,8 +266,13 @@ def _header_line(names: list[str]) -> str:
 
 
 def write_csv(path: str | os.PathLike[str], samples, rate: float, channel_names, *,
-              force: bool = False, protect: Iterable = ()) -> dict:
+              force: bool = False, protect: Iterable = (), start_time=None,
+              clock: dict | None = None) -> dict:
     """Write samples as a CSV table: ``time_s`` first, then one column per channel.
+
+    With ``start_time`` (a datetime: the input's own clock) the first column
+    is ``timestamp`` instead, ISO 8601 continuing that clock, written as
+    ``clock`` (the input's ``meta["clock"]``: separator, digits, offset) says.
 
     Comma delimiter, ``.`` decimal, LF line ends, a header row, time from 0
     in steps of ``1/rate``, values with ``%.17g`` (enough digits to read back
@@ -290,11 +295,23 @@ def write_csv(path: str | os.PathLike[str], samples, rate: float, channel_names,
         raise ScalesieveError(f"sampling rate must be positive, got {rate!r}", source=target)
     row_format = ",".join(["%.17g"] * (channels + 1)) + "\n"
 
+    if start_time is not None:
+        from scalesieve.io.time_column import ClockForm, format_timestamps
+
+        form = ClockForm(**clock) if clock else None
+        values_format = ",".join(["%.17g"] * channels) + "\n"
+
     def write(tmp: str) -> None:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
-            fh.write(_header_line(["time_s"] + names))
+            fh.write(_header_line(["time_s" if start_time is None else "timestamp"] + names))
             for start in range(0, n, _CSV_CHUNK_ROWS):
                 stop = min(n, start + _CSV_CHUNK_ROWS)
+                if start_time is not None:
+                    stamps = format_timestamps(start_time, r, start, stop - start, form)
+                    body = arr[start:stop].tolist()
+                    fh.write("".join(s + "," + values_format % tuple(row)
+                                     for s, row in zip(stamps, body)))
+                    continue
                 chunk = np.empty((stop - start, channels + 1), dtype=np.float64)
                 chunk[:, 0] = np.arange(start, stop, dtype=np.float64) / r
                 chunk[:, 1:] = arr[start:stop]
@@ -354,7 +371,10 @@ def write_signal(path: str | os.PathLike[str], samples, rate: float, channel_nam
     if like is not None and like.source:
         guard.append(like.source)
     if ext in CSV_EXTENSIONS:
-        return write_csv(target, samples, rate, channel_names, force=force, protect=guard)
+        clocked = like is not None and like.start_time is not None
+        return write_csv(target, samples, rate, channel_names, force=force, protect=guard,
+                         start_time=like.start_time if clocked else None,
+                         clock=like.meta.get("clock") if clocked else None)
     if ext not in AUDIO_FORMAT_BY_EXTENSION:
         raise ScalesieveError(
             f"cannot tell the output format from the extension {ext or '(none)'!r}; "
