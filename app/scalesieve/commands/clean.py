@@ -86,6 +86,7 @@ def run(args) -> int:
         if rep.get("clipped"):
             print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
                   file=sys.stderr)
-    print(f"wrote {args.output}: {res['samples']} samples x {res['channels']} channels at "
+    chans = f"{res['channels']} channel" + ("" if res["channels"] == 1 else "s")
+    print(f"wrote {args.output}: {res['samples']} samples x {chans} at "
           f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")
     return 0

@@ -69,6 +69,8 @@ COLUMNS = (
     ("peak", "peak", "largest absolute sample of the signal in the event"),
     ("channel", "channel", "channel of the recording (0 = first)"),
 )
+#: the order the columns are shown in
+VISIBLE_ORDER = ("peak_s", "score", "level", "channel", "start_s", "stop_s", "peak")
 TRANSFORMS = (("swt", "SWT: sharper timing"), ("dwt", "DWT"))
 
 
@@ -337,6 +339,11 @@ class EventsPane(QWidget):
         header.setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
         header.setStretchLastSection(True)
         header.setResizeContentsPrecision(200)   # size columns from the first rows only
+        # What tells events apart comes first at a side dock's width: time, score,
+        # level and channel; start, stop and the signal's peak follow.
+        fields = [c[0] for c in COLUMNS]
+        for visual, field in enumerate(VISIBLE_ORDER):
+            header.moveSection(header.visualIndex(fields.index(field)), visual)
         self.table.setAlternatingRowColors(True)
         self.table.verticalHeader().setDefaultSectionSize(22)
         outer.addWidget(self.table, 1)

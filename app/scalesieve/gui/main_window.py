@@ -280,15 +280,20 @@ class MainWindow(QMainWindow):
         tb.addWidget(self.scope_box)
         tb.addSeparator()
         tb.addAction(self.act_all)
-        tb.addSeparator()
+        lt = self.addToolBar("Listen")
+        lt.setObjectName("listenToolbar")
+        lt.setIconSize(QSize(18, 18))
+        lt.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
+        self.listen_toolbar = lt
+        self._listen_on_own_row = False
         for a in self.act_play.values():
-            tb.addAction(a)
-        tb.addAction(self.act_stop)
+            lt.addAction(a)
+        lt.addAction(self.act_stop)
         if not ok:
             why = QLabel("  no sound output")
             why.setObjectName("hint")
             why.setToolTip(reason)
-            tb.addWidget(why)
+            lt.addWidget(why)
 
     def _build_status(self) -> None:
         sb = self.statusBar()
@@ -362,6 +367,17 @@ class MainWindow(QMainWindow):
         h = self.scale_map.headers.get(key)
         if h is not None:
             h.set_lane_open(on)
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        # The listening buttons go to a row of their own when one row cannot hold them all.
+        narrow = self.width() < 1500
+        if narrow != self._listen_on_own_row:
+            self._listen_on_own_row = narrow
+            if narrow:
+                self.insertToolBarBreak(self.listen_toolbar)
+            else:
+                self.removeToolBarBreak(self.listen_toolbar)
 
     def describe_recording(self) -> str:
         rec = self.adapter.recording

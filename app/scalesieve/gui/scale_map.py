@@ -215,6 +215,8 @@ class ScaleMapPane(QFrame):
         # The row headers take the place of the left axis (same width in every pane).
         self.plot.getPlotItem().layout.setColumnFixedWidth(0, 0)
         self.view.setMouseEnabled(x=True, y=False)
+        self.plot.setToolTip("drag: a region edit (snapped to whole coefficient tiles) · "
+                             "shift-drag: pan · wheel: zoom · Del: remove the selected region")
         self.empty_label = QLabel("No recording yet.\nOpen one with File ▸ Open recording… or "
                                   "drop a WAV, FLAC or text table on the window.")
         self.empty_label.setObjectName("emptyState")
@@ -336,8 +338,7 @@ class ScaleMapPane(QFrame):
         look_menu.addAction(la)
         self.look_button.setMenu(look_menu)
         t.addWidget(self.look_button)
-        self.readout_label = QLabel("drag: region · shift-drag: pan · wheel: zoom · "
-                                    "Del: remove region")
+        self.readout_label = QLabel("")
         self.readout_label.setObjectName("readout")
         self.readout_label.setWordWrap(False)
         self.readout_label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
