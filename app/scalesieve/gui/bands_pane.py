@@ -28,7 +28,7 @@ from scalesieve.gui.threshold_spread import ThresholdSpread
 
 ROW_HEIGHT = 90
 #: open lanes share the drawer's height within these bounds (scrolling beyond)
-ROW_MIN, ROW_MAX = 76, 180
+ROW_MIN, ROW_MAX = 84, 180
 AXIS_HEIGHT = 30
 GAIN_RANGE_DB = (-60.0, 24.0)
 def short_number(v: float) -> str:
@@ -75,6 +75,10 @@ class BandRow(QWidget):
         c.addLayout(top)
         self.spread = ThresholdSpread()
         self.spread.hide()
+        self.spread_caption = QLabel("")
+        self.spread_caption.setObjectName("bandInfo")
+        self.spread_caption.hide()
+        c.addWidget(self.spread_caption)
         c.addWidget(self.spread, 1)
         c.addStretch(0)
         row.addWidget(controls)
@@ -138,6 +142,7 @@ class BandRow(QWidget):
                 break
         if thr is None:
             self.spread.hide()
+            self.spread_caption.hide()
             self._spread_for = None
             return
         sigma = float(model.noise_sigma(channel, key))
@@ -145,7 +150,9 @@ class BandRow(QWidget):
         if tag != self._spread_for and self.isVisible():
             self.spread.show_band(model.coefficients(channel, key), sigma, self.threshold_value)
             self._spread_for = tag
+            self.spread_caption.setText(self.spread.caption())
         self.spread.show()
+        self.spread_caption.show()
 
     # --------------------------------------------------------------- drawing
 

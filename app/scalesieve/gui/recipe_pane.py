@@ -7,6 +7,7 @@ buttons and removed with the cross (or the Delete key).
 
 from __future__ import annotations
 
+import textwrap
 from dataclasses import replace
 
 from PySide6.QtCore import Qt, QTimer, Signal
@@ -244,7 +245,7 @@ class RecipePane(QWidget):
             edits = self.adapter.edits
             for i, e in enumerate(edits):
                 text = edit_text(e, self.adapter.model)
-                top = QTreeWidgetItem([f"{i + 1}  {e.op}", text])
+                top = QTreeWidgetItem([f"{i + 1}", self._wrapped(text)])
                 top.setData(0, INDEX_ROLE, i)
                 top.setFlags(top.flags() | Qt.ItemFlag.ItemIsUserCheckable)
                 top.setCheckState(0, Qt.CheckState.Checked if e.enabled
@@ -268,6 +269,18 @@ class RecipePane(QWidget):
         finally:
             self._building = False
         self._enable()
+
+    def _wrapped(self, text: str) -> str:
+        """The entry broken into lines that fit the list's width (nothing cut off)."""
+        width = max(120, self.tree.viewport().width() - 60)
+        # a little under the average: wide letters must not push a line past the edge
+        chars = max(16, int(width / (1.3 * max(1, self.tree.fontMetrics().averageCharWidth()))))
+        return "\n".join(textwrap.wrap(text, chars)) or text
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        if self.adapter.edits:
+            self._later.start()
 
     def _enable(self) -> None:
         i = self.selected_index()

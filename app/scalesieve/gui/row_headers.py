@@ -38,7 +38,7 @@ class ShareBar(QWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
         self.share = 0.0
-        self.setFixedWidth(64)
+        self.setFixedWidth(54)
         self.setMinimumHeight(12)
         self.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Preferred)
 
@@ -84,7 +84,7 @@ class RowHeader(QWidget):
         lay.setSpacing(4)
         self.hz = QLabel("")
         self.hz.setObjectName("bandHz")
-        self.hz.setFixedWidth(98)
+        self.hz.setFixedWidth(104)
         self.name = QLabel("")
         self.name.setObjectName("bandInfo")
         self.name.setFixedWidth(30)

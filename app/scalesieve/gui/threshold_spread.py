@@ -64,12 +64,10 @@ class ThresholdSpread(pg.PlotWidget):
                                               pen=pg.mkPen(QColor(180, 54, 127), width=1))
         self.cut_line = pg.InfiniteLine(angle=90, movable=False,
                                         pen=pg.mkPen(QColor(180, 54, 127), width=1.5))
-        self.text = pg.TextItem("", color=colour("plot", "foreground"),
-                                anchor=(1, 0))
+        self.caption_text = ""
         pi.addItem(self.cut_region)
         pi.addItem(self.bars)
         pi.addItem(self.cut_line)
-        pi.addItem(self.text, ignoreBounds=True)
         ticks = [(float(k), f"{10.0 ** k:g}") for k in range(-4, 4)]
         ax.setTicks([ticks, []])
         self.cut = math.nan
@@ -88,9 +86,8 @@ class ThresholdSpread(pg.PlotWidget):
         pi = self.getPlotItem()
         pi.setXRange(edges[0], edges[-1], padding=0)
         pi.setYRange(0, top * 1.25 or 1.0, padding=0)
-        self.text.setText(f"λ = {cut:.3g} σ · kept {100 * kept:.3g} %")
-        self.text.setPos(edges[-1], top * 1.25 or 1.0)
+        self.caption_text = f"cut λ = {cut:.3g} σ · kept {100 * kept:.3g} % of coefficients"
 
     def caption(self) -> str:
-        return self.text.toPlainText()
+        return self.caption_text
 
