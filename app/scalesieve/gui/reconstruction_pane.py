@@ -58,6 +58,8 @@ class ReconstructionPane(PaneFrame):
         self.content.addWidget(self.removed_plot, 2)
         self.metrics_label = QLabel("")
         self.metrics_label.setObjectName("metrics")
+        # at a narrow width the line wraps: it must neither widen the window nor be cut
+        self.metrics_label.setWordWrap(True)
         self.metrics_label.setContentsMargins(10, 3, 6, 4)
         self.content.addWidget(self.metrics_label)
         self.curves = {}

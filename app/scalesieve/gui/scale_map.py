@@ -221,6 +221,7 @@ class ScaleMapPane(QFrame):
                                   "drop a WAV, FLAC or text table on the window.")
         self.empty_label.setObjectName("emptyState")
         self.empty_label.setAlignment(Qt.AlignmentFlag.AlignCenter)
+        self.empty_label.setWordWrap(True)
         self.content.addWidget(self.empty_label, 1)
         self.content.addWidget(self.plot, 1)
         self.plot.hide()
@@ -279,7 +280,7 @@ class ScaleMapPane(QFrame):
         t.addWidget(self.transform_line)
         self.threshold_button = QToolButton()
         self.threshold_button.setObjectName("thresholdButton")
-        self.threshold_button.setText("Threshold selected rows")
+        self.threshold_button.setText("Threshold selection")
         self.threshold_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
         self.threshold_button.setToolTip("threshold the bands of the selected rows (click a row "
                                          "header to select it; Ctrl adds, Shift extends)")
@@ -294,7 +295,7 @@ class ScaleMapPane(QFrame):
         t.addWidget(self.threshold_button)
         self.all_button = QToolButton()
         self.all_button.setObjectName("menuButton")
-        self.all_button.setText("Threshold every detail band")
+        self.all_button.setText("Threshold all details")
         self.all_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
         all_menu = QMenu(self.all_button)
         for label, rule, shape in ALL_DETAILS:
@@ -462,10 +463,10 @@ class ScaleMapPane(QFrame):
         m = self.adapter.model
         n = len(self.selected_rows)
         if n == 0:
-            self.threshold_button.setText("Threshold selected rows")
+            self.threshold_button.setText("Threshold selection")
         elif m is not None:
             names = ", ".join(m.band_name(k) for k in self.selected_rows)
-            self.threshold_button.setText(f"Threshold {names}" if n <= 3
+            self.threshold_button.setText(f"Threshold {names}" if n <= 2
                                           else f"Threshold {n} rows")
         self.rowsSelected.emit(list(self.selected_rows))
 

@@ -97,7 +97,19 @@ class TransformLine(QToolButton):
         self.setMenu(menu)
         self.controls.specChosen.connect(self._chosen)
         self._n = 0
-        self.setText(spec_line(tf.TransformSpec()))
+        self.show_default()
+
+    def show_default(self) -> None:
+        """Before any recording: the defaults a recording will get, in the controls too."""
+        spec = tf.TransformSpec()
+        c = self.controls
+        c._quiet = True
+        try:
+            c.kind.setCurrentIndex(c.kind.findData(spec.kind))
+            c.mode.setCurrentIndex(c.mode.findData(spec.mode))
+        finally:
+            c._quiet = False
+        self.setText(spec_line(spec))
 
     @property
     def controls(self) -> TransformControls:
