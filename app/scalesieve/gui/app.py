@@ -53,7 +53,7 @@ def display_problem() -> str | None:
     except OSError as exc:
         missing = str(exc).split(":")[0].strip() or str(exc)
         return (f"the window needs the system library {missing} (Qt's X11 plugin cannot "
-                f"load without it; on Debian/Ubuntu e.g. apt-get install libxcb-cursor0); "
+                f"load without it: install the package that provides it); "
                 f"{NO_DISPLAY_HINT}")
     return None
 

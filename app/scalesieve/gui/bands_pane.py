@@ -30,6 +30,9 @@ ROW_HEIGHT = 90
 #: open lanes share the drawer's height within these bounds (scrolling beyond)
 ROW_MIN, ROW_MAX = 84, 180
 AXIS_HEIGHT = 30
+#: up to this many samples the removed part of a band is synthesised for any view;
+#: beyond, only for a zoomed view (a wide one would synthesise the whole band)
+EXACT_REMOVED_UPTO = 1 << 21
 GAIN_RANGE_DB = (-60.0, 24.0)
 def short_number(v: float) -> str:
     """Two significant digits, without exponents for the usual sizes (fits the margin)."""
@@ -201,7 +204,7 @@ class BandRow(QWidget):
                                           (lambda a, b: fo(a, b) * (1.0 - g)), unit)
                     if fo is None or wide:
                         by = by * (1.0 - g)
-                elif fo is not None and not wide:
+                elif fo is not None and fe is not None and (not wide or n <= EXACT_REMOVED_UPTO):
                     bx, by = trace_points(0.0, step, n, t0, t1, width,
                                           lambda a, b: fo(a, b) - fe(a, b))
             pending = fe is None and env is None

@@ -197,6 +197,12 @@ class ReconstructionPane(PaneFrame):
             r = ranges[id(self.removed_plot if key == "removed" else self.plot)]
             if ys.size:
                 r[0], r[1] = min(r[0], float(ys.min())), max(r[1], float(ys.max()))
+        main_lo, main_hi = ranges[id(self.plot)]
+        r = ranges[id(self.removed_plot)]
+        if math.isfinite(main_lo) and math.isfinite(main_hi):
+            # nothing (or round-off) removed: a flat line on a scale a tenth of the signal's
+            floor = 0.05 * (main_hi - main_lo)
+            r[0], r[1] = min(r[0], -floor), max(r[1], floor)
         for plot in (self.plot, self.removed_plot):
             lo, hi = ranges[id(plot)]
             if math.isfinite(lo) and math.isfinite(hi):
