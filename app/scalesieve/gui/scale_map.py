@@ -10,6 +10,7 @@ changed (context menu) and removed (Delete key).
 from __future__ import annotations
 
 import math
+import threading
 from dataclasses import replace
 
 import numpy as np
@@ -29,6 +30,7 @@ from scalesieve.gui.edit_words import edit_text
 from scalesieve.gui.pane_frame import (AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, TimeViewBox,
                                        make_plot, tick_font)
 from scalesieve.gui.resource_files import colour, palette
+from scalesieve.gui.thread_priority import lower_this_thread
 from scalesieve.gui.row_headers import GAIN_MIN_DB, GAIN_MAX_DB, MUTE_TEXT, RowHeader, RowHeaderColumn
 from scalesieve.gui.threshold_form import RULE_TIPS, ThresholdForm
 from scalesieve.gui.transform_line import TransformLine
@@ -157,7 +159,8 @@ class ScaleMapPane(QFrame):
     readout = Signal(str)
     laneToggled = Signal(object, bool)     # band key, open
     rowsSelected = Signal(object)           # band keys
-    figuresKnown = Signal(object)           # band key -> the model's band_table row
+    figuresKnown = Signal(object)
+    _tableReady = Signal(object, object, object)     # tag, band keys, rows (from a thread)           # band key -> the model's band_table row
 
     def __init__(self, adapter, time_axis, settings=None, parent=None):
         super().__init__(parent)
@@ -175,6 +178,7 @@ class ScaleMapPane(QFrame):
         self._anchor = None
         self._table: dict = {}
         self._table_for = None
+        self._table_job = None
         self._orig_rows: dict = {}
         self._rows: dict = {}
         self._row_view = None
@@ -265,6 +269,8 @@ class ScaleMapPane(QFrame):
         self._table_timer.setSingleShot(True)
         self._table_timer.setInterval(0)
         self._table_timer.timeout.connect(self._read_table)
+        self._tableReady.connect(self._table_ready, Qt.ConnectionType.QueuedConnection)
+        adapter.add_pending_check(self.table_pending)
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
@@ -401,14 +407,49 @@ class ScaleMapPane(QFrame):
         QTimer.singleShot(0, self._place_headers)
 
     def _read_table(self) -> None:
-        """The band figures of the channel (from the model's one band table)."""
+        """The band figures of the channel, from the model's one band table.
+
+        The table reads every band once (at 10 M samples, seconds): it is made
+        in a background thread at low priority, after the first paint, and the
+        headers fill in when it comes.
+        """
         m = self.adapter.model
         if m is None:
             return
         tag = (id(m), self.channel)
-        if self._table_for != tag:
-            self._table = {key: row for key, row in zip(m.band_keys, m.band_table(self.channel))}
-            self._table_for = tag
+        if self._table_for == tag:
+            self._show_headers()
+            return
+        if self._table_job == tag:
+            return
+        self._table_job = tag
+        channel = self.channel
+
+        def work():
+            lower_this_thread()
+            try:
+                rows = m.band_table(channel)
+            except Exception:  # the model changed under it: the next model asks again
+                rows = None
+            self._tableReady.emit(tag, list(m.band_keys), rows)
+
+        threading.Thread(target=work, name="scalesieve-band-table", daemon=True).start()
+
+    def table_pending(self) -> bool:
+        """The band figures are still being made (or about to be)."""
+        return self._table_job is not None or self._table_timer.isActive()
+
+    def _table_ready(self, tag, keys, rows) -> None:
+        if tag != self._table_job:
+            return
+        self._table_job = None
+        m = self.adapter.model
+        if rows is None or m is None or tag != (id(m), self.channel):
+            if m is not None and tag != (id(m), self.channel):
+                self._read_table()
+            return
+        self._table = dict(zip(keys, rows))
+        self._table_for = tag
         self._show_headers()
         self.figuresKnown.emit(dict(self._table))
 
