@@ -212,3 +212,17 @@ def test_a_snapshot_leaves_nothing_in_the_temp_dir(tmp_path):
     head = out.read_bytes()[:24]
     assert int.from_bytes(head[16:20], "big") == 1280
     assert int.from_bytes(head[20:24], "big") == 800
+
+
+def test_events_columns_that_tell_events_apart_are_visible_at_the_docks_width(window):
+    open_sample(window, PUMP)
+    window.events_dock.raise_()
+    QApplication.processEvents()
+    pane = window.events_pane()
+    header = pane.table.horizontalHeader()
+    fields = [c[0] for c in __import__("scalesieve.gui.events_pane",
+                                       fromlist=["COLUMNS"]).COLUMNS]
+    shown = pane.table.viewport().width()
+    for field in ("peak_s", "score", "level", "channel"):
+        col = fields.index(field)
+        assert header.sectionViewportPosition(col) + header.sectionSize(col) <= shown + 1, field
