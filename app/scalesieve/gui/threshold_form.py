@@ -23,8 +23,6 @@ RULE_TIPS = {
     "manual": "λ in signal units, as given",
     "off": "no threshold on these bands",
 }
-SHORT_RULE = {"universal": "VisuShrink", "sure": "SureShrink", "bayes": "BayesShrink",
-              "minimax": "minimax", "manual": "manual"}
 NOISE_LABELS = {"finest": "σ from the finest band (white noise)",
                 "level": "σ per band (coloured noise)"}
 NOISE_TIPS = {"finest": "σ = median|d1|/0.6745 (Donoho & Johnstone 1994), carried to every band",
@@ -119,12 +117,3 @@ class ThresholdForm(QWidget):
             self._enable()
         finally:
             self._quiet = False
-
-
-def short_text(edit) -> str:
-    """A button caption for a threshold edit (or 'threshold' when there is none)."""
-    if edit is None:
-        return "threshold…"
-    rule = SHORT_RULE.get(edit.rule, edit.rule)
-    sc = f" ×{edit.scale:g}" if edit.scale != 1.0 else ""
-    return f"{rule} {edit.shape}{sc}"
