@@ -34,8 +34,8 @@ def test_constant_recording_shows_no_kurtosis_like_the_command_line(window, tmp_
         assert pic.stats[key]["kurtosis"] == b["kurtosis"]
         assert pic.stats[key]["energy_fraction"] == pytest.approx(b["energy_fraction"],
                                                                   rel=1e-12, abs=0.0)
-    row = window.bands.rows[1]
-    assert "kurt –" in row.info.text()
+    header = window.scale_map.headers[1]
+    assert "kurtosis –" in header.hz.toolTip()
 
 
 def test_window_figures_are_the_model_table_for_the_swt(window):
@@ -64,4 +64,4 @@ def test_long_recording_figures_come_later_and_are_the_same(window, monkeypatch)
                           TransformSpec("dwt", "db4", 6, "symmetric"))
     m, pic = _shown(window)
     assert [pic.stats[key] for key in m.band_keys] == m.band_table(0)
-    assert "%" in window.bands.rows[1].info.text()
+    assert "%" in window.scale_map.headers[1].hz.toolTip()

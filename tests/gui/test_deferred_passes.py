@@ -38,7 +38,7 @@ def test_a_mute_is_drawn_first_and_made_exact_by_the_sweep(window, qtbot, deferr
 
     m = open_sample(window, PUMP)
     ref = pywt_cleaned(m.original(0), m.spec, [1])
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     assert window.adapter.refining()            # the pass is still owed ...
     assert m.deferred(0) == 0
     ys = window.reconstruction.trace_data("cleaned")[1]
@@ -66,7 +66,7 @@ def test_zoomed_in_trace_is_exact_while_the_pass_is_owed(window, qtbot, deferrin
     ref = pywt_cleaned(m.original(0), m.spec, [1])
     window.time_axis.set_range(2.0, 2.01)     # a few hundred samples: drawn sample by sample
     qtbot.wait(20)
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     assert window.adapter.refining()
     window.reconstruction.redraw()
     xs, ys = window.reconstruction.trace_data("cleaned")
@@ -83,7 +83,7 @@ def test_export_during_the_sweep_pays_the_pass(window, qtbot, deferring, tmp_pat
 
     m = open_sample(window, PUMP)
     ref = pywt_cleaned(m.original(0), m.spec, [1])
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     assert window.adapter.refining()
     out = tmp_path / "clean.wav"
     api.export(m, str(out), subtype="FLOAT")
@@ -100,7 +100,7 @@ def test_a_preview_is_made_exact_after_a_reader_paid_the_pass(window, qtbot, def
 
     m = open_sample(window, PUMP)
     ref = pywt_cleaned(m.original(0), m.spec, [1])
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     pic = window.adapter.pictures(0)
     assert pic.provisional == (0, m.recording.n)
     window.reconstruction.update_metrics()       # pays the whole pass

@@ -31,9 +31,9 @@ def _open_packet(window, level=3):
 
 def test_a_packet_band_gain_in_the_window_matches_pywavelets(window, qtbot):
     m = _open_packet(window)
-    assert [m.band_name(k) for k in window.bands.rows] == [f"w3.{k}" for k in range(8)]
-    row = window.bands.rows[m.band_keys[5]]
-    row.gain.setValue(-6.0)
+    assert [m.band_name(k) for k in window.scale_map.headers] == [f"w3.{k}" for k in range(8)]
+    head = window.scale_map.headers[m.band_keys[5]]      # the row header's gain field
+    head.gain.setValue(-6.0)
     assert window.adapter.wait_idle(60) is None
     assert [e.to_json() for e in m.edits] == [{"op": "gain", "bands": ["w3.5"],
                                               "gain": pytest.approx(10 ** (-6 / 20))}]

@@ -72,11 +72,12 @@ def test_loading_a_sample_fills_every_pane(window):
     rows = len(m.band_keys)
     img = window.scale_map.map_image()
     assert img.shape[0] == rows and img.shape[1] >= 300
-    ticks = window.scale_map.plot.getAxis("left")._tickLevels[0]
-    assert ticks[0][1].startswith("d1") and "kHz" in ticks[0][1]
-    assert ticks[-1][1].startswith(f"a{m.level}") and "Hz" in ticks[-1][1]
+    heads = window.scale_map.headers
+    assert list(heads) == m.band_keys
+    assert heads[1].name.text() == "d1" and "kHz" in heads[1].hz.text()
+    assert heads["a"].name.text() == f"a{m.level}" and "Hz" in heads["a"].hz.text()
     assert list(window.bands.rows) == m.band_keys
-    assert "6.4–12.8 kHz" in window.bands.rows[1].info.text()  # 25 600/4 .. 25 600/2 Hz
+    assert heads[1].hz.text() == "6.4–12.8 kHz"  # 25 600/4 .. 25 600/2 Hz (dyadic bands)
     xs, ys = window.reconstruction.trace_data("original")
     assert xs.size > 0
     # Peak preserving: the drawn trace reaches the recording's extremes
@@ -87,33 +88,37 @@ def test_loading_a_sample_fills_every_pane(window):
 def test_muting_a_band_changes_the_cleaned_trace_and_the_recipe(window, qtbot):
     m = open_sample(window, PUMP)
     before = window.reconstruction.trace_data("cleaned")[1].copy()
-    row = window.bands.rows[1]
-    qtbot.mouseClick(row.keep, Qt.MouseButton.LeftButton)
+    row = window.scale_map.headers[1]
+    qtbot.mouseClick(row.mute, Qt.MouseButton.LeftButton)
     assert [e.to_json() for e in m.edits] == [{"op": "gain", "levels": [1], "gain": 0.0}]
     assert window.recipe.tree.topLevelItemCount() == 1
-    assert "gain" in window.recipe.tree.topLevelItem(0).text(0)
+    assert window.recipe.tree.topLevelItem(0).text(1) == "gain −∞ dB on d1"
     ref = pywt_cleaned(m.original(0), m.spec, [1])
     np.testing.assert_allclose(m.cleaned(0), ref, rtol=0, atol=1e-12)
     after = window.reconstruction.trace_data("cleaned")[1]
     assert not np.array_equal(before, after)
     # The drawn cleaned trace keeps the reference's extremes.
     assert after.max() == pytest.approx(ref.max(), abs=1e-12)
-    assert row.keep.text() == "muted"
+    assert row.mute.isChecked() and row.gain.text() == "−∞ dB"
     # Clicking again keeps the band: the edit goes, the signal comes back.
-    qtbot.mouseClick(row.keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(row.mute, Qt.MouseButton.LeftButton)
     assert m.edits == ()
 
 
 def test_a_band_gain_and_threshold_are_recipe_entries(window):
     m = open_sample(window, PUMP)
-    row = window.bands.rows[2]
-    row.gain.setValue(-6.0)
+    head = window.scale_map.headers[2]
+    head.gain.setValue(-6.0)
     assert m.edits[0].op == "gain" and m.edits[0].levels == (2,)
     assert m.edits[0].gain == pytest.approx(10 ** (-6 / 20))   # dB definition
-    row.form.rule.setCurrentIndex(row.form.rule.findData("universal"))
+    window.scale_map.select_rows([2])
+    form = window.scale_map.form
+    form.rule.setCurrentIndex(form.rule.findData("universal"))
     assert [e.op for e in m.edits] == ["gain", "threshold"]
     assert m.edits[1].levels == (2,) and m.edits[1].rule == "universal"
-    window.bands.mode.setCurrentIndex(window.bands.mode.findData("coefficients"))
+    assert head.mark.text() == "λ"
+    window.bands.set_lane(2, True)
+    row = window.bands.rows[2]
     # Universal threshold (Donoho & Johnstone 1994): sigma * sqrt(2 ln n), sigma from
     # median |d1| / Phi^-1(0.75) (SciPy's normal quantile), n the number of samples.
     from scipy.stats import norm
@@ -122,9 +127,9 @@ def test_a_band_gain_and_threshold_are_recipe_entries(window):
     sigma = np.median(np.abs(d1[d1 != 0])) / norm.ppf(0.75)
     lam = sigma * np.sqrt(2 * np.log(m.recording.n))
     assert row.threshold_value == pytest.approx(lam, rel=1e-9)
-    assert row.thr_hi.isVisible() and row.thr_hi.value() == pytest.approx(lam, rel=1e-9)
-    row.form.rule.setCurrentIndex(0)           # off
+    form.rule.setCurrentIndex(0)           # off
     assert [e.op for e in m.edits] == ["gain"]
+    assert head.mark.text() == ""
 
 
 def test_a_region_dragged_on_the_scale_map_leaves_the_rest_unchanged(window):
@@ -153,7 +158,7 @@ def test_a_region_dragged_on_the_scale_map_leaves_the_rest_unchanged(window):
 def test_undo_and_redo_restore_exactly(window, qtbot):
     m = open_sample(window, PUMP)
     x = m.original(0).copy()
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     drag_on_map(window, 2.5, 1.2, 2.7, 2.8)
     after_two = m.cleaned(0).copy()
     recipe_two = m.recipe().to_json()
@@ -182,7 +187,7 @@ def test_undo_and_redo_restore_exactly(window, qtbot):
 
 def test_changing_the_wavelet_reruns_the_model_and_keeps_the_recipe(window, qtbot):
     m = open_sample(window, PUMP)
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     tc = window.transform
     with qtbot.waitSignal(window.adapter.modelReplaced, timeout=30000):
         tc.family.setCurrentIndex(tc.family.findData("sym"))
@@ -214,10 +219,11 @@ def test_export_from_the_window_equals_scalesieve_clean(window, qtbot, tmp_path)
     from scalesieve.cli import main
 
     m = open_sample(window, PUMP)
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     drag_on_map(window, 2.55, 1.2, 2.7, 2.8)
-    window.bands.rows[4].form.rule.setCurrentIndex(
-        window.bands.rows[4].form.rule.findData("bayes"))
+    window.scale_map.select_rows([4])
+    form = window.scale_map.form
+    form.rule.setCurrentIndex(form.rule.findData("bayes"))
     recipe = tmp_path / "r.json"
     out_window = tmp_path / "window.wav"
     out_cli = tmp_path / "cli.wav"
@@ -304,16 +310,16 @@ def test_bad_file_gives_the_command_lines_one_line_message(window, tmp_path):
 
 def test_recipe_pane_edits_in_place_reorders_and_deletes(window, qtbot):
     m = open_sample(window, PUMP)
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
-    window.bands.threshold_all("universal", "soft")
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
+    window.scale_map.threshold_all("universal", "soft")
     tree = window.recipe.tree
     assert tree.topLevelItemCount() == 2
     gain_item = tree.topLevelItem(0).child(1)
     assert gain_item.text(0) == "gain"
-    gain_item.setText(1, "0.5")
-    assert m.edits[0].gain == 0.5
+    gain_item.setText(1, "-6")                 # gains are typed in dB
+    assert m.edits[0].gain == pytest.approx(10 ** (-6 / 20))   # dB definition
     QApplication.processEvents()               # the list is redrawn after an in-place edit
-    assert "×0.5" in tree.topLevelItem(0).text(1)
+    assert "−6.0 dB" in tree.topLevelItem(0).text(1)
     levels_item = tree.topLevelItem(0).child(0)
     levels_item.setText(1, "1-3")
     assert m.edits[0].levels == (1, 2, 3)
@@ -398,7 +404,7 @@ def test_crosshair_readout_names_time_band_and_coefficient(window):
     c = pywt.wavedec(m.original(0), m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)[-2]
     times = m.coefficient_times(0, 2)
     k = int(np.argmin(np.abs(times - 1.25)))
-    assert "t 1.25 s" in text and "d2  3.2–6.4 kHz" in text
+    assert "t 1.25 s" in text and "3.2–6.4 kHz (d2)" in text
     assert f"{c[k]:+.4g}" in text
     assert sm.cross_v.isVisible() and sm.cross_v.value() == pytest.approx(1.25)
 
@@ -411,12 +417,14 @@ def test_a_selected_region_outline_moves_and_resizes_its_edit(window):
     roi.setPos((2.0, 1.0), finish=False)       # one row down: d2, d3
     roi.setSize((0.25, 2.0), finish=True)
     e = m.edits[0]
-    assert e.start_s == pytest.approx(2.0) and e.stop_s == pytest.approx(2.25)
+    # snapped to whole tiles of d3: one coefficient per 2^3 samples (dyadic DWT)
+    tile = 2 ** 3 / m.recording.rate
+    assert abs(e.start_s - 2.0) <= tile and abs(e.stop_s - 2.25) <= tile
     assert e.levels == (2, 3)
     assert len(m.edits) == 1 and m.can_undo
     QApplication.processEvents()               # outlines are redrawn after the drag
     roi = window.scale_map.outlines()[0]
-    assert roi.pos().x() == pytest.approx(2.0) and roi.size().y() == pytest.approx(2.0)
+    assert roi.pos().x() == pytest.approx(e.start_s) and roi.size().y() == pytest.approx(2.0)
 
 
 def test_the_undecimated_transform_draws_too(window, qtbot):
@@ -425,8 +433,9 @@ def test_the_undecimated_transform_draws_too(window, qtbot):
     tc.kind.setCurrentIndex(tc.kind.findData("swt"))
     assert window.adapter.wait_idle(60) is None
     assert m.spec.kind == "swt"
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     window.time_axis.set_range(5.0, 5.5)
+    window.bands.set_lane(2, True)
     window.bands.redraw()
     xs, ys = window.bands.rows[2].curve.getData()
     comp = m.band_component(0, 2)

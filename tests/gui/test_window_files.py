@@ -113,12 +113,12 @@ def test_edits_for_this_channel_only(window, qtbot):
     m = open_sample(window, "field_mic_clicks.flac")
     window.scope_box.setChecked(True)
     window.channel_box.setCurrentIndex(1)
-    qtbot.mouseClick(window.bands.rows[1].keep, Qt.MouseButton.LeftButton)
+    qtbot.mouseClick(window.scale_map.headers[1].mute, Qt.MouseButton.LeftButton)
     assert m.edits[0].channels == (1,)
     np.testing.assert_array_equal(m.cleaned(0), m.original(0))
     assert not np.array_equal(m.cleaned(1), m.original(1))
     window.channel_box.setCurrentIndex(0)
-    assert window.bands.rows[1].keep.text() == "keep"     # channel 0 is not muted
+    assert not window.scale_map.headers[1].mute.isChecked()     # channel 0 is not muted
 
 
 def test_text_settings_changed_by_hand_read_with_the_same_rules(tmp_path, qtbot):

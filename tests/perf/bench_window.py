@@ -198,18 +198,18 @@ def main() -> None:
         first_mute, mute, unmute, metrics = [], [], [], []
         for key in keys:
             # The first mute of a band: the model makes that band's component.
-            row = bands.rows[key]
-            first_mute.append(timed(row.keep.click))
-            unmute.append(timed(row.keep.click))
-        row = bands.rows[keys[2]]
+            row = window.scale_map.headers[key]
+            first_mute.append(timed(row.mute.click))
+            unmute.append(timed(row.mute.click))
+        row = window.scale_map.headers[keys[2]]
         mute_exact = []
         for _ in range(args.repeat):
-            mute.append(timed(row.keep.click))
+            mute.append(timed(row.mute.click))
             mute_exact.append(exact[-1])
             t = time.perf_counter()
             window.reconstruction.update_metrics()
             metrics.append(time.perf_counter() - t)
-            unmute.append(timed(row.keep.click))
+            unmute.append(timed(row.mute.click))
         dur = m.recording.duration_s
         region, undo = {}, {}
         for label, span, width in (("zoomed_10s", 10.0, 0.25), ("whole_view", dur, 0.01 * dur),

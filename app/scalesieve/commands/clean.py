@@ -168,6 +168,7 @@ def run(args) -> int:
         print(f"scalesieve: note: {args.file}: cleaned in blocks of {b['frames_per_block']} "
               f"frames, {b['passes']} pass{'es' if b['passes'] > 1 else ''} over the file, "
               f"about {b['bytes'] / 2**20:.0f} MiB of memory", file=sys.stderr)
-    print(f"wrote {args.output}: {res['samples']} samples x {res['channels']} channels at "
+    chans = f"{res['channels']} channel" + ("" if res["channels"] == 1 else "s")
+    print(f"wrote {args.output}: {res['samples']} samples x {chans} at "
           f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")
     return 0

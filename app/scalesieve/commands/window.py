@@ -21,6 +21,8 @@ def configure(p) -> None:
     p.add_argument("--recipe", metavar="R.json", help="recipe to apply on opening")
     p.add_argument("--snapshot", metavar="OUT.png",
                    help="draw the window offscreen at 1600x1000, write the PNG and exit")
+    p.add_argument("--snapshot-size", metavar="WxH",
+                   help="the size --snapshot draws the window at (default 1600x1000)")
     p.add_argument("--force", action="store_true",
                    help="let --snapshot replace an existing file")
     g = p.add_argument_group("impacts (Impulse map and Envelope spectrum)")

@@ -20,6 +20,60 @@ def _qt_message(mode, context, message) -> None:
     print(f"qt: {message}", file=sys.stderr)
 
 
+NO_DISPLAY_HINT = ("--snapshot OUT.png and the subcommands (bands, clean, events, batch, ...) "
+                   "work without a display")
+
+
+def display_problem() -> str | None:
+    """Why Qt could not open a window here (None when it can, as far as can be told).
+
+    Qt itself aborts the process when its platform plugin cannot start; this
+    looks first: a display to talk to, and the X11 plugin's libraries (loading
+    the plugin's shared object names the first missing one).
+    """
+    platform = os.environ.get("QT_QPA_PLATFORM", "")
+    if platform and not platform.startswith("xcb"):
+        return None                    # offscreen, wayland, ...: Qt's own business
+    if not sys.platform.startswith("linux"):
+        return None
+    if not platform and os.environ.get("WAYLAND_DISPLAY"):
+        return None                    # Qt will use the Wayland plugin
+    if not os.environ.get("DISPLAY"):
+        return f"no display to open the window on (DISPLAY is not set); {NO_DISPLAY_HINT}"
+    import ctypes
+
+    import PySide6
+
+    plugin = os.path.join(os.path.dirname(PySide6.__file__), "Qt", "plugins", "platforms",
+                          "libqxcb.so")
+    if not os.path.exists(plugin):
+        return None
+    try:
+        ctypes.CDLL(plugin)
+    except OSError as exc:
+        missing = str(exc).split(":")[0].strip() or str(exc)
+        return (f"the window needs the system library {missing} (Qt's X11 plugin cannot "
+                f"load without it: install the package that provides it); "
+                f"{NO_DISPLAY_HINT}")
+    return None
+
+
+def parse_size(text: str | None) -> tuple[int, int]:
+    """``1280x800`` as (1280, 800); None: the contract's 1600x1000."""
+    if not text:
+        return SNAPSHOT_SIZE
+    from scalesieve.errors import ScalesieveError
+
+    try:
+        w, h = (int(v) for v in text.lower().replace("×", "x").split("x"))
+    except ValueError:
+        raise ScalesieveError(f"--snapshot-size {text!r}: give WIDTHxHEIGHT, "
+                              f"for example 1280x800") from None
+    if not (640 <= w <= 8000 and 480 <= h <= 8000):
+        raise ScalesieveError(f"--snapshot-size {text!r}: between 640x480 and 8000x8000")
+    return w, h
+
+
 def make_application(argv: list[str] | None = None):
     """The one QApplication, with our names, style sheet and plotting defaults."""
     import pyqtgraph as pg
@@ -67,6 +121,11 @@ def run_window(args) -> int:
         if not snapshot.lower().endswith(".png"):
             raise ScalesieveError("--snapshot writes a PNG; give a name ending in .png",
                                   snapshot)
+    size = parse_size(getattr(args, "snapshot_size", None))
+    if not snapshot:
+        problem = display_problem()
+        if problem:
+            raise ScalesieveError(problem)
     recipe = load_recipe(args.recipe) if args.recipe else None
     rec = load_input(args, path)
     spec = transform_from(args, recipe.transform if recipe else None)
@@ -79,21 +138,36 @@ def run_window(args) -> int:
     qInstallMessageHandler(_qt_message)
     app = make_application()
     from scalesieve.gui import window_settings as ws
+
+    tmp = None
+    if snapshot:
+        # A snapshot neither reads nor changes the user's settings (a throwaway
+        # file, removed again at the end).
+        app.setProperty("scalesieve_quiet_errors", True)
+        tmp = tempfile.TemporaryDirectory(prefix="scalesieve-snap-")
+        settings = ws.open_settings(os.path.join(tmp.name, "settings.ini"))
+    else:
+        settings = ws.open_settings()
+    try:
+        return _run(app, settings, window_args=(rec, spec, edits, snapshot, force, size), args=args)
+    finally:
+        del settings
+        if tmp is not None:
+            tmp.cleanup()
+
+
+def _run(app, settings, window_args, args) -> int:
+    from scalesieve.errors import ScalesieveError
     from scalesieve.gui.failure_dialog import install_excepthook
     from scalesieve.gui.main_window import MainWindow
 
-    if snapshot:
-        # A snapshot neither reads nor changes the user's settings.
-        app.setProperty("scalesieve_quiet_errors", True)
-        tmp = tempfile.mkdtemp(prefix="scalesieve-snap-")
-        settings = ws.open_settings(os.path.join(tmp, "settings.ini"))
-    else:
-        settings = ws.open_settings()
+    rec, spec, edits, snapshot, force, size = window_args
     window = MainWindow(settings)
+    settings = None
     # A bug in a slot or the worker: a dialog and a log, never a traceback on screen.
     reporter = install_excepthook(app, lambda: window)
     if snapshot:
-        window.resize(*SNAPSHOT_SIZE)
+        window.resize(*size)
     if not snapshot:
         # Edits are kept after each change and offered back after a crash.
         from scalesieve.gui.session_keeper import SessionKeeper
@@ -107,7 +181,7 @@ def run_window(args) -> int:
         if problem:
             window.close()
             raise ScalesieveError(problem)
-        window.resize(*SNAPSHOT_SIZE)
+        window.resize(*size)
         window.snapshot(snapshot, force=force)
         reporter.uninstall()
         _dispose(app, window)

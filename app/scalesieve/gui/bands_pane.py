@@ -1,44 +1,39 @@
-"""Bands pane: every level's time-domain component on the shared time axis.
+"""Band lanes: the drawer below the Scale map with the traces of the bands opened.
 
-Each row names its band (Hz range, energy share, kurtosis) and carries a
-keep/mute toggle, a gain in dB and a threshold control.  Every control
-makes or changes one entry of the Recipe: the band's own gain edit and its
-own threshold edit (``levels`` is just that band); edits spanning several
-bands are edited in the Recipe pane and are still drawn here.
+A lane shows a band's trace as edited and, lighter, what the recipe removed
+from it; for a thresholded band, the spread of its |c|/σ with the cut shaded.
+The band's controls live in its row header on the map (``row_headers``); the
+lanes open and close from there or from the lane's own close button.
 """
 
 from __future__ import annotations
 
 import html
-import math
-from dataclasses import replace
 
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, QTimer, Signal
-from PySide6.QtWidgets import (QComboBox, QDoubleSpinBox, QFrame, QHBoxLayout, QLabel, QMenu,
-                               QScrollArea, QSizePolicy, QStyle, QToolButton, QVBoxLayout, QWidget,
-                               QWidgetAction)
+from PySide6.QtWidgets import (QComboBox, QFrame, QHBoxLayout, QLabel, QScrollArea,
+                               QSizePolicy, QStyle, QToolButton, QVBoxLayout, QWidget)
 
-from scalesieve.gui.band_labels import db_to_gain, gain_to_db, hz_range
+from scalesieve.gui.band_edits import (ALL_DETAILS, edits_on_band, own_edit,  # noqa: F401
+                                       set_band_gain, set_band_threshold)
+from scalesieve.gui.band_labels import hz_range
 from scalesieve.gui.decimate import trace_points
-from scalesieve.gui.pane_frame import GUTTER_WIDTH, RIGHT_MARGIN, make_plot
+from scalesieve.gui.edit_words import edit_text
+from scalesieve.gui.pane_frame import AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, make_plot
 from scalesieve.gui.resource_files import colour
 from scalesieve.gui.scale_map import first_and_step
-from scalesieve.gui.threshold_form import ThresholdForm, short_text
-from scalesieve.recipe import Edit
+from scalesieve.gui.threshold_spread import ThresholdSpread
 
-ROW_HEIGHT = 34
-#: rows share the pane's height within these bounds (scrolling beyond)
-ROW_MIN, ROW_MAX = 28, 46
+ROW_HEIGHT = 90
+#: open lanes share the drawer's height within these bounds (scrolling beyond)
+ROW_MIN, ROW_MAX = 84, 180
 AXIS_HEIGHT = 30
+#: up to this many samples the removed part of a band is synthesised for any view;
+#: beyond, only for a zoomed view (a wide one would synthesise the whole band)
+EXACT_REMOVED_UPTO = 1 << 21
 GAIN_RANGE_DB = (-60.0, 24.0)
-#: quick thresholds over all detail levels: label -> (rule, shape)
-ALL_DETAILS = (("universal, soft", "universal", "soft"), ("BayesShrink, soft", "bayes", "soft"),
-               ("SURE, soft", "sure", "soft"), ("minimax, soft", "minimax", "soft"),
-               ("universal, hard", "universal", "hard"))
-
-
 def short_number(v: float) -> str:
     """Two significant digits, without exponents for the usual sizes (fits the margin)."""
     a = abs(v)
@@ -49,41 +44,8 @@ def short_number(v: float) -> str:
     return f"{v:.1e}"
 
 
-def percent_text(share: float) -> str:
-    """An energy share for a narrow label: ``24%``, ``0.46%``, ``<0.01%``."""
-    p = 100.0 * share
-    if p == 0:
-        return "0%"
-    if p < 0.01:
-        return "<0.01%"
-    return f"{p:.2g}%" if p < 10 else f"{p:.0f}%"
-
-
-def own_edit(edits, op: str, key, channels):
-    """Index and edit of the band's own edit of ``op`` (levels exactly that band)."""
-    for i, e in enumerate(edits):
-        if e.op == op and isinstance(e.levels, tuple) and e.levels == (key,) \
-                and e.channels == channels:
-            return i, e
-    return -1, None
-
-
-def edits_on_band(edits, key, channel: int, level: int) -> list[int]:
-    """Indices of the enabled edits that touch a band of a channel."""
-    out = []
-    for i, e in enumerate(edits):
-        if not e.applies_to(channel):
-            continue
-        try:
-            if key in e.band_keys(level):
-                out.append(i)
-        except ValueError:
-            continue
-    return out
-
-
 class BandRow(QWidget):
-    """Controls and trace of one band."""
+    """One lane: a band's trace, what was removed from it, and its threshold's spread."""
 
     def __init__(self, pane: "BandsPane", key, last: bool):
         super().__init__()
@@ -98,66 +60,46 @@ class BandRow(QWidget):
 
         controls = QWidget()
         controls.setObjectName("gutter")
-        controls.setFixedWidth(GUTTER_WIDTH)
-        c = QHBoxLayout(controls)
+        controls.setFixedWidth(GUTTER_WIDTH + AXIS_WIDTH)
+        c = QVBoxLayout(controls)
         c.setContentsMargins(8, 2, 6, 2 + (AXIS_HEIGHT if last else 0))
-        c.setAlignment(Qt.AlignmentFlag.AlignTop)
-        c.setSpacing(4)
-        self.keep = QToolButton()
-        self.keep.setObjectName("keepToggle")
-        self.keep.setCheckable(True)
-        self.keep.setText("keep")
-        self.keep.setToolTip("mute this band (a gain edit of 0 in the Recipe); click again to keep")
-        self.gain = QDoubleSpinBox()
-        self.gain.setRange(*GAIN_RANGE_DB)
-        self.gain.setDecimals(1)
-        self.gain.setSingleStep(1.0)
-        self.gain.setSuffix(" dB")
-        self.gain.setKeyboardTracking(False)
-        self.gain.setToolTip("gain of this band in dB (a gain edit in the Recipe)")
-        self.gain.setFixedWidth(74)
-        self.threshold = QToolButton()
-        self.threshold.setObjectName("thresholdButton")
-        self.threshold.setText("threshold…")
-        self.threshold.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
-        self.threshold.setToolTip("threshold this band: rule, shape, noise estimate, scale")
-        self.threshold.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Fixed)
-        menu = QMenu(self.threshold)
-        self.form = ThresholdForm()
-        act = QWidgetAction(menu)
-        act.setDefaultWidget(self.form)
-        menu.addAction(act)
-        self.threshold.setMenu(menu)
-        c.addWidget(self.keep)
-        c.addWidget(self.gain)
-        c.addWidget(self.threshold, 1)
+        c.setSpacing(1)
+        top = QHBoxLayout()
+        self.info = QLabel("")
+        self.info.setObjectName("bandInfo")
+        self.info.setTextFormat(Qt.TextFormat.RichText)
+        self.close_button = QToolButton()
+        self.close_button.setObjectName("laneClose")
+        self.close_button.setText("close")
+        self.close_button.setToolTip("close this lane (the band's trace)")
+        self.close_button.clicked.connect(lambda: pane.set_lane(key, False))
+        top.addWidget(self.info, 1)
+        top.addWidget(self.close_button)
+        c.addLayout(top)
+        self.spread = ThresholdSpread()
+        self.spread.hide()
+        self.spread_caption = QLabel("")
+        self.spread_caption.setObjectName("bandInfo")
+        self.spread_caption.hide()
+        c.addWidget(self.spread_caption)
+        c.addWidget(self.spread, 1)
+        c.addStretch(0)
         row.addWidget(controls)
 
         self.plot = make_plot(bottom_axis=last, left_axis=False)
+        self.plot.getPlotItem().layout.setColumnFixedWidth(0, 0)
         self.plot.setFixedHeight(ROW_HEIGHT + (AXIS_HEIGHT if last else 0))
         vb = self.plot.getViewBox()
-        self.info = QLabel(self.plot)
-        self.info.setObjectName("bandInfo")
-        self.info.setTextFormat(Qt.TextFormat.RichText)
-        self.info.move(6, 2)
-        self.info.setAttribute(Qt.WidgetAttribute.WA_TransparentForMouseEvents, False)
-        self.base = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "band_original"), width=1),
+        self.base = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "removed"), width=1),
                                     connect="all", skipFiniteCheck=True)
         self.curve = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "band"), width=1),
                                      connect="all", skipFiniteCheck=True)
         self.base.setZValue(1)
         self.curve.setZValue(2)
-        tpen = pg.mkPen(colour("traces", "threshold"), width=1, style=Qt.PenStyle.DashLine)
-        self.thr_hi = pg.InfiniteLine(angle=0, movable=False, pen=tpen)
-        self.thr_lo = pg.InfiniteLine(angle=0, movable=False, pen=tpen)
         for it in (self.base, self.curve):
             self.plot.addItem(it)
-        for line in (self.thr_hi, self.thr_lo):
-            line.setZValue(3)
-            line.hide()
-            self.plot.addItem(line, ignoreBounds=True)
         row.addWidget(self.plot, 1)
-        # The band's scale (and threshold) sit in the right margin, off the trace.
+        # The band's scale sits in the right margin, off the trace.
         self.scale_label = QLabel("")
         self.scale_label.setObjectName("bandInfo")
         self.scale_label.setFixedWidth(RIGHT_MARGIN - pane.scrollbar_width)
@@ -165,12 +107,8 @@ class BandRow(QWidget):
         self.scale_label.setContentsMargins(4, 3, 0, 0)
         row.addWidget(self.scale_label)
         pane.axis.link(vb)
-
-        self.keep.toggled.connect(self._keep_toggled)
-        self.gain.valueChanged.connect(self._gain_changed)
-        self.form.changed.connect(self._threshold_changed)
-        self._quiet = False
         self.threshold_value: float | None = None
+        self._spread_for = None
 
     def set_row_height(self, h: int) -> None:
         total = h + (AXIS_HEIGHT if self.last else 0)
@@ -180,92 +118,55 @@ class BandRow(QWidget):
     # ---------------------------------------------------------- from the model
 
     def show_state(self, model, pictures, channel: int) -> None:
-        """Show the band's figures and the recipe's say on it, without emitting."""
+        """Show the band's name, range and the recipe's say on it."""
         key = self.key
         lo, hi = model.band_range_hz(key)
-        # the model's band table; on a long recording it comes a moment later
-        st = pictures.stats.get(key) or {"kurtosis": None, "energy_fraction": None,
-                                         "count": model.coefficients(channel, key).shape[0]}
-        kurt = st["kurtosis"]
-        kurt_text = "–" if kurt is None else f"{kurt:.3g}"
         name = model.band_name(key)
-        share = st["energy_fraction"]
-        share_text = "…" if share is None else percent_text(share)
-        info = (f"<b>{name}</b>&nbsp; {hz_range(lo, hi)}<br>"
-                f"{html.escape(share_text)} · kurt {kurt_text}")
+        edits = model.edits
+        touching = edits_on_band(edits, key, channel, model.spec)
+        muted = model.band_gain(channel, key) == 0.0
+        info = (f"<b>{hz_range(lo, hi)}</b>&nbsp; {html.escape(name)}"
+                f"{' · muted' if muted else ''}")
         if info != self.info.text():
             self.info.setText(info)
-            self.info.adjustSize()
-        scope = self.pane.adapter.edit_channels(channel)
-        edits = model.edits
-        _, g = own_edit(edits, "gain", key, scope)
-        _, t = own_edit(edits, "threshold", key, scope)
-        touching = edits_on_band(edits, key, channel, model.spec)
-        tip = [f"{name}: {hz_range(lo, hi)}, {st['count']} coefficients, "
-               + ("figures still being worked out, " if share is None else
-                  f"{100 * share:.4g} % of the energy, ") + f"kurtosis {kurt_text} "
-               f"(3 for Gaussian noise; large for impulsive bands)"]
-        tip += [f"edit {i + 1}: {edits[i].summary()}" for i in touching]
+        tip = [f"{name}: {hz_range(lo, hi)}; lighter: what the recipe removed from it"]
+        tip += [f"edit {i + 1}: {edit_text(edits[i], model)}" for i in touching]
         self.info.setToolTip("\n".join(tip))
-        self._quiet = True
-        try:
-            muted = g is not None and g.enabled and g.gain == 0.0
-            self.keep.setChecked(muted)
-            self.keep.setText("muted" if muted else "keep")
-            if g is not None and g.gain > 0:
-                self.gain.setValue(gain_to_db(g.gain))
-            elif g is None:
-                self.gain.setValue(0.0)
-            self.form.show_edit(t)
-            self.threshold.setText(short_text(t))
-            active = t is not None and t.enabled
-            if self.threshold.property("active") != active:
-                # The style sheet colours an active threshold; it reads the property on polish.
-                self.threshold.setProperty("active", active)
-                self.threshold.style().unpolish(self.threshold)
-                self.threshold.style().polish(self.threshold)
-        finally:
-            self._quiet = False
         self.setProperty("muted", muted)
         band_col = colour("traces", "band_muted") if muted else colour("traces", "band")
         self.curve.setPen(pg.mkPen(band_col, width=1))
-        # The threshold drawn is the last enabled one acting on this band.
+        # The threshold shown is the last enabled one acting on this band.
         self.threshold_value = None
+        thr = None
         for i in reversed(touching):
             if edits[i].op == "threshold":
-                self.threshold_value = float(model.threshold_for(channel, key, edits[i]))
+                thr = edits[i]
+                self.threshold_value = float(model.threshold_for(channel, key, thr))
                 break
-
-    # ------------------------------------------------------------ to the model
-
-    def _scope(self):
-        return self.pane.adapter.edit_channels(self.pane.channel)
-
-    def _keep_toggled(self, muted: bool) -> None:
-        self.keep.setText("muted" if muted else "keep")
-        if self._quiet:
+        if thr is None:
+            self.spread.hide()
+            self.spread_caption.hide()
+            self._spread_for = None
             return
-        gain = 0.0 if muted else db_to_gain(self.gain.value())
-        self.pane.set_band_gain(self.key, gain, self._scope())
-
-    def _gain_changed(self, db: float) -> None:
-        if self._quiet:
-            return
-        # A new gain also un-mutes: the control shows what the band gets.
-        self.pane.set_band_gain(self.key, db_to_gain(db), self._scope())
-
-    def _threshold_changed(self, values: dict) -> None:
-        if self._quiet:
-            return
-        self.pane.set_band_threshold(self.key, values, self._scope())
+        sigma = float(model.noise_sigma(channel, key))
+        tag = (id(model), channel, self.threshold_value, sigma)
+        if tag != self._spread_for and self.isVisible():
+            self.spread.show_band(model.coefficients(channel, key), sigma, self.threshold_value)
+            self._spread_for = tag
+            self.spread_caption.setText(self.spread.caption())
+        self.spread.show()
+        self.spread_caption.show()
 
     # --------------------------------------------------------------- drawing
 
     def draw(self, model, pictures, channel: int, mode: str, t0: float, t1: float) -> None:
+        if not self.isVisible() and not self.pane.lane_open(self.key):
+            return
         width = max(50, int(self.plot.getViewBox().width()))
         key = self.key
         edited_any = pictures.band_is_edited(key)
         pending = False
+        bx, by = np.zeros(0), np.zeros(0)
         if mode == "coefficients":
             if model is None:
                 return
@@ -279,9 +180,7 @@ class BandRow(QWidget):
             xs, ys = trace_points(first, step, c.shape[0], t0, t1, width, fe)
             if edited_any:
                 bx, by = trace_points(first, step, c.shape[0], t0, t1, width,
-                                      lambda a, b: c[a:b])
-            else:
-                bx, by = np.zeros(0), np.zeros(0)
+                                      lambda a, b: c[a:b] - fe(a, b))
         else:
             n, step = pictures.n, 1.0 / pictures.rate
             fe = fo = None
@@ -289,17 +188,25 @@ class BandRow(QWidget):
                 fe = lambda a, b: model.band_component_span(channel, key, a, b, True)  # noqa: E731
                 fo = lambda a, b: model.band_component_span(channel, key, a, b, False)  # noqa: E731
             env, unit = pictures.band_envelope(key), pictures.unit.get(key)
-            if env is None or unit is None:
+            span = (t1 - t0) * pictures.rate
+            wide = span > 2 * pictures.block * width
+            if (env is None or unit is None) and wide:
                 # Still being made: without it only a zoomed view is drawn (from the
                 # samples in view); a wide one would synthesise the whole band here.
-                span = (t1 - t0) * pictures.rate
-                if span > 2 * pictures.block * width:
-                    fe = fo = None
+                fe = fo = None
             xs, ys = trace_points(0.0, step, n, t0, t1, width, fe, env)
             if edited_any:
-                bx, by = trace_points(0.0, step, n, t0, t1, width, fo, unit)
-            else:
-                bx, by = np.zeros(0), np.zeros(0)
+                g = model.band_gain(channel, key) if model is not None else None
+                if g is not None and unit is not None:
+                    # a plain gain removes (1 − g) of the band as read
+                    bx, by = trace_points(0.0, step, n, t0, t1, width,
+                                          None if fo is None else
+                                          (lambda a, b: fo(a, b) * (1.0 - g)), unit)
+                    if fo is None or wide:
+                        by = by * (1.0 - g)
+                elif fo is not None and fe is not None and (not wide or n <= EXACT_REMOVED_UPTO):
+                    bx, by = trace_points(0.0, step, n, t0, t1, width,
+                                          lambda a, b: fo(a, b) - fe(a, b))
             pending = fe is None and env is None
         self.curve.setData(xs, ys)
         self.base.setData(bx, by)
@@ -307,16 +214,6 @@ class BandRow(QWidget):
         for arr in (ys, by):
             if arr.size:
                 peak = max(peak, float(np.max(np.abs(arr))))
-        lam = self.threshold_value if mode == "coefficients" else None
-        if lam is not None and math.isfinite(lam):
-            self.thr_hi.setPos(lam)
-            self.thr_lo.setPos(-lam)
-            self.thr_hi.show()
-            self.thr_lo.show()
-            peak = max(peak, lam)
-        else:
-            self.thr_hi.hide()
-            self.thr_lo.hide()
         top = peak * 1.08 if peak > 0 else 1.0
         self.plot.getViewBox().setYRange(-top, top, padding=0)
         label = f"±{short_number(peak)}"
@@ -328,9 +225,10 @@ class BandRow(QWidget):
 
 
 class BandsPane(QFrame):
-    """All bands of the current channel, finest on top, with their controls."""
+    """The drawer of lanes below the Scale map: the traces of the bands opened."""
 
     editMade = Signal()
+    laneToggled = Signal(object, bool)      # band key, open
 
     def __init__(self, adapter, time_axis, parent=None):
         super().__init__(parent)
@@ -339,6 +237,8 @@ class BandsPane(QFrame):
         self.axis = time_axis
         self.channel = 0
         self.rows: dict = {}
+        self.open_keys: list = []
+        self._defaults_for = None
         self.scrollbar_width = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
         outer = QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
@@ -347,28 +247,17 @@ class BandsPane(QFrame):
         head.setObjectName("gutter")
         h = QHBoxLayout(head)
         h.setContentsMargins(8, 4, 8, 4)
-        title = QLabel("Bands")
+        title = QLabel("Band lanes")
         title.setObjectName("paneTitle")
-        title.setFixedWidth(GUTTER_WIDTH - 16)
         h.addWidget(title)
         h.addWidget(QLabel("Show"))
         self.mode = QComboBox()
         self.mode.addItem("time component", "component")
-        self.mode.addItem("coefficients (with threshold)", "coefficients")
-        self.mode.setToolTip("each band's part of the signal, or its wavelet coefficients with "
-                             "the threshold drawn as ±λ")
+        self.mode.addItem("coefficients", "coefficients")
+        self.mode.setToolTip("each open band's part of the signal, or its wavelet coefficients")
         h.addWidget(self.mode)
-        self.all_button = QToolButton()
-        self.all_button.setText("threshold all details")
-        self.all_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
-        menu = QMenu(self.all_button)
-        for label, rule, shape in ALL_DETAILS:
-            act = menu.addAction(label)
-            act.triggered.connect(lambda _=False, r=rule, s=shape: self.threshold_all(r, s))
-        self.all_button.setMenu(menu)
-        self.all_button.setToolTip("add one threshold edit over every detail level")
-        h.addWidget(self.all_button)
-        hint = QLabel("grey: as read · blue: as edited · dashed: threshold ±λ")
+        hint = QLabel("open a lane with a row's “trace” button on the map · dark: as edited · "
+                      "orange: removed from the band")
         hint.setObjectName("hint")
         # The hint gives way when the pane is narrow; it must not widen the window.
         hint.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
@@ -386,6 +275,11 @@ class BandsPane(QFrame):
         self.body_layout.setContentsMargins(0, 0, 0, 0)
         self.body_layout.setSpacing(0)
         self.scroll.setWidget(self.body)
+        self.empty = QLabel("No lanes open: a row's “trace” button on the Scale map opens "
+                            "that band here.", self)
+        self.empty.setObjectName("hint")
+        self.empty.setAlignment(Qt.AlignmentFlag.AlignCenter)
+        outer.addWidget(self.empty)
         outer.addWidget(self.scroll, 1)
         self.mode.currentIndexChanged.connect(lambda _: self.redraw())
         self.axis.rangeChanged.connect(self._schedule)
@@ -448,12 +342,13 @@ class BandsPane(QFrame):
             return
         last, key = self._to_build.pop(0)
         row = BandRow(self, key, last=last)
+        row.setVisible(key in self.open_keys)
         self.body_layout.insertWidget(self.body_layout.count() - 1, row)   # before the stretch
         self.rows[key] = row
         self._fit_rows()
         m = self.adapter.model
         pic = self.adapter.pictures(self.channel)
-        if m is not None and pic is not None and key in pic.keys:
+        if m is not None and pic is not None and key in pic.keys and key in self.open_keys:
             row.show_state(m, pic, self.channel)
             row.draw(m, pic, self.channel, self.mode.currentData(), self.axis.t0, self.axis.t1)
         if self._to_build:
@@ -470,15 +365,59 @@ class BandsPane(QFrame):
         self.redraw()
 
     def _fit_rows(self) -> None:
-        """Share the visible height among the rows (scroll only when they do not fit)."""
+        """Share the drawer's height among the open lanes (scroll only when they do not fit)."""
         if not self.rows:
             return
         room = self.scroll.viewport().height() - AXIS_HEIGHT
-        # shared among the rows still to come too: rows keep their height as they arrive
-        count = len(self.rows) + len(self._to_build)
+        count = max(1, len(self.open_keys))
         h = int(max(ROW_MIN, min(ROW_MAX, room // count)))
         for row in self.rows.values():
             row.set_row_height(h)
+        self.empty.setVisible(not self.open_keys)
+
+    # ---------------------------------------------------------------- lanes
+
+    def lane_open(self, key) -> bool:
+        return key in self.open_keys
+
+    def set_lane(self, key, on: bool) -> None:
+        """Open or close a band's lane."""
+        if on == (key in self.open_keys):
+            return
+        m = self.adapter.model
+        if on:
+            self.open_keys.append(key)
+            order = list(m.band_keys) if m is not None else list(self.rows)
+            self.open_keys.sort(key=lambda k: order.index(k) if k in order else 0)
+        else:
+            self.open_keys.remove(key)
+        row = self.rows.get(key)
+        if row is not None:
+            row.setVisible(on)
+            if on:
+                pic = self.adapter.pictures(self.channel)
+                if m is not None and pic is not None:
+                    row.show_state(m, pic, self.channel)
+                    row.draw(m, pic, self.channel, self.mode.currentData(), self.axis.t0,
+                             self.axis.t1)
+        self._fit_rows()
+        self.laneToggled.emit(key, on)
+
+    def open_default_lanes(self, table: dict) -> None:
+        """Open the most impulsive band and the one with the largest share (once per model)."""
+        m = self.adapter.model
+        tag = (id(m), self.channel)
+        if m is None or tag == self._defaults_for or not table:
+            return
+        self._defaults_for = tag
+        for key in list(self.open_keys):
+            self.set_lane(key, False)
+        details = {k: r for k, r in table.items() if k != "a"} or table
+        impulsive = max(details, key=lambda k: details[k]["kurtosis"]
+                        if details[k]["kurtosis"] is not None else -1.0)
+        largest = max(table, key=lambda k: table[k]["energy_fraction"])
+        for key in (impulsive, largest):
+            self.set_lane(key, True)
 
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
@@ -491,14 +430,15 @@ class BandsPane(QFrame):
             pic = self.adapter.pictures(self.channel)
             mode = self.mode.currentData()
             for key in change.bands:
-                if key in self.rows and m is not None and pic is not None:
+                if key in self.rows and key in self.open_keys and m is not None \
+                        and pic is not None:
                     self.rows[key].draw(m, pic, self.channel, mode, self.axis.t0, self.axis.t1)
             if mode == "coefficients":
                 self.redraw()
 
     def _band_drawn(self, channel: int, key) -> None:
         """A band's envelope came from the background: draw its row."""
-        if channel != self.channel or key not in self.rows:
+        if channel != self.channel or key not in self.rows or key not in self.open_keys:
             return
         pic = self.adapter.pictures(self.channel)
         if pic is not None:
@@ -510,8 +450,9 @@ class BandsPane(QFrame):
         pic = self.adapter.pictures(self.channel)
         if m is None or pic is None:
             return
-        for row in self.rows.values():
-            row.show_state(m, pic, self.channel)
+        for key in self.open_keys:
+            if key in self.rows:
+                self.rows[key].show_state(m, pic, self.channel)
 
     def _schedule(self, *_):
         self._timer.start()
@@ -522,8 +463,9 @@ class BandsPane(QFrame):
         if pic is None:
             return
         mode = self.mode.currentData()
-        for row in self.rows.values():
-            row.draw(m, pic, self.channel, mode, self.axis.t0, self.axis.t1)
+        for key in self.open_keys:
+            if key in self.rows:
+                self.rows[key].draw(m, pic, self.channel, mode, self.axis.t0, self.axis.t1)
 
     def showEvent(self, ev):
         super().showEvent(ev)
@@ -533,42 +475,12 @@ class BandsPane(QFrame):
 
     def set_band_gain(self, key, gain: float, scope) -> None:
         """Make, change or drop the band's own gain edit."""
-        edits = self.adapter.edits
-        i, e = own_edit(edits, "gain", key, scope)
-        ok = True
-        if e is None:
-            if gain != 1.0:
-                ok = self.adapter.add_edit(Edit("gain", levels=(key,), gain=gain, channels=scope))
-        elif gain == 1.0 and e.enabled:
-            ok = self.adapter.remove_edit(i)
-        else:
-            ok = self.adapter.replace_edit(i, replace(e, gain=gain, enabled=True))
-        if not ok:
-            self._sync_controls()      # the controls go back to what the recipe says
+        if not set_band_gain(self.adapter, key, gain, scope):
+            self._sync_controls()
         self.editMade.emit()
 
     def set_band_threshold(self, key, values: dict, scope) -> None:
         """Make, change or drop the band's own threshold edit."""
-        edits = self.adapter.edits
-        i, e = own_edit(edits, "threshold", key, scope)
-        ok = True
-        if values["rule"] == "off":
-            if e is not None:
-                ok = self.adapter.remove_edit(i)
-        else:
-            kw = dict(rule=values["rule"], shape=values["shape"], noise=values["noise"],
-                      scale=values["scale"],
-                      value=values["value"] if values["rule"] == "manual" else None)
-            if e is None:
-                ok = self.adapter.add_edit(Edit("threshold", levels=(key,), channels=scope, **kw))
-            else:
-                ok = self.adapter.replace_edit(i, replace(e, enabled=True, **kw))
-        if not ok:
+        if not set_band_threshold(self.adapter, key, values, scope):
             self._sync_controls()
-        self.editMade.emit()
-
-    def threshold_all(self, rule: str, shape: str) -> None:
-        scope = self.adapter.edit_channels(self.channel)
-        self.adapter.add_edit(Edit("threshold", levels="details", rule=rule, shape=shape,
-                                   channels=scope))
         self.editMade.emit()

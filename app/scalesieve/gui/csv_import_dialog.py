@@ -316,7 +316,8 @@ class CsvImportDialog(QDialog):
             ok.setEnabled(False)
             return
         self.status.setStyleSheet("")
-        self.status.setText(f"{len(chan_names)} channels · {rate_text}"
+        self.status.setText(f"{len(chan_names)} channel{'' if len(chan_names) == 1 else 's'} · "
+                            f"{rate_text}"
                             + ("" if self.choice.as_found()
                                else " · settings changed by hand"))
         ok.setEnabled(True)

@@ -63,12 +63,16 @@ CAUTION = ("Times and rates support a judgement, they do not make one: decisions
 COLUMNS = (
     ("start_s", "start (s)", "first sample the event's coefficients read"),
     ("stop_s", "stop (s)", "last sample the event's coefficients read"),
-    ("peak_s", "peak time (s)", "centre of the strongest coefficient"),
+    ("peak_s", "time (s)", "time of the event: centre of its strongest coefficient"),
     ("level", "level", "detail level of the strongest coefficient (1 = finest)"),
     ("score", "score (σ)", "largest |c| / σ of its level in the event"),
     ("peak", "peak", "largest absolute sample of the signal in the event"),
     ("channel", "channel", "channel of the recording (0 = first)"),
 )
+#: widest a column starts (the user may widen it)
+COLUMN_MAX_PX = 70
+#: the order the columns are shown in
+VISIBLE_ORDER = ("peak_s", "score", "level", "channel", "start_s", "stop_s", "peak")
 TRANSFORMS = (("swt", "SWT: sharper timing"), ("dwt", "DWT"))
 
 
@@ -337,6 +341,11 @@ class EventsPane(QWidget):
         header.setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
         header.setStretchLastSection(True)
         header.setResizeContentsPrecision(200)   # size columns from the first rows only
+        # What tells events apart comes first at a side dock's width: time, score,
+        # level and channel; start, stop and the signal's peak follow.
+        fields = [c[0] for c in COLUMNS]
+        for visual, field in enumerate(VISIBLE_ORDER):
+            header.moveSection(header.visualIndex(fields.index(field)), visual)
         self.table.setAlternatingRowColors(True)
         self.table.verticalHeader().setDefaultSectionSize(22)
         outer.addWidget(self.table, 1)
@@ -451,6 +460,10 @@ class EventsPane(QWidget):
         self.table_model.set_events(self.events)
         if self.events and not self._sized:
             self.table.resizeColumnsToContents()
+            # narrow enough that time, score, level and channel show at a side dock's width
+            header = self.table.horizontalHeader()
+            for col in range(len(COLUMNS)):
+                header.resizeSection(col, min(header.sectionSize(col), COLUMN_MAX_PX))
             self._sized = True
         self.summary.setText(error or summary_text(self.events, self.repetition, channels))
         self.summary.setToolTip("noise σ per level: " + ", ".join(

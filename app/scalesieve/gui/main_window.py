@@ -26,7 +26,6 @@ from scalesieve.gui.recipe_pane import RecipePane
 from scalesieve.gui.resource_files import icon
 from scalesieve.gui.scale_map import ScaleMapPane
 from scalesieve.gui.time_axis import SharedTimeAxis
-from scalesieve.gui.transform_controls import TransformControls
 from scalesieve.io.atomic import atomic_write
 from scalesieve.io.readers import AUDIO_EXTENSIONS, TEXT_EXTENSIONS
 
@@ -75,13 +74,17 @@ class MainWindow(QMainWindow):
         self.splitter.setChildrenCollapsible(False)
         for w in (self.scale_map, self.bands, self.reconstruction):
             self.splitter.addWidget(w)
-        self.scale_map.setMinimumHeight(150)
-        self.bands.setMinimumHeight(150)
-        self.reconstruction.setMinimumHeight(130)
-        self.splitter.setSizes([250, 482, 190])
-        self.splitter.setStretchFactor(0, 3)
-        self.splitter.setStretchFactor(1, 5)
+        self.scale_map.setMinimumHeight(260)
+        self.bands.setMinimumHeight(120)
+        self.reconstruction.setMinimumHeight(150)
+        self.splitter.setSizes([470, 250, 200])
+        self.splitter.setStretchFactor(0, 5)
+        self.splitter.setStretchFactor(1, 3)
         self.splitter.setStretchFactor(2, 2)
+        # lanes open and close from the map's row headers and from the lanes themselves
+        self.scale_map.laneToggled.connect(self.bands.set_lane)
+        self.bands.laneToggled.connect(self._lane_toggled)
+        self.scale_map.figuresKnown.connect(self.bands.open_default_lanes)
         central = QWidget()
         col = QVBoxLayout(central)
         col.setContentsMargins(0, 0, 0, 0)
@@ -90,8 +93,9 @@ class MainWindow(QMainWindow):
         col.addWidget(self.overview)
         self.setCentralWidget(central)
 
-        self.transform = TransformControls()
-        self.transform.specChosen.connect(self.adapter.request_transform)
+        self.transform_line = self.scale_map.transform_line
+        self.transform = self.transform_line.controls
+        self.transform_line.specChosen.connect(self.adapter.request_transform)
         self.recipe = RecipePane(self.adapter)
         self.recipe.openRequested.connect(self.open_recipe_dialog)
         self.recipe.applyRequested.connect(self.apply_recipe_dialog)
@@ -99,20 +103,16 @@ class MainWindow(QMainWindow):
         self.recipe.problem.connect(lambda msg: show_error(self, msg))
         self.recipe.editSelected.connect(self.scale_map.select_edit)
         self.scale_map.regionSelected.connect(self.recipe.select)
-        self.transform_dock = self._dock("Transform", self.transform, "transformDock")
         self.recipe_dock = self._dock("Recipe", self.recipe, "recipeDock")
-        self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, self.transform_dock)
-        self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, self.recipe_dock)
+        self.addDockWidget(Qt.DockWidgetArea.RightDockWidgetArea, self.recipe_dock)
         self.events_dock = self._add_events_dock()
         from scalesieve.gui.impacts_dock import add_impacts_dock
 
         self.impacts_dock = add_impacts_dock(self)
-        self.resizeDocks([self.transform_dock, self.recipe_dock], [230, 700],
-                         Qt.Orientation.Vertical)
-        for d in (self.transform_dock, self.recipe_dock, self.events_dock):
+        for d in (self.recipe_dock, self.events_dock):
             if d is not None:
-                d.setMinimumWidth(280)
-        self.resizeDocks([self.transform_dock], [330], Qt.Orientation.Horizontal)
+                d.setMinimumWidth(300)
+        self.resizeDocks([self.recipe_dock], [330], Qt.Orientation.Horizontal)
 
         self._build_actions()
         self._build_status()
@@ -144,7 +144,7 @@ class MainWindow(QMainWindow):
         self._events_holder = holder
         self._events_pane = None
         dock = self._dock("Events", holder, "eventsDock")
-        self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, dock)
+        self.addDockWidget(Qt.DockWidgetArea.RightDockWidgetArea, dock)
         self.tabifyDockWidget(self.recipe_dock, dock)
         self.recipe_dock.raise_()
         dock.visibilityChanged.connect(self._events_shown)
@@ -254,7 +254,10 @@ class MainWindow(QMainWindow):
             m.addAction(a)
         m.addAction(self.time_axis.clock_action(self))
         m.addSeparator()
-        for d in (self.transform_dock, self.recipe_dock, self.events_dock, self.impacts_dock):
+        self.act_transform = self._action("&Transform…", self._open_transform, "Ctrl+T", None,
+                                          "change kind, wavelet, levels or boundary mode")
+        m.addAction(self.act_transform)
+        for d in (self.recipe_dock, self.events_dock, self.impacts_dock):
             if d is not None:
                 m.addAction(d.toggleViewAction())
         m = mb.addMenu("&Listen")
@@ -292,15 +295,20 @@ class MainWindow(QMainWindow):
         tb.addWidget(self.scope_box)
         tb.addSeparator()
         tb.addAction(self.act_all)
-        tb.addSeparator()
+        lt = self.addToolBar("Listen")
+        lt.setObjectName("listenToolbar")
+        lt.setIconSize(QSize(18, 18))
+        lt.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
+        self.listen_toolbar = lt
+        self._listen_on_own_row = False
         for a in self.act_play.values():
-            tb.addAction(a)
-        tb.addAction(self.act_stop)
+            lt.addAction(a)
+        lt.addAction(self.act_stop)
         if not ok:
             why = QLabel("  no sound output")
             why.setObjectName("hint")
             why.setToolTip(reason)
-            tb.addWidget(why)
+            lt.addWidget(why)
 
     def _build_status(self) -> None:
         sb = self.statusBar()
@@ -365,10 +373,29 @@ class MainWindow(QMainWindow):
                 ws.add_recent(self.settings, rec.source)
                 ws.set_last_folder(self.settings, rec.source)
                 self._fill_recent()
-        self.transform.show_spec(m.spec, rec.n)
+        self.transform_line.show_spec(m.spec, rec.n)
         s = m.spec
         self.status_transform.setText(f"{s.kind.upper()} {s.wavelet}, level {s.level}, {s.mode}")
         self._update_history_actions()
+
+    def _open_transform(self) -> None:
+        self.transform_line.showMenu()
+
+    def _lane_toggled(self, key, on: bool) -> None:
+        h = self.scale_map.headers.get(key)
+        if h is not None:
+            h.set_lane_open(on)
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        # The listening buttons go to a row of their own when one row cannot hold them all.
+        narrow = self.width() < 1500
+        if narrow != self._listen_on_own_row:
+            self._listen_on_own_row = narrow
+            if narrow:
+                self.insertToolBarBreak(self.listen_toolbar)
+            else:
+                self.removeToolBarBreak(self.listen_toolbar)
 
     def describe_recording(self) -> str:
         rec = self.adapter.recording

@@ -15,7 +15,7 @@ from PySide6.QtWidgets import QFrame, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from scalesieve.gui.resource_files import colour
 
-GUTTER_WIDTH = 236
+GUTTER_WIDTH = 272
 AXIS_WIDTH = 118
 RIGHT_MARGIN = 74
 TICK_FONT_PT = 8

@@ -7,6 +7,7 @@ buttons and removed with the cross (or the Delete key).
 
 from __future__ import annotations
 
+import textwrap
 from dataclasses import replace
 
 from PySide6.QtCore import Qt, QTimer, Signal
@@ -16,7 +17,8 @@ from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QHBoxLayout, QHeade
 
 from scalesieve.core.thresholds import NOISE, RULES, SHAPES
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.band_labels import gain_to_db, levels_text
+from scalesieve.gui.band_labels import db_to_gain, levels_text
+from scalesieve.gui.edit_words import db_text, edit_text
 from scalesieve.gui.resource_files import icon
 from scalesieve.recipe import parse_levels
 
@@ -29,10 +31,10 @@ FIELDS = {
 CHOICES = {"rule": tuple(RULES), "shape": tuple(SHAPES), "noise": tuple(NOISE)}
 HELP = {
     "levels": "1,2 or 1-3 or details or all; a is the approximation",
-    "gain": "factor (0 mutes)",
-    "rule": "how λ is chosen",
+    "gain": "in dB (−6, +3); −inf mutes",
+    "rule": "universal (VisuShrink), sure (SureShrink), bayes (BayesShrink), minimax, manual",
     "shape": "hard keeps or kills; soft shrinks by λ; garrote in between",
-    "noise": "σ from level 1 (finest) or from each level",
+    "noise": "finest: σ from the finest band (white noise); level: σ per band (coloured noise)",
     "scale": "multiplies λ",
     "value": "λ in signal units (manual rule)",
     "start_s": "seconds",
@@ -52,8 +54,7 @@ def field_text(edit, name: str) -> str:
     if name == "value":
         return "" if v is None else f"{v:g}"
     if name == "gain":
-        db = gain_to_db(v)
-        return f"{v:g}  ({'mute' if v == 0 else f'{db:+.1f} dB'})"
+        return db_text(v)
     if isinstance(v, float):
         return f"{v:g}"
     return str(v)
@@ -79,7 +80,7 @@ def parse_field(edit, name: str, text: str):
             raise ValueError(f"{name} {t!r} is not one of {', '.join(CHOICES[name])}")
         return replace(edit, **{name: t})
     if name == "gain":
-        t = t.split()[0] if t else t
+        return replace(edit, gain=parse_db(t))
     try:
         v = float(t)
     except ValueError:
@@ -92,6 +93,22 @@ def parse_field(edit, name: str, text: str):
     if name in ("start_s", "stop_s") and new.start_s >= new.stop_s:
         raise ValueError(f"start_s {new.start_s:g} must be before stop_s {new.stop_s:g}")
     return new
+
+
+def parse_db(text: str) -> float:
+    """A gain typed in dB (``-6``, ``−6 dB``, ``-inf`` or ``mute``) as a factor."""
+    t = text.strip().replace("−", "-").lower()
+    if t.endswith("db"):
+        t = t[:-2].strip()
+    if t in ("mute", "-inf", "-∞", "-infinity"):
+        return 0.0
+    try:
+        db = float(t)
+    except ValueError:
+        raise ValueError(f"gain: {text!r} is not a number of dB (or -inf to mute)") from None
+    if db != db or db == float("inf"):
+        raise ValueError("gain must be a finite number of dB, or -inf to mute")
+    return 0.0 if db == float("-inf") else db_to_gain(db)
 
 
 class _Delegate(QStyledItemDelegate):
@@ -112,7 +129,7 @@ class _Delegate(QStyledItemDelegate):
         super().setEditorData(editor, index)
         name = index.siblingAtColumn(0).data(FIELD_ROLE)
         if name == "gain" and hasattr(editor, "setText"):
-            editor.setText(str(index.data()).split()[0])
+            editor.setText(str(index.data()).replace(" dB", ""))
 
     def setModelData(self, editor, model, index):
         if isinstance(editor, QComboBox):
@@ -147,8 +164,13 @@ class RecipePane(QWidget):
                                   | QAbstractItemView.EditTrigger.EditKeyPressed
                                   | QAbstractItemView.EditTrigger.SelectedClicked)
         self.tree.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.empty = QLabel("No edits yet. Mute or threshold a band in the Bands pane, or drag "
-                            "a rectangle on the Scale map.")
+        # Entries wrap at the pane's width: nothing is cut off.
+        self.tree.setWordWrap(True)
+        self.tree.setUniformRowHeights(False)
+        self.tree.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.tree.header().setSectionResizeMode(1, QHeaderView.ResizeMode.Stretch)
+        self.empty = QLabel("No edits yet. Set a band's gain or mute it in its row header on the "
+                            "Scale map, threshold the selected rows, or drag a region on the map.")
         self.empty.setWordWrap(True)
         self.empty.setObjectName("hint")
         lay.addWidget(self.empty)
@@ -222,13 +244,14 @@ class RecipePane(QWidget):
             self.tree.clear()
             edits = self.adapter.edits
             for i, e in enumerate(edits):
-                top = QTreeWidgetItem([f"{i + 1}  {e.op}", e.summary()])
+                text = edit_text(e, self.adapter.model)
+                top = QTreeWidgetItem([f"{i + 1}", self._wrapped(text)])
                 top.setData(0, INDEX_ROLE, i)
                 top.setFlags(top.flags() | Qt.ItemFlag.ItemIsUserCheckable)
                 top.setCheckState(0, Qt.CheckState.Checked if e.enabled
                                   else Qt.CheckState.Unchecked)
                 top.setToolTip(0, "tick: the edit is applied; untick: kept but not applied")
-                top.setToolTip(1, e.summary())
+                top.setToolTip(1, text)
                 for name in FIELDS[e.op]:
                     if name == "value" and e.rule != "manual":
                         continue
@@ -246,6 +269,18 @@ class RecipePane(QWidget):
         finally:
             self._building = False
         self._enable()
+
+    def _wrapped(self, text: str) -> str:
+        """The entry broken into lines that fit the list's width (nothing cut off)."""
+        width = max(120, self.tree.viewport().width() - 60)
+        # a little under the average: wide letters must not push a line past the edge
+        chars = max(16, int(width / (1.3 * max(1, self.tree.fontMetrics().averageCharWidth()))))
+        return "\n".join(textwrap.wrap(text, chars)) or text
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        if self.adapter.edits:
+            self._later.start()
 
     def _enable(self) -> None:
         i = self.selected_index()

@@ -9,8 +9,9 @@ import pyqtgraph as pg
 from PySide6.QtCore import QTimer, Signal
 from PySide6.QtWidgets import QCheckBox, QLabel
 
+from scalesieve.gui.channel_units import unit_of
 from scalesieve.gui.decimate import trace_points
-from scalesieve.gui.pane_frame import PaneFrame, make_plot
+from scalesieve.gui.pane_frame import PaneFrame, make_plot, tick_font
 from scalesieve.gui.resource_files import colour
 
 #: the three traces: key, label, what they show
@@ -47,11 +48,18 @@ class ReconstructionPane(PaneFrame):
         self.axis = time_axis
         self.channel = 0
         self.metrics: dict | None = None
-        self.plot = make_plot()
+        # Cleaned over a lighter original; what was removed in its own lane below, on
+        # its own scale: neither hides the other.
+        self.plot = make_plot(bottom_axis=False)
         self.plot.getPlotItem().showGrid(x=True, y=True, alpha=0.25)
-        self.content.addWidget(self.plot, 1)
+        self.content.addWidget(self.plot, 3)
+        self.removed_plot = make_plot()
+        self.removed_plot.getPlotItem().showGrid(x=True, y=True, alpha=0.25)
+        self.content.addWidget(self.removed_plot, 2)
         self.metrics_label = QLabel("")
         self.metrics_label.setObjectName("metrics")
+        # at a narrow width the line wraps: it must neither widen the window nor be cut
+        self.metrics_label.setWordWrap(True)
         self.metrics_label.setContentsMargins(10, 3, 6, 4)
         self.content.addWidget(self.metrics_label)
         self.curves = {}
@@ -61,7 +69,7 @@ class ReconstructionPane(PaneFrame):
             pen = pg.mkPen(colour("traces", key), width=widths[key])
             curve = pg.PlotDataItem(pen=pen, connect="all", skipFiniteCheck=True)
             curve.setZValue({"original": 1, "cleaned": 2, "removed": 3}[key])
-            self.plot.addItem(curve)
+            (self.removed_plot if key == "removed" else self.plot).addItem(curve)
             self.curves[key] = curve
             box = QCheckBox(label)
             box.setChecked(True)
@@ -76,6 +84,7 @@ class ReconstructionPane(PaneFrame):
         self.gutter_layout.addStretch(1)
         self.gutter_layout.addWidget(hint)
         self.axis.link(self.plot.getViewBox())
+        self.axis.link(self.removed_plot.getViewBox())
         self.axis.rangeChanged.connect(self._schedule)
         self._redraw_timer = QTimer(self)
         self._redraw_timer.setSingleShot(True)
@@ -94,10 +103,24 @@ class ReconstructionPane(PaneFrame):
 
     def set_channel(self, channel: int) -> None:
         self.channel = channel
+        self._show_unit()
         self.redraw()
         self.update_metrics()
 
+    def _show_unit(self) -> None:
+        m = self.adapter.model
+        unit = ""
+        if m is not None and self.channel < m.recording.channels:
+            unit = unit_of(m.recording.channel_names[self.channel])
+        for plot in (self.plot, self.removed_plot):
+            ax = plot.getPlotItem().getAxis("left")
+            ax.enableAutoSIPrefix(False)     # the values as they are, in the channel's unit
+            ax.setLabel(unit)
+            ax.label.setFont(tick_font())
+            ax.showLabel(bool(unit))
+
     def _on_model(self) -> None:
+        self._show_unit()
         self.redraw()
         m = self.adapter.model
         if m is not None and not any(e.applies_to(self.channel) for e in m.edits):
@@ -162,7 +185,8 @@ class ReconstructionPane(PaneFrame):
                      "cleaned": lambda a, b: m.cleaned_view(ch, a, b),
                      "removed": lambda a, b: x[a:b] - m.cleaned_view(ch, a, b)}
         envs = {"original": pic.original, "cleaned": pic.cleaned, "removed": pic.removed}
-        lo, hi = math.inf, -math.inf
+        ranges = {id(self.plot): [math.inf, -math.inf],
+                  id(self.removed_plot): [math.inf, -math.inf]}
         for key, curve in self.curves.items():
             if not self.toggles[key].isChecked():
                 curve.setData([], [])
@@ -170,8 +194,17 @@ class ReconstructionPane(PaneFrame):
             xs, ys = trace_points(0.0, 1.0 / pic.rate, pic.n, t0, t1, width, fetch[key],
                                   envs[key])
             curve.setData(xs, ys)
+            r = ranges[id(self.removed_plot if key == "removed" else self.plot)]
             if ys.size:
-                lo, hi = min(lo, float(ys.min())), max(hi, float(ys.max()))
-        if math.isfinite(lo) and math.isfinite(hi):
-            pad = 0.06 * (hi - lo) if hi > lo else max(abs(hi), 1e-12)
-            self.plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)
+                r[0], r[1] = min(r[0], float(ys.min())), max(r[1], float(ys.max()))
+        main_lo, main_hi = ranges[id(self.plot)]
+        r = ranges[id(self.removed_plot)]
+        if math.isfinite(main_lo) and math.isfinite(main_hi):
+            # nothing (or round-off) removed: a flat line on a scale a tenth of the signal's
+            floor = 0.05 * (main_hi - main_lo)
+            r[0], r[1] = min(r[0], -floor), max(r[1], floor)
+        for plot in (self.plot, self.removed_plot):
+            lo, hi = ranges[id(plot)]
+            if math.isfinite(lo) and math.isfinite(hi):
+                pad = 0.06 * (hi - lo) if hi > lo else max(abs(hi), 1e-12)
+                plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)

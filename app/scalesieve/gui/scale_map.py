@@ -10,30 +10,36 @@ changed (context menu) and removed (Delete key).
 from __future__ import annotations
 
 import math
+import threading
 from dataclasses import replace
 
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QRectF, Qt, QTimer, Signal
 from PySide6.QtGui import QAction, QBrush, QColor
-from PySide6.QtWidgets import (QCheckBox, QComboBox, QGraphicsRectItem, QHBoxLayout,
-                               QInputDialog, QLabel, QMenu)
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFrame,
+                               QGraphicsRectItem, QHBoxLayout, QLabel, QMenu,
+                               QSizePolicy, QToolButton, QVBoxLayout, QWidget, QWidgetAction)
 
 from scalesieve.core import transforms as tf
-from scalesieve.gui.band_labels import (band_label, db_to_gain, format_seconds, gain_to_db,
-                                        hz_range)
+from scalesieve.gui.band_edits import (ALL_DETAILS, edits_on_band, own_edit, set_band_gain,
+                                       set_band_threshold)
+from scalesieve.gui.band_labels import db_to_gain, format_seconds, gain_to_db, hz_range
 from scalesieve.gui.decimate import maxabs_columns, maxabs_columns_from_blocks
-from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, TimeViewBox, make_plot, tick_font
+from scalesieve.gui.edit_words import edit_text
+from scalesieve.gui.pane_frame import (AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, TimeViewBox,
+                                       make_plot, tick_font)
 from scalesieve.gui.resource_files import colour, palette
+from scalesieve.gui.thread_priority import lower_this_thread
+from scalesieve.gui.row_headers import GAIN_MIN_DB, GAIN_MAX_DB, MUTE_TEXT, RowHeader, RowHeaderColumn
+from scalesieve.gui.threshold_form import RULE_TIPS, ThresholdForm
+from scalesieve.gui.transform_line import TransformLine
 from scalesieve.recipe import Edit
 
 #: shown dynamic range in dB below the reference magnitude
 DB_RANGE = 60.0
 #: bands of at least this many coefficients are drawn zoomed out from their block peaks
 PEAKS_FROM = 1 << 22
-#: what a drag makes: label -> gain
-DRAG_GAINS = (("mute", 0.0), ("−6 dB", db_to_gain(-6.0)), ("−12 dB", db_to_gain(-12.0)),
-              ("−20 dB", db_to_gain(-20.0)))
 _TINY = 1e-300
 
 
@@ -141,23 +147,38 @@ def contiguous_runs(rows: list[int]) -> list[tuple[int, int]]:
     return runs
 
 
-class ScaleMapPane(PaneFrame):
-    """The Scale map of the current channel."""
+class ScaleMapPane(QFrame):
+    """The Scale map of the current channel: the workbench.
+
+    Rows are bands (finest on top); each row's header at the left edge
+    carries its controls; selected rows are the bands the edit buttons of the
+    line above the map act on.
+    """
 
     regionSelected = Signal(int)           # index of the edit in the recipe, -1: none
     readout = Signal(str)
+    laneToggled = Signal(object, bool)     # band key, open
+    rowsSelected = Signal(object)           # band keys
+    figuresKnown = Signal(object)
+    _tableReady = Signal(object, object, object)     # tag, band keys, rows (from a thread)           # band key -> the model's band_table row
 
     def __init__(self, adapter, time_axis, settings=None, parent=None):
+        super().__init__(parent)
+        self.setObjectName("pane")
         self.bar_widget = pg.GraphicsLayoutWidget()
         self.bar_widget.setBackground(colour("plot", "background"))
         self.bar_widget.ci.layout.setContentsMargins(0, 3, 0, 30)
-        super().__init__("Scale map", parent, right=self.bar_widget)
         self.adapter = adapter
         self.axis = time_axis
         self.settings = settings
         self.channel = 0
         self.selected = -1
         self.keys: list = []
+        self.selected_rows: list = []
+        self._anchor = None
+        self._table: dict = {}
+        self._table_for = None
+        self._table_job = None
         self._orig_rows: dict = {}
         self._rows: dict = {}
         self._row_view = None
@@ -166,12 +187,48 @@ class ScaleMapPane(PaneFrame):
         self._building_outlines = False
         self._in_outline = False
         self._times: dict = {}
+        self._region_db = GAIN_MIN_DB          # what the next drag's gain field starts at
+
+        outer = QVBoxLayout(self)
+        outer.setContentsMargins(0, 0, 0, 0)
+        outer.setSpacing(0)
+        self.top = QWidget()
+        self.top.setObjectName("gutter")
+        self.top_layout = QHBoxLayout(self.top)
+        self.top_layout.setContentsMargins(8, 3, 8, 3)
+        self.top_layout.setSpacing(6)
+        outer.addWidget(self.top)
+        body = QHBoxLayout()
+        body.setContentsMargins(0, 0, 0, 0)
+        body.setSpacing(0)
+        outer.addLayout(body, 1)
+        self.header_column = RowHeaderColumn()
+        self.header_column.setObjectName("gutter")
+        self.header_column.setAttribute(Qt.WidgetAttribute.WA_StyledBackground, True)
+        self.header_column.setFixedWidth(GUTTER_WIDTH + AXIS_WIDTH)
+        body.addWidget(self.header_column)
+        self.content = QVBoxLayout()
+        self.content.setContentsMargins(0, 0, 0, 0)
+        body.addLayout(self.content, 1)
+        self.bar_widget.setFixedWidth(RIGHT_MARGIN)
+        body.addWidget(self.bar_widget)
 
         self.view = MapViewBox()
         self.view.invertY(True)
-        self.plot = make_plot(self.view)
+        self.plot = make_plot(self.view, left_axis=False)
+        # The row headers take the place of the left axis (same width in every pane).
+        self.plot.getPlotItem().layout.setColumnFixedWidth(0, 0)
         self.view.setMouseEnabled(x=True, y=False)
+        self.plot.setToolTip("drag: a region edit (snapped to whole coefficient tiles) · "
+                             "shift-drag: pan · wheel: zoom · Del: remove the selected region")
+        self.empty_label = QLabel("No recording yet.\nOpen one with File ▸ Open recording… or "
+                                  "drop a WAV, FLAC or text table on the window.")
+        self.empty_label.setObjectName("emptyState")
+        self.empty_label.setAlignment(Qt.AlignmentFlag.AlignCenter)
+        self.empty_label.setWordWrap(True)
+        self.content.addWidget(self.empty_label, 1)
         self.content.addWidget(self.plot, 1)
+        self.plot.hide()
         self.image = pg.ImageItem(axisOrder="row-major")
         self.image.setZValue(0)
         self.plot.addItem(self.image)
@@ -196,10 +253,11 @@ class ScaleMapPane(PaneFrame):
         bar_axis.setWidth(RIGHT_MARGIN - 30)
         self.bar_widget.addItem(self.bar)
 
-        self._build_gutter()
+        self._build_top()
         self.axis.link(self.view)
         self.axis.rangeChanged.connect(self._schedule)
         self.view.sigResized.connect(self._schedule)
+        self.view.sigResized.connect(self._place_headers)
         self.view.rectangleDrawn.connect(self._rectangle_drawn)
         self.view.clicked.connect(self._clicked)
         self.view.hovered.connect(self._hovered)
@@ -207,16 +265,62 @@ class ScaleMapPane(PaneFrame):
         self._timer.setSingleShot(True)
         self._timer.setInterval(0)
         self._timer.timeout.connect(self.redraw)
+        self._table_timer = QTimer(self)
+        self._table_timer.setSingleShot(True)
+        self._table_timer.setInterval(0)
+        self._table_timer.timeout.connect(self._read_table)
+        self._tableReady.connect(self._table_ready, Qt.ConnectionType.QueuedConnection)
+        adapter.add_pending_check(self.table_pending)
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
 
-    # --------------------------------------------------------------- gutter
+    # ------------------------------------------------------------- top line
 
-    def _build_gutter(self) -> None:
-        g = self.gutter_layout
+    def _build_top(self) -> None:
+        t = self.top_layout
+        title = QLabel("Scale map")
+        title.setObjectName("paneTitle")
+        t.addWidget(title)
+        self.transform_line = TransformLine()
+        t.addWidget(self.transform_line)
+        self.threshold_button = QToolButton()
+        self.threshold_button.setObjectName("thresholdButton")
+        self.threshold_button.setText("Threshold selection")
+        self.threshold_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
+        self.threshold_button.setToolTip("threshold the bands of the selected rows (click a row "
+                                         "header to select it; Ctrl adds, Shift extends)")
+        menu = QMenu(self.threshold_button)
+        self.form = ThresholdForm()
+        act = QWidgetAction(menu)
+        act.setDefaultWidget(self.form)
+        menu.addAction(act)
+        menu.aboutToShow.connect(self._show_selected_threshold)
+        self.threshold_button.setMenu(menu)
+        self.form.changed.connect(self._threshold_chosen)
+        t.addWidget(self.threshold_button)
+        self.all_button = QToolButton()
+        self.all_button.setObjectName("menuButton")
+        self.all_button.setText("Threshold all details")
+        self.all_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
+        all_menu = QMenu(self.all_button)
+        for label, rule, shape in ALL_DETAILS:
+            a = all_menu.addAction(label)
+            a.setToolTip(RULE_TIPS.get(rule, ""))
+            a.triggered.connect(lambda _=False, r=rule, s=shape: self.threshold_all(r, s))
+        all_menu.setToolTipsVisible(True)
+        self.all_button.setMenu(all_menu)
+        self.all_button.setToolTip("add one threshold edit over every detail band")
+        t.addWidget(self.all_button)
+        self.look_button = QToolButton()
+        self.look_button.setObjectName("menuButton")
+        self.look_button.setText("Colours")
+        self.look_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
+        self.look_button.setToolTip("how magnitudes are coloured")
+        look = QWidget()
+        g = QVBoxLayout(look)
+        g.setContentsMargins(8, 6, 8, 6)
         row = QHBoxLayout()
-        row.setSpacing(4)
         self.scale_box = QComboBox()
         self.scale_box.addItems(["dB", "linear"])
         self.scale_box.setToolTip("colour is |c| in dB (60 dB shown) or linear")
@@ -235,22 +339,31 @@ class ScaleMapPane(PaneFrame):
         self.per_level_box.setToolTip("scale every row to its largest |c| instead of one scale")
         g.addWidget(self.edited_box)
         g.addWidget(self.per_level_box)
-        drag = QHBoxLayout()
-        drag.addWidget(QLabel("Drag makes"))
-        self.drag_box = QComboBox()
-        for label, gain in DRAG_GAINS:
-            self.drag_box.addItem(f"region: {label}", gain)
-        self.drag_box.setToolTip("what a rectangle dragged on the map does to its coefficients")
-        drag.addWidget(self.drag_box, 1)
-        g.addLayout(drag)
-        self.readout_label = QLabel(" \n \n ")
+        look_menu = QMenu(self.look_button)
+        la = QWidgetAction(look_menu)
+        la.setDefaultWidget(look)
+        look_menu.addAction(la)
+        self.look_button.setMenu(look_menu)
+        t.addWidget(self.look_button)
+        self.readout_label = QLabel("")
         self.readout_label.setObjectName("readout")
         self.readout_label.setWordWrap(False)
-        g.addWidget(self.readout_label)
-        g.addStretch(1)
-        hint = QLabel("drag: region · shift-drag: pan\nwheel: zoom · Del: remove region")
-        hint.setObjectName("hint")
-        g.addWidget(hint)
+        self.readout_label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        self.readout_label.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+        t.addWidget(self.readout_label, 1)
+        # after a drag: the region's one gain field
+        self.region_gain = QDoubleSpinBox()
+        self.region_gain.setRange(GAIN_MIN_DB, GAIN_MAX_DB)
+        self.region_gain.setDecimals(1)
+        self.region_gain.setSuffix(" dB")
+        self.region_gain.setSpecialValueText(MUTE_TEXT)
+        self.region_gain.setKeyboardTracking(False)
+        self.region_gain.setToolTip("gain of the selected region in dB; −∞ mutes it")
+        self.region_gain.valueChanged.connect(self._region_gain_changed)
+        self.region_gain_label = QLabel("region gain")
+        t.addWidget(self.region_gain_label)
+        t.addWidget(self.region_gain)
+        self._show_region_gain()
         if self.settings is not None:
             self.scale_box.setCurrentText(self.settings.value("map/scale", "dB"))
             i = self.map_box.findData(self.settings.value("map/colours",
@@ -261,6 +374,166 @@ class ScaleMapPane(PaneFrame):
         self.map_box.currentIndexChanged.connect(self._map_changed)
         self.edited_box.toggled.connect(lambda _: self._rebuild_rows())
         self.per_level_box.toggled.connect(lambda _: self._scale_changed())
+
+    # ---------------------------------------------------------- row headers
+
+    @property
+    def headers(self) -> dict:
+        return self.header_column.headers
+
+    def _make_header(self, key) -> RowHeader:
+        h = RowHeader(key)
+        h.gainChosen.connect(self._header_gain)
+        h.clicked.connect(self._header_clicked)
+        h.laneToggled.connect(self.laneToggled)
+        return h
+
+    def _place_headers(self, *_) -> None:
+        if not self.keys or not self.plot.isVisible():
+            self.header_column.place(0, 0)
+            return
+        r = self.view.sceneBoundingRect()
+        top = self.plot.mapFromScene(r.topLeft())
+        top = self.plot.mapTo(self, top)
+        top = self.header_column.mapFrom(self, top)
+        self.header_column.place(top.y(), r.height() / len(self.keys))
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        QTimer.singleShot(0, self._place_headers)
+
+    def showEvent(self, ev):
+        super().showEvent(ev)
+        QTimer.singleShot(0, self._place_headers)
+
+    def _read_table(self) -> None:
+        """The band figures of the channel, from the model's one band table.
+
+        The table reads every band once (at 10 M samples, seconds): it is made
+        in a background thread at low priority, after the first paint, and the
+        headers fill in when it comes.
+        """
+        m = self.adapter.model
+        if m is None:
+            return
+        tag = (id(m), self.channel)
+        if self._table_for == tag:
+            self._show_headers()
+            return
+        if self._table_job == tag:
+            return
+        self._table_job = tag
+        channel = self.channel
+
+        def work():
+            lower_this_thread()
+            try:
+                rows = m.band_table(channel)
+            except Exception:  # the model changed under it: the next model asks again
+                rows = None
+            self._tableReady.emit(tag, list(m.band_keys), rows)
+
+        threading.Thread(target=work, name="scalesieve-band-table", daemon=True).start()
+
+    def table_pending(self) -> bool:
+        """The band figures are still being made (or about to be)."""
+        return self._table_job is not None or self._table_timer.isActive()
+
+    def _table_ready(self, tag, keys, rows) -> None:
+        if tag != self._table_job:
+            return
+        self._table_job = None
+        m = self.adapter.model
+        if rows is None or m is None or tag != (id(m), self.channel):
+            if m is not None and tag != (id(m), self.channel):
+                self._read_table()
+            return
+        self._table = dict(zip(keys, rows))
+        self._table_for = tag
+        self._show_headers()
+        self.figuresKnown.emit(dict(self._table))
+
+    def band_figures(self, key) -> dict | None:
+        return self._table.get(key) if self._table_for == (id(self.adapter.model),
+                                                           self.channel) else None
+
+    def _show_headers(self) -> None:
+        m = self.adapter.model
+        if m is None:
+            return
+        scope = self.adapter.edit_channels(self.channel)
+        for key, h in self.headers.items():
+            lo, hi = m.band_range_hz(key)
+            row = self.band_figures(key)
+            h.show_band(m.band_name(key), lo, hi, row["energy_fraction"] if row else 0.0, row)
+            _, g = own_edit(m.edits, "gain", key, scope)
+            thr = [m.edits[i] for i in edits_on_band(m.edits, key, self.channel, m.spec)
+                   if m.edits[i].op == "threshold"]
+            h.show_gain(g.gain if g is not None and g.enabled else None,
+                        "; ".join(edit_text(e, m) for e in thr) or None)
+            h.set_selected(key in self.selected_rows)
+
+    def _header_gain(self, key, gain: float) -> None:
+        keys = self.selected_rows if key in self.selected_rows else [key]
+        scope = self.adapter.edit_channels(self.channel)
+        for k in keys:
+            set_band_gain(self.adapter, k, gain, scope)
+        self._show_headers()
+
+    def _header_clicked(self, key, modifiers) -> None:
+        ctrl = bool(modifiers & Qt.KeyboardModifier.ControlModifier)
+        shift = bool(modifiers & Qt.KeyboardModifier.ShiftModifier)
+        if shift and self._anchor in self.keys:
+            a, b = sorted((self.keys.index(self._anchor), self.keys.index(key)))
+            rows = self.keys[a:b + 1]
+        elif ctrl:
+            rows = [k for k in self.selected_rows if k != key]
+            if key not in self.selected_rows:
+                rows.append(key)
+            self._anchor = key
+        else:
+            rows = [] if self.selected_rows == [key] else [key]
+            self._anchor = key
+        self.select_rows(rows)
+
+    def select_rows(self, keys) -> None:
+        """Select rows (bands) for the edit buttons; [] clears."""
+        self.selected_rows = [k for k in self.keys if k in set(keys)]
+        for k, h in self.headers.items():
+            h.set_selected(k in self.selected_rows)
+        m = self.adapter.model
+        n = len(self.selected_rows)
+        if n == 0:
+            self.threshold_button.setText("Threshold selection")
+        elif m is not None:
+            names = ", ".join(m.band_name(k) for k in self.selected_rows)
+            self.threshold_button.setText(f"Threshold {names}" if n <= 2
+                                          else f"Threshold {n} rows")
+        self.rowsSelected.emit(list(self.selected_rows))
+
+    def _selection_edit(self):
+        """Index and edit of the threshold edit on exactly the selected rows, if any."""
+        if not self.selected_rows:
+            return -1, None
+        scope = self.adapter.edit_channels(self.channel)
+        return own_edit(self.adapter.edits, "threshold", tuple(self.selected_rows), scope,
+                        whole=True)
+
+    def _show_selected_threshold(self) -> None:
+        _, e = self._selection_edit()
+        self.form.show_edit(e)
+        self.form.setEnabled(bool(self.selected_rows))
+
+    def _threshold_chosen(self, values: dict) -> None:
+        if not self.selected_rows:
+            return
+        set_band_threshold(self.adapter, tuple(self.selected_rows), values,
+                           self.adapter.edit_channels(self.channel))
+
+    def threshold_all(self, rule: str, shape: str) -> None:
+        scope = self.adapter.edit_channels(self.channel)
+        self.adapter.add_edit(Edit("threshold", levels="details", rule=rule, shape=shape,
+                                   channels=scope))
 
     def _colour_map(self):
         name = palette()["default_colour_map"]
@@ -285,6 +558,7 @@ class ScaleMapPane(PaneFrame):
         self.channel = channel
         self.selected = -1
         self._on_model()
+        self._read_table()
 
     def _on_model(self) -> None:
         m = self.adapter.model
@@ -292,7 +566,12 @@ class ScaleMapPane(PaneFrame):
             return
         if self.channel >= m.recording.channels:
             self.channel = 0
-        self.keys = list(m.band_keys)                 # d1 .. dJ, a: finest on top
+        keys = list(m.band_keys)                     # d1 .. dJ, a: finest on top
+        if keys != self.keys:
+            self.selected_rows = []
+        self.keys = keys
+        self.empty_label.hide()
+        self.plot.show()
         self._times = {key: first_and_step(m, key) for key in self.keys}
         self._ref = {}
         pic = self.adapter.pictures(self.channel)
@@ -303,17 +582,20 @@ class ScaleMapPane(PaneFrame):
                 continue
             c = m.coefficients(self.channel, key)
             self._ref[key] = float(max(c.max(), -c.min())) if c.size else 0.0
-        ticks = []
-        for i, key in enumerate(self.keys):
-            lo, hi = m.band_range_hz(key)
-            ticks.append((i + 0.5, band_label(m.band_name(key), lo, hi)))
-        self.plot.getAxis("left").setTicks([ticks, []])
+        self.header_column.set_keys(self.keys, self._make_header)
         self.view.setLimits(yMin=0, yMax=len(self.keys))
         self.view.setYRange(0, len(self.keys), padding=0)
         self._row_view = None
         self._set_levels()
         self.redraw()
         self._draw_outlines()
+        self._show_headers()
+        self._place_headers()
+        QTimer.singleShot(0, self._place_headers)
+        # The band figures come after the first paint (they read every band once).
+        self._table_timer.start()
+        self.transform_line.show_spec(m.spec, m.recording.n)
+        self._show_region_gain()
 
     def _on_recipe(self, change) -> None:
         m = self.adapter.model
@@ -332,6 +614,8 @@ class ScaleMapPane(PaneFrame):
             QTimer.singleShot(0, self._draw_outlines)
         else:
             self._draw_outlines()
+        self._show_headers()
+        self._show_region_gain()
 
     def _schedule(self, *_):
         self._timer.start()
@@ -506,7 +790,50 @@ class ScaleMapPane(PaneFrame):
                 roi.set_selected(roi.index == index)
         finally:
             self._building_outlines = False
+        self._show_region_gain()
         self.regionSelected.emit(index)
+
+    def _show_region_gain(self) -> None:
+        """The gain field shows the selected region's gain (hidden when none is selected)."""
+        m = self.adapter.model
+        on = (m is not None and 0 <= self.selected < len(m.edits)
+              and m.edits[self.selected].op == "region")
+        self.region_gain.setVisible(on)
+        self.region_gain_label.setVisible(on)
+        if on:
+            g = m.edits[self.selected].gain
+            self.region_gain.blockSignals(True)
+            self.region_gain.setValue(GAIN_MIN_DB if g <= 0 else gain_to_db(g))
+            self.region_gain.blockSignals(False)
+
+    def _region_gain_changed(self, db: float) -> None:
+        m = self.adapter.model
+        if m is None or not (0 <= self.selected < len(m.edits)):
+            return
+        e = m.edits[self.selected]
+        if e.op != "region":
+            return
+        self._region_db = db
+        g = 0.0 if db <= GAIN_MIN_DB else db_to_gain(db)
+        if g != e.gain:
+            self.adapter.replace_edit(self.selected, replace(e, gain=g))
+
+    def snap_to_tiles(self, keys, t0: float, t1: float) -> tuple[float, float]:
+        """[t0, t1] widened to whole coefficient tiles of the coarsest band in ``keys``.
+
+        A coefficient's tile is its time position ± half the spacing of its band;
+        the finer bands' tiles nest inside the coarsest one's.
+        """
+        m = self.adapter.model
+        first, step = max((self._times[k] for k in keys), key=lambda fs: fs[1])
+        count = max(1, m.coefficients(self.channel, max(keys, key=lambda k: self._times[k][1]))
+                    .shape[0])
+        k0 = int(np.clip(math.floor((t0 - first) / step + 0.5), 0, count - 1))
+        k1 = int(np.clip(math.ceil((t1 - first) / step - 0.5), k0, count - 1))
+        start = first + (k0 - 0.5) * step
+        stop = first + (k1 + 0.5) * step
+        dur = m.recording.duration_s
+        return max(0.0, start), min(dur, stop) if stop > 0 else dur
 
     def _outline_clicked(self, roi, ev) -> None:
         ev.accept()
@@ -534,7 +861,13 @@ class ScaleMapPane(PaneFrame):
             new_keys = self.keys[r0:r1]
             if new_keys != [self.keys[r] for r in range(runs[0][0], runs[0][0] + runs[0][1])]:
                 levels = tuple(new_keys)
-        new = replace(e, start_s=round(start, 6), stop_s=round(stop, 6), levels=levels)
+        try:
+            keys = [k for k in replace(e, levels=levels).band_keys(m.level) if k in self._times]
+        except ValueError:
+            keys = []
+        if keys:
+            start, stop = self.snap_to_tiles(keys, start, stop)
+        new = replace(e, start_s=round(start, 9), stop_s=round(stop, 9), levels=levels)
         if new != e:
             # The outlines are redrawn from the recipe once the change is in, after this
             # handler: the outline being dragged must not be deleted under its own event.
@@ -550,10 +883,11 @@ class ScaleMapPane(PaneFrame):
             return
         e = m.edits[index]
         menu = QMenu(self)
-        mute = QAction("Mute (gain 0)", menu)
+        mute = QAction("Mute (−∞ dB)", menu)
         mute.triggered.connect(lambda: self.adapter.replace_edit(index, replace(e, gain=0.0)))
         gain = QAction("Set gain in dB…", menu)
-        gain.triggered.connect(lambda: self._ask_gain(index))
+        gain.triggered.connect(lambda: (self.select_edit(index), self.region_gain.setFocus(),
+                                        self.region_gain.selectAll()))
         toggle = QAction("Disable" if e.enabled else "Enable", menu)
         toggle.triggered.connect(
             lambda: self.adapter.replace_edit(index, replace(e, enabled=not e.enabled)))
@@ -562,17 +896,6 @@ class ScaleMapPane(PaneFrame):
         for a in (mute, gain, toggle, remove):
             menu.addAction(a)
         menu.popup(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
-
-    def _ask_gain(self, index: int) -> None:
-        m = self.adapter.model
-        e = m.edits[index]
-        now = gain_to_db(e.gain)
-        db, ok = QInputDialog.getDouble(self, "Region gain", "Gain in dB (−120 mutes):",
-                                        -120.0 if not math.isfinite(now) else now,
-                                        -120.0, 60.0, 1)
-        if ok:
-            g = 0.0 if db <= -120.0 else db_to_gain(db)
-            self.adapter.replace_edit(index, replace(e, gain=g))
 
     def remove_selected(self) -> None:
         if self.selected >= 0:
@@ -601,12 +924,18 @@ class ScaleMapPane(PaneFrame):
         if t1 <= t0:
             return
         levels = tuple(self.keys[r0:r1 + 1])
-        gain = float(self.drag_box.currentData())
-        edit = Edit("region", levels=levels, start_s=round(t0, 6), stop_s=round(t1, 6),
+        t0, t1 = self.snap_to_tiles(levels, t0, t1)
+        db = self._region_db
+        gain = 0.0 if db <= GAIN_MIN_DB else db_to_gain(db)
+        edit = Edit("region", levels=levels, start_s=round(t0, 9), stop_s=round(t1, 9),
                     gain=gain, channels=self.adapter.edit_channels(self.channel))
         if self.adapter.add_edit(edit):
             self.select_edit(len(self.adapter.edits) - 1)
-        self.setFocus()
+            # the region's one gain field, ready for a value
+            self.region_gain.setFocus()
+            self.region_gain.selectAll()
+        else:
+            self.setFocus()
 
     def _clicked(self, t: float, y: float, button) -> None:
         self.setFocus()
@@ -638,6 +967,5 @@ class ScaleMapPane(PaneFrame):
         k = int(np.clip(round((t - first) / step), 0, c.shape[0] - 1))
         e = float(m.edited_coefficients(self.channel, key, k, k + 1)[0])
         lo, hi = m.band_range_hz(key)
-        return (f"t {format_seconds(round(t, 6))} s\n"
-                f"{m.band_name(key)}  {hz_range(lo, hi)}\n"
-                f"c {_signed(c[k])}  → {_signed(e)}")
+        return (f"t {format_seconds(round(t, 6))} s  ·  {hz_range(lo, hi)} "
+                f"({m.band_name(key)})  ·  c {_signed(c[k])} → {_signed(e)}")

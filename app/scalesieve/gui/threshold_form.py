@@ -2,17 +2,32 @@
 
 from __future__ import annotations
 
-from PySide6.QtCore import Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QComboBox, QDoubleSpinBox, QFormLayout, QWidget
 
 from scalesieve.core.thresholds import NOISE, RULES, SHAPES
 
 #: what the rule names mean on screen
-RULE_LABELS = {"off": "off", "universal": "universal (VisuShrink)", "sure": "SURE",
-               "bayes": "BayesShrink", "minimax": "minimax", "manual": "manual value"}
-SHORT_RULE = {"universal": "univ", "sure": "SURE", "bayes": "Bayes", "minimax": "minimax",
-              "manual": "manual"}
-NOISE_LABELS = {"finest": "from level 1", "level": "from each level"}
+RULE_LABELS = {"off": "off", "universal": "VisuShrink (universal)", "sure": "SureShrink",
+               "bayes": "BayesShrink", "minimax": "minimax (Donoho–Johnstone)",
+               "manual": "manual λ"}
+#: the paper behind each rule (tooltips)
+RULE_TIPS = {
+    "universal": "λ = σ√(2 ln n). Donoho & Johnstone 1994, \"Ideal spatial adaptation by "
+                 "wavelet shrinkage\", Biometrika 81:425",
+    "sure": "per band, the λ minimising Stein's unbiased risk estimate. Donoho & Johnstone "
+            "1995, \"Adapting to unknown smoothness via wavelet shrinkage\", JASA 90:1200",
+    "bayes": "λ = σ² / σ_x per band. Chang, Yu & Vetterli 2000, \"Adaptive wavelet "
+             "thresholding for image denoising and compression\", IEEE TIP 9:1532",
+    "minimax": "the minimax λ(n) for n coefficients. Donoho & Johnstone 1994, Biometrika 81:425",
+    "manual": "λ in signal units, as given",
+    "off": "no threshold on these bands",
+}
+NOISE_LABELS = {"finest": "σ from the finest band (white noise)",
+                "level": "σ per band (coloured noise)"}
+NOISE_TIPS = {"finest": "σ = median|d1|/0.6745 (Donoho & Johnstone 1994), carried to every band",
+              "level": "each band's own σ = median|d|/0.6745 (Johnstone & Silverman 1997, "
+                       "JRSS-B 59:319)"}
 
 
 class ThresholdForm(QWidget):
@@ -27,6 +42,8 @@ class ThresholdForm(QWidget):
         self.rule = QComboBox()
         for r in ("off",) + tuple(RULES):
             self.rule.addItem(RULE_LABELS.get(r, r), r)
+            self.rule.setItemData(self.rule.count() - 1, RULE_TIPS.get(r, ""),
+                                  Qt.ItemDataRole.ToolTipRole)
         self.shape = QComboBox()
         for s in SHAPES:
             self.shape.addItem(s, s)
@@ -34,6 +51,8 @@ class ThresholdForm(QWidget):
         self.noise = QComboBox()
         for n in NOISE:
             self.noise.addItem(NOISE_LABELS.get(n, n), n)
+            self.noise.setItemData(self.noise.count() - 1, NOISE_TIPS.get(n, ""),
+                                   Qt.ItemDataRole.ToolTipRole)
         self.scale = QDoubleSpinBox()
         self.scale.setRange(0.0, 100.0)
         self.scale.setDecimals(2)
@@ -47,11 +66,15 @@ class ThresholdForm(QWidget):
         self.value.setKeyboardTracking(False)
         form.addRow("rule", self.rule)
         form.addRow("shape", self.shape)
-        form.addRow("noise σ", self.noise)
+        form.addRow("noise", self.noise)
         form.addRow("scale", self.scale)
         form.addRow("value", self.value)
-        self.rule.setToolTip("how the threshold λ is chosen; off removes this band's threshold")
-        self.noise.setToolTip("σ = median|d|/0.6745 of level 1, or of each level itself")
+        self.rule.setToolTip("how the threshold λ is chosen (hover a rule for its paper); "
+                             "off removes the threshold")
+        self.rule.currentIndexChanged.connect(
+            lambda _: self.rule.setToolTip(RULE_TIPS.get(self.rule.currentData(), "")))
+        self.noise.setToolTip("white noise: one σ from the finest band; coloured noise: "
+                              "each band's own σ (median|d|/0.6745)")
         self.scale.setToolTip("multiplies the threshold")
         self.value.setToolTip("the threshold in signal units, for the manual rule")
         self._quiet = False
@@ -94,12 +117,3 @@ class ThresholdForm(QWidget):
             self._enable()
         finally:
             self._quiet = False
-
-
-def short_text(edit) -> str:
-    """A button caption for a threshold edit (or 'threshold' when there is none)."""
-    if edit is None:
-        return "threshold…"
-    rule = SHORT_RULE.get(edit.rule, edit.rule)
-    sc = f" ×{edit.scale:g}" if edit.scale != 1.0 else ""
-    return f"{rule} {edit.shape}{sc}"

@@ -1,0 +1,245 @@
+"""Row headers of the Scale map: each band's controls at the left edge of its row.
+
+A header shows the band's Hz range (its name small beside it), a bar of its
+energy share, its gain in dB (the lowest step is −∞: mute), a mark when a
+threshold acts on it and a button that opens its trace in a lane below the
+map.  Clicking a header selects the row (Ctrl adds, Shift extends): the
+selected rows are the bands the map's edit buttons act on.  Figures come
+from ``model.band_table(channel)`` only.
+"""
+
+from __future__ import annotations
+
+from PySide6.QtCore import QRectF, Qt, Signal
+from PySide6.QtGui import QColor, QPainter
+from PySide6.QtWidgets import (QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
+                               QWidget)
+
+from scalesieve.gui.band_labels import db_to_gain, gain_to_db, hz_range
+
+#: the gain field's range in dB; its lowest value reads −∞ and mutes the band
+GAIN_MIN_DB, GAIN_MAX_DB = -60.5, 24.0
+MUTE_TEXT = "−∞ dB"
+
+
+def percent_text(share: float) -> str:
+    """An energy share for a narrow label: ``24%``, ``0.46%``, ``<0.01%``."""
+    p = 100.0 * share
+    if p == 0:
+        return "0%"
+    if p < 0.01:
+        return "<0.01%"
+    return f"{p:.2g}%" if p < 10 else f"{p:.0f}%"
+
+
+class ShareBar(QWidget):
+    """A horizontal bar of a band's energy share with the share written on it."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.share = 0.0
+        self.setFixedWidth(54)
+        self.setMinimumHeight(12)
+        self.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Preferred)
+
+    def set_share(self, share: float) -> None:
+        share = min(max(float(share), 0.0), 1.0)
+        if share != self.share:
+            self.share = share
+            self.update()
+        self.setToolTip(f"{100 * share:.4g} % of the channel's energy")
+
+    def text(self) -> str:
+        return percent_text(self.share)
+
+    def paintEvent(self, ev):
+        p = QPainter(self)
+        h = min(self.height() - 2, 14)
+        top = (self.height() - h) / 2
+        p.fillRect(QRectF(0, top, self.width(), h), QColor("#e4e4de"))
+        p.fillRect(QRectF(0, top, self.width() * self.share, h), QColor("#5b8c7a"))
+        p.setPen(QColor("#1d2024"))
+        f = p.font()
+        f.setPointSize(7)
+        p.setFont(f)
+        p.drawText(QRectF(3, top, self.width() - 4, h),
+                   Qt.AlignmentFlag.AlignVCenter | Qt.AlignmentFlag.AlignLeft, self.text())
+        p.end()
+
+
+class RowHeader(QWidget):
+    """Controls of one band (one row of the Scale map)."""
+
+    gainChosen = Signal(object, float)      # key, linear gain (0 mutes)
+    clicked = Signal(object, object)        # key, keyboard modifiers
+    laneToggled = Signal(object, bool)      # key, open
+
+    def __init__(self, key, parent=None):
+        super().__init__(parent)
+        self.key = key
+        self.setObjectName("rowHeader")
+        self.setAttribute(Qt.WidgetAttribute.WA_StyledBackground, True)
+        lay = QHBoxLayout(self)
+        lay.setContentsMargins(6, 0, 4, 0)
+        lay.setSpacing(4)
+        self.hz = QLabel("")
+        self.hz.setObjectName("bandHz")
+        self.hz.setFixedWidth(110)
+        self.name = QLabel("")
+        self.name.setObjectName("bandInfo")
+        self.name.setFixedWidth(26)
+        self.share = ShareBar()
+        self.gain = QDoubleSpinBox()
+        self.gain.setRange(GAIN_MIN_DB, GAIN_MAX_DB)
+        self.gain.setDecimals(1)
+        self.gain.setSingleStep(1.0)
+        self.gain.setSuffix(" dB")
+        self.gain.setSpecialValueText(MUTE_TEXT)
+        self.gain.setKeyboardTracking(False)
+        self.gain.setFixedWidth(74)
+        self.gain.setToolTip("gain of this band in dB; the lowest step, −∞, mutes it. "
+                             "With several rows selected, all of them get it")
+        self.mute = QToolButton()
+        self.mute.setObjectName("muteToggle")
+        self.mute.setCheckable(True)
+        self.mute.setText("mute")
+        self.mute.setToolTip("mute this band (gain −∞); click again to bring it back")
+        self.mark = QLabel("")
+        self.mark.setObjectName("thresholdMark")
+        self.mark.setFixedWidth(14)
+        self.mark.setAlignment(Qt.AlignmentFlag.AlignCenter)
+        self.lane = QToolButton()
+        self.lane.setObjectName("laneToggle")
+        self.lane.setCheckable(True)
+        self.lane.setText("trace")
+        self.lane.setToolTip("show this band's trace (and what was removed from it) in a lane "
+                             "below the map")
+        for w in (self.hz, self.name):
+            lay.addWidget(w)
+        lay.addWidget(self.share)
+        lay.addStretch(1)
+        lay.addWidget(self.mark)
+        lay.addWidget(self.gain)
+        lay.addWidget(self.mute)
+        lay.addWidget(self.lane)
+        self._quiet = False
+        self.selected = False
+        self.gain.valueChanged.connect(self._gain_changed)
+        self.mute.toggled.connect(self._mute_toggled)
+        self.lane.toggled.connect(lambda on: self.laneToggled.emit(self.key, on))
+
+    # ------------------------------------------------------------- showing
+
+    def show_band(self, name: str, lo: float, hi: float, share: float,
+                  figures: dict | None = None) -> None:
+        """Name, Hz range and share; ``figures`` (a ``band_table`` row) for the tooltip."""
+        self.hz.setText(hz_range(lo, hi))
+        self.name.setText(name)
+        self.share.set_share(share)
+        tip = f"{name}: {hz_range(lo, hi)}"
+        if figures is not None:
+            kurt = figures.get("kurtosis")
+            tip += (f"\n{figures['count']} coefficients · {percent_text(share)} of the energy"
+                    f"\nkurtosis {'–' if kurt is None else f'{kurt:.3g}'}"
+                    " (3 for Gaussian noise; large for impulsive bands)")
+        for w in (self.hz, self.name, self.share):
+            w.setToolTip(tip)
+
+    def show_gain(self, gain: float | None, threshold_text: str | None) -> None:
+        """The band's own gain (None: 1) and a threshold mark, without emitting."""
+        self._quiet = True
+        try:
+            g = 1.0 if gain is None else float(gain)
+            muted = g == 0.0
+            self.mute.setChecked(muted)
+            self.gain.setValue(GAIN_MIN_DB if muted else max(GAIN_MIN_DB + 0.1, gain_to_db(g)))
+        finally:
+            self._quiet = False
+        self.mark.setText("λ" if threshold_text else "")
+        self.mark.setToolTip(threshold_text or "")
+        self._set_property("muted", muted)
+
+    def set_selected(self, on: bool) -> None:
+        self.selected = on
+        self._set_property("selected", on)
+
+    def set_lane_open(self, on: bool) -> None:
+        self.lane.blockSignals(True)
+        self.lane.setChecked(on)
+        self.lane.blockSignals(False)
+
+    def _set_property(self, name: str, value: bool) -> None:
+        if self.property(name) != value:
+            # The style sheet reads the property when the widget is polished.
+            self.setProperty(name, value)
+            self.style().unpolish(self)
+            self.style().polish(self)
+
+    def gain_value(self) -> float:
+        """The linear gain the field shows (0 at −∞)."""
+        db = self.gain.value()
+        return 0.0 if db <= GAIN_MIN_DB else db_to_gain(db)
+
+    # -------------------------------------------------------------- editing
+
+    def _gain_changed(self, db: float) -> None:
+        if self._quiet:
+            return
+        self.gainChosen.emit(self.key, self.gain_value())
+
+    def _mute_toggled(self, on: bool) -> None:
+        if self._quiet:
+            return
+        if on:
+            self.gainChosen.emit(self.key, 0.0)
+        else:
+            db = self.gain.value()
+            self.gainChosen.emit(self.key, 1.0 if db <= GAIN_MIN_DB else db_to_gain(db))
+
+    def mousePressEvent(self, ev):
+        if ev.button() == Qt.MouseButton.LeftButton:
+            self.clicked.emit(self.key, ev.modifiers())
+            ev.accept()
+            return
+        super().mousePressEvent(ev)
+
+
+class RowHeaderColumn(QWidget):
+    """The headers of every row, placed to line up with the map's rows."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.headers: dict = {}
+        self.order: list = []
+        self.empty = QLabel("Open a recording (File ▸ Open, or drop a file here): its bands "
+                            "appear as rows, finest on top.", self)
+        self.empty.setObjectName("hint")
+        self.empty.setWordWrap(True)
+
+    def set_keys(self, keys, make) -> None:
+        keys = list(keys)
+        if keys == self.order:
+            return
+        for h in self.headers.values():
+            h.setParent(None)
+            h.deleteLater()
+        self.headers = {}
+        self.order = keys
+        for key in keys:
+            h = make(key)
+            h.setParent(self)
+            h.show()
+            self.headers[key] = h
+        self.empty.setVisible(not keys)
+
+    def place(self, top: float, row_height: float) -> None:
+        """Put header i at ``top + i * row_height`` (widget coordinates)."""
+        for i, key in enumerate(self.order):
+            y0 = int(round(top + i * row_height))
+            y1 = int(round(top + (i + 1) * row_height))
+            self.headers[key].setGeometry(0, y0, self.width(), max(1, y1 - y0))
+        self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
