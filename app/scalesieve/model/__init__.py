@@ -10,46 +10,8 @@ of edits to plans), ``engine`` (apply, recompute, local synthesis, settle),
 ``deferred`` (owed gain passes) and ``figures`` (band table, metrics,
 transients).
 
-How edits stay cheap (the inverse transform is linear):
-
-* the cleaned signal is kept as ``original - inverse(c - e)`` where ``c``
-  are the original coefficients and ``e`` the edited ones, so an empty
-  recipe gives the input back exactly (it *is* the input until the first
-  edit) and untouched spans stay untouched;
-* no edited copy of a band is kept: a band's state is its chain of edits,
-  and ``e`` is worked out from ``c`` where it is needed, block by block
-  (thresholds that look at the whole band are worked out once and kept);
-* an edit changes the chains of some bands only; each changed band adds the
-  inverse of its own change to the cleaned signal;
-* a gain change multiplies what the rest of a band's chain makes, so the
-  cleaned signal moves by a multiple of that part's time-domain component,
-  which is cached (bands moved by the same factor share one component):
-  one pass over the signal;
-* a region edit changes a window of coefficients; its effect is confined to
-  their support and computed by local synthesis, so its cost follows the
-  window, not the recording;
-* a change that would need two or more syntheses (a threshold over all
-  details) is one inverse transform, its finest level written in blocks
-  straight into the cleaned signal.
-
-``settle()`` recomputes everything from scratch in one inverse transform, so
-exports give bit-identical numbers to a fresh model (the command line).
-
-A window may ask for full passes to be *deferred* (``defer_from``): on a
-long recording a gain change then only records what it adds to the cleaned
-signal (a factor times a cached component), and ``flush_step`` applies it
-piece by piece while the window stays free to draw.  Meanwhile
-``cleaned_view`` and ``cleaned_at`` give exact samples of any span or
-positions, and every other reader (``cleaned``, ``removed``, ``metrics``,
-exports) first applies whatever is still owed: the numbers never depend on
-how far the passes have got.
-
-Memory, for a DWT of one channel of n samples of b bytes: the recording's
-own column (not copied), the coefficients (about n b), the cleaned signal
-(n b, from the first edit on), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
-when two would pass ``COMPONENT_BYTES``) and, during an edit, about n b of
-temporaries.  The working precision is the recording's: float32 samples
-give float32 coefficients and half the memory (see docs/performance.md).
+How edits stay cheap, what is deferred and what memory it takes: see
+``engine``.
 """
 
 from __future__ import annotations
@@ -60,11 +22,11 @@ import numpy as np
 
 from scalesieve.core import transforms as tf
 from scalesieve.core.recording import Recording
-from scalesieve.errors import ScalesieveError
+from scalesieve.errors import ScalesieveError  # noqa: F401  (re-exported)
 from scalesieve.model import deferred as _deferred
 from scalesieve.model import figures as _figures
 from scalesieve.model.changes import Change, Listeners
-from scalesieve.model.channel import Channel
+from scalesieve.model.channel import Channel, decompose, resolve
 from scalesieve.model.engine import (COMPONENT_BYTES, COMPONENT_CACHE, LOCAL_SHARE,
                                      THRESHOLDS_KEPT, Engine)
 from scalesieve.model.history import EditHistory
@@ -118,20 +80,7 @@ class DecompositionModel:
     # ------------------------------------------------------------------ setup
 
     def _resolve(self, spec: tf.TransformSpec) -> tf.TransformSpec:
-        try:
-            spec = spec.resolved(self.recording.n)
-            if spec.kind == "packet" and spec.basis == "best":
-                # one tiling for every channel: the costs of the channels add up
-                from dataclasses import replace
-
-                from scalesieve.core import packets as wp
-
-                cols = [self.recording.samples[:, k] for k in range(self.recording.channels)]
-                spec = replace(spec, basis=wp.best_basis(cols, spec.wavelet, spec.mode,
-                                                         spec.level, spec.cost))
-            return spec
-        except ValueError as exc:
-            raise ScalesieveError(str(exc), self.recording.source or None) from None
+        return resolve(self.recording, spec)
 
     def _report(self, fraction: float, text: str) -> None:
         if self._progress:
@@ -145,14 +94,7 @@ class DecompositionModel:
 
     def _build(self, spec: tf.TransformSpec, lo: float = 0.0, hi: float = 1.0) -> None:
         """Decompose every channel; the model changes only once all are done."""
-        total = self.recording.channels
-        chans = []
-        for k in range(total):
-            a = lo + (hi - lo) * k / total
-            b = lo + (hi - lo) * (k + 1) / total
-            self._report(a, f"decomposing channel {k + 1} of {total}")
-            chans.append(Channel(self.recording.samples[:, k], spec, self.dtype,
-                                 self._stage(a, b, f"decomposing channel {k + 1} of {total}")))
+        chans = decompose(self.recording, spec, self.dtype, self._progress, lo, hi)
         self.spec = spec
         self._engine = Engine(spec, self.recording.n, self.recording.rate, self.dtype)
         self._ch: list[Channel] = chans

@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from scalesieve.core import transforms as tf
+from scalesieve.core.recording import Recording
+from scalesieve.errors import ScalesieveError
 
 
 class Channel:
@@ -38,3 +42,36 @@ class Channel:
 
     def band(self, key, level):
         return self.coeffs[tf.band_index(key, level)]
+
+
+def resolve(recording: Recording, spec: tf.TransformSpec) -> tf.TransformSpec:
+    """``spec`` with every default worked out for ``recording`` (level, best basis)."""
+    try:
+        spec = spec.resolved(recording.n)
+        if spec.kind == "packet" and spec.basis == "best":
+            # one tiling for every channel: the costs of the channels add up
+            from scalesieve.core import packets as wp
+
+            cols = [recording.samples[:, k] for k in range(recording.channels)]
+            spec = replace(spec, basis=wp.best_basis(cols, spec.wavelet, spec.mode,
+                                                     spec.level, spec.cost))
+        return spec
+    except ValueError as exc:
+        raise ScalesieveError(str(exc), recording.source or None) from None
+
+
+def decompose(recording: Recording, spec: tf.TransformSpec, dtype, progress=None,
+              lo: float = 0.0, hi: float = 1.0) -> list[Channel]:
+    """Every channel of ``recording`` decomposed; ``progress(fraction, text)`` in lo .. hi."""
+    total = recording.channels
+    chans = []
+    for k in range(total):
+        a = lo + (hi - lo) * k / total
+        b = lo + (hi - lo) * (k + 1) / total
+        text = f"decomposing channel {k + 1} of {total}"
+        part = None
+        if progress:
+            progress(a, text)
+            part = (lambda f, a=a, b=b, text=text: progress(a + (b - a) * f, text))
+        chans.append(Channel(recording.samples[:, k], spec, dtype, part))
+    return chans

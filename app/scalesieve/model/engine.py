@@ -5,7 +5,47 @@ original coefficients, ``e`` the edited ones).  The inverse transform is
 linear, so a changed band adds the inverse of its own change: a gain change a
 multiple of a cached time component, a region edit the local synthesis of its
 coefficient window, anything else one inverse transform (``recompute``).
-See the package docstring for the whole story.
+
+How edits stay cheap (the inverse transform is linear):
+
+* the cleaned signal is kept as ``original - inverse(c - e)`` where ``c``
+  are the original coefficients and ``e`` the edited ones, so an empty
+  recipe gives the input back exactly (it *is* the input until the first
+  edit) and untouched spans stay untouched;
+* no edited copy of a band is kept: a band's state is its chain of edits,
+  and ``e`` is worked out from ``c`` where it is needed, block by block
+  (thresholds that look at the whole band are worked out once and kept);
+* an edit changes the chains of some bands only; each changed band adds the
+  inverse of its own change to the cleaned signal;
+* a gain change multiplies what the rest of a band's chain makes, so the
+  cleaned signal moves by a multiple of that part's time-domain component,
+  which is cached (bands moved by the same factor share one component):
+  one pass over the signal;
+* a region edit changes a window of coefficients; its effect is confined to
+  their support and computed by local synthesis, so its cost follows the
+  window, not the recording;
+* a change that would need two or more syntheses (a threshold over all
+  details) is one inverse transform, its finest level written in blocks
+  straight into the cleaned signal.
+
+``settle()`` recomputes everything from scratch in one inverse transform, so
+exports give bit-identical numbers to a fresh model (the command line).
+
+A window may ask for full passes to be *deferred* (``defer_from``): on a
+long recording a gain change then only records what it adds to the cleaned
+signal (a factor times a cached component), and ``flush_step`` applies it
+piece by piece while the window stays free to draw.  Meanwhile
+``cleaned_view`` and ``cleaned_at`` give exact samples of any span or
+positions, and every other reader (``cleaned``, ``removed``, ``metrics``,
+exports) first applies whatever is still owed: the numbers never depend on
+how far the passes have got.
+
+Memory, for a DWT of one channel of n samples of b bytes: the recording's
+own column (not copied), the coefficients (about n b), the cleaned signal
+(n b, from the first edit on), at most ``COMPONENT_CACHE`` cached components (n b each, and only one
+when two would pass ``COMPONENT_BYTES``) and, during an edit, about n b of
+temporaries.  The working precision is the recording's: float32 samples
+give float32 coefficients and half the memory (see docs/performance.md).
 """
 
 from __future__ import annotations
