@@ -126,7 +126,11 @@ def export(model: DecompositionModel, path: str | os.PathLike, what: str = "clea
     p = os.fspath(path)
     check_target(p, force, list(protect) + ([rec.source] if rec.source else []))
     model.settle()
-    data = model.cleaned() if what == "cleaned" else model.removed()
+    if rec.channels == 1:
+        # one channel: its own array as a column, not a copy (the writer only reads)
+        data = (model.cleaned(0) if what == "cleaned" else model.removed(0))[:, None]
+    else:
+        data = model.cleaned() if what == "cleaned" else model.removed()
     return write_signal(p, data, rec.rate, rec.channel_names, like=rec, subtype=subtype,
                         force=force)
 

@@ -128,16 +128,15 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
     else:
         reports = [api.export(model, output, "cleaned", subtype=subtype, force=force,
                               protect=[input_path])]
-    # Pooled over channels, without the full per-band metrics (one pass).
-    import numpy as np
+    # Pooled over channels: only the two energies the summary needs, in blocked
+    # passes over each channel (no full-length temporaries).
+    from scalesieve.core.band_figures import signal_energy
+    from scalesieve.core.metrics import removed_energy as energy_of_difference
 
     x = rec.samples
-    if rec.channels > 1:
-        removed_energy = float(np.sum((x - model.cleaned()) ** 2))
-    else:
-        r = model.removed(0)
-        removed_energy = float(np.dot(r, r))
-    total = float(np.sum(x * x))
+    removed_energy = sum(energy_of_difference(x[:, k], model.cleaned(k))
+                         for k in range(rec.channels))
+    total = sum(signal_energy(x[:, k]) for k in range(rec.channels))
     return {
         "samples": rec.n,
         "channels": rec.channels,

@@ -259,59 +259,10 @@ def prepare(bands: Mapping[int, np.ndarray], spec: tf.TransformSpec, n: int) -> 
         inside = c[i0:i1]
         out.append(LevelBand(level=int(j), coeffs=inside, index0=i0, step=step,
                              centre0=centre0, reach=reach,
-                             sigma=_mad_sigma(inside)))
+                             sigma=th.mad_sigma(np.asarray(inside, dtype=np.float64))))
     return out
 
 
-def _mad_sigma(c: np.ndarray) -> float:
-    """``thresholds.mad_sigma`` (median |c| over non-zero c, / 0.6745), exactly, faster.
-
-    The median of a long level is the slowest step of detection, so it is
-    found in two stages: the median of a strided sample brackets it; one
-    pass, block by block in cache, counts the non-zero values below the
-    bracket and gathers those inside it; only those few are partitioned.
-    When the bracket misses (only if the sample is very unlike the rest) the
-    full partition runs.  Either way the result equals ``numpy.median``'s.
-    """
-    c = np.asarray(c, dtype=np.float64)
-    if c.size >= _BRACKET_MIN:
-        sample = np.abs(c[:: c.size // _BRACKET_SAMPLE])
-        sample = np.sort(sample[sample != 0])
-        m = sample.size
-        if m >= 16:
-            half = int(math.ceil(_BRACKET_SE * 0.5 * math.sqrt(m)))   # 5 SE of the quantile
-            lo = sample[max(0, m // 2 - half)]
-            hi = sample[min(m - 1, m // 2 + half)]
-            nonzero = below = 0
-            inside = []
-            buf = np.empty(_BLOCK)
-            for i in range(0, c.size, _BLOCK):
-                a = np.abs(c[i:i + _BLOCK], out=buf[: min(_BLOCK, c.size - i)])
-                nz = int(np.count_nonzero(a))
-                nonzero += nz
-                below += int(np.count_nonzero(a < lo)) - (a.size - nz)   # zeros are below lo
-                inside.append(a[(a >= lo) & (a <= hi)])
-            k0, k1 = (nonzero - 1) // 2, nonzero // 2
-            inside_all = np.concatenate(inside)
-            if nonzero and below <= k0 and k1 < below + inside_all.size:
-                part = np.partition(inside_all, (k0 - below, k1 - below))
-                return float(np.mean(part[[k0 - below, k1 - below]]) / th.MAD_TO_SIGMA)
-    a = np.abs(c)
-    if np.count_nonzero(a) < a.size:
-        a = a[a != 0]
-    if a.size == 0:
-        return 0.0
-    k0, k1 = (a.size - 1) // 2, a.size // 2          # the middle one, or the middle two
-    mid = np.partition(a, (k0, k1))[[k0, k1]]
-    return float(np.mean(mid) / th.MAD_TO_SIGMA)
-
-
-#: below this many values the plain partition is quick enough
-_BRACKET_MIN = 1 << 16
-#: size of the strided sample that brackets the median
-_BRACKET_SAMPLE = 1 << 14
-#: half-width of the bracket in standard errors of the sample median
-_BRACKET_SE = 5.0
 #: samples per block in the passes over a whole level (fits a core's cache)
 _BLOCK = 1 << 16
 
