@@ -33,8 +33,14 @@ def test_every_output_matches_the_reference(now):
     with open(os.path.join(HERE, "manifest.json")) as fh:
         before = json.load(fh)["results"]
     assert set(now) == set(before)
+    # Packet band figures changed their way of computation on purpose after the
+    # reference was made (energy and peak from the node's coefficients, no band
+    # signal): equal to round-off only, checked against PyWavelets' reconstructed
+    # bands in tests/core/test_packets.py.  Every other output stays bit for bit.
+    changed_on_purpose = {(case, "bands") for case in before if case.endswith("/packet_minimax")}
     differ = [f"{case}: {what}" for case in sorted(before) for what in sorted(before[case])
-              if now[case].get(what) != before[case][what]]
+              if (case, what) not in changed_on_purpose
+              and now[case].get(what) != before[case][what]]
     assert not differ, "outputs changed:\n" + "\n".join(differ)
 
 

@@ -135,3 +135,66 @@ def test_band_envelope_of_a_packet_band_is_close_to_scipy_hilbert():
         ref = np.abs(signal.hilbert(c))[::c.shape[0] // env.shape[0]]
         assert share <= en.MAX_LEFT_OUT
         assert np.sqrt(np.mean((env - ref) ** 2)) <= 3 * np.sqrt(share) * np.sqrt(np.mean(ref ** 2)) + 1e-12
+
+
+def test_node_envelope_is_scipy_hilbert_of_the_node_coefficients():
+    # reference: scipy.signal.hilbert of PyWavelets' node data, scaled by the
+    # orthonormal filters' gain 2^(-J/2)
+    x = np.random.default_rng(8).standard_normal(1 << 14)
+    for path in ("d", "add", "dada"):
+        c = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=len(path))[path].data
+        rep = en.node_envelope_spectrum(c, len(path), 8000.0)
+        env = np.abs(signal.hilbert(c)) * 2.0 ** (-len(path) / 2)
+        freqs, amp = en.spectrum(env, 8000.0 / 2 ** len(path))
+        np.testing.assert_allclose(rep["amplitude"], amp, atol=1e-12)
+        assert rep["resolution_hz"] == pytest.approx(8000.0 / 2 ** len(path) / c.shape[0])
+
+
+def test_node_envelope_and_component_envelope_find_the_same_modulation():
+    # an invented AM tone inside w3.5 (2500-3000 Hz at 8 kHz): the modulation
+    # rate is the largest envelope peak both ways, and the component's envelope
+    # amplitude (SciPy's Hilbert transform) is matched within a few per cent
+    rate, n = 8000.0, 1 << 16
+    t = np.arange(n) / rate
+    x = (1 + 0.5 * np.cos(2 * np.pi * 31.25 * t)) * np.sin(2 * np.pi * 2750.0 * t)
+    fast = en.report(x, rate, "w3.5", "db8", "symmetric", 3)
+    slow = en.report(x, rate, "w3.5", "db8", "symmetric", 3, exact=True)
+    assert fast["envelope"] == "node" and slow["envelope"] == "component"
+    assert fast["resolution_hz"] == pytest.approx(rate / n)          # 2^3 divides n
+    for rep in (fast, slow):
+        assert rep["peaks"][0]["hz"] == pytest.approx(31.25, abs=rate / n)
+    assert fast["peaks"][0]["amplitude"] == pytest.approx(slow["peaks"][0]["amplitude"], rel=0.05)
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "zero", "smooth", "periodic", "periodization"])
+@pytest.mark.parametrize("wavelet", ["haar", "db4", "bior3.5", "coif2"])
+def test_dwt_in_two_halves_is_pywt_dwt_bit_for_bit(wavelet, mode):
+    # reference: pywt.dwt of the whole array
+    from concurrent.futures import ThreadPoolExecutor
+
+    x = np.random.default_rng(9).standard_normal(5001)
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        a, d = ib._dwt_halves(x, pywt.Wavelet(wavelet), mode, pool)
+    want_a, want_d = pywt.dwt(x, wavelet, mode)
+    np.testing.assert_array_equal(a, want_a)
+    np.testing.assert_array_equal(d, want_d)
+
+
+def test_kurtosis_with_a_large_mean_and_in_blocks_is_scipy_kurtosis():
+    # reference: scipy.stats.kurtosis (Pearson); a mean 1e4 times the spread takes
+    # the two-pass way, a long band the blocked raw sums
+    rng = np.random.default_rng(10)
+    for c in (1e4 + rng.standard_normal(5000), rng.standard_t(5, 3 * ib.MOMENT_BLOCK + 17)):
+        assert ib.kurtosis(c) == pytest.approx(stats.kurtosis(c, fisher=False), rel=1e-9)
+
+
+def test_kurtosis_table_in_two_threads_is_scipy_kurtosis_of_pywt_nodes():
+    # from ib.THREADS_FROM samples the root is split in halves and nodes shared
+    # between threads; reference: scipy.stats.kurtosis of PyWavelets' node data
+    x = np.random.default_rng(12).standard_t(6, ib.THREADS_FROM + 3)
+    t = ib.table(x, 1000.0, "db4", "symmetric", 2)
+    tree = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=2)
+    for lv in t["levels"]:
+        for b in lv["bands"]:
+            want = stats.kurtosis(tree[b["path"]].data, fisher=False)
+            assert b["kurtosis"] == pytest.approx(want, rel=1e-9)

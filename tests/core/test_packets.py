@@ -149,3 +149,48 @@ def test_band_ranges_are_equal_width_and_tile_nyquist():
         p = "".join(combo)
         lo, hi = wp.range_hz(p, 8.0)
         assert hi - lo == 1.0
+
+
+def _pywt_component(x, path, wavelet, mode):
+    # reference: PyWavelets' WaveletPacket with every node but one muted, reconstructed
+    full = pywt.WaveletPacket(x, wavelet, mode, maxlevel=len(path))
+    alone = pywt.WaveletPacket(None, wavelet, mode, maxlevel=len(path))
+    alone[path] = full[path].data
+    return alone.reconstruct(update=False)[:x.shape[0]]
+
+
+@pytest.mark.parametrize("mode", MODES + ["periodic", "reflect"])
+@pytest.mark.parametrize("wavelet", ["haar", "db4", "sym8", "bior3.5"])
+@pytest.mark.parametrize("n", [1024, 1537])
+def test_component_figures_are_energy_and_peak_of_the_pywt_component(wavelet, mode, n):
+    # energy and peak made from the node's coefficients, never the component whole,
+    # against the component PyWavelets reconstructs
+    x = _signal(n, seed=n)
+    x[n // 3] += 25.0                     # an impulse, so the peak is in one place
+    for depth in (1, 3, 5):
+        for k in (0, 1, 2 ** depth // 2, 2 ** depth - 1):
+            path = wp.path_of(depth, k)
+            c = pywt.WaveletPacket(x, wavelet, mode, maxlevel=depth)[path].data
+            got = wp.component_figures(c, path, wavelet, mode, n)
+            if got is None:               # periodization on a length that does not halve
+                assert mode == "periodization" and n % 2 ** depth
+                continue
+            y = _pywt_component(x, path, wavelet, mode)
+            assert got[0] == pytest.approx(float(np.sum(y * y)), rel=1e-10, abs=1e-24)
+            assert got[1] == pytest.approx(float(np.max(np.abs(y))), rel=1e-10, abs=1e-24)
+
+
+def test_component_peak_search_finds_a_lone_peak_among_noise():
+    # the skipped groups must never hold the peak: one large coefficient among many
+    # small ones, at every position of a short stretch (reference: PyWavelets' component)
+    rng = np.random.default_rng(11)
+    n, path = 4096, "dad"
+    base = pywt.WaveletPacket(rng.standard_normal(n), "db4", "symmetric", maxlevel=3)[path].data
+    for at in range(0, base.shape[0], 37):
+        c = base.copy()
+        c[at] = 8.0
+        alone = pywt.WaveletPacket(None, "db4", "symmetric", maxlevel=3)
+        alone[path] = c
+        y = alone.reconstruct(update=False)[:n]
+        assert wp.component_figures(c, path, "db4", "symmetric", n)[1] == pytest.approx(
+            float(np.max(np.abs(y))), rel=1e-12)

@@ -1,8 +1,13 @@
 """Envelope spectrum of one packet band: how often its impacts repeat.
 
-The band's time-domain component is demodulated through its analytic signal
-(Hilbert transform); the envelope's amplitude spectrum (mean removed, Hann
-window) is searched for its ten largest peaks. With --bearing N,d,D,ANGLE and
+The band is demodulated through its analytic signal (Hilbert transform) of the
+band's own packet coefficients, at the band's rate (the band already sits
+there, moved down to 0 Hz); the envelope's amplitude spectrum (mean removed,
+Hann window) is searched for its ten largest peaks. That is the envelope of
+what the band's node holds: the filters' skirts beyond the band enter folded
+back into it, so peak frequencies agree with the envelope of the band's
+time-domain component and amplitudes may differ somewhat; --exact takes that
+component's own envelope at the full rate (slower: full-length FFTs). With --bearing N,d,D,ANGLE and
 --shaft HZ the bearing's FTF, BPFO, BPFI and BSF (Randall & Antoni 2011, eqs.
 1-4), their first harmonics and BPFI's shaft sidebands are matched to the
 nearest peaks. Figures support a judgement about a machine; decisions follow
@@ -30,6 +35,9 @@ def configure(p) -> None:
                         "angle in degrees")
     p.add_argument("--shaft", type=float, default=None, metavar="HZ",
                    help="shaft rotation rate in Hz (needed with --bearing)")
+    p.add_argument("--exact", action="store_true",
+                   help="envelope of the band's time-domain component at the full rate, "
+                        "not of its coefficients at the band's rate (slower)")
     p.add_argument("--json", action="store_true", help="print JSON (shared contract)")
     p.add_argument("--csv", metavar="OUT", help="write the envelope spectrum (hz, amplitude)")
     p.add_argument("--force", action="store_true", help="replace an existing --csv file")
@@ -83,12 +91,13 @@ def run(args) -> int:
     wavelet, mode, depth = packet_options(args, rec.n, source)
     try:
         rep = en.report(rec.samples[:, 0], rec.rate, args.band, wavelet, mode, depth,
-                        geometry, args.shaft)
+                        geometry, args.shaft, exact=args.exact)
     except ValueError as exc:
         raise ScalesieveError(str(exc), source) from None
     out = {"file": os.path.basename(args.file), "rate": rec.rate,
            "channel": rec.channel_names[0], "band": rep["band"],
-           "resolution_hz": rep["resolution_hz"], "peaks": rep["peaks"]}
+           "resolution_hz": rep["resolution_hz"], "peaks": rep["peaks"],
+           "envelope": rep["envelope"]}
     if "bearing" in rep:
         out["shaft_hz"] = args.shaft
         out["bearing"] = rep["bearing"]

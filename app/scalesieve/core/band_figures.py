@@ -30,6 +30,7 @@ import math
 
 import numpy as np
 
+from scalesieve.core import packets as wp
 from scalesieve.core import transforms as tf
 
 #: samples summed at a time (cache-sized)
@@ -125,7 +126,15 @@ def band_figures(component: np.ndarray, coefficients: np.ndarray, total_energy: 
     floor : float
         ``roundoff_floor``: coefficient energy at or below which ``kurtosis`` is None.
     """
-    e, rms, peak = component_figures(component)
+    return figures_of(component_figures(component)[::2], component.shape[0], coefficients,
+                      total_energy, floor)
+
+
+def figures_of(component_energy_peak: tuple[float, float], n: int, coefficients: np.ndarray,
+               total_energy: float, floor: float) -> dict:
+    """``band_figures`` from the component's (energy, peak) over its ``n`` samples."""
+    e, peak = component_energy_peak
+    rms = math.sqrt(e / n) if n else 0.0
     ce, kurt = coefficient_moments(coefficients)
     return {
         "count": int(coefficients.shape[0]),
@@ -156,7 +165,10 @@ def band_table(x: np.ndarray, coeffs: list[np.ndarray], spec, rate: float,
         The working precision (it sets the round-off floor).
 
     Each band's time-domain component is the band alone through
-    ``transforms.inverse_into``, made in one buffer band after band.
+    ``transforms.inverse_into``, made in one buffer band after band; a packet
+    band's energy and peak come from its coefficients through
+    ``packets.component_figures`` (the same numbers up to round-off, at a
+    small part of the cost).
     """
     level = spec.level
     n = x.shape[0]
@@ -165,13 +177,36 @@ def band_table(x: np.ndarray, coeffs: list[np.ndarray], spec, rate: float,
     floor = roundoff_floor(total, dtype)
     comp = np.empty(n, dtype=coeffs[0].dtype)
     rows = []
+    packet_figures = {}
+    if spec.kind == "packet":
+        # energy and peak from each node's coefficients, the component never made whole
+        # (packets.component_figures); from wp.THREADS_FROM samples in two threads
+        todo = [(key, coeffs[tf.band_index(key, level)]) for key in tf.table_keys(spec)]
+
+        def work(item):
+            key, c = item
+            return key, wp.component_figures(c, key.path, spec.wavelet, spec.mode, n)
+
+        if n >= wp.THREADS_FROM and len(todo) > 1:
+            from concurrent.futures import ThreadPoolExecutor
+
+            with ThreadPoolExecutor(max_workers=2) as pool:
+                packet_figures = dict(pool.map(work, todo))
+        else:
+            packet_figures = dict(map(work, todo))
     for key in tf.table_keys(spec):      # d1 ... dJ, aJ; packet bands in frequency order
         idx = tf.band_index(key, level)
         c = coeffs[idx]
         if spec.kind == "packet":
-            comp = tf.band_component(coeffs, key, spec, n)
             meta = {"name": key.name, "kind": "packet", "level": key.depth,
                     "index": key.index, "path": key.path}
+            fig = packet_figures[key]
+            if fig is not None:
+                lo, hi = tf.band_range_hz(key, level, rate)
+                rows.append({**meta, "low_hz": lo, "high_hz": hi,
+                             **figures_of(fig, n, c, total, floor)})
+                continue
+            comp = tf.band_component(coeffs, key, spec, n)
         else:
             tf.inverse_into(lambda i: c if i == idx else None, lengths, spec, n, comp)
             meta = {"name": tf.band_name(key, level),

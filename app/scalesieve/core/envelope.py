@@ -145,9 +145,57 @@ def band_envelope_spectrum(component: np.ndarray, rate: float, low_hz: float = 0
             "left_out": share}
 
 
+def over_recording(c: np.ndarray, depth: int, n: int, wavelet: str, mode: str) -> np.ndarray:
+    """The n // 2^J coefficients of a depth-J node that lie over the recording.
+
+    Outside ``periodization`` a node also holds the boundary extension:
+    coefficient i is centred near sample 2^J i - (2^J - 1)(L - 3)/2 (L the
+    filter length), so the first few lie before the recording; they and the
+    last few are left out.  Then the spectrum's bins are rate / n apart
+    whenever 2^J divides n, as for the full-rate envelope.
+    """
+    import pywt
+
+    P = 2 ** depth
+    m = max(1, min(c.shape[0], n // P))
+    if mode == "periodization":
+        return c[:m]
+    L = pywt.Wavelet(wavelet).dec_len
+    i0 = int(round((P - 1) * (L - 3) / (2 * P)))
+    i0 = max(0, min(c.shape[0] - m, i0))
+    return c[i0:i0 + m]
+
+
+def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
+    """Envelope, spectrum and peaks of a packet band from its node's own coefficients.
+
+    A node at depth J is its band filtered, moved down to 0 .. fs/2^(J+1)
+    (mirrored after an odd number of detail steps, which leaves a magnitude
+    alone) and kept every 2^J-th sample.  Its analytic signal's magnitude,
+    divided by 2^(J/2) (the orthonormal filters' gain), is the band's envelope
+    at the node's rate fs/2^J.
+
+    What this is, exactly: the envelope of what the node holds.  It is the
+    envelope of the band's time-domain component up to two differences: the
+    component's content outside the band (the filters' skirts) enters folded
+    back into the band instead of where it lies, and in the band's flanks the
+    node sees the analysis filter once where the component has it twice.
+    Peaks of the envelope spectrum lie at the same frequencies; amplitudes
+    differ by those flanks and the folded skirts.  ``band_envelope_spectrum``
+    of ``packets.component`` is the component's own envelope.
+    """
+    c = np.asarray(c, dtype=np.float64)
+    env = np.abs(analytic(c)) * (2.0 ** (-depth / 2.0))
+    env_rate = rate / 2 ** depth
+    freqs, amp = spectrum(env, env_rate)
+    return {"resolution_hz": env_rate / env.shape[0], "freqs": freqs, "amplitude": amp,
+            "peaks": largest_peaks(freqs, amp), "envelope_rate": env_rate,
+            "left_out": None}
+
+
 def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
            mode: str = "symmetric", depth: int = 6, geometry=None,
-           shaft_hz: float | None = None) -> dict:
+           shaft_hz: float | None = None, exact: bool = False) -> dict:
     """The envelope spectrum of one packet band of ``x``, with bearing lines if given.
 
     ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest kurtosis
@@ -155,6 +203,11 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     ``envelope --json`` fields (shared/CONTRACT.md) plus ``"freqs"`` and
     ``"amplitude"`` (the whole spectrum, numpy arrays) and, for ``best``,
     ``"kurtosis"`` (the table it was chosen from).
+
+    The envelope is the node's own (``node_envelope_spectrum``: its cost
+    follows the node, n / 2^J samples); with ``exact`` it is that of the
+    band's time-domain component at the full rate (``band_envelope_spectrum``:
+    full-length syntheses and FFTs), ``"envelope": "component"`` in the result.
     """
     from scalesieve.core import bearing as br
     from scalesieve.core import impulsive_bands as ib
@@ -162,8 +215,10 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
 
     x = np.asarray(x, dtype=np.float64)
     table = None
+    c = None
     if band == "best":
-        table = ib.table(x, rate, wavelet, mode, depth)
+        table = ib.table(x, rate, wavelet, mode, depth, keep_best=True)
+        c = table.pop("best_coefficients")
         if table["best"] is None:
             raise ValueError("no band carries anything beyond round-off (a constant signal?)")
         path = table["best"]["path"]
@@ -176,12 +231,20 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
             raise ValueError(f"band {band!r} is deeper than the recording allows")
         path = wp.path_of(*jk)
     lo, hi = wp.range_hz(path, rate)
-    comp = wp.band_signal(x, path, wavelet, mode)
-    spec = band_envelope_spectrum(comp, rate, lo, hi)
-    del comp
+    if c is None:
+        c = wp.forward(x, wavelet, mode, [path])[0]     # only the band's own branch
+    if exact:
+        comp = wp.component(c, path, wavelet, mode, x.shape[0])
+        spec = band_envelope_spectrum(comp, rate, lo, hi)
+        del comp
+    else:
+        spec = node_envelope_spectrum(over_recording(c, len(path), x.shape[0], wavelet, mode),
+                                      len(path), rate)
+    del c
     out = {"band": {"name": f"w{len(path)}.{wp.freq_index(path)}", "low_hz": lo,
                     "high_hz": hi, "path": path},
            "resolution_hz": spec["resolution_hz"], "peaks": spec["peaks"],
+           "envelope": "component" if exact else "node",
            "energy_left_out": spec["left_out"],
            "freqs": spec["freqs"], "amplitude": spec["amplitude"]}
     if table is not None:

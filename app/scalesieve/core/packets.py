@@ -30,6 +30,8 @@ COSTS = ("shannon", "log-energy")
 BASES = ("full", "best")
 #: default depth of a packet tree (64 bands): the depth the kurtosis table defaults to too
 DEFAULT_DEPTH = 6
+#: from this many samples the two halves of the tree are worked in two threads
+THREADS_FROM = 1 << 20
 
 
 @dataclass(frozen=True)
@@ -172,7 +174,26 @@ def forward(x: np.ndarray, wavelet: str, mode: str, basis) -> list[np.ndarray]:
     wanted = set(basis)
     inner = {p[:i] for p in basis for i in range(len(p))}
     out: dict[str, np.ndarray] = {}
-    stack = [("", np.asarray(x))]
+    x = np.asarray(x)
+    if x.shape[0] >= THREADS_FROM and "" in inner:
+        # the two halves of the tree in two threads (PyWavelets' C code runs without the GIL)
+        from concurrent.futures import ThreadPoolExecutor
+
+        a, d = pywt.dwt(x, w, mode)
+        with ThreadPoolExecutor(max_workers=2) as pool:
+            parts = list(pool.map(lambda item: _walk([item], w, mode, wanted, inner),
+                                  [("a", a), ("d", d)]))
+        del a, d
+        for part in parts:
+            out.update(part)
+        return [out[p] for p in basis]
+    out = _walk([("", x)], w, mode, wanted, inner)
+    return [out[p] for p in basis]
+
+
+def _walk(stack, w, mode: str, wanted: set, inner: set) -> dict:
+    """The basis nodes under the nodes on ``stack``, depth first."""
+    out = {}
     while stack:
         path, data = stack.pop()
         if path in wanted:
@@ -184,7 +205,7 @@ def forward(x: np.ndarray, wavelet: str, mode: str, basis) -> list[np.ndarray]:
         del data
         stack.append((path + "d", d))
         stack.append((path + "a", a))
-    return [out[p] for p in basis]
+    return out
 
 
 def inverse(bands, basis, wavelet: str, mode: str, n: int, dtype=np.float64) -> np.ndarray:
@@ -363,3 +384,203 @@ def band_signal(x: np.ndarray, path: str, wavelet: str, mode: str) -> np.ndarray
     x = np.asarray(x, dtype=np.float64)
     c = forward(x, wavelet, mode, [path])[0]
     return component(c, path, wavelet, mode, x.shape[0])
+
+
+# --------------------------------------------------------------------------
+# figures of a node's time-domain component without making it whole
+
+
+def composite(path: str, wavelet: str, mode: str) -> tuple[np.ndarray, int]:
+    """Taps ``g`` and offset ``s0`` of a node's synthesis up to the signal.
+
+    Coefficient ``i`` of node ``path`` (depth J) adds ``values[i] * g[l]`` to
+    sample ``2**J * i + s0 + l`` (for ``periodization`` modulo the signal's
+    length): the single-level steps of :func:`local_synthesis` composed, no
+    cut in between (the cuts of ``idwt`` only drop what later levels never
+    read, so they do not change the kept samples).
+    """
+    w = pywt.Wavelet(wavelet)
+    L = w.rec_len
+    off = L // 2 - 1 if mode == "periodization" else L - 2
+    g = np.ones(1)
+    s0 = 0
+    for j in range(len(path), 0, -1):
+        g = pywt.upcoef(path[j - 1], g, w, level=1, take=0)
+        s0 = 2 * s0 - off
+    return g, s0
+
+
+#: groups of 2**J output samples synthesised at a time when a node's samples are needed
+_GROUPS = 4096
+
+
+class _Polyphase:
+    """A node's component ``y`` as groups of ``P = 2**J`` samples.
+
+    With the composite taps cut into ``T`` rows of ``P`` (``G[k, r] =
+    g[P k + r]``), the samples ``u = P q + r`` of the uncut synthesis are
+    ``z[u] = sum_k c[q - k] G[k, r]``: one small matrix product per group of
+    groups.  ``y[t] = z[t - s0]`` for t in 0 .. n-1 (``c`` zero outside its
+    ends, or circular for ``periodization``).
+    """
+
+    def __init__(self, values: np.ndarray, path: str, wavelet: str, mode: str, n: int):
+        self.c = np.ascontiguousarray(values, dtype=np.float64)
+        self.N = self.c.shape[0]
+        self.P = 2 ** len(path)
+        self.n = n
+        self.periodic = mode == "periodization"
+        g, self.s0 = composite(path, wavelet, mode)
+        self.T = -(-g.shape[0] // self.P)
+        G = np.zeros(self.T * self.P)
+        G[:g.shape[0]] = g
+        self.G = G.reshape(self.T, self.P)
+        # the groups holding samples of y, first and last possibly in part
+        self.q_min = (-self.s0) // self.P
+        self.q_max = (n - self.s0 - 1) // self.P
+
+    def coefficients(self, lo: int, hi: int) -> np.ndarray:
+        """c[i] for i in lo .. hi-1, zero (or circular) beyond its ends."""
+        if self.periodic:
+            return self.c[np.arange(lo, hi) % self.N]
+        out = np.zeros(hi - lo)
+        a, b = max(lo, 0), min(hi, self.N)
+        if b > a:
+            out[a - lo:b - lo] = self.c[a:b]
+        return out
+
+    def groups(self, qs: np.ndarray) -> np.ndarray:
+        """z of groups ``qs`` (any integers), shape (len(qs), P)."""
+        idx = qs[:, None] - np.arange(self.T)[None, :]
+        if self.periodic:
+            rows = self.c[idx % self.N]
+        else:
+            inside = (idx >= 0) & (idx < self.N)
+            rows = np.where(inside, self.c[np.clip(idx, 0, self.N - 1)], 0.0)
+        return rows @ self.G
+
+    def valid(self, q: int) -> slice:
+        """The r of group q that are samples of y."""
+        lo = max(0, -self.s0 - self.P * q)
+        hi = min(self.P, self.n - self.s0 - self.P * q)
+        return slice(lo, max(lo, hi))
+
+    def run(self, lo: int, hi: int):
+        """(first group, z of groups lo .. hi-1) in blocks, from a sliding window."""
+        T = self.T
+        for a in range(lo, hi, _GROUPS):
+            b = min(hi, a + _GROUPS)
+            ext = self.coefficients(a - T + 1, b)
+            win = np.lib.stride_tricks.sliding_window_view(ext, T)
+            yield a, win @ self.G[::-1]
+
+    def exact(self) -> tuple[float, float]:
+        """(energy, peak |y|) from every sample of y, block by block."""
+        e = 0.0
+        top = 0.0
+        for a, z in self.run(self.q_min, self.q_max + 1):
+            if a == self.q_min or a + z.shape[0] > self.q_max:
+                z = z.copy()
+                for q in (self.q_min, self.q_max):
+                    if a <= q < a + z.shape[0]:
+                        keep = np.zeros(self.P, dtype=bool)
+                        keep[self.valid(q)] = True
+                        z[q - a, ~keep] = 0.0
+            flat = z.reshape(-1)
+            e += float(np.einsum("i,i->", flat, flat))
+            top = max(top, float(np.max(np.abs(flat))) if flat.size else 0.0)
+        return e, top
+
+    def lag_sums(self) -> np.ndarray:
+        """R[d] = sum_i c[i] c[i + d], d = 0 .. T-1 (circular for periodization)."""
+        c = self.c
+        out = np.empty(self.T)
+        for d in range(self.T):
+            if self.periodic:
+                other = np.concatenate([c[d:], c[:d]]) if d else c
+                out[d] = float(np.einsum("i,i->", c, other))
+            else:
+                out[d] = float(np.einsum("i,i->", c[:self.N - d], c[d:])) if d < self.N else 0.0
+        return out
+
+    def energy(self) -> float | None:
+        """Sum of y^2 from the lag sums of c and the taps' Gram matrix (None: cancellation).
+
+        sum_u z[u]^2 = sum_{k,k'} (G G^T)[k, k'] R[|k - k'|]; without
+        ``periodization`` the samples of z cut off before 0 and after n-1 are
+        made exactly and taken away.
+        """
+        M = self.G @ self.G.T
+        R = self.lag_sums()
+        total = R[0] * float(np.trace(M))
+        for d in range(1, self.T):
+            total += 2.0 * R[d] * float(np.trace(M, offset=d))
+        if self.periodic:
+            return max(total, 0.0)
+        cut = 0.0
+        heads = np.arange(0, self.q_min + 1)
+        tails = np.arange(self.q_max, self.N + self.T - 1)
+        for qs in (heads, tails):
+            if qs.size == 0:
+                continue
+            z = self.groups(qs)
+            for row, q in zip(z, qs):
+                keep = np.ones(self.P, dtype=bool)
+                keep[self.valid(int(q))] = False
+                cut += float(np.sum(row[keep] ** 2))
+        left = total - cut
+        if not left > 1e-6 * total:
+            return None                       # the cut holds nearly all: sum directly
+        return left
+
+    def peak(self) -> float:
+        """max |y|: groups whose bound cannot beat the largest found are skipped.
+
+        The bound of group q is ``sum_k |c[q - k]| max_r |G[k, r]|``; the
+        groups of largest bound are made first, then every group whose bound
+        exceeds the largest |y| found so far.  Exact: only groups that
+        cannot hold a larger sample are left out.
+        """
+        lo, hi = self.q_min, self.q_max
+        T = self.T
+        ext = np.abs(self.coefficients(lo - T + 1, hi + 1))
+        bound = np.correlate(ext, np.max(np.abs(self.G[::-1]), axis=1), mode="valid")
+        top = 0.0
+        for q in {lo, hi}:                    # the edge groups, in part outside y
+            z = self.groups(np.array([q]))[0][self.valid(q)]
+            if z.size:
+                top = max(top, float(np.max(np.abs(z))))
+        inner = bound[1:-1]                   # groups q = lo+1 .. hi-1, wholly inside y
+        first = min(inner.shape[0], 256)
+        if first:
+            order = np.argpartition(inner, inner.shape[0] - first)[inner.shape[0] - first:]
+            z = self.groups(order + lo + 1)
+            top = max(top, float(np.max(np.abs(z))))
+            inner[order] = -1.0
+        # a margin against round-off in the bound itself
+        rest = np.flatnonzero(inner > top * (1 - 1e-9)) + lo + 1
+        for a in range(0, rest.shape[0], _GROUPS):
+            z = self.groups(rest[a:a + _GROUPS])
+            top = max(top, float(np.max(np.abs(z))))
+        return top
+
+
+def component_figures(values: np.ndarray, path: str, wavelet: str, mode: str,
+                      n: int) -> tuple[float, float] | None:
+    """(energy, peak |value|) of a node's time-domain component, never made whole.
+
+    The same numbers as ``component(...)`` summed and searched, up to
+    round-off; None where this way does not apply (``periodization`` on a
+    length that does not halve at every level): then make the component.
+    """
+    P = 2 ** len(path)
+    values = np.asarray(values)
+    if mode == "periodization" and (n % P or values.shape[0] != n // P):
+        return None
+    if values.shape[0] == 0 or n == 0:
+        return 0.0, 0.0
+    poly = _Polyphase(values, path, wavelet, mode, n)
+    e = poly.energy() if poly.N > 4 * poly.T else None
+    if e is None:
+        return poly.exact()
+    return e, poly.peak()
