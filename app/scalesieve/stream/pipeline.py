@@ -37,7 +37,7 @@ from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
 READ_FRAMES = tf.BLOCK
 #: band-sized stretches of one channel an SWT in blocks holds at its peak, per block
 #: of coefficients (see stream_bytes; fitted to tests/perf/bench_long.py)
-SWT_COPIES = 3
+SWT_COPIES = 5
 
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
