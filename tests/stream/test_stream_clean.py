@@ -229,3 +229,37 @@ def test_one_channel_and_a_wrong_rate_in_blocks(tmp_path):
     with pytest.raises(ScalesieveError, match="channel"):
         clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, channel=5)
     assert not (tmp_path / "c.wav").exists()
+
+
+@pytest.mark.parametrize("channel", [None, 1])
+def test_csv_outputs_in_blocks_read_back_as_pywavelets_numbers(tmp_path, channel):
+    # read back with Python's csv module; the reference is PyWavelets' whole-array VisuShrink
+    import csv
+
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=70_001, channels=2, seed=9)
+    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    edits = [Edit("threshold", levels="details", rule="universal", shape="soft",
+                  noise="finest")]
+    out, gone = tmp_path / "out.csv", tmp_path / "gone.txt"
+    res = clean_stream(str(src), str(out), transform=spec, edits=edits, removed=str(gone),
+                       channel=channel)
+    assert [r["kind"] for r in res["outputs"]] == ["csv", "csv"]
+    with open(out, newline="") as fh:
+        rows = list(csv.reader(fh))
+    cols = [0, 1] if channel is None else [channel]
+    assert rows[0] == ["time_s"] + [f"ch{k}" for k in cols]
+    table = np.array(rows[1:], dtype=float)
+    assert table.shape == (70_001, len(cols) + 1)
+    np.testing.assert_array_equal(table[:, 0], np.arange(70_001) / RATE)
+    with open(gone, newline="") as fh:
+        removed = np.array(list(csv.reader(fh))[1:], dtype=float)
+    for i, k in enumerate(cols):
+        want = _visushrink(x[:, k], "db4", 6, "symmetric")
+        np.testing.assert_allclose(table[:, 1 + i], want, rtol=0, atol=1e-12)
+        np.testing.assert_allclose(removed[:, 1 + i], x[:, k] - want, rtol=0, atol=1e-12)
+    # the same file as the whole-array writer makes (the CONTRACT's same-outputs rule)
+    whole = tmp_path / "whole.csv"
+    clean_file(str(src), str(whole), transform=spec, edits=edits, channel=channel)
+    w = np.array(list(csv.reader(open(whole, newline="")))[1:], dtype=float)
+    np.testing.assert_allclose(table, w, rtol=0, atol=1e-12)

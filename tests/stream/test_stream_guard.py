@@ -68,11 +68,11 @@ def test_the_swt_is_taken_in_blocks_and_its_cost_said(wav, monkeypatch):
         memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=cost - 1)
 
 
-def test_blocks_cannot_take_text_tables_or_csv_outputs(wav, tmp_path):
+def test_blocks_cannot_take_text_tables_or_npz_outputs(wav, tmp_path):
     facts = memory_guard.probe_quietly(wav)
-    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.csv"],
+    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.npz"],
                                      available=1)
-    assert not ok and "only audio outputs" in why
+    assert not ok and "only audio and CSV outputs" in why
     ok, why = memory_guard.in_blocks(dict(facts, kind="text"), transform=TransformSpec(),
                                      outputs=["o.wav"], available=1)
     assert not ok and "only audio files" in why

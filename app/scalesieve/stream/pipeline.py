@@ -47,7 +47,7 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
     kept for callers that passed it (``events``).
     """
-    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION
+    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
     if facts is None or facts.get("kind") != "audio":
         return "only audio files (WAV, FLAC, AIFF, ...) are read in blocks"
@@ -59,10 +59,12 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
     elif not can_stream(spec):
         return (f"boundary mode {spec.mode} reads the far end of the recording "
-                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect)")
+                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect, "
+                "or the SWT, which takes every mode in blocks)")
     for out in outputs:
-        if os.path.splitext(out)[1].lower() not in AUDIO_FORMAT_BY_EXTENSION:
-            return f"{os.path.basename(out)}: only audio outputs are written in blocks"
+        ext = os.path.splitext(out)[1].lower()
+        if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
+            return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
     if fill_gaps is not None:
         return "--fill-gaps needs the whole recording"
     if channel is not None and not isinstance(channel, (int, np.integer)):
@@ -227,6 +229,54 @@ class _AudioTarget:
 
     def finished(self) -> dict:
         return dict(self.report, clipped=int(self.clipped))
+
+
+class _CsvTarget:
+    """One CSV output written block by block as ``io.writers.write_csv`` writes it whole:
+    a ``time_s`` column from 0 in steps of 1/rate, then one column per channel, ``%.17g``."""
+
+    def __init__(self, stack: contextlib.ExitStack, target: str, src: _Source, n: int,
+                 force: bool, protect: Sequence[str]):
+        from scalesieve.io import writers as W
+        from scalesieve.io.atomic import atomic_target
+
+        self.rate = float(src.rate)
+        names = ([f"ch{k}" for k in range(src.channels)] if src.pick is None
+                 else [f"ch{src.pick}"])
+        self.row = ",".join(["%.17g"] * (src.channels + 1)) + "\n"
+        self.report = {"path": target, "kind": "csv", "format": None, "subtype": None,
+                       "rate": self.rate, "channels": int(src.channels), "frames": int(n)}
+        tmp = stack.enter_context(atomic_target(target, force=force, protect=protect))
+        self.file = stack.enter_context(open(tmp, "w", encoding="utf-8", newline=""))
+        self.file.write(W._header_line(["time_s"] + names))
+        self.target, self.done = target, 0
+
+    def write(self, block: np.ndarray) -> None:
+        from scalesieve.io.writers import _CSV_CHUNK_ROWS
+
+        if not np.isfinite(block).all():
+            raise ScalesieveError("the cleaned signal holds NaN or infinite values",
+                                  source=self.target)
+        for a in range(0, block.shape[0], _CSV_CHUNK_ROWS):
+            part = block[a:a + _CSV_CHUNK_ROWS]
+            start = self.done
+            chunk = np.empty((part.shape[0], part.shape[1] + 1), dtype=np.float64)
+            chunk[:, 0] = np.arange(start, start + part.shape[0], dtype=np.float64) / self.rate
+            chunk[:, 1:] = part
+            self.file.write((self.row * part.shape[0]) % tuple(chunk.ravel().tolist()))
+            self.done += part.shape[0]
+
+    def finished(self) -> dict:
+        return dict(self.report, clipped=0)
+
+
+def _target(stack, out: str, src: _Source, n: int, subtype, force: bool, protect):
+    """The writer of one output in blocks: CSV for .csv/.txt, else audio."""
+    from scalesieve.io.writers import CSV_EXTENSIONS
+
+    if os.path.splitext(out)[1].lower() in CSV_EXTENSIONS:
+        return _CsvTarget(stack, out, src, n, force, protect)
+    return _AudioTarget(stack, out, src, n, subtype, force, protect)
 
 
 class _Join:
@@ -600,7 +650,7 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
 
     passes = _thresholds(src, spec, plan, report)
     with contextlib.ExitStack() as stack:
-        targets = [_AudioTarget(stack, out, src, n, subtype, force, [input_path])
+        targets = [_target(stack, out, src, n, subtype, force, [input_path])
                    for out in outputs]
         join = _Join(src.channels, targets, removed is not None)
         inverses, forwards = [], []
