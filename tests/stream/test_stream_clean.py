@@ -263,3 +263,20 @@ def test_csv_outputs_in_blocks_read_back_as_pywavelets_numbers(tmp_path, channel
     clean_file(str(src), str(whole), transform=spec, edits=edits, channel=channel)
     w = np.array(list(csv.reader(open(whole, newline="")))[1:], dtype=float)
     np.testing.assert_allclose(table, w, rtol=0, atol=1e-12)
+
+
+def test_a_channel_named_as_the_reader_names_it_is_cleaned_in_blocks(tmp_path):
+    # audio channels are ch0, ch1, ... (io.readers); the reference is PyWavelets' VisuShrink
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=30_001, channels=2, seed=12)
+    out = tmp_path / "out.wav"
+    assert memory_guard.in_blocks(memory_guard.probe_quietly(src), channel="ch1",
+                                  transform=TransformSpec(), outputs=[str(out)],
+                                  available=1)[0]
+    clean_stream(str(src), str(out), transform=TransformSpec("dwt", "db4", 5, "symmetric"),
+                 edits=[Edit("threshold", levels="details", rule="universal", shape="soft",
+                             noise="finest")], channel="ch1", subtype="DOUBLE")
+    want = _visushrink(x[:, 1], "db4", 5, "symmetric")
+    np.testing.assert_allclose(sf.read(out)[0], want, rtol=0, atol=1e-12)
+    with pytest.raises(ScalesieveError, match="names no channel"):
+        clean_stream(str(src), str(tmp_path / "o2.wav"), edits=[], channel="left")

@@ -67,8 +67,6 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
             return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
     if fill_gaps is not None:
         return "--fill-gaps needs the whole recording"
-    if channel is not None and not isinstance(channel, (int, np.integer)):
-        return "a channel chosen by name needs the whole recording"
     return None
 
 
@@ -164,7 +162,9 @@ def open_source(input_path: str, channel=None, rate: float | None = None) -> _So
     from scalesieve.io.csv_reader import check_channel, check_rate
 
     whole = _Source(input_path, None)
-    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path))
+    # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
+    names = [f"ch{k}" for k in range(whole.file_channels)]
+    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path, names))
     given = check_rate(rate, input_path)
     if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
         raise ScalesieveError(
