@@ -21,6 +21,7 @@ the file by seeking.
 
 from __future__ import annotations
 
+import contextlib
 import warnings
 from functools import lru_cache
 from typing import Callable
@@ -35,12 +36,12 @@ from scalesieve.core import transforms as tf
 SWT_BLOCK = 1 << 20
 
 
+@contextlib.contextmanager
 def _quiet():
     # norm=True on a biorthogonal wavelet still inverts exactly (see core.transforms)
-    cm = warnings.catch_warnings()
-    cm.__enter__()
-    warnings.simplefilter("ignore", UserWarning)
-    return cm
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        yield
 
 
 def _probe_length(wavelet: str, level: int) -> int:
@@ -57,11 +58,8 @@ def forward_reach(wavelet: str, depth: int) -> tuple[int, int]:
     p = m // 2
     x = np.zeros(m)
     x[p] = 1.0
-    cm = _quiet()
-    try:
+    with _quiet():
         bands = pywt.swt(x, wavelet, level=depth, trim_approx=True, norm=True)
-    finally:
-        cm.__exit__(None, None, None)
     lo, hi = 0, 0
     for c in bands:
         nz = np.flatnonzero(c)
@@ -78,11 +76,8 @@ def synthesis_kernel(wavelet: str, level: int, index: int) -> tuple[int, np.ndar
     p = m // 2
     bands = [np.zeros(m) for _ in range(level + 1)]
     bands[index][p] = 1.0
-    cm = _quiet()
-    try:
+    with _quiet():
         y = pywt.iswt(bands, wavelet, norm=True)
-    finally:
-        cm.__exit__(None, None, None)
     nz = np.flatnonzero(y)
     d0, d1 = int(nz.min() - p), int(nz.max() - p)
     h = np.ascontiguousarray(y[p + d0:p + d1 + 1])
@@ -189,11 +184,8 @@ class SwtForward:
             extra = -(we - ws) % step
             if extra:
                 win = np.concatenate([win, np.zeros(extra)])
-            cm = _quiet()
-            try:
+            with _quiet():
                 c = pywt.swt(win, self.wavelet, level=self.depth, trim_approx=True, norm=True)
-            finally:
-                cm.__exit__(None, None, None)
             for i, band in enumerate(c):
                 self.put(i, p, band[p - ws:q - ws])
             self.next = q
@@ -262,11 +254,8 @@ class SwtInverse:
             win = [self.bands.carry[i].view(w0, w1) for i in range(self.level + 1)]
             if extra:
                 win = [np.concatenate([w, np.zeros(extra)]) for w in win]
-            cm = _quiet()
-            try:
+            with _quiet():
                 y = pywt.iswt(win, self.wavelet, norm=True)
-            finally:
-                cm.__exit__(None, None, None)
             self.out(s0, y[self.d1:self.d1 + (s1 - s0)])
             self.made = s1
             for c in self.bands.carry.values():
