@@ -280,3 +280,21 @@ def test_a_channel_named_as_the_reader_names_it_is_cleaned_in_blocks(tmp_path):
     np.testing.assert_allclose(sf.read(out)[0], want, rtol=0, atol=1e-12)
     with pytest.raises(ScalesieveError, match="names no channel"):
         clean_stream(str(src), str(tmp_path / "o2.wav"), edits=[], channel="left")
+
+
+def test_the_command_writes_a_csv_in_blocks_and_says_so(tmp_path, monkeypatch, capsys):
+    # read back with Python's csv module against PyWavelets' whole-array VisuShrink
+    import csv
+
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=20_003, channels=1, seed=13)
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    out = tmp_path / "out.csv"
+    assert main(["clean", str(src), "-o", str(out), "--threshold", "universal"]) == 0
+    assert "cleaned in blocks" in capsys.readouterr().err
+    rows = list(csv.reader(open(out, newline="")))
+    assert rows[0] == ["time_s", "ch0"]
+    got = np.array(rows[1:], dtype=float)[:, 1]
+    level = default_level(20_003, "db4")             # what the command chooses
+    np.testing.assert_allclose(got, _visushrink(x[:, 0], "db4", level, "symmetric"),
+                               rtol=0, atol=1e-12)
