@@ -45,7 +45,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     """Why a command cannot run block by block, or None when it can.
 
     The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
-    kept for callers that passed it (``events``).
+    kept for callers that passed it (``events``), and ``channel`` too: an
+    audio file's channel, by number or by name (``ch1``), is read in blocks.
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
