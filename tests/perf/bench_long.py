@@ -10,6 +10,7 @@ line: the figures and the ratios the budgets are about, measured side by
 side in this run (clean / bare time, long / short time and memory).
 
     python tests/perf/bench_long.py --samples 4194304      # small, a minute
+    python tests/perf/bench_long.py --samples 16777216 --only clean_swt,bands_swt --force-blocks
     python tests/perf/bench_long.py                        # 2**28: needs ~9 GiB free for the
                                                            # bare script, ~2 GiB of disk
 
@@ -45,6 +46,30 @@ sf.write(sys.argv[2], y, rate, subtype="FLOAT")
 """
 
 
+BARE_SWT = r"""
+import sys, warnings, numpy as np, pywt, soundfile as sf
+warnings.simplefilter("ignore", UserWarning)
+x, rate = sf.read(sys.argv[1], dtype="float64")
+n = x.shape[0]
+level = max(1, min(pywt.dwt_max_level(n, 8) - 2, 12))
+total = -(-n // 2 ** level) * 2 ** level
+c = pywt.swt(pywt.pad(x, (0, total - n), "symmetric"), "db4", level=level, trim_approx=True,
+             norm=True)
+del x
+d1 = np.abs(c[-1])
+sigma = np.median(d1[d1 != 0]) / 0.6744897501960817
+lam = sigma * np.sqrt(2 * np.log(n))
+c = [c[0]] + [pywt.threshold(d, lam * 2.0 ** (-(level - i) / 2), mode="soft")
+              for i, d in enumerate(c[1:])]
+y = pywt.iswt(c, "db4", norm=True)[:n]
+sf.write(sys.argv[2], y, rate, subtype="FLOAT")
+"""
+
+#: runs a command with every recording taken in blocks (--force-blocks)
+IN_BLOCKS = ("import sys; from scalesieve import memory_guard; memory_guard.STREAM_ABOVE = 0; "
+             "from scalesieve.cli import main; sys.exit(main(sys.argv[1:]))")
+
+
 def _write(path: str, n: int, rate: int = 51200) -> None:
     """Invented vibration: a shaft line, broadband noise and an impact every 0.1 s."""
     rng = np.random.default_rng(7)
@@ -71,9 +96,13 @@ def _run(cmd: list[str]) -> dict:
     return {"seconds": round(seconds, 3), "peak_mib": round(usage.ru_maxrss / 1024, 1)}
 
 
-def _commands(src: str, out: str) -> dict:
-    me = [sys.executable, "-m", "scalesieve"]
+def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
+    me = [sys.executable, "-c", IN_BLOCKS] if force_blocks else [sys.executable, "-m",
+                                                                  "scalesieve"]
+    swt = ["--transform", "swt"]
     return {
+        "clean_swt": me + ["clean", src, "-o", out, "--threshold", "universal", "--force", *swt],
+        "bands_swt": me + ["bands", src, "--json", *swt],
         "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
         "clean_workers": me + ["clean", src, "-o", out, "--threshold", "universal", "--force",
                                "--workers", "2"],
@@ -89,7 +118,10 @@ def main() -> None:
     ap.add_argument("--only", default="clean,bands,events",
                     help="commands to run, comma-separated: clean, clean_workers (the same "
                          "clean in two local processes), bands, events (default "
-                         "clean,bands,events)")
+                         "clean,bands,events); clean_swt and bands_swt: the same with "
+                         "--transform swt, clean_swt beside a bare whole-array SWT script")
+    ap.add_argument("--force-blocks", action="store_true",
+                    help="every command in blocks whatever the length (both sizes alike)")
     ap.add_argument("--dir", default=None, help="folder for the test files (default a temp one)")
     args = ap.parse_args()
     wanted = args.only.split(",")
@@ -101,7 +133,7 @@ def main() -> None:
             _write(src, n)
             out = os.path.join(tmp, f"{label}-out.wav")
             row = {}
-            for name, cmd in _commands(src, out).items():
+            for name, cmd in _commands(src, out, args.force_blocks).items():
                 if name in wanted:
                     row[name] = _run(cmd)
             if not args.no_bare and "clean" in wanted:
@@ -109,6 +141,12 @@ def main() -> None:
                 with open(script, "w") as fh:
                     fh.write(BARE)
                 row["bare"] = _run([sys.executable, script, src, os.path.join(tmp, "bare.wav")])
+            if not args.no_bare and "clean_swt" in wanted:
+                script = os.path.join(tmp, "bare_swt.py")
+                with open(script, "w") as fh:
+                    fh.write(BARE_SWT)
+                row["bare_swt"] = _run([sys.executable, script, src,
+                                        os.path.join(tmp, "bare.wav")])
             figures[label] = row
             os.unlink(src)
     long, short = figures["long"], figures["short"]
@@ -116,6 +154,9 @@ def main() -> None:
     if "bare" in long and "clean" in long:
         ratios["clean_over_bare_time"] = round(
             long["clean"]["seconds"] / long["bare"]["seconds"], 3)
+    if "bare_swt" in long and "clean_swt" in long:
+        ratios["clean_swt_over_bare_swt_time"] = round(
+            long["clean_swt"]["seconds"] / long["bare_swt"]["seconds"], 3)
     if "clean" in long and "clean_workers" in long:
         ratios["clean_workers_over_clean_time"] = round(
             long["clean_workers"]["seconds"] / long["clean"]["seconds"], 3)

@@ -229,3 +229,72 @@ def test_one_channel_and_a_wrong_rate_in_blocks(tmp_path):
     with pytest.raises(ScalesieveError, match="channel"):
         clean_stream(str(src), str(tmp_path / "c.wav"), edits=edits, channel=5)
     assert not (tmp_path / "c.wav").exists()
+
+
+@pytest.mark.parametrize("channel", [None, 1])
+def test_csv_outputs_in_blocks_read_back_as_pywavelets_numbers(tmp_path, channel):
+    # read back with Python's csv module; the reference is PyWavelets' whole-array VisuShrink
+    import csv
+
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=70_001, channels=2, seed=9)
+    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    edits = [Edit("threshold", levels="details", rule="universal", shape="soft",
+                  noise="finest")]
+    out, gone = tmp_path / "out.csv", tmp_path / "gone.txt"
+    res = clean_stream(str(src), str(out), transform=spec, edits=edits, removed=str(gone),
+                       channel=channel)
+    assert [r["kind"] for r in res["outputs"]] == ["csv", "csv"]
+    with open(out, newline="") as fh:
+        rows = list(csv.reader(fh))
+    cols = [0, 1] if channel is None else [channel]
+    assert rows[0] == ["time_s"] + [f"ch{k}" for k in cols]
+    table = np.array(rows[1:], dtype=float)
+    assert table.shape == (70_001, len(cols) + 1)
+    np.testing.assert_array_equal(table[:, 0], np.arange(70_001) / RATE)
+    with open(gone, newline="") as fh:
+        removed = np.array(list(csv.reader(fh))[1:], dtype=float)
+    for i, k in enumerate(cols):
+        want = _visushrink(x[:, k], "db4", 6, "symmetric")
+        np.testing.assert_allclose(table[:, 1 + i], want, rtol=0, atol=1e-12)
+        np.testing.assert_allclose(removed[:, 1 + i], x[:, k] - want, rtol=0, atol=1e-12)
+    # the same file as the whole-array writer makes (the CONTRACT's same-outputs rule)
+    whole = tmp_path / "whole.csv"
+    clean_file(str(src), str(whole), transform=spec, edits=edits, channel=channel)
+    w = np.array(list(csv.reader(open(whole, newline="")))[1:], dtype=float)
+    np.testing.assert_allclose(table, w, rtol=0, atol=1e-12)
+
+
+def test_a_channel_named_as_the_reader_names_it_is_cleaned_in_blocks(tmp_path):
+    # audio channels are ch0, ch1, ... (io.readers); the reference is PyWavelets' VisuShrink
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=30_001, channels=2, seed=12)
+    out = tmp_path / "out.wav"
+    assert memory_guard.in_blocks(memory_guard.probe_quietly(src), channel="ch1",
+                                  transform=TransformSpec(), outputs=[str(out)],
+                                  available=1)[0]
+    clean_stream(str(src), str(out), transform=TransformSpec("dwt", "db4", 5, "symmetric"),
+                 edits=[Edit("threshold", levels="details", rule="universal", shape="soft",
+                             noise="finest")], channel="ch1", subtype="DOUBLE")
+    want = _visushrink(x[:, 1], "db4", 5, "symmetric")
+    np.testing.assert_allclose(sf.read(out)[0], want, rtol=0, atol=1e-12)
+    with pytest.raises(ScalesieveError, match="names no channel"):
+        clean_stream(str(src), str(tmp_path / "o2.wav"), edits=[], channel="left")
+
+
+def test_the_command_writes_a_csv_in_blocks_and_says_so(tmp_path, monkeypatch, capsys):
+    # read back with Python's csv module against PyWavelets' whole-array VisuShrink
+    import csv
+
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=20_003, channels=1, seed=13)
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    out = tmp_path / "out.csv"
+    assert main(["clean", str(src), "-o", str(out), "--threshold", "universal"]) == 0
+    assert "cleaned in blocks" in capsys.readouterr().err
+    rows = list(csv.reader(open(out, newline="")))
+    assert rows[0] == ["time_s", "ch0"]
+    got = np.array(rows[1:], dtype=float)[:, 1]
+    level = default_level(20_003, "db4")             # what the command chooses
+    np.testing.assert_allclose(got, _visushrink(x[:, 0], "db4", level, "symmetric"),
+                               rtol=0, atol=1e-12)

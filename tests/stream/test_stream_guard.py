@@ -49,18 +49,30 @@ def test_too_long_for_memory_but_fine_in_blocks_is_not_refused(wav, monkeypatch)
 
 
 @pytest.mark.parametrize("spec,why", [
-    (TransformSpec(kind="swt"), "SWT keeps every level"),
     (TransformSpec(mode="periodization"), "reads the far end")])
 def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, why):
     with pytest.raises(ScalesieveError, match=why):
         memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20)
 
 
-def test_blocks_cannot_take_text_tables_or_csv_outputs(wav, tmp_path):
+def test_the_swt_is_taken_in_blocks_and_its_cost_said(wav, monkeypatch):
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 20)
+    swt = TransformSpec(kind="swt", level=8)
+    facts = memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=8 << 30)
+    cost = facts["in_blocks"]["bytes"]
+    # the SWT's blocks hold level + 1 bands: more than the DWT's, less than the whole array
+    dwt = memory_guard.check(wav, transform=TransformSpec(level=8), outputs=["out.wav"],
+                             available=8 << 30)["in_blocks"]["bytes"]
+    assert dwt < cost
+    with pytest.raises(ScalesieveError, match="even in blocks"):
+        memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=cost - 1)
+
+
+def test_blocks_cannot_take_text_tables_or_npz_outputs(wav, tmp_path):
     facts = memory_guard.probe_quietly(wav)
-    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.csv"],
+    ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.npz"],
                                      available=1)
-    assert not ok and "only audio outputs" in why
+    assert not ok and "only audio and CSV outputs" in why
     ok, why = memory_guard.in_blocks(dict(facts, kind="text"), transform=TransformSpec(),
                                      outputs=["o.wav"], available=1)
     assert not ok and "only audio files" in why

@@ -80,6 +80,9 @@ def _clean_in_pieces(args, recipe, quick, spec, bar) -> dict:
 
         resolved = replace(spec, level=default_level(max(int(facts["frames"]), 2), spec.wavelet))
     why = not_streamable(facts, resolved, outputs, args.fill_gaps, args.channel)
+    if why is None and resolved.kind != "dwt":
+        # time pieces join the DWT's blocks; the SWT in blocks runs in one process
+        why = f"the {resolved.kind.upper()} is cleaned in blocks in one process only"
     if why is not None:
         raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
                               f"{why}", args.file)

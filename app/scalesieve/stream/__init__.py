@@ -2,7 +2,8 @@
 
 ``dwt`` pushes blocks of samples through the forward cascade of
 ``core.transforms`` and synthesises blocks of output from the coefficients
-as they arrive; ``statistics`` gathers, in first passes, the few whole-band
+as they arrive; ``swt`` does the same for the SWT on the model's padded
+recording read as a circle; ``statistics`` gathers, in first passes, the few whole-band
 figures a threshold needs (medians for the noise, band sums for BayesShrink,
 a band's values for SURE); ``pipeline`` cleans one file and works out its
 band figures from guard to output; ``events`` finds transients; ``pieces``

@@ -24,8 +24,8 @@ import numpy as np
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
-from scalesieve.stream.pipeline import (READ_FRAMES, _AudioTarget, _Join, _Plan, _prepare,
-                                        _result, _Source, _thresholds)
+from scalesieve.stream.pipeline import (READ_FRAMES, _Join, _Plan, _prepare, _result, _Source,
+                                        _target, _thresholds)
 
 
 def clean_piece(job: dict) -> dict:
@@ -165,7 +165,7 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
         done = _run_dask(jobs, scheduler) if scheduler else _run_local(jobs, workers or 2)
         spent = time.perf_counter() - t0
         with contextlib.ExitStack() as stack:
-            targets = [_AudioTarget(stack, out, src, n, subtype, force, [input_path])
+            targets = [_target(stack, out, src, n, subtype, force, [input_path])
                        for out in outputs]
             join = _Join(src.channels, targets, removed is not None)
             pieces_in = _raw_blocks(raws, spans, src.channels)

@@ -26,6 +26,7 @@ import soundfile as sf
 
 from scalesieve.core import band_figures as bf
 from scalesieve.core import edits as ed
+from scalesieve.core import thresholds as th
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
@@ -34,35 +35,39 @@ from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
 
 #: frames read at a time
 READ_FRAMES = tf.BLOCK
+#: band-sized stretches of one channel an SWT in blocks holds at its peak, per block
+#: of coefficients (see stream_bytes; fitted to tests/perf/bench_long.py)
+SWT_COPIES = 5
 
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
                    fill_gaps: str | None = None, channel=None, swt: bool = False) -> str | None:
     """Why a command cannot run block by block, or None when it can.
 
-    ``swt``: the command reads SWT coefficients away from the edges only
-    (``events``), which blocks give in any boundary mode.
+    The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
+    kept for callers that passed it (``events``), and ``channel`` too: an
+    audio file's channel, by number or by name (``ch1``), is read in blocks.
     """
-    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION
+    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
     if facts is None or facts.get("kind") != "audio":
         return "only audio files (WAV, FLAC, AIFF, ...) are read in blocks"
     if not facts.get("frames_exact"):
         return "its header's frame count cannot be trusted"
-    if spec.kind == "swt" and swt:
-        pass
+    if spec.kind == "swt":
+        pass                   # every mode: the blocks read the circle the model pads
     elif spec.kind != "dwt":
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
     elif not can_stream(spec):
         return (f"boundary mode {spec.mode} reads the far end of the recording "
-                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect)")
+                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect, "
+                "or the SWT, which takes every mode in blocks)")
     for out in outputs:
-        if os.path.splitext(out)[1].lower() not in AUDIO_FORMAT_BY_EXTENSION:
-            return f"{os.path.basename(out)}: only audio outputs are written in blocks"
+        ext = os.path.splitext(out)[1].lower()
+        if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
+            return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
     if fill_gaps is not None:
         return "--fill-gaps needs the whole recording"
-    if channel is not None and not isinstance(channel, (int, np.integer)):
-        return "a channel chosen by name needs the whole recording"
     return None
 
 
@@ -78,6 +83,14 @@ def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
     from scalesieve.stream.dwt import MIN_STEP
 
     level = spec.level or tf.MAX_DEFAULT_LEVEL
+    if spec.kind == "swt":
+        from scalesieve.stream.swt import SWT_BLOCK
+
+        # per channel: the forward's window and its level + 1 bands, the inverse's
+        # window of level + 1 bands and what pywt.iswt makes of it (see stream.swt)
+        reach = 2 * (tf.filter_length(spec.wavelet) - 1) * 2 ** level
+        per_channel = 8 * (level + 1) * (SWT_BLOCK + 2 * reach) * SWT_COPIES
+        return int(channels * per_channel + 8 * 12 * READ_FRAMES + (96 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
     per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
     return int(channels * per_channel + (96 << 20))
@@ -150,7 +163,9 @@ def open_source(input_path: str, channel=None, rate: float | None = None) -> _So
     from scalesieve.io.csv_reader import check_channel, check_rate
 
     whole = _Source(input_path, None)
-    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path))
+    # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
+    names = [f"ch{k}" for k in range(whole.file_channels)]
+    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path, names))
     given = check_rate(rate, input_path)
     if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
         raise ScalesieveError(
@@ -215,6 +230,54 @@ class _AudioTarget:
 
     def finished(self) -> dict:
         return dict(self.report, clipped=int(self.clipped))
+
+
+class _CsvTarget:
+    """One CSV output written block by block as ``io.writers.write_csv`` writes it whole:
+    a ``time_s`` column from 0 in steps of 1/rate, then one column per channel, ``%.17g``."""
+
+    def __init__(self, stack: contextlib.ExitStack, target: str, src: _Source, n: int,
+                 force: bool, protect: Sequence[str]):
+        from scalesieve.io import writers as W
+        from scalesieve.io.atomic import atomic_target
+
+        self.rate = float(src.rate)
+        names = ([f"ch{k}" for k in range(src.channels)] if src.pick is None
+                 else [f"ch{src.pick}"])
+        self.row = ",".join(["%.17g"] * (src.channels + 1)) + "\n"
+        self.report = {"path": target, "kind": "csv", "format": None, "subtype": None,
+                       "rate": self.rate, "channels": int(src.channels), "frames": int(n)}
+        tmp = stack.enter_context(atomic_target(target, force=force, protect=protect))
+        self.file = stack.enter_context(open(tmp, "w", encoding="utf-8", newline=""))
+        self.file.write(W._header_line(["time_s"] + names))
+        self.target, self.done = target, 0
+
+    def write(self, block: np.ndarray) -> None:
+        from scalesieve.io.writers import _CSV_CHUNK_ROWS
+
+        if not np.isfinite(block).all():
+            raise ScalesieveError("the cleaned signal holds NaN or infinite values",
+                                  source=self.target)
+        for a in range(0, block.shape[0], _CSV_CHUNK_ROWS):
+            part = block[a:a + _CSV_CHUNK_ROWS]
+            start = self.done
+            chunk = np.empty((part.shape[0], part.shape[1] + 1), dtype=np.float64)
+            chunk[:, 0] = np.arange(start, start + part.shape[0], dtype=np.float64) / self.rate
+            chunk[:, 1:] = part
+            self.file.write((self.row * part.shape[0]) % tuple(chunk.ravel().tolist()))
+            self.done += part.shape[0]
+
+    def finished(self) -> dict:
+        return dict(self.report, clipped=0)
+
+
+def _target(stack, out: str, src: _Source, n: int, subtype, force: bool, protect):
+    """The writer of one output in blocks: CSV for .csv/.txt, else audio."""
+    from scalesieve.io.writers import CSV_EXTENSIONS
+
+    if os.path.splitext(out)[1].lower() in CSV_EXTENSIONS:
+        return _CsvTarget(stack, out, src, n, force, protect)
+    return _AudioTarget(stack, out, src, n, subtype, force, protect)
 
 
 class _Join:
@@ -328,8 +391,11 @@ class _Plan:
         def positions():
             raise AssertionError("positions are found by span in blocks")
 
+        # noise: finest carries level 1's sigma by the transform's white-noise gain
+        gain = th.white_noise_gain(spec.kind, key, spec.level)
         return ed.BandContext(key=key, n_samples=self.n, rate=rate, positions=positions,
-                              sigma_finest=lambda: sigma(1), sigma_level=lambda: sigma(key),
+                              sigma_finest=lambda: sigma(1) * gain,
+                              sigma_level=lambda: sigma(key),
                               span=lambda lo, hi: tf.coefficient_slice(key, spec, count, lo, hi))
 
     def resolve(self) -> bool:
@@ -441,14 +507,107 @@ def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> in
         if depth == 0:  # pragma: no cover - resolve() always leaves something to gather
             raise AssertionError("a threshold waits for nothing")
         puts = [plan.gatherer(k) for k in range(src.channels)]
-        streams = [ForwardStream(n, spec, puts[k], depth=depth) for k in range(src.channels)]
-        for block in src.blocks():
-            for k, s in enumerate(streams):
-                s.feed(block[:, k])
-            report(passes, streams[0].fed, "gathering the noise and band figures")
+        if spec.kind == "swt":
+            _swt_pass(src, spec, depth, puts, report, passes)
+        else:
+            streams = [ForwardStream(n, spec, puts[k], depth=depth)
+                       for k in range(src.channels)]
+            for block in src.blocks():
+                for k, s in enumerate(streams):
+                    s.feed(block[:, k])
+                report(passes, streams[0].fed, "gathering the noise and band figures")
         plan.end_pass()
         passes += 1
     return passes
+
+
+def _circle(src: _Source, spec: tf.TransformSpec):
+    """The model's padded recording as a circle, its padding read once (stream.swt)."""
+    from scalesieve.stream.swt import Circle
+
+    key = (spec.level, spec.mode)
+    if getattr(src, "circle_key", None) != key:
+        src.circle, src.circle_key = Circle(src, spec.level, spec.mode), key
+    return src.circle
+
+
+def _swt_feed(src: _Source, spec: tf.TransformSpec, depth: int, lo: int, hi: int,
+              puts: list, each_block=None) -> None:
+    """Coefficients ``lo .. hi`` (unwrapped) of the SWT to ``depth`` of every channel.
+
+    ``puts[k](index, k0, r, values)`` gets them in blocks cut where the circle
+    closes (``k0`` unwrapped, ``r`` its place on the circle);
+    ``each_block(t, samples, fraction)`` sees each block of the circle fed.
+    """
+    from scalesieve.stream.swt import SwtForward
+
+    circle = _circle(src, spec)
+    N = circle.N
+
+    def cut(put):
+        def split(index, k0, values):
+            a = 0
+            while a < values.shape[0]:
+                r = (k0 + a) % N
+                b = min(values.shape[0], a + N - r)
+                put(index, k0 + a, r, values[a:b])
+                a = b
+        return split
+
+    streams = [SwtForward(spec.wavelet, depth, lo, hi, cut(puts[k]))
+               for k in range(src.channels)]
+    t0, t1 = streams[0].samples
+    t = t0
+    for block in circle.blocks(t0, t1, READ_FRAMES):
+        for k, f in enumerate(streams):
+            f.feed(block[:, k])
+        if each_block is not None:
+            each_block(t, block, (t + block.shape[0] - t0) / max(1, t1 - t0))
+        t += block.shape[0]
+
+
+def _swt_pass(src, spec, depth, gatherers, report, passes) -> None:
+    """A first pass of the SWT: every coefficient of the circle once, to the gatherers."""
+    def put_key(g):
+        def put(index, k0, r, values):
+            if index == 0 and depth != spec.level:
+                return                       # the approximation at ``depth``: not a band
+            g("a" if index == 0 else depth - index + 1, r, values)
+        return put
+
+    N = tf.swt_padded_length(src.frames, spec.level)
+    _swt_feed(src, spec, depth, 0, N, [put_key(g) for g in gatherers],
+              lambda t, b, f: report(passes, f * src.frames,
+                                     "gathering the noise and band figures"))
+
+
+def _clean_swt(src: _Source, spec: tf.TransformSpec, plan: _Plan, join, report,
+               passes: int) -> None:
+    """The cleaning pass of the SWT: circle -> coefficients -> recipe -> iswt -> join."""
+    from scalesieve.stream.swt import SwtInverse, band_key, inverse_reach
+
+    n, level = src.frames, spec.level
+    d0, d1 = inverse_reach(spec.wavelet, level)
+    inverses, puts = [], []
+    for k in range(src.channels):
+        inv = SwtInverse(spec.wavelet, level, lambda s0, seg, k=k: join.put(k, s0, seg), 0, n)
+        bands = plan.bands[k]
+
+        def put(index, k0, r, values, inv=inv, bands=bands):
+            inv.put(index, k0, bands[band_key(index, level)].edited(values, r))
+        inverses.append(inv)
+        puts.append(put)
+
+    def each_block(t, block, fraction):
+        a, b = max(t, 0), min(t + block.shape[0], n)
+        if b > a:                            # the recording itself, once, in order
+            join.add_input(block[a - t:b - t])
+        for inv in inverses:
+            inv.pump()
+        join.flush()
+        report(passes, fraction * n, "cleaning")
+    # the first outputs read the circle's last coefficients, the last ones its first
+    _swt_feed(src, spec, level, -d1, n - d0, puts, each_block)
 
 
 def _result(src, reports, join, passes, spec, edits=()) -> dict:
@@ -492,11 +651,11 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
 
     passes = _thresholds(src, spec, plan, report)
     with contextlib.ExitStack() as stack:
-        targets = [_AudioTarget(stack, out, src, n, subtype, force, [input_path])
+        targets = [_target(stack, out, src, n, subtype, force, [input_path])
                    for out in outputs]
         join = _Join(src.channels, targets, removed is not None)
         inverses, forwards = [], []
-        for k in range(src.channels):
+        for k in range(src.channels if spec.kind == "dwt" else 0):
             inv = InverseStream(n, spec, lambda s0, seg, k=k: join.put(k, s0, seg))
             bands = plan.bands[k]
 
@@ -504,7 +663,9 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
                 inv.put(key, k0, bands[key].edited(c, k0))
             inverses.append(inv)
             forwards.append(ForwardStream(n, spec, put))
-        for block in src.blocks():
+        if spec.kind == "swt":
+            _clean_swt(src, spec, plan, join, report, passes)
+        for block in src.blocks() if spec.kind == "dwt" else ():
             join.add_input(block)
             for k in range(src.channels):
                 forwards[k].feed(block[:, k])
@@ -542,6 +703,8 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
         spec = spec.resolved(n)
     except ValueError as exc:
         raise ScalesieveError(str(exc), input_path) from None
+    if spec.kind == "swt":
+        return _band_figures_swt(src, spec, progress)
     if not can_stream(spec):
         raise ScalesieveError(not_streamable({"kind": "audio", "frames_exact": True}, spec,
                                              ()), input_path)
@@ -572,6 +735,55 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
                 inv.pump()
         if progress:
             progress(forwards[0].fed / n, "band figures")
+    return _band_rows(src, spec, energy, moments, comp)
+
+
+def _band_figures_swt(src: _Source, spec: tf.TransformSpec, progress) -> tuple[dict, list]:
+    """``band_figures_stream`` of the SWT: one pass over the circle (stream.swt)."""
+    from scalesieve.stream.swt import SwtComponent, band_key, inverse_reach
+
+    n, level = src.frames, spec.level
+    N = tf.swt_padded_length(n, level)
+    keys = tf.band_keys(level)
+    energy = [0.0] * src.channels
+    moments = [{key: st.Moments() for key in keys} for _ in range(src.channels)]
+    comp = [{key: [0.0, 0.0] for key in keys} for _ in range(src.channels)]   # sum sq, peak
+    makers, puts = [], []
+    for k in range(src.channels):
+        def add(s0, seg, acc):
+            acc[0] += float(plain_dot(seg, seg))
+            if seg.size:
+                acc[1] = max(acc[1], float(np.max(np.abs(seg))))
+        mk = [SwtComponent(spec.wavelet, level, i,
+                           lambda s0, seg, acc=comp[k][band_key(i, level)]: add(s0, seg, acc),
+                           0, n) for i in range(level + 1)]
+
+        def put(index, k0, r, values, k=k, mk=mk):
+            if 0 <= k0 < N:                  # each coefficient of the circle counted once
+                moments[k][band_key(index, level)].add(values)
+            mk[index].put(index, k0, values)
+        makers.append(mk)
+        puts.append(put)
+
+    def each_block(t, block, fraction):
+        a, b = max(t, 0), min(t + block.shape[0], n)
+        if b > a:
+            for k in range(src.channels):
+                col = np.ascontiguousarray(block[a - t:b - t, k])
+                energy[k] += float(plain_dot(col, col))
+        for mk in makers:
+            for m in mk:
+                m.pump()
+        if progress:
+            progress(fraction, "band figures")
+    d0, d1 = inverse_reach(spec.wavelet, level)
+    _swt_feed(src, spec, level, -d1, n - d0, puts, each_block)
+    return _band_rows(src, spec, energy, moments, comp)
+
+
+def _band_rows(src: _Source, spec: tf.TransformSpec, energy, moments, comp):
+    """``band_figures_stream``'s answer from the sums gathered."""
+    n = src.frames
     lengths = tf.band_lengths(n, spec)
     channels = []
     for k in range(src.channels):
