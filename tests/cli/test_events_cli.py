@@ -105,7 +105,7 @@ def test_levels_and_k_are_honoured(tmp_path, capsys):
     d = _json(capsys, str(f), "--levels", "1", "--k", "8", "--channel", "1")
     assert d["levels"] == [1] and d["k"] == 8.0
     assert d["events"] and all(e["level"] == 1 and e["score"] > 8 for e in d["events"])
-    assert {e["channel"] for e in d["events"]} == {0}     # one channel read: it is channel 0
+    assert {e["channel"] for e in d["events"]} == {1}     # the file's own index is kept
 
 
 def _count_line(text: str) -> int:

@@ -37,7 +37,8 @@ def band_report(model, file_label: str) -> dict:
         "samples": rec.n,
         "duration_s": rec.duration_s,
         "transform": model.spec.to_json(),
-        "channels": [{"index": k, "name": rec.channel_names[k], "bands": model.band_table(k)}
+        "channels": [{"index": rec.file_index(k), "name": rec.channel_names[k],
+                      "bands": model.band_table(k)}
                      for k in range(rec.channels)],
         "start_time": rec.start_time.isoformat() if rec.start_time is not None else None,
         "warnings": list(rec.warnings),
@@ -60,7 +61,8 @@ def _report_in_blocks(args, spec, progress) -> dict:
         "transform": facts["spec"].to_json(),
         "start_time": None,              # audio files carry no clock
         "warnings": _audio_warnings(args.file, facts["samples"]),
-        "channels": [{"index": k, "name": f"ch{k if pick is None else pick}", "bands": rows}
+        "channels": [{"index": k if pick is None else pick,
+                      "name": f"ch{k if pick is None else pick}", "bands": rows}
                      for k, rows in enumerate(channels)],
     }
 

@@ -27,6 +27,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import re
 import sys
 from dataclasses import replace
 
@@ -114,12 +115,18 @@ CLOCK_FIELDS = ("start_clock", "stop_clock", "peak_clock")
 def event_rows(recording, events) -> list[dict]:
     """Events as dicts; with the recording's clock, its ISO 8601 times beside the seconds."""
     rows = [e.to_json() for e in events]
+    for row in rows:                      # the file's own channel index (--channel K keeps K)
+        row["channel"] = recording.file_index(row["channel"])
     if recording.start_time is not None:
         for row in rows:
             for field in CLOCK_FIELDS:
                 at = recording.clock_at(row[field.replace("_clock", "_s")])
                 row[field] = at.isoformat(timespec="microseconds")
     return rows
+
+
+def _file_channel(recording, rep: dict | None) -> dict | None:
+    return None if rep is None else {**rep, "channel": recording.file_index(rep["channel"])}
 
 
 def events_report(recording, spec, levels, k, events, noise, file_label: str) -> dict:
@@ -132,7 +139,7 @@ def events_report(recording, spec, levels, k, events, noise, file_label: str) ->
         "rate": recording.rate,
         "levels": list(levels),
         "k": k,
-        "noise": noise,
+        "noise": [{**r, "channel": recording.file_index(r["channel"])} for r in noise],
         "events": event_rows(recording, events),
         "start_time": (recording.start_time.isoformat()
                        if recording.start_time is not None else None),
@@ -140,10 +147,10 @@ def events_report(recording, spec, levels, k, events, noise, file_label: str) ->
         "samples": recording.n,
         "duration_s": recording.duration_s,
         "transform": spec.to_json(),
-        "channels": [{"index": c, "name": recording.channel_names[c]}
+        "channels": [{"index": recording.file_index(c), "name": recording.channel_names[c]}
                      for c in range(recording.channels)],
-        "repetition": best,
-        "repetition_by_channel": per,
+        "repetition": _file_channel(recording, best),
+        "repetition_by_channel": [_file_channel(recording, r) for r in per],
     }
 
 
@@ -214,8 +221,19 @@ def _in_blocks(args):
                           duration_s=got["samples"] / got["rate"],
                           channel_names=got["channel_names"],
                           start_time=None,       # audio files carry no clock
-                          warnings=tuple(_audio_warnings(args.file, got["samples"])))
+                          warnings=tuple(_audio_warnings(args.file, got["samples"])),
+                          file_index=lambda k: _picked(args.channel, got["channel_names"], k))
     return rec, spec, levels, events, noise
+
+
+def _picked(channel, names, k: int) -> int:
+    """The file's index of the one channel read in blocks (audio names are chK)."""
+    if channel is None:
+        return k
+    if str(channel).isdigit():
+        return int(channel)
+    m = re.fullmatch(r"ch(\d+)", names[k]) if k < len(names) else None
+    return int(m.group(1)) if m else k
 
 
 def run(args) -> int:

@@ -74,6 +74,11 @@ class Recording:
                          self.format, self.subtype, dict(self.meta), self.start_time,
                          self.warnings, [self.units[k] for k in channels])
 
+    def file_index(self, k: int) -> int:
+        """Channel ``k``'s index in the file it was read from (``--channel`` keeps one)."""
+        pick = self.meta.get("channel_index")
+        return int(pick) if pick is not None and self.channels == 1 else k
+
     def clock_at(self, seconds: float) -> datetime | None:
         """The recording's own clock ``seconds`` after its first sample, or ``None``."""
         if self.start_time is None:
