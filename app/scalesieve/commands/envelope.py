@@ -41,7 +41,7 @@ def configure(p) -> None:
     p.add_argument("--json", action="store_true", help="print JSON (shared contract)")
     p.add_argument("--csv", metavar="OUT", help="write the envelope spectrum (hz, amplitude)")
     p.add_argument("--force", action="store_true", help="replace an existing --csv file")
-    add_transform_options(p)
+    add_transform_options(p, level_help="deepest packet depth looked at (default 6)")
     add_input_options(p)
 
 

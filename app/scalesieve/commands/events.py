@@ -89,6 +89,9 @@ def spec_from(args, n: int, source: str | None = None):
     from scalesieve.core import events as ev
 
     spec = transform_from(args)
+    if spec.kind == "packet":
+        raise ScalesieveError("--transform packet: events are found on DWT or SWT detail levels "
+                              "(for packet bands use the kurtosis and envelope commands)")
     if args.transform is None:
         spec = replace(spec, kind=ev.DEFAULT_KIND)
     try:

@@ -23,7 +23,7 @@ def configure(p) -> None:
     p.description = __doc__.strip()
     p.add_argument("file", metavar="FILE", help="recording (first channel unless --channel)")
     p.add_argument("--json", action="store_true", help="print JSON (shared contract)")
-    add_transform_options(p)
+    add_transform_options(p, level_help="deepest packet depth looked at (default 6)")
     add_input_options(p)
 
 
@@ -35,6 +35,10 @@ def packet_options(args, n: int, source: str):
     if args.transform not in (None, "packet"):
         raise ScalesieveError(f"--transform {args.transform}: this command works on packet "
                               "bands (leave --transform out or give packet)")
+    given = [f"--{o}" for o in ("basis", "cost") if getattr(args, o, None) is not None]
+    if given:
+        raise ScalesieveError(f"{' and '.join(given)}: this command looks at every packet band "
+                              "of each depth, so no basis is chosen")
     wavelet = args.wavelet or "db4"
     if wavelet not in discrete_wavelets():
         raise ScalesieveError(f"--wavelet {wavelet!r} is not a discrete PyWavelets wavelet "

@@ -40,7 +40,7 @@ def _channel(text: str) -> int | str:
     return v
 
 
-def add_transform_options(p: argparse.ArgumentParser) -> None:
+def add_transform_options(p: argparse.ArgumentParser, level_help: str | None = None) -> None:
     g = p.add_argument_group("transform")
     g.add_argument("--transform", choices=("dwt", "swt", "packet"), default=None,
                    help="dwt (decimated, default), swt (undecimated) or packet (wavelet "
@@ -48,7 +48,8 @@ def add_transform_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--wavelet", default=None, metavar="NAME",
                    help="any discrete PyWavelets wavelet (default db4)")
     g.add_argument("--level", type=_level, default=None, metavar="N",
-                   help="decomposition depth (default: two short of the deepest the data allow, at most 12)")
+                   help=level_help or "decomposition depth (default: two short of the deepest "
+                                      "the data allow, at most 12)")
     g.add_argument("--mode", default=None, metavar="MODE",
                    help="boundary mode as PyWavelets names it (default symmetric)")
     g.add_argument("--basis", choices=("full", "best"), default=None,
@@ -100,5 +101,10 @@ def transform_from(args, recipe_spec=None):
                               f"(for example db4, sym8, coif3, bior3.5, haar)")
     if args.mode is not None and args.mode not in MODES:
         raise ScalesieveError(f"--mode {args.mode!r} is not one of {', '.join(MODES)}")
-    return api.merge_transform(recipe_spec, args.transform, args.wavelet, args.level, args.mode,
+    spec = api.merge_transform(recipe_spec, args.transform, args.wavelet, args.level, args.mode,
                                basis=getattr(args, "basis", None), cost=getattr(args, "cost", None))
+    given = [f"--{o}" for o in ("basis", "cost") if getattr(args, o, None) is not None]
+    if given and spec.kind != "packet":
+        raise ScalesieveError(f"{' and '.join(given)} apply to --transform packet only "
+                              f"(this transform is {spec.kind})")
+    return spec
