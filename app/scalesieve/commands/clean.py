@@ -64,32 +64,6 @@ def _workers(text: str) -> int:
     return value
 
 
-def _clean_in_pieces(args, recipe, quick, spec, bar) -> dict:
-    """``--workers`` / ``--scheduler``: the recording cut in time pieces, cleaned apart, joined."""
-    from scalesieve import memory_guard
-    from scalesieve.stream.pieces import clean_pieces
-    from scalesieve.stream.pipeline import not_streamable
-
-    outputs = [args.output] + ([args.removed] if args.removed else [])
-    facts = memory_guard.probe_quietly(args.file)
-    resolved = spec
-    if facts is not None and spec.level is None:
-        from dataclasses import replace
-
-        from scalesieve.core.transforms import default_level
-
-        resolved = replace(spec, level=default_level(max(int(facts["frames"]), 2), spec.wavelet))
-    why = not_streamable(facts, resolved, outputs, args.fill_gaps, args.channel)
-    if why is not None:
-        raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
-                              f"{why}", args.file)
-    return clean_pieces(args.file, args.output, workers=args.workers, scheduler=args.scheduler,
-                        pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
-                        removed=args.removed, subtype=args.subtype, force=args.force,
-                        rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
-                        progress=bar)
-
-
 def edits_from_args(args):
     """Quick edits from --zero and --threshold, as recipe edits."""
     from scalesieve.recipe import Edit, parse_levels
@@ -117,8 +91,7 @@ def edits_from_args(args):
 
 
 def run(args) -> int:
-    from scalesieve import memory_guard
-    from scalesieve.batch import clean_file
+    from scalesieve import pipeline
     from scalesieve.commands import progress
     from scalesieve.recipe import load as load_recipe
 
@@ -135,19 +108,24 @@ def run(args) -> int:
         if args.save_recipe in (args.output, args.removed):
             raise ScalesieveError("--save-recipe names the same file as an output",
                                   args.save_recipe)
-    facts = memory_guard.check(args.file, channel=args.channel, transform=spec,
-                               outputs=[args.output] + ([args.removed] if args.removed else []),
-                               fill_gaps=args.fill_gaps)
-    # The same function cleans each file of `scalesieve batch`: identical outputs.
+    facts = pipeline.guard(args.file, channel=args.channel, transform=spec,
+                           outputs=[args.output] + ([args.removed] if args.removed else []),
+                           fill_gaps=args.fill_gaps)
+    # The same pipeline cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if args.workers or args.scheduler:
-            res = _clean_in_pieces(args, recipe, quick, spec, bar)
+            res = pipeline.clean_in_pieces(
+                args.file, args.output, workers=args.workers, scheduler=args.scheduler,
+                pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
+                removed=args.removed, subtype=args.subtype, force=args.force, rate=args.rate,
+                channel=args.channel, fill_gaps=args.fill_gaps, progress=bar)
         else:
-            res = clean_file(args.file, args.output, recipe=recipe, transform=spec,
-                             edits=quick, removed=args.removed, subtype=args.subtype,
-                             force=args.force, rate=args.rate, channel=args.channel,
-                             fill_gaps=args.fill_gaps, progress=bar, group=args.group,
-                             dataset=args.dataset)
+            res = pipeline.clean_file(args.file, args.output, recipe=recipe, transform=spec,
+                                      edits=quick, removed=args.removed, subtype=args.subtype,
+                                      force=args.force, rate=args.rate, channel=args.channel,
+                                      fill_gaps=args.fill_gaps, progress=bar,
+                                      group=args.group, dataset=args.dataset, facts=facts,
+                                      guarded=True)
     for w in res.get("warnings", ()):
         print(f"scalesieve: warning: {args.file}: {w}", file=sys.stderr)
     if args.save_recipe:
