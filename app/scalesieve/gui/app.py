@@ -64,8 +64,10 @@ def make_application(argv: list[str] | None = None):
     from PySide6.QtWidgets import QApplication
 
     from scalesieve.gui.freed_memory import keep_freed_memory
+    from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 
+    guard_leaked_singletons()   # before the first signal: see the module for the versions
     app = QApplication.instance()
     if app is None:
         keep_freed_memory()     # an edit's temporaries are reused, not fresh pages each time

@@ -22,15 +22,15 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFrame,
                                QSizePolicy, QToolButton, QVBoxLayout, QWidget, QWidgetAction)
 
 from scalesieve.core import transforms as tf
-from scalesieve.gui.band_edits import (ALL_DETAILS, edits_on_band, own_edit, set_band_gain,
+from scalesieve.views.band_edits import (ALL_DETAILS, edits_on_band, own_edit, set_band_gain,
                                        set_band_threshold)
-from scalesieve.gui.band_labels import db_to_gain, format_seconds, gain_to_db, hz_range
-from scalesieve.gui.decimate import maxabs_columns, maxabs_columns_from_blocks
-from scalesieve.gui.edit_words import edit_text
+from scalesieve.views.band_labels import db_to_gain, format_seconds, gain_to_db, hz_range
+from scalesieve.views.decimate import maxabs_columns, maxabs_columns_from_blocks
+from scalesieve.views.edit_words import edit_text
 from scalesieve.gui.pane_frame import (AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, TimeViewBox,
                                        make_plot, tick_font)
 from scalesieve.gui.resource_files import colour, palette
-from scalesieve.gui.thread_priority import lower_this_thread
+from scalesieve.views.thread_priority import lower_this_thread
 from scalesieve.gui.row_headers import GAIN_MIN_DB, GAIN_MAX_DB, MUTE_TEXT, RowHeader, RowHeaderColumn
 from scalesieve.gui.threshold_form import RULE_TIPS, ThresholdForm
 from scalesieve.gui.transform_line import TransformLine
