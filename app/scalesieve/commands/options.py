@@ -40,11 +40,12 @@ def _channel(text: str) -> int | str:
     return v
 
 
-def add_transform_options(p: argparse.ArgumentParser) -> None:
+def add_transform_options(p: argparse.ArgumentParser, transform_help: str | None = None) -> None:
+    """The transform options; ``transform_help`` for a command whose default differs."""
     g = p.add_argument_group("transform")
     g.add_argument("--transform", choices=("dwt", "swt", "packet"), default=None,
-                   help="dwt (decimated, default), swt (undecimated) or packet (wavelet "
-                        "packet bands wJ.K of equal width)")
+                   help=transform_help or ("dwt (decimated, default), swt (undecimated) or "
+                                           "packet (wavelet packet bands wJ.K of equal width)"))
     g.add_argument("--wavelet", default=None, metavar="NAME",
                    help="any discrete PyWavelets wavelet (default db4)")
     g.add_argument("--level", type=_level, default=None, metavar="N",

@@ -35,8 +35,9 @@ from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
 from scalesieve.io import time_column as tc
 from scalesieve.io.gaps import check_fill_method, fill_linear
-from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_too_large,
-                                       os_error_message)
+# check_rate and check_channel live in input_check (every reader uses them); still importable here
+from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_channel, check_rate,  # noqa: F401
+                                       check_readable, first_too_large, os_error_message)
 
 #: Largest relative spread of time steps, (max - min) / median, still called uniform.
 UNIFORM_STEP_TOLERANCE = tc.UNIFORM_STEP_TOLERANCE
@@ -591,55 +592,6 @@ def read_text_file(path: str | os.PathLike[str]) -> tuple[str, str, str]:
         raise ScalesieveError("is too large to load into memory", source=source) from None
     text, encoding = decode_text(raw, source)
     return source, text, encoding
-
-
-def check_rate(rate, source: str | None = None) -> float | None:
-    """``rate`` as a positive finite float (or ``None``), else a ScalesieveError."""
-    if rate is None:
-        return None
-    try:
-        r = float(rate)
-    except (TypeError, ValueError):
-        raise ScalesieveError(f"--rate must be a number of Hz, got {rate!r}",
-                              source=source) from None
-    if not math.isfinite(r) or r <= 0:
-        raise ScalesieveError(f"--rate must be a positive number of Hz, got {rate!r}",
-                              source=source)
-    return r
-
-
-def check_channel(channel, count: int, source: str | None = None,
-                  names: list[str] | None = None) -> int | None:
-    """Validate a 0-based channel index (or, given ``names``, a channel's name)."""
-    if channel is None:
-        return None
-    if isinstance(channel, str) and not channel.strip().isdigit():
-        wanted = channel.strip()
-        if names is not None:
-            for rule in (lambda n: n == wanted, lambda n: n.lower() == wanted.lower(),
-                         lambda n: n.split(" [")[0].lower() == wanted.lower()):
-                hits = [k for k, n in enumerate(names) if rule(n)]
-                if len(hits) == 1:
-                    return hits[0]
-        listed = ", ".join(repr(n) for n in (names or [])[:12])
-        raise ScalesieveError(
-            f"--channel {wanted!r} names no channel; the file's channels are {listed}"
-            if names else f"--channel must be a 0-based channel number or a channel's name, "
-            f"got {channel!r}", source=source)
-    if isinstance(channel, bool):
-        raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
-                              source=source)
-    try:
-        k = int(channel) if isinstance(channel, str) else channel.__index__()
-    except (TypeError, ValueError, AttributeError):
-        raise ScalesieveError(f"--channel must be a 0-based channel number, got {channel!r}",
-                              source=source) from None
-    if not 0 <= k < count:
-        plural = "channel" if count == 1 else "channels"
-        raise ScalesieveError(
-            f"channel {k} does not exist; the file has {count} {plural} "
-            f"(0-based: 0 to {count - 1})", source=source)
-    return k
 
 
 def _time_axis_rate(t: np.ndarray, line_of, source: str) -> float:
