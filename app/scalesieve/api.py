@@ -140,12 +140,16 @@ def save_recipe(model_or_recipe, path: str | os.PathLike, force: bool = False) -
     write_json(os.fspath(path), recipe.to_json(), force=force)
 
 
-def check_target(path: str, force: bool, inputs: Sequence[str] = ()) -> None:
-    """Refuse before any work: an input file, a folder, a missing folder, or an
-    existing file without ``force`` (``scalesieve.io.atomic.check_target``)."""
+def check_target(path: str, force: bool = False, protect: Sequence[str] = (), *,
+                 inputs: Sequence[str] | None = None) -> None:
+    """Refuse before any work: a file in ``protect`` (the inputs), a folder, a missing
+    folder, or an existing file without ``force`` (``scalesieve.io.atomic.check_target``).
+
+    ``inputs`` is the earlier name of ``protect`` (kept working).
+    """
     from scalesieve.io.atomic import check_target as _check
 
-    _check(path, force=force, protect=list(inputs))
+    _check(path, force=force, protect=list(protect) + list(inputs or ()))
 
 
 def clean(path: str | os.PathLike, output: str | os.PathLike, recipe: Recipe | None = None, *,

@@ -11,11 +11,13 @@ from scalesieve.errors import ScalesieveError
 def configure(p) -> None:
     p.add_argument("file", metavar="FILE", help="recording to clean (never overwritten)")
     p.add_argument("-o", "--output", required=True, metavar="OUT",
-                   help="cleaned file (.wav .flac .aiff .csv); format from the extension")
+                   help="output file: the cleaned signal (.wav .flac .aiff .csv); format from "
+                        "the extension")
     g = p.add_argument_group("edits (applied in this order: recipe, --zero, --threshold)")
     g.add_argument("--recipe", metavar="R.json", help="recipe file (version 1)")
-    g.add_argument("--zero", metavar="LEVELS",
-                   help="mute bands: 1,2 or 1-3 or details or all; 'a' is the approximation")
+    g.add_argument("--zero", "--mute", metavar="LEVELS",
+                   help="mute bands (gain 0): 1,2 or 1-3 or details or all; 'a' is the "
+                        "approximation (--mute is the same option)")
     g.add_argument("--threshold", metavar="RULE",
                    choices=("universal", "sure", "bayes", "minimax", "manual"),
                    help="threshold all detail levels: universal, sure, bayes, minimax, manual")
@@ -32,7 +34,8 @@ def configure(p) -> None:
     g.add_argument("--threshold-levels", default="details", metavar="LEVELS",
                    help="levels --threshold applies to (default details)")
     o = p.add_argument_group("output")
-    o.add_argument("--removed", metavar="OUT2", help="also write what was removed")
+    o.add_argument("--removed", metavar="OUT2",
+                   help="also write the removed signal (original minus cleaned) to this file")
     o.add_argument("--subtype", metavar="SUBTYPE",
                    help="output sample format, e.g. PCM_16, PCM_24, FLOAT (default: as input)")
     o.add_argument("--save-recipe", metavar="R.json", dest="save_recipe",

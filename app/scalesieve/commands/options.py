@@ -48,8 +48,9 @@ def add_transform_options(p: argparse.ArgumentParser, transform_help: str | None
                                            "packet (wavelet packet bands wJ.K of equal width)"))
     g.add_argument("--wavelet", default=None, metavar="NAME",
                    help="any discrete PyWavelets wavelet (default db4)")
-    g.add_argument("--level", type=_level, default=None, metavar="N",
-                   help="decomposition depth (default: two short of the deepest the data allow, at most 12)")
+    g.add_argument("--level", "--depth", type=_level, default=None, metavar="N",
+                   help="depth: how many levels the transform has (default: two short of the "
+                        "deepest the data allow, at most 12; --depth is the same option)")
     g.add_argument("--mode", default=None, metavar="MODE",
                    help="boundary mode as PyWavelets names it (default symmetric)")
     g.add_argument("--basis", choices=("full", "best"), default=None,
