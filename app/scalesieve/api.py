@@ -26,7 +26,8 @@ from scalesieve.recipe import load as load_recipe
 from scalesieve.recipe import parse_levels
 
 __all__ = ["load", "load_recipe", "build_model", "export", "Edit", "Recipe", "TransformSpec",
-           "DecompositionModel", "Recording", "parse_levels", "merge_transform", "save_recipe"]
+           "DecompositionModel", "Recording", "parse_levels", "merge_transform", "save_recipe",
+           "clean", "check_target"]
 
 
 def load(path: str | os.PathLike, *, rate: float | None = None,
@@ -143,16 +144,36 @@ def save_recipe(model_or_recipe, path: str | os.PathLike, force: bool = False) -
     write_json(os.fspath(path), recipe.to_json(), force=force)
 
 
-def check_target(path: str, force: bool, inputs: Sequence[str] = ()) -> None:
-    """Refuse before any work: an existing file without force, or an input file."""
-    real = os.path.realpath(path)
-    for src in inputs:
-        if src and os.path.exists(src) and os.path.realpath(src) == real:
-            raise ScalesieveError("refusing to write over the input file", path)
-    if os.path.isdir(path):
-        raise ScalesieveError("is a folder; give a file name to write", path)
-    if os.path.exists(path) and not force:
-        raise ScalesieveError("exists; use --force to replace it", path)
-    parent = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(parent):
-        raise ScalesieveError(f"folder {parent} does not exist", path)
+def check_target(path: str, force: bool = False, protect: Sequence[str] = (), *,
+                 inputs: Sequence[str] | None = None) -> None:
+    """Refuse before any work: a file in ``protect`` (the inputs), a folder, a missing
+    folder, or an existing file without ``force`` (``scalesieve.io.atomic.check_target``).
+
+    ``inputs`` is the earlier name of ``protect`` (kept working).
+    """
+    from scalesieve.io.atomic import check_target as _check
+
+    _check(path, force=force, protect=list(protect) + list(inputs or ()))
+
+
+def clean(path: str | os.PathLike, output: str | os.PathLike, recipe: Recipe | None = None, *,
+          transform: TransformSpec | None = None, edits: Sequence[Edit] = (),
+          removed: str | os.PathLike | None = None, subtype: str | None = None,
+          force: bool = False, rate: float | None = None, channel: int | str | None = None,
+          fill_gaps: str | None = None, group: str | None = None,
+          dataset: str | None = None) -> dict:
+    """Clean one recording into ``output``: what ``scalesieve clean`` does, same files.
+
+    The one pipeline for one file (``scalesieve.pipeline.clean_file``): the
+    memory guard, then the recording read whole or in blocks, the recipe and
+    ``edits`` applied, the cleaned (and, with ``removed``, the removed) signal
+    written.  Returns the report (``samples``, ``channels``, ``rate``,
+    ``outputs``, ``clipped``, ``energy_removed_fraction``, ``recipe`` as
+    applied, ``warnings``).
+    """
+    from scalesieve.pipeline import clean_file
+
+    return clean_file(os.fspath(path), os.fspath(output), recipe=recipe, transform=transform,
+                      edits=tuple(edits), removed=os.fspath(removed) if removed else None,
+                      subtype=subtype, force=force, rate=rate, channel=channel,
+                      fill_gaps=fill_gaps, group=group, dataset=dataset)

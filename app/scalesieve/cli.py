@@ -73,26 +73,10 @@ def build_parser(command: str | None) -> tuple[argparse.ArgumentParser, object]:
     return p, mod
 
 
-def _log_failure(exc: BaseException) -> str:
-    import datetime
-    import os
-    import traceback
+def _log_failure(exc: BaseException) -> str | None:
+    from scalesieve.failure_log import log_exception
 
-    try:
-        from platformdirs import user_log_dir
-
-        folder = user_log_dir("scalesieve", appauthor=False)
-    except Exception:  # platformdirs missing or broken: fall back to a temp folder
-        import tempfile
-
-        folder = os.path.join(tempfile.gettempdir(), "scalesieve-logs")
-    os.makedirs(folder, exist_ok=True)
-    stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S")
-    path = os.path.join(folder, f"failure-{stamp}-{os.getpid()}.log")
-    with open(path, "w", encoding="utf-8") as fh:
-        fh.write(f"{_version_text()}\nargv: {sys.argv!r}\n\n")
-        fh.write("".join(traceback.format_exception(type(exc), exc, exc.__traceback__)))
-    return path
+    return log_exception(exc, "cli")
 
 
 class OutputFailed(Exception):
@@ -204,11 +188,8 @@ def _main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # the last line of defence: a log, not a traceback
         if debug:
             raise
-        try:
-            path = _log_failure(exc)
-            where = f"; details in {path}"
-        except OSError:
-            where = ""
+        path = _log_failure(exc)
+        where = f"; details in {path}" if path else ""
         print(f"{PROG}: unexpected failure: {type(exc).__name__}: {exc}{where}",
               file=sys.stderr)
         return 1

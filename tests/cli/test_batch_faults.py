@@ -103,7 +103,7 @@ _DRIVER = textwrap.dedent("""
     from scalesieve.io.atomic import atomic_write
 
     VICTIM, PIDS = sys.argv[1], sys.argv[2]
-    real = batch.clean_file
+    real = batch.jobs.clean_file
 
     def clean_file(input_path, output, **kw):
         if os.path.basename(input_path) == VICTIM:
@@ -116,7 +116,7 @@ _DRIVER = textwrap.dedent("""
             atomic_write(output, write)
         return real(input_path, output, **kw)
 
-    batch.clean_file = clean_file
+    batch.jobs.clean_file = clean_file      # where each job of the batch finds it
     sys.exit(main(sys.argv[3:]))
 """)
 
@@ -142,7 +142,7 @@ def test_a_writer_killed_mid_write_leaves_no_temporary_after_the_batch(tmp_path)
 
 def _die_after_writing(victim: str, pids: str, marker: str) -> None:
     """Run on each cluster worker: the first try of ``victim`` stops after its write."""
-    from scalesieve import batch as b
+    from scalesieve.batch import jobs as b      # where each job of the batch finds it
 
     real = b.clean_file
 
@@ -226,7 +226,7 @@ def _assert_refused_before_work(code, err, out, words):
 def test_read_only_output_folder_is_refused_before_any_work(tmp_path, capsys, monkeypatch):
     recipe, inputs = _inputs(tmp_path / "in")
     cleaned = []
-    monkeypatch.setattr(batch, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
+    monkeypatch.setattr(batch.local, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
     with small_disk(tmp_path, 1 << 20, read_only=True) as disk:
         code = main(["batch", "--recipe", str(recipe), "-o", disk, *inputs])
         _assert_refused_before_work(code, capsys.readouterr().err, disk, "read-only")
@@ -239,12 +239,12 @@ def test_unwritable_output_folder_twin(tmp_path, capsys, monkeypatch):
     out = tmp_path / "out"
     out.mkdir()
     cleaned = []
-    monkeypatch.setattr(batch, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
+    monkeypatch.setattr(batch.local, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
 
     def refuse(*a, **k):
         raise PermissionError(errno.EACCES, os.strerror(errno.EACCES))
 
-    monkeypatch.setattr(batch.tempfile, "mkstemp", refuse)
+    monkeypatch.setattr(batch.plan.tempfile, "mkstemp", refuse)
     code = main(["batch", "--recipe", str(recipe), "-o", str(out), *inputs])
     _assert_refused_before_work(code, capsys.readouterr().err, str(out), "permission denied")
     assert cleaned == []
@@ -253,7 +253,7 @@ def test_unwritable_output_folder_twin(tmp_path, capsys, monkeypatch):
 def test_too_little_free_space_is_refused_before_any_work(tmp_path, capsys, monkeypatch):
     recipe, inputs = _inputs(tmp_path / "in", seconds=4.0)     # 64 kB of samples each
     cleaned = []
-    monkeypatch.setattr(batch, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
+    monkeypatch.setattr(batch.local, "run_local", lambda jobs, *a, **k: cleaned.extend(jobs))
     with small_disk(tmp_path, 160 << 10) as disk:
         code = main(["batch", "--recipe", str(recipe), "-o", disk, *inputs])
         _assert_refused_before_work(code, capsys.readouterr().err, disk,

@@ -6,6 +6,12 @@ os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 import pytest  # noqa: E402
 
+# What application start-up does first (make_application); widgets made by
+# pytest-qt's own application need it too.
+from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons  # noqa: E402
+
+guard_leaked_singletons()
+
 
 @pytest.fixture
 def window(qtbot, qapp, tmp_path):

@@ -25,7 +25,7 @@ def configure(p) -> None:
                    help="recordings, folders of recordings, or patterns such as 'runs/*.wav'")
     p.add_argument("--recipe", required=True, metavar="R.json",
                    help="recipe file (version 1), e.g. exported from the window")
-    p.add_argument("-o", "--output", required=True, metavar="OUTDIR",
+    p.add_argument("-o", "--output", "--outdir", required=True, metavar="OUTDIR",
                    help="output folder: gets OUTDIR/<input name> per input and "
                         "batch-report.json (created if missing)")
     where = p.add_mutually_exclusive_group()

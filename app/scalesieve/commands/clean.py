@@ -11,11 +11,13 @@ from scalesieve.errors import ScalesieveError
 def configure(p) -> None:
     p.add_argument("file", metavar="FILE", help="recording to clean (never overwritten)")
     p.add_argument("-o", "--output", required=True, metavar="OUT",
-                   help="cleaned file (.wav .flac .aiff .csv); format from the extension")
+                   help="output file: the cleaned signal (.wav .flac .aiff .csv); format from "
+                        "the extension")
     g = p.add_argument_group("edits (applied in this order: recipe, --zero, --threshold)")
     g.add_argument("--recipe", metavar="R.json", help="recipe file (version 1)")
-    g.add_argument("--zero", metavar="LEVELS",
-                   help="mute bands: 1,2 or 1-3 or details or all; 'a' is the approximation")
+    g.add_argument("--zero", "--mute", metavar="LEVELS",
+                   help="mute bands (gain 0): 1,2 or 1-3 or details or all; 'a' is the "
+                        "approximation (--mute is the same option)")
     g.add_argument("--threshold", metavar="RULE",
                    choices=("universal", "sure", "bayes", "minimax", "manual"),
                    help="threshold all detail levels: universal, sure, bayes, minimax, manual")
@@ -32,7 +34,8 @@ def configure(p) -> None:
     g.add_argument("--threshold-levels", default="details", metavar="LEVELS",
                    help="levels --threshold applies to (default details)")
     o = p.add_argument_group("output")
-    o.add_argument("--removed", metavar="OUT2", help="also write what was removed")
+    o.add_argument("--removed", metavar="OUT2",
+                   help="also write the removed signal (original minus cleaned) to this file")
     o.add_argument("--subtype", metavar="SUBTYPE",
                    help="output sample format, e.g. PCM_16, PCM_24, FLOAT (default: as input)")
     o.add_argument("--save-recipe", metavar="R.json", dest="save_recipe",
@@ -64,35 +67,6 @@ def _workers(text: str) -> int:
     return value
 
 
-def _clean_in_pieces(args, recipe, quick, spec, bar) -> dict:
-    """``--workers`` / ``--scheduler``: the recording cut in time pieces, cleaned apart, joined."""
-    from scalesieve import memory_guard
-    from scalesieve.stream.pieces import clean_pieces
-    from scalesieve.stream.pipeline import not_streamable
-
-    outputs = [args.output] + ([args.removed] if args.removed else [])
-    facts = memory_guard.probe_quietly(args.file)
-    resolved = spec
-    if facts is not None and spec.level is None:
-        from dataclasses import replace
-
-        from scalesieve.core.transforms import default_level
-
-        resolved = replace(spec, level=default_level(max(int(facts["frames"]), 2), spec.wavelet))
-    why = not_streamable(facts, resolved, outputs, args.fill_gaps, args.channel)
-    if why is None and resolved.kind != "dwt":
-        # time pieces join the DWT's blocks; the SWT in blocks runs in one process
-        why = f"the {resolved.kind.upper()} is cleaned in blocks in one process only"
-    if why is not None:
-        raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
-                              f"{why}", args.file)
-    return clean_pieces(args.file, args.output, workers=args.workers, scheduler=args.scheduler,
-                        pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
-                        removed=args.removed, subtype=args.subtype, force=args.force,
-                        rate=args.rate, channel=args.channel, fill_gaps=args.fill_gaps,
-                        progress=bar)
-
-
 def edits_from_args(args):
     """Quick edits from --zero and --threshold, as recipe edits."""
     from scalesieve.recipe import Edit, parse_levels
@@ -120,8 +94,7 @@ def edits_from_args(args):
 
 
 def run(args) -> int:
-    from scalesieve import memory_guard
-    from scalesieve.batch import clean_file
+    from scalesieve import pipeline
     from scalesieve.commands import progress
     from scalesieve.recipe import load as load_recipe
 
@@ -138,19 +111,24 @@ def run(args) -> int:
         if args.save_recipe in (args.output, args.removed):
             raise ScalesieveError("--save-recipe names the same file as an output",
                                   args.save_recipe)
-    facts = memory_guard.check(args.file, channel=args.channel, transform=spec,
-                               outputs=[args.output] + ([args.removed] if args.removed else []),
-                               fill_gaps=args.fill_gaps)
-    # The same function cleans each file of `scalesieve batch`: identical outputs.
+    facts = pipeline.guard(args.file, channel=args.channel, transform=spec,
+                           outputs=[args.output] + ([args.removed] if args.removed else []),
+                           fill_gaps=args.fill_gaps)
+    # The same pipeline cleans each file of `scalesieve batch`: identical outputs.
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if args.workers or args.scheduler:
-            res = _clean_in_pieces(args, recipe, quick, spec, bar)
+            res = pipeline.clean_in_pieces(
+                args.file, args.output, workers=args.workers, scheduler=args.scheduler,
+                pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
+                removed=args.removed, subtype=args.subtype, force=args.force, rate=args.rate,
+                channel=args.channel, fill_gaps=args.fill_gaps, progress=bar)
         else:
-            res = clean_file(args.file, args.output, recipe=recipe, transform=spec,
-                             edits=quick, removed=args.removed, subtype=args.subtype,
-                             force=args.force, rate=args.rate, channel=args.channel,
-                             fill_gaps=args.fill_gaps, progress=bar, group=args.group,
-                             dataset=args.dataset)
+            res = pipeline.clean_file(args.file, args.output, recipe=recipe, transform=spec,
+                                      edits=quick, removed=args.removed, subtype=args.subtype,
+                                      force=args.force, rate=args.rate, channel=args.channel,
+                                      fill_gaps=args.fill_gaps, progress=bar,
+                                      group=args.group, dataset=args.dataset, facts=facts,
+                                      guarded=True)
     for w in res.get("warnings", ()):
         print(f"scalesieve: warning: {args.file}: {w}", file=sys.stderr)
     if args.save_recipe:

@@ -75,12 +75,11 @@ def configure(p) -> None:
     p.add_argument("--force", action="store_true", help="replace an existing --csv file")
     p.add_argument("--summary", action="store_true",
                    help="on screen, print the noise, the count and the repetition only")
-    add_transform_options(p)
+    # For events the SWT is the default, not the DWT.
+    add_transform_options(p, "swt (undecimated, default here: sharper timing) or dwt "
+                             "(decimated)")
     add_input_options(p)
     p.epilog = EPILOG
-    # The shared help says the DWT is the default; for events it is the SWT.
-    p._option_string_actions["--transform"].help = (
-        "swt (undecimated, default here: sharper timing) or dwt (decimated)")
 
 
 def spec_from(args, n: int, source: str | None = None):

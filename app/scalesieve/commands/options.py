@@ -40,16 +40,19 @@ def _channel(text: str) -> int | str:
     return v
 
 
-def add_transform_options(p: argparse.ArgumentParser, level_help: str | None = None) -> None:
+def add_transform_options(p: argparse.ArgumentParser, transform_help: str | None = None,
+                          level_help: str | None = None) -> None:
+    """The transform options; ``transform_help``/``level_help`` where a command's defaults differ."""
     g = p.add_argument_group("transform")
     g.add_argument("--transform", choices=("dwt", "swt", "packet"), default=None,
-                   help="dwt (decimated, default), swt (undecimated) or packet (wavelet "
-                        "packet bands wJ.K of equal width)")
+                   help=transform_help or ("dwt (decimated, default), swt (undecimated) or "
+                                           "packet (wavelet packet bands wJ.K of equal width)"))
     g.add_argument("--wavelet", default=None, metavar="NAME",
                    help="any discrete PyWavelets wavelet (default db4)")
-    g.add_argument("--level", type=_level, default=None, metavar="N",
-                   help=level_help or "decomposition depth (default: two short of the deepest "
-                                      "the data allow, at most 12)")
+    g.add_argument("--level", "--depth", type=_level, default=None, metavar="N",
+                   help=level_help or "depth: how many levels the transform has (default: two "
+                                      "short of the deepest the data allow, at most 12; --depth "
+                                      "is the same option)")
     g.add_argument("--mode", default=None, metavar="MODE",
                    help="boundary mode as PyWavelets names it (default symmetric)")
     g.add_argument("--basis", choices=("full", "best"), default=None,

@@ -2,18 +2,12 @@
 
 from __future__ import annotations
 
-import os
-
+from scalesieve.bundled_files import demo_path  # noqa: F401  (importable here as before)
 from scalesieve.commands.options import add_input_options, add_transform_options
+from scalesieve.errors import ScalesieveError
 
-
-def demo_path() -> str:
-    here = os.path.dirname(os.path.abspath(__file__))
-    for cand in (os.path.join(here, "..", "..", "..", "sample_signals", "pump_bearing.wav"),
-                 os.path.join(here, "..", "sample_signals", "pump_bearing.wav")):
-        if os.path.exists(cand):
-            return os.path.normpath(cand)
-    return ""
+#: the size --snapshot draws the window at (shared/CONTRACT.md)
+SNAPSHOT_SIZE = (1600, 1000)
 
 
 def configure(p) -> None:
@@ -39,8 +33,57 @@ def configure(p) -> None:
     add_input_options(p)
 
 
+def parse_size(text: str | None) -> tuple[int, int]:
+    """``1280x800`` as (1280, 800); None: the contract's 1600x1000."""
+    if not text:
+        return SNAPSHOT_SIZE
+    try:
+        w, h = (int(v) for v in text.lower().replace("×", "x").split("x"))
+    except ValueError:
+        raise ScalesieveError(f"--snapshot-size {text!r}: give WIDTHxHEIGHT, "
+                              f"for example 1280x800") from None
+    if not (640 <= w <= 8000 and 480 <= h <= 8000):
+        raise ScalesieveError(f"--snapshot-size {text!r}: between 640x480 and 8000x8000")
+    return w, h
+
+
 def run(args) -> int:
-    # Qt is imported here only: the other commands never load it.
+    """Parse and load here (bad input: one line, exit 2), then open the window.
+
+    The recording and recipe are read before any window opens; the window
+    gets plain values, so the gui never reads the command line.
+    """
+    from scalesieve import api
+    from scalesieve.bundled_files import demo_path
+    from scalesieve.commands.options import load_input, transform_from
+    from scalesieve.recipe import load as load_recipe
+
+    path = args.file or demo_path()
+    if not path:
+        raise ScalesieveError("no demo recording in this installation; give FILE")
+    snapshot = args.snapshot
+    if snapshot:
+        api.check_target(snapshot, args.force, [path] + ([args.recipe] if args.recipe else []))
+        if not snapshot.lower().endswith(".png"):
+            raise ScalesieveError("--snapshot writes a PNG; give a name ending in .png",
+                                  snapshot)
+    size = parse_size(args.snapshot_size)
+    if args.bearing is not None:
+        from scalesieve.core import bearing as br
+
+        try:
+            br.parse_geometry(args.bearing)
+        except ValueError as exc:
+            raise ScalesieveError(f"--bearing: {exc}") from None
+        if args.shaft is None:
+            raise ScalesieveError("--bearing needs --shaft HZ (the shaft's rotation rate)")
+    recipe = load_recipe(args.recipe) if args.recipe else None
+    rec = load_input(args, path)
+    spec = transform_from(args, recipe.transform if recipe else None)
+    edits = tuple(recipe.edits) if recipe else ()
+    # The one call from the command line into the gui; Qt is imported here only.
     from scalesieve.gui.app import run_window
 
-    return run_window(args)
+    return run_window(rec, spec, edits, snapshot=snapshot, force=args.force, size=size,
+                      impacts=args.impacts, band=args.band, bearing=args.bearing,
+                      shaft=args.shaft)

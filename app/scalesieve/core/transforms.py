@@ -15,13 +15,17 @@ by level).
 from __future__ import annotations
 
 import math
-import threading
 import warnings
 from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
 import pywt
+
+# one SWT band alone by FFT filtering (names reachable here as before)
+from scalesieve.core.swt_synthesis import (SWT_RESPONSES_KEPT,  # noqa: F401
+                                           _swt_band_alone, _swt_band_response,
+                                           _swt_level_one_spectra)
 
 KINDS = ("dwt", "swt", "packet")
 #: kinds whose coefficient windows are synthesised locally (their cost follows the window)
@@ -261,6 +265,8 @@ def forward(x: np.ndarray, spec: TransformSpec, dtype=np.float64,
     """
     x = np.asarray(x, dtype=dtype)
     if spec.kind == "dwt":
+        from scalesieve.core.cascade import _wavedec_blocked
+
         return _wavedec_blocked(x, spec, progress)
     if spec.kind == "packet":
         from scalesieve.core import packets as wp
@@ -286,193 +292,6 @@ TRANSFORM_THREADS = 2
 # Boundary modes whose signal extension reads only samples near the edge it
 # extends; "periodic" reads the far end, so that level is done in one call.
 _LOCAL_MODES = frozenset(MODES) - {"periodic", "periodization"}
-
-
-def _wavedec_blocked(x: np.ndarray, spec: TransformSpec, progress=None) -> list[np.ndarray]:
-    """``pywt.wavedec``, bit for bit, with every level made in one streaming pass.
-
-    Coefficient k of a level reads inputs 2k+2-L .. 2k+1 of the level above
-    (filter length L), so a block of coefficients is the interior of
-    ``pywt.dwt`` on a window of its input; the C code sums the same taps in
-    the same order, so the numbers are identical.  Each block of samples is
-    pushed through all the levels at once (a cascade): an approximation
-    lives only as long as the next level needs it, so the transform touches
-    no more memory than its output, and progress can be reported as it goes.
-
-    Long recordings are split in two at the coarsest level's middle and the
-    halves run in two threads (each half recomputes the few approximation
-    values the other's first coefficients need), which halves the time on a
-    two-core machine.
-    """
-    w = pywt.Wavelet(spec.wavelet)
-    mode, level, n = spec.mode, spec.level, x.shape[0]
-    L = w.dec_len
-    sizes = [n]
-    for _ in range(level):
-        sizes.append(pywt.dwt_coeff_len(sizes[-1], L, mode))
-    if mode not in _LOCAL_MODES:
-        return _wavedec_by_level(x, w, mode, level, progress)
-    details = [np.empty(sizes[j], dtype=x.dtype) for j in range(level + 1)]   # [0] unused
-    approx = np.empty(sizes[level], dtype=x.dtype)
-    if TRANSFORM_THREADS < 2 or n < THREADS_FROM or sizes[level] < 4 * L:
-        streams = [_Cascade(x, w, mode, sizes, details, approx, [0] * (level + 1),
-                            list(sizes))]
-    else:
-        # level j is cut at m_j = 2^(J-j) m_J: each half's coefficients then
-        # read only its own half of the level above
-        m = [0] * (level + 1)
-        m[level] = sizes[level] // 2
-        for j in range(level - 1, -1, -1):
-            m[j] = 2 * m[j + 1]
-        # the second half starts early enough to compute its first coefficients
-        first = [0] * (level + 1)
-        first[level] = m[level]
-        for j in range(level - 1, -1, -1):
-            first[j] = max(0, 2 * first[j + 1] - L + 2)
-        streams = [_Cascade(x, w, mode, sizes, details, approx, [0] * (level + 1), m),
-                   _Cascade(x, w, mode, sizes, details, approx, first, list(sizes),
-                            write_from=m)]
-    total = sum(s.inputs for s in streams)
-
-    def report():
-        if progress:
-            progress(min(1.0, sum(s.done for s in streams) / total))
-
-    if len(streams) == 1:
-        streams[0].run(report)
-    else:
-        from concurrent.futures import ThreadPoolExecutor, wait
-
-        with ThreadPoolExecutor(max_workers=1, thread_name_prefix="scalesieve-dwt") as pool:
-            other = pool.submit(streams[1].run, None)
-            try:
-                streams[0].run(report)
-                while not other.done():
-                    wait([other], timeout=0.05)
-                    report()
-                other.result()              # the other half's failure, if any
-            except BaseException:
-                streams[1].stop = True      # a cancelled load stops both halves
-                raise
-    if progress:
-        progress(1.0)
-    return [approx] + details[:0:-1]
-
-
-def _wavedec_by_level(x, w, mode, level, progress) -> list[np.ndarray]:
-    """Whole levels, one ``pywt.dwt`` call each (periodic extensions read the far end)."""
-    a, out = x, []
-    for j in range(level):
-        a, d = pywt.dwt(a, w, mode)
-        out.append(d)
-        if progress:
-            progress((j + 1) / level)
-    return [a] + out[::-1]
-
-
-class _Cascade:
-    """Levels 1..J of one stretch of the DWT, pushed through block by block.
-
-    ``first[j]`` is the first coefficient of level j this stream works out
-    (level 0: the first input sample), ``last[j]`` one past its last;
-    coefficients from ``write_from[j]`` on are written to the outputs.  An
-    approximation of level j is kept in ``carry[j]`` from the first value
-    the next level can still read.
-    """
-
-    def __init__(self, x, w, mode, sizes, details, approx, first, last, write_from=None):
-        self.x, self.w, self.mode = x, w, mode
-        self.L = w.dec_len
-        self.details, self.approx = details, approx
-        self.level = len(sizes) - 1
-        self.first, self.last = first, last
-        self.write_from = write_from or first
-        self.next = list(first)              # next coefficient to work out, per level
-        self.carry = [None] + [_Carry(first[j], x.dtype) for j in range(1, self.level)]
-        self.inputs = last[0] - first[0]
-        self.done = 0
-        self.stop = False
-        # a level waits for this many new coefficients (or the end) before a call
-        self.min_step = max(2 * self.L, BLOCK // 64)
-
-    def _input(self, j: int, a: int, b: int) -> np.ndarray:
-        return self.x[a:b] if j == 0 else self.carry[j].view(a, b)
-
-    def _have(self, j: int) -> tuple[int, int]:
-        if j == 0:
-            return self.first[0], self.first[0] + self.done
-        c = self.carry[j]
-        return c.lo, c.hi
-
-    def run(self, report=None) -> None:
-        while self.done < self.inputs:
-            if self.stop:
-                return
-            self.done = min(self.inputs, self.done + BLOCK)
-            self._push(1)
-            if report:
-                report()
-        self._push(1)
-
-    def _push(self, j: int) -> None:
-        """Work out what level j can now, and pass its approximation down."""
-        lo, hi = self._have(j - 1)
-        done_above = hi == self.last[j - 1]
-        k = self.next[j]
-        k_end = self.last[j] if done_above else min(self.last[j], hi // 2)
-        if k_end <= k or (not done_above and k_end - k < self.min_step):
-            return
-        L = self.L
-        s1 = hi if done_above else 2 * k_end
-        s0 = max(lo, 2 * k - L + 2)
-        if done_above and s1 - s0 < 2 * L:
-            # a short last window: start it earlier (its first outputs are dropped)
-            s0 = max(lo, s1 - 2 * L)
-        s0 -= s0 % 2                      # even, as the index mapping needs (so is lo)
-        ca, cd = pywt.dwt(self._input(j - 1, s0, s1), self.w, self.mode)
-        off = k - s0 // 2
-        w0 = max(k, self.write_from[j])
-        if w0 < k_end:
-            self.details[j][w0:k_end] = cd[off + w0 - k:off + k_end - k]
-            if j == self.level:
-                self.approx[w0:k_end] = ca[off + w0 - k:off + k_end - k]
-        self.next[j] = k_end
-        if j > 1:
-            # the next call reads from 2 k_end + 2 - L on, or 2 L before its end
-            keep = max(lo, min(2 * k_end - L + 2, s1 - 2 * L))
-            self.carry[j - 1].drop_below(keep - keep % 2)
-        if j < self.level:
-            self.carry[j].append(ca[off:off + k_end - k])
-            self._push(j + 1)
-
-
-class _Carry:
-    """A sliding stretch of one level's approximation: indices lo .. hi."""
-
-    def __init__(self, lo: int, dtype):
-        self.buf = np.empty(0, dtype=dtype)
-        self.lo = self.hi = lo
-
-    def view(self, a: int, b: int) -> np.ndarray:
-        return self.buf[a - self.lo:b - self.lo]
-
-    def append(self, values: np.ndarray) -> None:
-        size = self.hi - self.lo
-        need = size + values.shape[0]
-        if need > self.buf.shape[0]:
-            grown = np.empty(max(need, 2 * self.buf.shape[0]), dtype=self.buf.dtype)
-            grown[:size] = self.buf[:size]
-            self.buf = grown
-        self.buf[size:need] = values
-        self.hi += values.shape[0]
-
-    def drop_below(self, index: int) -> None:
-        cut = index - self.lo
-        if cut <= 0:
-            return
-        rest = self.hi - index
-        self.buf[:rest] = self.buf[cut:cut + rest]     # numpy copies overlaps safely
-        self.lo = index
 
 
 def inverse(coeffs: list[np.ndarray], spec: TransformSpec, n: int) -> np.ndarray:
@@ -728,69 +547,6 @@ def band_component(coeffs: list[np.ndarray], key, spec: TransformSpec, n: int,
 SWT_FFT_MAX = 1 << 24
 
 
-@lru_cache(maxsize=2)
-def _swt_level_one_spectra(wavelet: str, count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Spectra (full FFT, ``count`` bins) of one level of PyWavelets' normalised iswt.
-
-    ``pywt.iswt`` is linear and commutes with circular shifts, so one level
-    is a circular filtering of its approximation and of its detail; its
-    impulse responses, taken from ``pywt.iswt`` itself, give the filters.
-    """
-    imp = np.zeros(count)
-    imp[0] = 1.0
-    zero = np.zeros(count)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", UserWarning)
-        lo = pywt.iswt([imp, zero], wavelet, norm=True)
-        hi = pywt.iswt([zero, imp], wavelet, norm=True)
-    return np.fft.fft(lo), np.fft.fft(hi)
-
-
-def _swt_band_alone(band: np.ndarray, key, spec: TransformSpec, n: int) -> np.ndarray:
-    """``inverse`` of the SWT with every band but ``key`` zero, by one FFT filtering.
-
-    Level l of the iswt applies level one's filters upsampled by 2^(l-1)
-    (PyWavelets runs level one on every 2^(l-1)-th sample), so a band's
-    synthesis is the product of those filters' spectra at 2^(l-1) times the
-    frequency.  The same numbers as ``pywt.iswt`` up to round-off (a test
-    compares them); the cost is two FFTs instead of a Python loop per offset.
-    """
-    count = band.shape[0]
-    resp = _swt_band_response(spec.wavelet, key, spec.level, count)
-    out = np.fft.irfft(np.fft.rfft(np.asarray(band, dtype=np.float64)) * resp, count)
-    return np.ascontiguousarray(out[:n], dtype=band.dtype)
-
-
-#: bytes of SWT band responses kept (a window shows the same bands again and again)
-SWT_RESPONSES_KEPT = 32 << 20
-_swt_responses: dict = {}
-_swt_responses_lock = threading.Lock()     # the window's threads share it
-
-
-def _swt_band_response(wavelet: str, key, level: int, count: int) -> np.ndarray:
-    """rfft-sized response of band ``key``'s synthesis (see ``_swt_band_alone``)."""
-    name = (wavelet, key if key == "a" else int(key), level if key == "a" else 0, count)
-    with _swt_responses_lock:
-        resp = _swt_responses.pop(name, None)
-        if resp is not None:
-            _swt_responses[name] = resp      # most recently used last
-            return resp
-    with _swt_responses_lock:
-        lo, hi = _swt_level_one_spectra(wavelet, count)
-    top = level if key == "a" else int(key)
-    k = np.arange(count // 2 + 1)
-    resp = (lo if key == "a" else hi)[(k << (top - 1)) % count]
-    for j in range(1, top):
-        resp *= lo[(k << (j - 1)) % count]
-    with _swt_responses_lock:
-        while _swt_responses and (sum(r.nbytes for r in _swt_responses.values())
-                                  + resp.nbytes > SWT_RESPONSES_KEPT):
-            _swt_responses.pop(next(iter(_swt_responses)))
-        if resp.nbytes <= SWT_RESPONSES_KEPT:
-            _swt_responses[name] = resp
-    return resp
-
-
 # --------------------------------------------------------------------------
 # time positions and local synthesis (DWT)
 
@@ -913,3 +669,15 @@ def local_synthesis_bands(windows: dict, coeffs_lengths: list[int], spec: Transf
     if seg is None:
         return 0, np.zeros(0)
     return start, seg
+
+
+_MOVED_TO_CASCADE = ("_wavedec_blocked", "_wavedec_by_level", "_Cascade", "_Carry")
+
+
+def __getattr__(name: str):
+    # The blocked forward cascade lives in core/cascade.py; its names stay reachable here.
+    if name in _MOVED_TO_CASCADE:
+        from scalesieve.core import cascade
+
+        return getattr(cascade, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

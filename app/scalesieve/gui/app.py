@@ -58,30 +58,16 @@ def display_problem() -> str | None:
     return None
 
 
-def parse_size(text: str | None) -> tuple[int, int]:
-    """``1280x800`` as (1280, 800); None: the contract's 1600x1000."""
-    if not text:
-        return SNAPSHOT_SIZE
-    from scalesieve.errors import ScalesieveError
-
-    try:
-        w, h = (int(v) for v in text.lower().replace("×", "x").split("x"))
-    except ValueError:
-        raise ScalesieveError(f"--snapshot-size {text!r}: give WIDTHxHEIGHT, "
-                              f"for example 1280x800") from None
-    if not (640 <= w <= 8000 and 480 <= h <= 8000):
-        raise ScalesieveError(f"--snapshot-size {text!r}: between 640x480 and 8000x8000")
-    return w, h
-
-
 def make_application(argv: list[str] | None = None):
     """The one QApplication, with our names, style sheet and plotting defaults."""
     import pyqtgraph as pg
     from PySide6.QtWidgets import QApplication
 
     from scalesieve.gui.freed_memory import keep_freed_memory
+    from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 
+    guard_leaked_singletons()   # before the first signal: see the module for the versions
     app = QApplication.instance()
     if app is None:
         keep_freed_memory()     # an edit's temporaries are reused, not fresh pages each time
@@ -99,38 +85,23 @@ def make_application(argv: list[str] | None = None):
     return app
 
 
-def run_window(args) -> int:
-    """``scalesieve [FILE] [--recipe R] [--snapshot OUT.png]``.
+def run_window(recording, transform, edits=(), *, snapshot: str | None = None,
+               force: bool = False, size: tuple[int, int] = SNAPSHOT_SIZE,
+               impacts: bool = False, band: str | None = None, bearing: str | None = None,
+               shaft: float | None = None) -> int:
+    """Open the window on ``recording`` (read and checked by the command already).
 
-    The recording and recipe are read before any window opens, so bad input
-    ends with the command line's one-line message and exit status 2.
+    ``transform`` and ``edits`` as the model takes them; ``snapshot``: draw
+    offscreen at ``size``, write this PNG (replacing it only with ``force``)
+    and return; ``impacts``, ``band``, ``bearing``, ``shaft``: the Impacts
+    dock open, on this band, with this bearing's lines.
     """
-    from scalesieve import api
-    from scalesieve.commands.options import load_input, transform_from
-    from scalesieve.commands.window import demo_path
     from scalesieve.errors import ScalesieveError
-    from scalesieve.recipe import load as load_recipe
 
-    path = args.file or demo_path()
-    if not path:
-        raise ScalesieveError("no demo recording in this installation; give FILE")
-    snapshot = getattr(args, "snapshot", None)
-    force = bool(getattr(args, "force", False))
-    if snapshot:
-        api.check_target(snapshot, force, [path] + ([args.recipe] if args.recipe else []))
-        if not snapshot.lower().endswith(".png"):
-            raise ScalesieveError("--snapshot writes a PNG; give a name ending in .png",
-                                  snapshot)
-    size = parse_size(getattr(args, "snapshot_size", None))
     if not snapshot:
         problem = display_problem()
         if problem:
             raise ScalesieveError(problem)
-    recipe = load_recipe(args.recipe) if args.recipe else None
-    rec = load_input(args, path)
-    spec = transform_from(args, recipe.transform if recipe else None)
-    edits = tuple(recipe.edits) if recipe else ()
-
     if snapshot:
         os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from PySide6.QtCore import qInstallMessageHandler
@@ -149,14 +120,16 @@ def run_window(args) -> int:
     else:
         settings = ws.open_settings()
     try:
-        return _run(app, settings, window_args=(rec, spec, edits, snapshot, force, size), args=args)
+        return _run(app, settings,
+                    window_args=(recording, transform, tuple(edits), snapshot, force, size),
+                    impacts=(impacts, band, bearing, shaft))
     finally:
         del settings
         if tmp is not None:
             tmp.cleanup()
 
 
-def _run(app, settings, window_args, args) -> int:
+def _run(app, settings, window_args, impacts) -> int:
     from scalesieve.errors import ScalesieveError
     from scalesieve.gui.failure_dialog import install_excepthook
     from scalesieve.gui.main_window import MainWindow
@@ -174,7 +147,7 @@ def _run(app, settings, window_args, args) -> int:
 
         window.session_keeper = SessionKeeper(window)
     window.show()
-    _impacts_options(window, args)
+    _impacts_options(window, *impacts)
     window.open_recording(rec, spec, edits)
     if snapshot:
         problem = window.adapter.wait_idle()
@@ -192,29 +165,17 @@ def _run(app, settings, window_args, args) -> int:
     return code
 
 
-def _impacts_options(window, args) -> None:
+def _impacts_options(window, impacts: bool, band: str | None, bearing: str | None,
+                     shaft: float | None) -> None:
     """``--impacts``, ``--band``, ``--bearing`` and ``--shaft``: the Impacts dock set up."""
-    from scalesieve.errors import ScalesieveError
-
-    bearing = getattr(args, "bearing", None)
-    band = getattr(args, "band", None)
-    if bearing is not None:
-        from scalesieve.core import bearing as br
-
-        try:
-            br.parse_geometry(bearing)
-        except ValueError as exc:
-            raise ScalesieveError(f"--bearing: {exc}") from None
-        if getattr(args, "shaft", None) is None:
-            raise ScalesieveError("--bearing needs --shaft HZ (the shaft's rotation rate)")
-    if not (getattr(args, "impacts", False) or bearing or band):
+    if not (impacts or bearing or band):
         return
     dock = window.impacts_dock
     if band:
         dock.envelope.band = band
     if bearing:
         dock.envelope.geometry.setText(bearing)
-        dock.envelope.shaft.setValue(float(args.shaft))
+        dock.envelope.shaft.setValue(float(shaft))
     dock.show()
 
 

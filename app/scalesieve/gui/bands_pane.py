@@ -16,11 +16,11 @@ from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import (QComboBox, QFrame, QHBoxLayout, QLabel, QScrollArea,
                                QSizePolicy, QStyle, QToolButton, QVBoxLayout, QWidget)
 
-from scalesieve.gui.band_edits import (ALL_DETAILS, edits_on_band, own_edit,  # noqa: F401
+from scalesieve.views.band_edits import (ALL_DETAILS, edits_on_band, own_edit,  # noqa: F401
                                        set_band_gain, set_band_threshold)
-from scalesieve.gui.band_labels import hz_range
-from scalesieve.gui.decimate import trace_points
-from scalesieve.gui.edit_words import edit_text
+from scalesieve.views.band_labels import hz_range
+from scalesieve.views.decimate import trace_points
+from scalesieve.views.edit_words import edit_text
 from scalesieve.gui.pane_frame import AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, make_plot
 from scalesieve.gui.resource_files import colour
 from scalesieve.gui.scale_map import first_and_step

@@ -8,10 +8,10 @@ from PySide6.QtWidgets import (QDialog, QDialogButtonBox, QLabel, QPlainTextEdit
 
 
 def command_for(recipe_path: str, recording_path: str, workers: int | None = None) -> str:
-    from scalesieve import batch
+    from scalesieve import batch_command as bc
 
-    return batch.batch_command_line(recipe_path, batch.inputs_hint_for(recording_path),
-                                    batch.outdir_for(recording_path), workers=workers)
+    return bc.batch_command_line(recipe_path, bc.inputs_hint_for(recording_path),
+                                 bc.outdir_for(recording_path), workers=workers)
 
 
 class BatchCommandDialog(QDialog):

@@ -178,7 +178,7 @@ class EnvelopePane(QWidget):
 
     def _draw_curve(self, freqs: np.ndarray, amp: np.ndarray, x_max: float) -> None:
         """The spectrum up to ``x_max``, as the largest value per screen column (lines kept)."""
-        from scalesieve.gui.decimate import column_edges, minmax_columns
+        from scalesieve.views.decimate import column_edges, minmax_columns
 
         upto = int(np.searchsorted(freqs, x_max, side="right"))
         f, a = freqs[:upto], amp[:upto]

@@ -8,35 +8,15 @@ escape a slot go to ``failure_dialog``'s hook, installed by ``app``.)
 
 from __future__ import annotations
 
-import datetime
-import os
-import sys
-import traceback
-
-from scalesieve import __version__
 from scalesieve.errors import ScalesieveError
 
 
 def write_failure_log(exc: BaseException, details: str | None = None) -> str:
-    """Write the details of an unexpected failure; return '; details in PATH' (or '')."""
-    try:
-        try:
-            from platformdirs import user_log_dir
+    """Log an unexpected failure (``scalesieve.failure_log``); '; details in PATH' or ''."""
+    from scalesieve.failure_log import log_exception
 
-            folder = user_log_dir("scalesieve", appauthor=False)
-        except Exception:  # platformdirs missing or broken: a temporary folder will do
-            import tempfile
-
-            folder = os.path.join(tempfile.gettempdir(), "scalesieve-logs")
-        os.makedirs(folder, exist_ok=True)
-        stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S")
-        path = os.path.join(folder, f"window-failure-{stamp}-{os.getpid()}.log")
-        text = details or "".join(traceback.format_exception(type(exc), exc, exc.__traceback__))
-        with open(path, "w", encoding="utf-8") as fh:
-            fh.write(f"scalesieve {__version__} (window)\nargv: {sys.argv!r}\n\n{text}")
-        return f"; details in {path}"
-    except OSError:
-        return ""
+    path = log_exception(exc, "window", details)
+    return f"; details in {path}" if path else ""
 
 
 def message_for(exc: BaseException) -> str:

@@ -15,12 +15,8 @@ one-line message and no log, as it is not a bug.
 
 from __future__ import annotations
 
-import datetime
-import os
-import platform
 import sys
 import threading
-import traceback
 from collections.abc import Callable
 
 from PySide6.QtCore import QObject, Qt, Signal, Slot
@@ -28,65 +24,12 @@ from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import (QApplication, QDialog, QDialogButtonBox, QHBoxLayout, QLabel,
                                QPlainTextEdit, QPushButton, QVBoxLayout, QWidget)
 
-from scalesieve import __version__
 from scalesieve.errors import ScalesieveError
+# one writer of failure logs, whose names stay importable here
+from scalesieve.failure_log import (KEEP_LOGS, LOG_DIR_ENV, details_text,  # noqa: F401
+                                    log_dir, write_log)
 
-#: Environment variable naming the log folder (tests, portable installs).
-LOG_DIR_ENV = "SCALESIEVE_LOG_DIR"
-#: Failure logs kept; older ones are removed when a new one is written.
-KEEP_LOGS = 50
 _MESSAGE_CHARS = 200
-
-
-def log_dir() -> str:
-    """``$SCALESIEVE_LOG_DIR`` or platformdirs' ``user_log_dir("scalesieve")``."""
-    env = os.environ.get(LOG_DIR_ENV)
-    if env:
-        return env
-    from platformdirs import user_log_dir
-
-    return user_log_dir("scalesieve", appauthor=False)
-
-
-def details_text(etype, value, tb) -> str:
-    """What goes into the log and the details section: versions, command line, traceback."""
-    try:
-        import PySide6
-
-        qt = f"PySide6 {PySide6.__version__}"
-    except Exception:  # the details must be written even if this lookup fails
-        qt = "PySide6 (version unknown)"
-    head = [f"scalesieve {__version__} (window)",
-            f"time: {datetime.datetime.now().isoformat(timespec='seconds')}",
-            f"python: {sys.version.split()[0]} on {platform.platform()}; {qt}",
-            f"thread: {threading.current_thread().name}",
-            f"argv: {sys.argv!r}", ""]
-    return "\n".join(head) + "".join(traceback.format_exception(etype, value, tb))
-
-
-def write_log(details: str) -> str | None:
-    """Write ``details`` to a new failure log; return its path, or None if it cannot be written."""
-    try:
-        folder = log_dir()
-        os.makedirs(folder, exist_ok=True)
-        stamp = datetime.datetime.now().strftime("%Y%m%d-%H%M%S-%f")
-        path = os.path.join(folder, f"window-failure-{stamp}-{os.getpid()}.log")
-        with open(path, "w", encoding="utf-8") as fh:
-            fh.write(details)
-        _prune(folder)
-        return path
-    except OSError:
-        return None
-
-
-def _prune(folder: str) -> None:
-    logs = sorted(n for n in os.listdir(folder)
-                  if n.startswith("window-failure-") and n.endswith(".log"))
-    for name in logs[:-KEEP_LOGS]:
-        try:
-            os.unlink(os.path.join(folder, name))
-        except OSError:
-            pass
 
 
 def short_message(exc: BaseException) -> str:

@@ -29,9 +29,9 @@ from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
 from scalesieve.core import band_figures as bf
-from scalesieve.gui.band_envelopes import FIGURES, EnvelopeThread, coefficient_list
-from scalesieve.gui.display_data import ChannelPictures, Superseded
-from scalesieve.gui.thread_priority import lower_this_thread
+from scalesieve.views.band_envelopes import FIGURES, EnvelopeThread, coefficient_list
+from scalesieve.views.display_data import ChannelPictures, Superseded
+from scalesieve.views.thread_priority import lower_this_thread
 from scalesieve.model import FLUSH_STEP, Change, DecompositionModel
 from scalesieve.recipe import check_against
 

@@ -7,7 +7,7 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QToolButton
 
-from scalesieve.gui.decimate import trace_points
+from scalesieve.views.decimate import trace_points
 from scalesieve.gui.pane_frame import PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, icon
 

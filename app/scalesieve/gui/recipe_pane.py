@@ -17,8 +17,8 @@ from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QHBoxLayout, QHeade
 
 from scalesieve.core.thresholds import NOISE, RULES, SHAPES
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.band_labels import db_to_gain, levels_text
-from scalesieve.gui.edit_words import db_text, edit_text
+from scalesieve.views.band_labels import db_to_gain, levels_text
+from scalesieve.views.edit_words import db_text, edit_text
 from scalesieve.gui.resource_files import icon
 from scalesieve.recipe import parse_levels
 

@@ -9,8 +9,8 @@ import pyqtgraph as pg
 from PySide6.QtCore import QTimer, Signal
 from PySide6.QtWidgets import QCheckBox, QLabel
 
-from scalesieve.gui.channel_units import unit_of
-from scalesieve.gui.decimate import trace_points
+from scalesieve.views.channel_units import unit_of
+from scalesieve.views.decimate import trace_points
 from scalesieve.gui.pane_frame import PaneFrame, make_plot, tick_font
 from scalesieve.gui.resource_files import colour
 

@@ -12,7 +12,6 @@ import json
 import os
 from functools import lru_cache
 
-import scalesieve
 
 #: colours used when resources/palette.json is missing or incomplete
 DEFAULT_PALETTE = {
@@ -33,15 +32,10 @@ PERCEPTUAL_MAPS = ("viridis", "cividis", "magma", "inferno", "plasma")
 
 
 def resource_dir() -> str | None:
-    """The resources folder, or ``None`` when there is none."""
-    here = os.path.dirname(os.path.abspath(scalesieve.__file__))
-    candidates = [os.environ.get("SCALESIEVE_RESOURCES", ""),
-                  os.path.join(here, "..", "..", "resources"),
-                  os.path.join(here, "resources")]
-    for cand in candidates:
-        if cand and os.path.isfile(os.path.join(cand, "palette.json")):
-            return os.path.normpath(cand)
-    return None
+    """The resources folder, or ``None`` when there is none (``scalesieve.bundled_files``)."""
+    from scalesieve.bundled_files import resource_dir as _find
+
+    return _find()
 
 
 def resource_path(*parts: str) -> str | None:

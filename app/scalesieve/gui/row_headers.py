@@ -15,7 +15,7 @@ from PySide6.QtGui import QColor, QPainter
 from PySide6.QtWidgets import (QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
                                QWidget)
 
-from scalesieve.gui.band_labels import db_to_gain, gain_to_db, hz_range
+from scalesieve.views.band_labels import db_to_gain, gain_to_db, hz_range
 
 #: the gain field's range in dB; its lowest value reads −∞ and mutes the band
 GAIN_MIN_DB, GAIN_MAX_DB = -60.5, 24.0

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import errno
+import math
 import os
 import stat
 
@@ -91,3 +92,59 @@ def first_unusable(values: np.ndarray, block: int = 1 << 16) -> tuple[int, int] 
             r, c = np.argwhere(~ok)[0]
             return start + int(r), int(c)
     return None
+
+
+def check_rate(rate, source: str | None = None) -> float | None:
+    """``rate`` as a positive finite float (or ``None``), else a ScalesieveError.
+
+    The message names both spellings: ``--rate`` on the command line, ``rate=`` in the API.
+    """
+    if rate is None:
+        return None
+    try:
+        r = float(rate)
+    except (TypeError, ValueError):
+        raise ScalesieveError(f"the rate (--rate, rate=) must be a number of Hz, got {rate!r}",
+                              source=source) from None
+    if not math.isfinite(r) or r <= 0:
+        raise ScalesieveError(f"the rate (--rate, rate=) must be a positive number of Hz, got {rate!r}",
+                              source=source)
+    return r
+
+
+def check_channel(channel, count: int, source: str | None = None,
+                  names: list[str] | None = None) -> int | None:
+    """Validate a 0-based channel index (or, given ``names``, a channel's name).
+
+    The message names both spellings: ``--channel`` on the command line, ``channel=`` in the API.
+    """
+    if channel is None:
+        return None
+    if isinstance(channel, str) and not channel.strip().isdigit():
+        wanted = channel.strip()
+        if names is not None:
+            for rule in (lambda n: n == wanted, lambda n: n.lower() == wanted.lower(),
+                         lambda n: n.split(" [")[0].lower() == wanted.lower()):
+                hits = [k for k, n in enumerate(names) if rule(n)]
+                if len(hits) == 1:
+                    return hits[0]
+        listed = ", ".join(repr(n) for n in (names or [])[:12])
+        raise ScalesieveError(
+            f"channel {wanted!r} (--channel, channel=) names no channel; the file's channels are {listed}"
+            if names else f"the channel (--channel, channel=) must be a 0-based channel number or a "
+            f"channel's name, "
+            f"got {channel!r}", source=source)
+    if isinstance(channel, bool):
+        raise ScalesieveError(f"the channel (--channel, channel=) must be a 0-based channel number, got {channel!r}",
+                              source=source)
+    try:
+        k = int(channel) if isinstance(channel, str) else channel.__index__()
+    except (TypeError, ValueError, AttributeError):
+        raise ScalesieveError(f"the channel (--channel, channel=) must be a 0-based channel number, got {channel!r}",
+                              source=source) from None
+    if not 0 <= k < count:
+        plural = "channel" if count == 1 else "channels"
+        raise ScalesieveError(
+            f"channel {k} does not exist; the file has {count} {plural} "
+            f"(0-based: 0 to {count - 1})", source=source)
+    return k

@@ -15,7 +15,7 @@ import soundfile as sf
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
 from scalesieve.io import csv_reader, measurement_readers
-from scalesieve.io.csv_reader import check_channel, check_rate
+from scalesieve.io.input_check import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
                                        os_error_message)

@@ -1,4 +1,10 @@
-"""Work-arounds for defects of the GUI toolkit that would crash the window.
+"""Guard against PySide6 dropping references to ``None``, ``True`` and ``False``.
+
+Affected, as measured by :func:`leaking`: PySide6 6.12.0 on CPython 3.11
+(the versions this project pins and tests with).  CPython 3.12 and later are
+not affected (these objects are immortal there), and a PySide6 without the
+leak is left alone.  Called once from application start-up
+(``scalesieve.gui.app.make_application``), never at import.
 
 PySide6 6.12 on Python 3.11 gives away one reference to ``None`` for many
 calls of a method that returns nothing (``setRect``, ``setPos``...), and
@@ -54,8 +60,12 @@ def leaking() -> list:
     return out
 
 
-def apply() -> list:
-    """Give every leaked singleton a reference count it cannot run out of."""
+def guard_leaked_singletons() -> list:
+    """Give every leaked singleton a reference count it cannot run out of.
+
+    Returns the objects given one now (empty when nothing leaks, on Python
+    3.12 and later, or when already done).
+    """
     if sys.version_info >= (3, 12):
         return []          # immortal objects: nothing to do
     done = []
