@@ -78,6 +78,7 @@ def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window
     assert [m.band_name(k) for k in window.scale_map.selected_rows] == ["w3.3"]
     assert window.scale_map.headers[window.scale_map.selected_rows[0]].isVisible()
     env.set_bearing("10,8.0,42.0,0", 29.5)      # lines matched on the spectrum made
+    assert not env.busy                         # no new spectrum for new lines
     bpfo = [ln for ln in env.report["lines"] if ln["name"] == "bpfo" and ln["harmonic"] == 1
             and not ln["sideband"]][0]
     assert abs(bpfo["found_hz"] - BPFO_HZ) < 0.5
