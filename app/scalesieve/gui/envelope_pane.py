@@ -161,7 +161,8 @@ class EnvelopePane(QWidget):
         self.run.request(key, lambda check: en.report(x, rate, band, wavelet, mode, min(6, top),
                                                       check=check))
         self.working.show()
-        self.readout.setText(f"Working out the envelope spectrum of {band}…")
+        what = "the most impulsive band" if band == "best" else band
+        self.readout.setText(f"Working out the envelope spectrum of {what}…")
 
     def _spectrum_ready(self, key, rep, problem) -> None:
         self._wanted = None
