@@ -162,3 +162,17 @@ def test_rapid_band_choices_end_on_the_latest(window, qtbot):
     assert env.report["band"]["name"] == "w3.5"
     # packet band K of depth J spans K..K+1 times fs / 2^(J+1) (common practice)
     assert env.report["band"]["low_hz"] == 5 * window.adapter.recording.rate / 2 ** 4
+
+
+def test_a_snapshot_waits_for_the_impacts_figures(window, tmp_path):
+    """``--snapshot --impacts`` draws the figures, not the moving bars."""
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()                                  # asks the workers; nothing waited for yet
+    out = tmp_path / "look.png"
+    window.snapshot(str(out))
+    imap, env = dock.impulse_map, dock.envelope
+    assert not imap.busy and not env.busy
+    assert imap.table is not None and env.report is not None
+    assert not imap.working.isVisible() and not env.working.isVisible()
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"     # the PNG signature
