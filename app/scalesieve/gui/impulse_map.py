@@ -69,11 +69,6 @@ class BackgroundRun(QObject):
         else:
             self._start(job)
 
-    def cancel(self) -> None:
-        """Nothing in flight or waiting is wanted any more (its result is dropped)."""
-        self._token += 1
-        self._pending = None
-
     def _start(self, job: tuple) -> None:
         self._running = job[0]
         threading.Thread(target=self._work, args=job, name=f"scalesieve-{self.name}",
