@@ -198,3 +198,22 @@ def test_kurtosis_table_in_two_threads_is_scipy_kurtosis_of_pywt_nodes():
         for b in lv["bands"]:
             want = stats.kurtosis(tree[b["path"]].data, fisher=False)
             assert b["kurtosis"] == pytest.approx(want, rel=1e-9)
+
+
+def test_the_kurtosis_table_stops_when_asked_and_asks_once_per_depth():
+    # the window's worker stops a table nobody waits for: check() runs before each depth
+    x = np.random.default_rng(3).standard_normal(4096)
+    calls = []
+    ib.table(x, 1000.0, "db4", "symmetric", 4, check=lambda: calls.append(1))
+    assert len(calls) == 4
+
+    class Enough(Exception):
+        pass
+
+    def stop_at_third():
+        calls.append(1)
+        if len(calls) > 6:
+            raise Enough()
+
+    with pytest.raises(Enough):
+        ib.table(x, 1000.0, "db4", "symmetric", 4, check=stop_at_third)

@@ -48,23 +48,37 @@ def test_a_packet_band_gain_in_the_window_matches_pywavelets(window, qtbot):
     np.testing.assert_allclose(m.cleaned(0), x, atol=1e-12)
 
 
-def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window, tmp_path):
-    _open_packet(window)
+def _drawn(qtbot, *panes):
+    """Wait until the panes' worker threads have delivered (tables and spectra)."""
+    qtbot.waitUntil(lambda: not any(p.busy for p in panes), timeout=60000)
+
+
+def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window, qtbot,
+                                                                           tmp_path):
+    m = _open_packet(window)
     dock = window.impacts_dock
     dock.show()
     QApplication.processEvents()
     imap, env = dock.impulse_map, dock.envelope
+    _drawn(qtbot, imap, env)
     best = imap.table["best"]
     assert best["low_hz"] <= 5200.0 <= best["high_hz"]      # README: resonance 5200 Hz
     assert env.report["band"]["name"] == best["name"]
     assert abs(env.report["peaks"][0]["hz"] - BPFO_HZ) < 0.5
     # choosing another cell demodulates that band
     imap.choose("w4.6")
+    _drawn(qtbot, env)
     assert env.report["band"]["name"] == "w4.6" and env.report["band"]["low_hz"] == 4800.0
     assert "level 4" in window.statusBar().currentMessage()     # the window shows level 3
+    assert window.scale_map.selected_rows == []                # not a band of level 3
     imap.choose("w3.3")
-    assert "Bands pane" in window.statusBar().currentMessage()
-    env.set_bearing("10,8.0,42.0,0", 29.5)
+    _drawn(qtbot, env)
+    assert "selected in the Scale map" in window.statusBar().currentMessage()
+    # the band is selected in the row headers, so the edit buttons act on it
+    assert [m.band_name(k) for k in window.scale_map.selected_rows] == ["w3.3"]
+    assert window.scale_map.headers[window.scale_map.selected_rows[0]].isVisible()
+    env.set_bearing("10,8.0,42.0,0", 29.5)      # lines matched on the spectrum made
+    assert not env.busy                         # no new spectrum for new lines
     bpfo = [ln for ln in env.report["lines"] if ln["name"] == "bpfo" and ln["harmonic"] == 1
             and not ln["sideband"]][0]
     assert abs(bpfo["found_hz"] - BPFO_HZ) < 0.5
@@ -89,3 +103,76 @@ def test_cell_under_a_point():
     assert cell_at(5500.0, 2.5, 4, 16000.0) == (3, 5)
     assert cell_at(9000.0, 0.1, 4, 16000.0) is None
     assert math.isclose(16000.0 / 2 ** 4, 1000.0)
+
+
+def test_the_window_stays_responsive_while_the_impacts_panes_work(window, qtbot):
+    """The kurtosis table and the envelope spectrum are worked out off the window's thread.
+
+    A timer of the window's event loop must fire while the workers run (no timing
+    assertion beyond that); the figures that come are those of the core functions.
+    """
+    from scalesieve.core import impulsive_bands as ib
+    from scalesieve.core.recording import Recording
+
+    rng = np.random.default_rng(15)
+    # long enough that the table takes a while even on a fast machine (2 M samples)
+    x = rng.standard_normal(1 << 21)
+    x[::4096] += 40.0                              # impacts, so some band stands out
+    rec = Recording(x[:, None], 48000.0, ["accel"], "")
+    window.open_recording(rec, TransformSpec("dwt", "db4", 4, "symmetric"))
+    assert window.adapter.wait_idle(120) is None
+    dock = window.impacts_dock
+    imap, env = dock.impulse_map, dock.envelope
+    ticks = {"while_busy": 0}
+
+    def tick():
+        if imap.busy or env.busy:
+            ticks["while_busy"] += 1
+
+    from PySide6.QtCore import QTimer
+
+    timer = QTimer()
+    timer.setInterval(5)
+    timer.timeout.connect(tick)
+    timer.start()
+    dock.show()
+    assert imap.busy and env.busy                  # asked of the workers, not done here
+    assert imap.working.isVisible() and env.working.isVisible()
+    _drawn(qtbot, imap, env)
+    timer.stop()
+    assert ticks["while_busy"] > 0
+    assert not imap.working.isVisible() and not env.working.isVisible()
+    # the table drawn is the core's (itself checked against scipy.stats in tests/core)
+    ref = ib.table(x, 48000.0, "db4", "symmetric", ib.DEFAULT_DEPTH)
+    assert len(imap.table["levels"]) == ib.DEFAULT_DEPTH
+    assert imap.table["best"]["name"] == ref["best"]["name"]
+    assert env.report["band"]["name"] == ref["best"]["name"]
+
+
+def test_rapid_band_choices_end_on_the_latest(window, qtbot):
+    """Latest wins: of several bands chosen in a row the spectrum shown is the last one's."""
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()
+    imap, env = dock.impulse_map, dock.envelope
+    _drawn(qtbot, imap, env)
+    for name in ("w2.1", "w5.3", "w4.6", "w3.5"):
+        imap.choose(name)
+    _drawn(qtbot, env)
+    assert env.report["band"]["name"] == "w3.5"
+    # packet band K of depth J spans K..K+1 times fs / 2^(J+1) (common practice)
+    assert env.report["band"]["low_hz"] == 5 * window.adapter.recording.rate / 2 ** 4
+
+
+def test_a_snapshot_waits_for_the_impacts_figures(window, tmp_path):
+    """``--snapshot --impacts`` draws the figures, not the moving bars."""
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()                                  # asks the workers; nothing waited for yet
+    out = tmp_path / "look.png"
+    window.snapshot(str(out))
+    imap, env = dock.impulse_map, dock.envelope
+    assert not imap.busy and not env.busy
+    assert imap.table is not None and env.report is not None
+    assert not imap.working.isVisible() and not env.working.isVisible()
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"     # the PNG signature

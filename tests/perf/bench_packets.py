@@ -14,10 +14,15 @@ Prints one JSON line of figures measured side by side in one run (medians of
   targets: within 3;
 * with ``--window``: a packet band's gain change in the window at
   ``--samples``, from the click to the repainted 1600x1000 window (target
-  150 ms), beside one pass over the signal's memory.
+  150 ms), beside one pass over the signal's memory;
+* with ``--impacts``: the Impacts dock opened on ``--samples``: the longest
+  pause of the window's event loop (gap between ticks of a 10 ms timer) while
+  its panes work, and the time until both have drawn, beside the pause the
+  same work makes when done in the window's thread (the kurtosis table and
+  the envelope spectrum of ``best``, one after the other, as the panes once did).
 
     python tests/perf/bench_packets.py [--samples 10000000] [--bands-samples 4000000]
-                                       [--repeat 3] [--window]
+                                       [--repeat 3] [--window] [--impacts] [--only-window]
 """
 
 from __future__ import annotations
@@ -74,12 +79,24 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--window", action="store_true")
     ap.add_argument("--window-level", type=int, default=6)
+    ap.add_argument("--impacts", action="store_true")
+    ap.add_argument("--only-window", action="store_true",
+                    help="only the window figures (--window, --impacts)")
     args = ap.parse_args()
     from scalesieve.core import envelope as en
     from scalesieve.core import impulsive_bands as ib
     from scalesieve.core import transforms as tf
 
     res: dict = {"benchmark": "packets", "load_average": os.getloadavg()[0]}
+    if args.only_window:
+        x = recording(args.samples, args.rate)
+        res["samples"] = args.samples
+        if args.window:
+            res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
+        if args.impacts:
+            res.update(impacts_pause(x, args.rate, args.repeat))
+        print(json.dumps(res))
+        return
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "long.wav")
         sf.write(path, recording(args.bands_samples, args.rate).astype(np.float32),
@@ -116,7 +133,68 @@ def main() -> None:
     res["ratio_envelope_named_to_dwt"] = round(res["envelope_named_s"] / f, 2)
     if args.window:
         res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
+    if args.impacts:
+        res.update(impacts_pause(x, args.rate, args.repeat))
     print(json.dumps(res))
+
+
+def impacts_pause(x: np.ndarray, rate: float, repeat: int) -> dict:
+    """Longest event-loop pause while the Impacts panes work, beside doing it in line."""
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from PySide6.QtCore import QTimer
+    from PySide6.QtWidgets import QApplication
+
+    from scalesieve.core import envelope as en
+    from scalesieve.core import impulsive_bands as ib
+    from scalesieve.core.recording import Recording
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.app import SNAPSHOT_SIZE, make_application
+    from scalesieve.gui.main_window import MainWindow
+
+    with tempfile.TemporaryDirectory() as tmp:
+        app = make_application()
+        app.setProperty("scalesieve_quiet_errors", True)
+        window = MainWindow(ws.open_settings(os.path.join(tmp, "settings.ini")))
+        window.resize(*SNAPSHOT_SIZE)
+        window.show()
+        rec = Recording(samples=x[:, None], rate=rate, channel_names=["ch0"], source="")
+        window.open_recording(rec, TransformSpec("dwt", "db4", None, "symmetric"))
+        problem = window.adapter.wait_idle(1200)
+        if problem:
+            sys.exit(f"bench_packets: {problem}")
+        dock = window.impacts_dock
+        imap, env = dock.impulse_map, dock.envelope
+        ticks: list[float] = []
+        timer = QTimer()
+        timer.setInterval(10)
+        timer.timeout.connect(lambda: ticks.append(time.perf_counter()))
+        inline, pauses, ready = [], [], []
+        for r in range(repeat):
+            t = time.perf_counter()
+            ib.table(x, rate, "db4", "symmetric", ib.DEFAULT_DEPTH)
+            en.report(x, rate, "best", "db4", "symmetric", 6)
+            inline.append(time.perf_counter() - t)
+            dock.hide()
+            imap.depth.setValue(ib.DEFAULT_DEPTH - (r % 2))    # a table not made yet
+            env._for = env._spectrum = None
+            ticks.clear()
+            timer.start()
+            t = time.perf_counter()
+            ticks.append(t)
+            dock.show()
+            while imap.busy or env.busy:
+                QApplication.processEvents()
+                time.sleep(0.001)
+            ready.append(time.perf_counter() - t)
+            QApplication.processEvents()
+            timer.stop()
+            pauses.append(max(np.diff(ticks)) if len(ticks) > 1 else ready[-1])
+        window.close()
+        app.processEvents()
+        return {"impacts_inline_pause_s": round(statistics.median(inline), 3),
+                "impacts_longest_pause_ms": round(1000 * statistics.median(pauses), 1),
+                "impacts_ready_s": round(statistics.median(ready), 3)}
 
 
 def window_gain(x: np.ndarray, rate: float, level: int, repeat: int) -> dict:

@@ -195,7 +195,7 @@ def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
 
 def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
            mode: str = "symmetric", depth: int = 6, geometry=None,
-           shaft_hz: float | None = None, exact: bool = False) -> dict:
+           shaft_hz: float | None = None, exact: bool = False, check=None) -> dict:
     """The envelope spectrum of one packet band of ``x``, with bearing lines if given.
 
     ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest kurtosis
@@ -208,8 +208,8 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     follows the node, n / 2^J samples); with ``exact`` it is that of the
     band's time-domain component at the full rate (``band_envelope_spectrum``:
     full-length syntheses and FFTs), ``"envelope": "component"`` in the result.
+    ``check()``, if given, is called between the steps and may raise to stop.
     """
-    from scalesieve.core import bearing as br
     from scalesieve.core import impulsive_bands as ib
     from scalesieve.core import packets as wp
 
@@ -217,7 +217,7 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     table = None
     c = None
     if band == "best":
-        table = ib.table(x, rate, wavelet, mode, depth, keep_best=True)
+        table = ib.table(x, rate, wavelet, mode, depth, keep_best=True, check=check)
         c = table.pop("best_coefficients")
         if table["best"] is None:
             raise ValueError("no band carries anything beyond round-off (a constant signal?)")
@@ -231,6 +231,8 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
             raise ValueError(f"band {band!r} is deeper than the recording allows")
         path = wp.path_of(*jk)
     lo, hi = wp.range_hz(path, rate)
+    if check is not None:
+        check()
     if c is None:
         c = wp.forward(x, wavelet, mode, [path])[0]     # only the band's own branch
     if exact:
@@ -250,9 +252,21 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     if table is not None:
         out["kurtosis"] = table
     if geometry is not None:
-        if shaft_hz is None:
-            raise ValueError("--bearing needs --shaft HZ (the shaft's rotation rate)")
-        f = br.frequencies(geometry, shaft_hz)
-        out["bearing"] = f
-        out["lines"] = br.match(br.lines(f, shaft_hz), spec["freqs"], spec["amplitude"])
+        add_bearing(out, geometry, shaft_hz)
     return out
+
+
+def add_bearing(rep: dict, geometry, shaft_hz: float | None) -> dict:
+    """Put a bearing's frequencies and lines matched to peaks in a ``report`` (in place).
+
+    The spectrum is not recomputed: a new geometry or shaft rate costs only the
+    matching (the window marks lines again this way).
+    """
+    from scalesieve.core import bearing as br
+
+    if shaft_hz is None:
+        raise ValueError("--bearing needs --shaft HZ (the shaft's rotation rate)")
+    f = br.frequencies(geometry, shaft_hz)
+    rep["bearing"] = f
+    rep["lines"] = br.match(br.lines(f, shaft_hz), rep["freqs"], rep["amplitude"])
+    return rep

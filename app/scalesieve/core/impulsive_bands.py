@@ -77,7 +77,7 @@ def kurtosis(c: np.ndarray, work: np.ndarray | None = None) -> float | None:
 
 
 def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetric",
-          depth: int = DEFAULT_DEPTH, keep_best: bool = False) -> dict:
+          depth: int = DEFAULT_DEPTH, keep_best: bool = False, check=None) -> dict:
     """Kurtosis of every packet band of depths 1 .. ``depth``, and the largest.
 
     Returns ``{"levels": [{"level": j, "bands": [{"name", "low_hz", "high_hz",
@@ -85,6 +85,8 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     order; ``best`` adds ``"level"``.  Ties go to the shallower (wider) band.
     With ``keep_best`` also ``"best_coefficients"``: the best node's
     coefficients (``WaveletPacket(x)[path].data``), kept as the tree is walked.
+    ``check()``, if given, is called before each depth and may raise to stop
+    (the window's worker stops a table nobody waits for any more).
     """
     x = np.asarray(x, dtype=np.float64)
     top = pywt.dwt_max_level(x.shape[0], pywt.Wavelet(wavelet).dec_len)
@@ -122,6 +124,8 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
 
     try:
         for j in range(1, depth + 1):
+            if check is not None:
+                check()
             if pool and len(nodes) == 1:
                 parts = [split_root(nodes[0])]
             else:

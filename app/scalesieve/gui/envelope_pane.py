@@ -5,7 +5,9 @@ or the most impulsive band), its largest peaks, and - given a bearing's
 geometry and the shaft rate - the lines of FTF, BPFO, BPFI and BSF, their
 harmonics and BPFI's shaft sidebands, each matched to the nearest peak.  The
 numbers come from core/envelope.py and core/bearing.py, as the
-``scalesieve envelope`` command gives them.
+``scalesieve envelope`` command gives them; the spectrum is worked out in a
+thread (on a long recording it takes seconds), the bearing lines on a
+spectrum already made are matched at once.
 """
 
 from __future__ import annotations
@@ -22,7 +24,7 @@ from PySide6.QtWidgets import (QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel,
 from scalesieve.core import bearing as br
 from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.impulse_map import CAUTION
+from scalesieve.gui.impulse_map import CAUTION, BackgroundRun, busy_bar
 from scalesieve.io.atomic import atomic_write
 
 #: marker colours per line family (our own; readable on the light plot background)
@@ -40,12 +42,20 @@ class EnvelopePane(QWidget):
         self.channel = 0
         self.band = "best"
         self.report: dict | None = None
-        self._for = None
+        self._for = None                 # (recording, channel, wavelet, mode, band) shown
+        self._wanted = None              # the same for the spectrum being worked out
+        self._spectrum: dict | None = None    # the report without bearing lines
+        self._drawn = None               # the (geometry, shaft rate) its lines were drawn for
+        self.run = BackgroundRun("envelope spectrum", self)
+        self.run.finished.connect(self._spectrum_ready)
+        adapter.add_pending_check(lambda: self.run.busy)
         col = QVBoxLayout(self)
         col.setContentsMargins(4, 4, 4, 4)
         head = QHBoxLayout()
         self.title = QLabel("<b>Envelope spectrum</b>")
         head.addWidget(self.title, 1)
+        self.working = busy_bar()
+        head.addWidget(self.working)
         head.addWidget(QLabel("bearing"))
         self.geometry = QLineEdit()
         self.geometry.setPlaceholderText("N,d,D,angle")
@@ -119,32 +129,71 @@ class EnvelopePane(QWidget):
             raise ValueError("give the shaft rate in Hz to mark the bearing's lines")
         return g, shaft
 
+    @property
+    def busy(self) -> bool:
+        """The spectrum is being worked out."""
+        return self.run.busy
+
     def redraw(self, force: bool = False) -> None:
+        """Show the chosen band's spectrum: asked of a thread, or at once when it is made.
+
+        A new bearing or shaft rate (or ``force``) on a spectrum already made
+        only matches the lines again.
+        """
         rec = self.adapter.recording
         model = self.adapter.model
         if rec is None or model is None:
             return
         ch = min(self.channel, rec.channels - 1)
         spec = model.spec
-        try:
-            g, shaft = self._bearing()
-        except ValueError as exc:
-            self.readout.setText(f"Bearing: {exc}")
-            g, shaft = None, None
-        key = (id(rec), ch, spec.wavelet, spec.mode, self.band, g, shaft)
-        if key == self._for and not force:
+        key = (id(rec), ch, spec.wavelet, spec.mode, self.band)
+        if key == self._for and self._spectrum is not None and not self.run.busy:
+            self._show(force)
+            return
+        if key == self._wanted:
             return
         import pywt
 
         top = pywt.dwt_max_level(rec.n, pywt.Wavelet(spec.wavelet).dec_len)
-        try:
-            rep = en.report(rec.samples[:, ch], rec.rate, self.band, spec.wavelet, spec.mode,
-                            min(6, top), g, shaft)
-        except ValueError as exc:
-            self.readout.setText(str(exc))
+        x, rate, band, wavelet, mode = rec.samples[:, ch], rec.rate, self.band, spec.wavelet, \
+            spec.mode
+        self._wanted = key
+        self.run.request(key, lambda check: en.report(x, rate, band, wavelet, mode, min(6, top),
+                                                      check=check))
+        self.working.show()
+        what = "the most impulsive band" if band == "best" else band
+        self.readout.setText(f"Working out the envelope spectrum of {what}…")
+
+    def _spectrum_ready(self, key, rep, problem) -> None:
+        self._wanted = None
+        self.working.hide()
+        if problem is not None:
+            self.readout.setText(problem)
             return
-        self.report = rep
+        self._spectrum = rep
         self._for = key
+        self._drawn = None
+        self._show(True)
+
+    def _show(self, force: bool) -> None:
+        """Draw the spectrum made, with the bearing lines the fields give now."""
+        problem = ""
+        try:
+            g, shaft = self._bearing()
+        except ValueError as exc:
+            problem = f"Bearing: {exc}.  "
+            g, shaft = None, None
+        if (g, shaft) == self._drawn and not force:
+            return
+        self._drawn = (g, shaft)
+        rep = {k: v for k, v in self._spectrum.items() if k not in ("bearing", "lines")}
+        if g is not None:
+            try:
+                en.add_bearing(rep, g, shaft)
+            except ValueError as exc:
+                problem = f"Bearing: {exc}.  "
+                rep = {k: v for k, v in rep.items() if k not in ("bearing", "lines")}
+        self.report = rep
         b = rep["band"]
         self.title.setText(f"<b>Envelope spectrum</b> of {b['name']} ({b['low_hz']:g}–"
                            f"{b['high_hz']:g} Hz), resolution {rep['resolution_hz']:.3g} Hz")
@@ -174,7 +223,7 @@ class EnvelopePane(QWidget):
             self.markers.append(m)
         self.plot.setXRange(0, x_max, padding=0.01)
         self.plot.setYRange(0, float(amp[shown].max()) * 1.1 if amp[shown].size else 1.0)
-        self.readout.setText(self.readout_text())
+        self.readout.setText(problem + self.readout_text())
 
     def _draw_curve(self, freqs: np.ndarray, amp: np.ndarray, x_max: float) -> None:
         """The spectrum up to ``x_max``, as the largest value per screen column (lines kept)."""

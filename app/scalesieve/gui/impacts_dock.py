@@ -7,7 +7,9 @@ dock sits below the workbench and opens from View, or on start with
 
 from __future__ import annotations
 
-from PySide6.QtCore import Qt
+import time
+
+from PySide6.QtCore import QCoreApplication, QEventLoop, Qt
 from PySide6.QtWidgets import QDockWidget, QSplitter
 
 from scalesieve.gui.envelope_pane import EnvelopePane
@@ -44,17 +46,39 @@ def _refresh(dock) -> None:
         dock.envelope.redraw()
 
 
+def wait_drawn(dock, timeout_s: float = 120.0) -> bool:
+    """Process events until both panes have drawn what they were asked (for snapshots).
+
+    True when they have; False after ``timeout_s``.
+    """
+    deadline = time.monotonic() + timeout_s
+    while (dock.impulse_map.busy or dock.envelope.busy) and time.monotonic() < deadline:
+        QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
+        time.sleep(0.002)
+    QCoreApplication.processEvents()
+    return not (dock.impulse_map.busy or dock.envelope.busy)
+
+
 def show_band(window, name: str) -> None:
-    """Bring a chosen packet band into view in the Bands pane, or say how to get it there."""
+    """Select a chosen packet band everywhere it is a band of the window's transform.
+
+    When the transform in force has the band (a packet transform at its depth,
+    or a basis holding its node), its row is selected in the Scale map's row
+    headers (the edit buttons then act on it) and its lane, if open, is
+    scrolled into view; otherwise the status line says how to get it there.
+    """
     model = window.adapter.model
     if model is None:
         return
     for key in model.band_keys:
         if model.band_name(key) == name:
+            # every row of the Scale map is on screen (rows share its height), so
+            # selecting the row shows it; a lane below may need scrolling to
+            window.scale_map.select_rows([key])
             row = window.bands.rows.get(key)
-            if row is not None:
+            if row is not None and window.bands.lane_open(key):
                 window.bands.scroll.ensureWidgetVisible(row)
-            window.statusBar().showMessage(f"{name}: shown in the Bands pane and demodulated "
+            window.statusBar().showMessage(f"{name}: selected in the Scale map and demodulated "
                                            "in the Envelope spectrum", 5000)
             return
     depth = name[1:].split(".")[0]

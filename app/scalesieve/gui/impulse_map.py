@@ -4,25 +4,119 @@ Each row is one depth of the packet tree (depth 1 at the top), each cell one
 band of that depth across its frequency range; the colour is the band's
 kurtosis (core/impulsive_bands.py).  The most impulsive band is outlined,
 and choosing a cell chooses that band for the Envelope spectrum pane.  No
-transform is computed here: the core does it, this pane only draws.
+transform is computed here: the core does it, in a worker thread (the table
+of a long recording takes seconds), and this pane only draws.
 """
 
 from __future__ import annotations
 
+import threading
+from typing import Callable
+
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QRectF, Qt, Signal
+from PySide6.QtCore import QObject, QRectF, Qt, Signal
 from PySide6.QtGui import QColor, QPen
-from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QSpinBox, QVBoxLayout,
-                               QWidget)
+from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QProgressBar, QSpinBox,
+                               QVBoxLayout, QWidget)
 
 from scalesieve.core import impulsive_bands as ib
 from scalesieve.core import packets as wp
+from scalesieve.gui.thread_priority import lower_this_thread
 
 CAUTION = ("Figures support a judgement about a machine; decisions follow the applicable "
            "standards and qualified people.")
 #: colour map of the picture (perceptual, and not the Scale map's default)
 COLOURS = "magma"
+
+
+class Outdated(Exception):
+    """A newer request made the work in flight pointless."""
+
+
+class BackgroundRun(QObject):
+    """Runs one piece of a pane's work at a time in a thread; latest request wins.
+
+    ``request(key, fn)`` runs ``fn(check)`` off the window's thread; ``check()``
+    raises ``Outdated`` once a newer request has come, so a run nobody waits
+    for stops at its next step.  While one runs, only the latest request
+    waits (the ones in between are dropped), as the model adapter does for
+    transforms.  ``finished(key, result, problem)`` comes in the window's
+    thread for the latest request only; ``problem`` is one line or None.
+    """
+
+    finished = Signal(object, object, object)
+    _done = Signal(int, object, object, object)      # token, key, result, problem
+
+    def __init__(self, name: str, parent=None):
+        super().__init__(parent)
+        self.name = name
+        self._token = 0
+        self._running: int | None = None
+        self._pending: tuple | None = None
+        self._done.connect(self._on_done, Qt.ConnectionType.QueuedConnection)
+
+    @property
+    def busy(self) -> bool:
+        """A run is in flight or waiting."""
+        return self._running is not None or self._pending is not None
+
+    def request(self, key, fn: Callable) -> None:
+        self._token += 1
+        job = (self._token, key, fn)
+        if self._running is not None:
+            self._pending = job            # an older waiting request is dropped
+        else:
+            self._start(job)
+
+    def _start(self, job: tuple) -> None:
+        self._running = job[0]
+        threading.Thread(target=self._work, args=job, name=f"scalesieve-{self.name}",
+                         daemon=True).start()
+
+    def _work(self, token: int, key, fn: Callable) -> None:
+        lower_this_thread()                # the window's thread paints first
+
+        def check() -> None:
+            if token != self._token:
+                raise Outdated()
+
+        result, problem = None, None
+        try:
+            result = fn(check)
+        except Outdated:
+            problem = "outdated"
+        except ValueError as exc:          # the core's one-line reasons (e.g. too short)
+            problem = str(exc)
+        except MemoryError:
+            problem = "not enough memory for this on the whole recording"
+        except Exception as exc:  # a bug: the pane says so in one line, the window goes on
+            problem = f"{self.name} failed: {type(exc).__name__}: {exc}"
+        try:
+            self._done.emit(token, key, result, problem)
+        except RuntimeError:               # the window closed meanwhile
+            pass
+
+    def _on_done(self, token: int, key, result, problem) -> None:
+        self._running = None
+        pending, self._pending = self._pending, None
+        if pending is not None:
+            self._start(pending)           # this result is out of date: dropped
+            return
+        if token == self._token:
+            self.finished.emit(key, result, problem)
+
+
+def busy_bar() -> QProgressBar:
+    """A small moving bar shown while a pane's figures are being worked out."""
+    bar = QProgressBar()
+    bar.setRange(0, 0)                     # no known end: it moves to and fro
+    bar.setTextVisible(False)
+    bar.setFixedWidth(90)
+    bar.setMaximumHeight(12)
+    bar.setToolTip("working out the figures in the background")
+    bar.hide()
+    return bar
 
 
 def table_image(table: dict) -> np.ndarray:
@@ -57,6 +151,10 @@ class ImpulseMapPane(QWidget):
         self.channel = 0
         self.table: dict | None = None
         self._for = None                 # (recording, channel, wavelet, mode, depth) drawn
+        self._wanted = None              # the same for the table being worked out
+        self.run = BackgroundRun("kurtosis table", self)
+        self.run.finished.connect(self._table_ready)
+        adapter.add_pending_check(lambda: self.run.busy)
         col = QVBoxLayout(self)
         col.setContentsMargins(4, 4, 4, 4)
         head = QHBoxLayout()
@@ -69,6 +167,8 @@ class ImpulseMapPane(QWidget):
         self.depth.setValue(ib.DEFAULT_DEPTH)
         self.depth.setToolTip("deepest packet level of the table")
         self.depth.valueChanged.connect(lambda _v: self.redraw())
+        self.working = busy_bar()
+        head.insertWidget(1, self.working)
         head.addWidget(self.depth)
         col.addLayout(head)
         self.plot = pg.PlotWidget()
@@ -118,7 +218,13 @@ class ImpulseMapPane(QWidget):
         super().showEvent(ev)
         self.redraw()
 
+    @property
+    def busy(self) -> bool:
+        """The table is being worked out."""
+        return self.run.busy
+
     def redraw(self) -> None:
+        """Ask for the table of what the window shows (worked out in a thread)."""
         rec = self.adapter.recording
         model = self.adapter.model
         if rec is None or model is None:
@@ -130,20 +236,36 @@ class ImpulseMapPane(QWidget):
         top = pywt.dwt_max_level(rec.n, pywt.Wavelet(spec.wavelet).dec_len)
         depth = max(1, min(self.depth.value(), top))
         key = (id(rec), ch, spec.wavelet, spec.mode, depth)
-        if key == self._for:
+        if key == self._wanted or (key == self._for and not self.run.busy):
             return
-        self.table = ib.table(rec.samples[:, ch], rec.rate, spec.wavelet, spec.mode, depth)
+        self._wanted = key
+        x, rate, wavelet, mode = rec.samples[:, ch], rec.rate, spec.wavelet, spec.mode
+        # the samples are never written (edits change gains), so the thread may read them
+        self.run.request((key, rate), lambda check: ib.table(x, rate, wavelet, mode, depth,
+                                                             check=check))
+        self.working.show()
+        self.readout.setText("Working out the kurtosis of every packet band…")
+
+    def _table_ready(self, job, table, problem) -> None:
+        key, rate = job
+        self._wanted = None
+        self.working.hide()
+        if problem is not None:
+            self.readout.setText(problem)
+            return
+        self.table = table
         self._for = key
-        self._rate = rec.rate
+        self._rate = rate
+        depth = key[-1]
         img = table_image(self.table)
         finite = img[np.isfinite(img)]
         hi = float(finite.max()) if finite.size else 4.0
         self.image.setImage(np.nan_to_num(img, nan=0.0), autoLevels=False)
-        self.image.setRect(QRectF(0.0, 0.0, rec.rate / 2, float(depth)))
+        self.image.setRect(QRectF(0.0, 0.0, rate / 2, float(depth)))
         self.bar.setLevels((0.0, max(hi, 4.0)))
         left = self.plot.getAxis("left")
         left.setTicks([[(j - 0.5, str(j)) for j in range(1, depth + 1)]])
-        self.plot.setXRange(0, rec.rate / 2, padding=0)
+        self.plot.setXRange(0, rate / 2, padding=0)
         self.plot.setYRange(0, depth, padding=0)
         best = self.table["best"]
         if best:

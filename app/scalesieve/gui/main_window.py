@@ -632,8 +632,11 @@ class MainWindow(RecipeFiles, QMainWindow):
             pane.redraw()
         self.reconstruction.update_metrics()
         if self.impacts_dock.isVisible():
+            from scalesieve.gui.impacts_dock import wait_drawn
+
             self.impacts_dock.impulse_map.redraw()
             self.impacts_dock.envelope.redraw()
+            wait_drawn(self.impacts_dock)      # their figures come from worker threads
         QApplication.processEvents()
 
         def write(tmp: str) -> None:
