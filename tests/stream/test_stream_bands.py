@@ -12,7 +12,7 @@ from scalesieve import memory_guard
 from scalesieve.cli import main
 from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
-from scalesieve.stream.pipeline import band_figures_stream
+from scalesieve.stream.bands import band_figures_stream
 
 
 def _figures(x, wavelet, level, mode):

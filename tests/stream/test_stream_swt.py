@@ -16,7 +16,8 @@ from scalesieve.cli import main
 from scalesieve.core.transforms import MODES, TransformSpec
 from scalesieve.recipe import Edit
 from scalesieve.stream import swt as sw
-from scalesieve.stream.pipeline import band_figures_stream, clean_stream
+from scalesieve.stream.bands import band_figures_stream
+from scalesieve.stream.pipeline import clean_stream
 
 RATE = 8000
 

@@ -47,7 +47,7 @@ def band_report(model, file_label: str) -> dict:
 
 def _report_in_blocks(args, spec, progress) -> dict:
     """``band_report``'s fields for a recording longer than the budget, in one pass."""
-    from scalesieve.stream.pipeline import band_figures_stream
+    from scalesieve.stream.bands import band_figures_stream
 
     facts, channels = band_figures_stream(
         args.file, spec, channel=args.channel, rate=args.rate,
