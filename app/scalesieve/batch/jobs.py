@@ -130,7 +130,8 @@ def run_job(job: FileJob) -> dict:
                 out["output_data"] = fh.read()
         out.update(status="ok", samples=res["samples"], rate=res["rate"],
                    channels=res["channels"], clipped=res["clipped"],
-                   energy_removed_fraction=res["energy_removed_fraction"])
+                   energy_removed_fraction=res["energy_removed_fraction"],
+                   warnings=list(res.get("warnings", ())))
     except ScalesieveError as exc:
         out["error"] = exc.one_line()
     except MemoryError:

@@ -47,6 +47,7 @@ def band_report(model, file_label: str) -> dict:
 
 def _report_in_blocks(args, spec, progress) -> dict:
     """``band_report``'s fields for a recording longer than the budget, in one pass."""
+    from scalesieve.io.readers import truncation_warnings
     from scalesieve.stream.bands import band_figures_stream
 
     facts, channels = band_figures_stream(
@@ -60,21 +61,11 @@ def _report_in_blocks(args, spec, progress) -> dict:
         "duration_s": facts["samples"] / facts["rate"],
         "transform": facts["spec"].to_json(),
         "start_time": None,              # audio files carry no clock
-        "warnings": _audio_warnings(args.file, facts["samples"]),
+        "warnings": truncation_warnings(args.file, facts["samples"]),
         "channels": [{"index": k if pick is None else pick,
                       "name": f"ch{k if pick is None else pick}", "bands": rows}
                      for k, rows in enumerate(channels)],
     }
-
-
-def _audio_warnings(path: str, held: int) -> list[str]:
-    """The reader's warnings for an audio file read in blocks (a header promising more)."""
-    import soundfile as sf
-
-    from scalesieve.io.readers import truncation
-
-    warning = truncation(path, sf.info(path), held)[1]
-    return [warning] if warning else []
 
 
 def format_table(report: dict) -> str:

@@ -94,6 +94,9 @@ def run(args) -> int:
             bar.close()
     report_path = os.path.join(args.output, batch.REPORT_NAME)
     total = len(report["files"])
+    for e in report["files"]:              # what the readers said of each input
+        for w in e.get("warnings") or ():
+            print(f"scalesieve: warning: {e['input']}: {w}", file=sys.stderr)
     clipped = sum(int(e.get("clipped") or 0) for e in report["files"])
     if clipped:
         print(f"scalesieve: warning: {clipped} samples clipped in total; "

@@ -217,13 +217,13 @@ def _in_blocks(args):
     levels = levels_from(args.levels, spec, int(facts["frames"]))
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
                                        rate=args.rate)
-    from scalesieve.commands.bands import _audio_warnings
+    from scalesieve.io.readers import truncation_warnings
 
     rec = SimpleNamespace(rate=got["rate"], n=got["samples"], channels=got["channels"],
                           duration_s=got["samples"] / got["rate"],
                           channel_names=got["channel_names"],
                           start_time=None,       # audio files carry no clock
-                          warnings=tuple(_audio_warnings(args.file, got["samples"])),
+                          warnings=tuple(truncation_warnings(args.file, got["samples"])),
                           file_index=lambda k: _picked(args.channel, got["channel_names"], k))
     return rec, spec, levels, events, noise
 

@@ -68,6 +68,14 @@ def truncation(source: str, info, held: int) -> tuple[int, str | None]:
                           f"{held}; the recording is incomplete (read what is there)")
     return declared, None
 
+
+def truncation_warnings(path: str, held: int) -> list[str]:
+    """The reader's warnings for an audio file read in blocks, where ``held`` frames were."""
+    import soundfile as sf
+
+    warning = truncation(path, sf.info(path), held)[1]
+    return [warning] if warning else []
+
 def _audio_extensions() -> frozenset[str]:
     exts = {"." + name.lower() for name in sf.available_formats()}
     exts |= {".aif", ".aiff", ".aifc", ".oga", ".opus", ".mp3", ".wave", ".snd", ".bwf"}

@@ -28,6 +28,7 @@ from scalesieve.core import edits as ed
 from scalesieve.core import thresholds as th
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
+from scalesieve.io.readers import truncation_warnings
 from scalesieve.stream import statistics as st
 from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
 
@@ -621,7 +622,9 @@ def _result(src, reports, join, passes, spec, edits=()) -> dict:
         "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
                    "bytes": stream_bytes(src.channels, spec)},
         "recipe": Recipe(transform=spec, edits=edits),   # as applied: level resolved
+        "warnings": truncation_warnings(src.path, src.frames),
     }
+
 
 
 def clean_stream(input_path: str, output: str, *, recipe=None,
