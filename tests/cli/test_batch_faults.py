@@ -271,3 +271,25 @@ def test_estimate_matches_what_the_writer_writes(tmp_path):
         dst = out / os.path.basename(src)
         est = batch.estimate_output_bytes(src, str(dst))
         assert os.path.getsize(dst) <= est <= os.path.getsize(dst) + 4096
+
+
+def test_batch_on_a_tls_scheduler_without_a_certificate_is_one_line(tmp_path):
+    # Dask's docs: a tls:// client needs its certificate (distributed.comm.tls.*);
+    # without one the batch stops before any work, as `clean --scheduler` does.
+    import subprocess
+    import sys
+
+    recipe = tmp_path / "r.json"
+    recipe.write_text('{"scalesieve_recipe": 1, "edits": []}')
+    src = tmp_path / "in.wav"
+    import numpy as np
+    import soundfile as sf
+
+    sf.write(str(src), np.zeros(4096), 8000)
+    r = subprocess.run([sys.executable, "-m", "scalesieve", "batch", "--recipe", str(recipe),
+                        "-o", str(tmp_path / "out"), "--scheduler", "tls://127.0.0.1:9",
+                        str(src)], capture_output=True, text=True, timeout=120,
+                       stdin=subprocess.DEVNULL)
+    assert r.returncode == 2, r.stderr
+    assert r.stderr.count("\n") == 1 and "needs this machine's certificate" in r.stderr
+    assert "Traceback" not in r.stderr

@@ -31,6 +31,21 @@ def _worker_view(outdir: str | None, probe: str | None) -> dict:
     }
 
 
+def check_tls(scheduler: str) -> None:
+    """A ``tls://`` scheduler needs this client's certificate in Dask's configuration."""
+    if not scheduler.startswith("tls://"):
+        return
+    import dask
+
+    tls = dask.config.get("distributed.comm.tls", default={}) or {}
+    client = tls.get("client") or {}
+    if not (tls.get("ca-file") and client.get("cert")):
+        raise ScalesieveError(
+            "a tls:// scheduler needs this machine's certificate in Dask's configuration "
+            "(distributed.comm.tls.ca-file, .client.cert and .client.key; see docs/batch.md)",
+            scheduler)
+
+
 def connect(address: str, timeout: float = 10.0):
     """A ``dask.distributed.Client`` for ``address``, or one clear error."""
     try:
@@ -40,6 +55,7 @@ def connect(address: str, timeout: float = 10.0):
             "--scheduler needs Dask distributed, which is not installed; install it with "
             "pip install \"scalesieve[cluster]\" (from a source folder: pip install \".[cluster]\")"
         ) from None
+    check_tls(address)
     try:
         return Client(address, timeout=timeout, set_as_default=False)
     except (OSError, TimeoutError, ValueError) as exc:
