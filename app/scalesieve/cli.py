@@ -1,4 +1,4 @@
-"""The ``scalesieve`` command line (shared/CONTRACT.md).
+"""The ``scalesieve`` command line (docs/reference.md).
 
 ``bands``, ``clean``, ``events``, ``batch``, ``kurtosis``, ``envelope`` and ``--version``
 never import Qt.

@@ -1,6 +1,6 @@
 """The Recipe: an ordered list of edits plus the transform it was made for.
 
-Version 1 of the file format is fixed by shared/CONTRACT.md.  A recipe is
+Version 1 of the file format is fixed by docs/reference.md.  A recipe is
 data: JSON only, checked against a schema, every value range-checked, and
 every problem reported with the edit number and the key it is in.
 """

@@ -1,4 +1,4 @@
-"""`bands` and `clean` per shared/CONTRACT.md, checked with outside readers."""
+"""`bands` and `clean` per docs/reference.md, checked with outside readers."""
 
 import csv
 import json

@@ -1,4 +1,4 @@
-"""`batch` per shared/CONTRACT.md: local processes, a Dask LocalCluster, the report.
+"""`batch` per docs/reference.md: local processes, a Dask LocalCluster, the report.
 
 Outside references: Python's ``hashlib`` (input hashes), ``wave`` (sample
 counts and rates of the inputs), ``shlex`` and ``/bin/sh`` (the command line

@@ -1,4 +1,4 @@
-"""`scalesieve events` per shared/CONTRACT.md, read back with Python's json and csv modules.
+"""`scalesieve events` per docs/reference.md, read back with Python's json and csv modules.
 
 Inputs are invented here (written with Python's wave module) or are the
 demo recording with its list of true impact times (sample_signals/README.md).

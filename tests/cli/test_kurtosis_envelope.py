@@ -1,4 +1,4 @@
-"""`scalesieve kurtosis` and `envelope` per shared/CONTRACT.md, on the invented fan recording.
+"""`scalesieve kurtosis` and `envelope` per docs/reference.md, on the invented fan recording.
 
 What the tool must find is stated in sample_signals/README.md (section 1b): a
 resonance at 5200 Hz, an outer-race defect at BPFO = 119.405 Hz (10 elements,

@@ -41,7 +41,7 @@ def _pywt_components(x, wavelet, mode, level):
 
 @pytest.mark.parametrize("mode", pywt.Modes.modes)
 def test_dwt_band_shares_are_the_components_energies_for_every_mode(mode):
-    # shared/CONTRACT.md: energy = sum of squares of the band's time-domain
+    # docs/reference.md: energy = sum of squares of the band's time-domain
     # component; the components come from PyWavelets' waverec, one band at a time.
     x = _signal()
     level = 5
@@ -267,7 +267,7 @@ def test_swt_universal_on_the_demo_removes_about_what_the_dwt_removes():
 
 
 def test_rows_come_in_the_contracts_order():
-    # shared/CONTRACT.md: bands listed d1 ... dJ, then aJ.
+    # docs/reference.md: bands listed d1 ... dJ, then aJ.
     x = _signal(2048)
     for kind in ("dwt", "swt"):
         m = DecompositionModel(Recording(x[:, None], 1000.0, ["x"]),

@@ -390,7 +390,7 @@ def test_snapshot_command_writes_a_1600_by_1000_png(tmp_path):
     # PNG signature and IHDR width/height (PNG specification, section 11.2.2).
     assert head[:8] == b"\x89PNG\r\n\x1a\n"
     assert struct.unpack(">II", head[16:24]) == (1600, 1000)
-    # An existing file is kept unless --force (shared/CONTRACT.md).
+    # An existing file is kept unless --force (docs/reference.md).
     r = subprocess.run(cmd, capture_output=True, text=True, env=env, timeout=120)
     assert r.returncode == 2 and r.stderr.count("\n") == 1 and "--force" in r.stderr
 

@@ -81,7 +81,7 @@ def test_band_table_csv_has_the_contract_fields(window, tmp_path):
     for key in ("channel", "channel_name", "name", "low_hz", "high_hz", "energy",
                 "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
         assert key in rows[0]
-    # shared/CONTRACT.md: coef_energy = sum of squares of PyWavelets' finest detail;
+    # docs/reference.md: coef_energy = sum of squares of PyWavelets' finest detail;
     # energy = sum of squares of d1's time-domain component (pywt.waverec, d1 alone).
     x = m.original(0)
     c = pywt.wavedec(x, m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)

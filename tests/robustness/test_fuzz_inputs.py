@@ -1,6 +1,6 @@
 """Bounded fuzzing of the readers, the recipe loader and the command line.
 
-The contract (shared/CONTRACT.md, "Exit status, messages, files"): any input
+The contract (docs/reference.md, "Exit status, messages, files"): any input
 gives a loaded recording or one ``ScalesieveError`` (exit status 2 and one
 line), never a traceback, a hang or a huge allocation.  Each case runs in a
 worker process (fuzz_harness.py) that classifies it; a failure message names

@@ -132,7 +132,7 @@ def _file_channel(recording, rep: dict | None) -> dict | None:
 
 
 def events_report(recording, spec, levels, k, events, noise, file_label: str) -> dict:
-    """The ``events --json`` document (shared/CONTRACT.md, plus compatible keys)."""
+    """The ``events --json`` document (docs/reference.md, plus compatible keys)."""
     from scalesieve.core.events import repetition_by_channel
 
     best, per = repetition_by_channel(events, recording.channels)

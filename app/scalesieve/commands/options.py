@@ -84,7 +84,7 @@ def load_input(args, path: str):
 
 
 def print_warnings(rec, path: str) -> None:
-    """Each of the reader's warnings as one line on stderr (shared/CONTRACT.md).
+    """Each of the reader's warnings as one line on stderr (docs/reference.md).
 
     Called once the command has done its work, so a run that fails prints its
     one error line only.

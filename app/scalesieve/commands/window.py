@@ -6,7 +6,7 @@ from scalesieve.bundled_files import demo_path  # noqa: F401  (importable here a
 from scalesieve.commands.options import add_input_options, add_transform_options
 from scalesieve.errors import ScalesieveError
 
-#: the size --snapshot draws the window at (shared/CONTRACT.md)
+#: the size --snapshot draws the window at (docs/reference.md)
 SNAPSHOT_SIZE = (1600, 1000)
 
 

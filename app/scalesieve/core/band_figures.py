@@ -6,7 +6,7 @@ export, the scripting API) reads the model's table; the window reads it too,
 or, on a long recording, has this same function run on the same arrays in
 its background thread (the same numbers, bit for bit).
 
-Definitions (shared/CONTRACT.md, ``bands --json``):
+Definitions (docs/reference.md, ``bands --json``):
 
 * ``energy``: sum of squared samples of the band's time-domain component
   (the band alone through the inverse transform), the band's own share of

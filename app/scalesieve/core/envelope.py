@@ -200,7 +200,7 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
 
     ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest kurtosis
     over depths 1 .. ``depth``, core/impulsive_bands.py).  Returns the
-    ``envelope --json`` fields (shared/CONTRACT.md) plus ``"freqs"`` and
+    ``envelope --json`` fields (docs/reference.md) plus ``"freqs"`` and
     ``"amplitude"`` (the whole spectrum, numpy arrays) and, for ``best``,
     ``"kurtosis"`` (the table it was chosen from).
 

@@ -6,7 +6,7 @@ import os
 import sys
 import tempfile
 
-#: the size --snapshot draws the window at (shared/CONTRACT.md)
+#: the size --snapshot draws the window at (docs/reference.md)
 SNAPSHOT_SIZE = (1600, 1000)
 
 

@@ -297,7 +297,7 @@ class DecompositionModel:
         return self._engine.threshold_for(self._ch[channel], key, edit)
 
     def band_table(self, channel: int) -> list[dict]:
-        """Per-band figures of the original recording (shared/CONTRACT.md ``bands --json``).
+        """Per-band figures of the original recording (docs/reference.md ``bands --json``).
 
         Worked out by ``core.band_figures`` once per decomposition; every view
         (command line, band table export, Bands pane, API) reads this table.
@@ -312,7 +312,7 @@ class DecompositionModel:
 
     def events(self, levels=(1, 2), k: float = 5.0, kind: str | None = None,
                channels: Sequence[int] | None = None):
-        """Transients (shared/CONTRACT.md ``events``), through core/events.py.
+        """Transients (docs/reference.md ``events``), through core/events.py.
 
         ``kind`` is the transform that times them (default: the SWT, see
         core/events.py); wavelet, level and mode are the model's.  Returns

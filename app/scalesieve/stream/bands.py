@@ -25,7 +25,7 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
 
     Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples`` and
     the resolved ``spec``; ``channels`` a list of band rows per channel
-    (shared/CONTRACT.md: ``energy`` of the band's time-domain component,
+    (docs/reference.md: ``energy`` of the band's time-domain component,
     ``energy_fraction`` over the channel's energy, ``coef_energy``, ``rms``
     and ``peak`` of the component, ``kurtosis`` of the coefficients).  Each
     component is synthesised block by block on its own and summed as it

@@ -1,7 +1,7 @@
 """How an edit reads in the window: band names, gains in dB, rules by their published names.
 
 One vocabulary for every pane (the Recipe list, row headers, lanes, tooltips);
-the recipe file and the command line keep their own keys (shared/CONTRACT.md).
+the recipe file and the command line keep their own keys (docs/reference.md).
 """
 
 from __future__ import annotations
