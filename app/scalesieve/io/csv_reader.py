@@ -1,6 +1,6 @@
 """Read numeric text tables (CSV, TSV, TXT, DAT) into a :class:`Recording`.
 
-What is accepted (see CONTRACT.md, "CSV/TSV/TXT input"):
+What is accepted (see docs/reference.md, "CSV/TSV/TXT input"):
 
 - delimiter comma, semicolon, tab, runs of whitespace (or ``|``), and a
   decimal comma, found together from the first rows;

@@ -31,7 +31,7 @@ AUDIO_FORMAT_BY_EXTENSION = {
 CSV_EXTENSIONS = (".csv", ".txt")
 
 # Default subtype when neither the caller nor the input says: 32-bit float
-# keeps every value (CONTRACT: from CSV input, 32-bit float WAV); FLAC has no
+# keeps every value (docs/reference.md: from CSV input, 32-bit float WAV); FLAC has no
 # float, so its widest integer; Ogg means Vorbis.
 _DEFAULT_SUBTYPE = {"WAV": "FLOAT", "WAVEX": "FLOAT", "RF64": "FLOAT", "W64": "FLOAT",
                     "AIFF": "FLOAT", "AU": "FLOAT", "CAF": "FLOAT", "FLAC": "PCM_24",
