@@ -413,8 +413,7 @@ class BandsPane(QFrame):
         for key in list(self.open_keys):
             self.set_lane(key, False)
         details = {k: r for k, r in table.items() if k != "a"} or table
-        impulsive = max(details, key=lambda k: details[k]["kurtosis"]
-                        if details[k]["kurtosis"] is not None else -1.0)
+        impulsive = _most_impulsive_key(m, self.channel, details)
         largest = max(table, key=lambda k: table[k]["energy_fraction"])
         for key in (impulsive, largest):
             self.set_lane(key, True)
@@ -484,3 +483,46 @@ class BandsPane(QFrame):
         if not set_band_threshold(self.adapter, key, values, scope):
             self._sync_controls()
         self.editMade.emit()
+
+
+def _most_impulsive_key(m, channel: int, details: dict):
+    """The band with the largest interior kurtosis (``core.band_choice``).
+
+    Interior: the coefficients the boundary extension leaves alone; a band
+    with too few of them takes no part.  When none qualifies (a short
+    recording) the largest kurtosis of all coefficients decides.
+    """
+    import pywt
+
+    from scalesieve.core import band_choice
+
+    spec = m.spec
+    L = pywt.Wavelet(spec.wavelet).dec_len
+    n = m.recording.n
+    if spec.kind == "packet":
+        depth = max(getattr(k, "depth", 1) for k in details)
+        edges = band_choice.dwt_edges(n, L, depth)
+    else:
+        edges = band_choice.dwt_edges(n, L, spec.level)
+
+    def level_of(key):
+        if hasattr(key, "path"):
+            return key.depth
+        return spec.level if key == "a" else int(key)
+
+    def inner(key):
+        try:
+            c = m.coefficients(channel, key)
+        except Exception:  # the model changed under it
+            return None
+        j = level_of(key)
+        if spec.kind == "swt":
+            e = band_choice.swt_edge(L, j)   # and the padding up to a multiple of 2^J
+            return band_choice.interior_kurtosis(c, e, e + max(0, c.shape[0] - n))
+        return band_choice.interior_kurtosis(c, *edges[j - 1])
+
+    key = band_choice.most_impulsive((k, inner(k)) for k in details)
+    if key is None:
+        key = max(details, key=lambda k: details[k]["kurtosis"]
+                  if details[k]["kurtosis"] is not None else -1.0)
+    return key
