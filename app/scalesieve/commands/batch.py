@@ -94,10 +94,14 @@ def run(args) -> int:
             bar.close()
     report_path = os.path.join(args.output, batch.REPORT_NAME)
     total = len(report["files"])
-    clipped = sum(int(e.get("clipped") or 0) for e in report["files"])
-    if clipped:
-        print(f"scalesieve: warning: {clipped} samples clipped in total; "
-              f"see {report_path}", file=sys.stderr)
+    from scalesieve.io.writers import output_warnings
+
+    for e in report["files"]:
+        if e.get("clipped"):
+            for w in output_warnings({"path": e.get("output"), "clipped": e["clipped"],
+                                      "frames": e.get("samples"),
+                                      "channels": e.get("channels")}):
+                print(f"scalesieve: warning: {w}", file=sys.stderr)
     print(f"batch: {report['ok']} of {total} files cleaned into {args.output} "
           f"in {report['seconds']:.3g} s; report {report_path}")
     if report["failed"]:
