@@ -27,6 +27,8 @@ from scalesieve.gui.scale_map import first_and_step
 from scalesieve.gui.threshold_spread import ThresholdSpread
 
 ROW_HEIGHT = 90
+#: opacity (of 255) of the removed trace beneath a lane's as-edited one
+REMOVED_ALPHA = 110
 #: open lanes share the drawer's height within these bounds (scrolling beyond)
 ROW_MIN, ROW_MAX = 84, 180
 AXIS_HEIGHT = 30
@@ -90,7 +92,11 @@ class BandRow(QWidget):
         self.plot.getPlotItem().layout.setColumnFixedWidth(0, 0)
         self.plot.setFixedHeight(ROW_HEIGHT + (AXIS_HEIGHT if last else 0))
         vb = self.plot.getViewBox()
-        self.base = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "removed"), width=1),
+        # what was removed, lighter and beneath: the as-edited trace shows through it
+        # (as the Reconstruction draws cleaned over a lighter original)
+        light = pg.mkColor(colour("traces", "removed"))
+        light.setAlpha(REMOVED_ALPHA)
+        self.base = pg.PlotDataItem(pen=pg.mkPen(light, width=1),
                                     connect="all", skipFiniteCheck=True)
         self.curve = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "band"), width=1),
                                      connect="all", skipFiniteCheck=True)
@@ -257,7 +263,7 @@ class BandsPane(QFrame):
         self.mode.setToolTip("each open band's part of the signal, or its wavelet coefficients")
         h.addWidget(self.mode)
         hint = QLabel("open a lane with a row's “trace” button on the map · dark: as edited · "
-                      "orange: removed from the band")
+                      "light orange, beneath: removed from the band")
         hint.setObjectName("hint")
         # The hint gives way when the pane is narrow; it must not widen the window.
         hint.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
