@@ -97,16 +97,35 @@ def test_selected_rows_are_what_edits_act_on(window, qtbot):
     assert gains == {(1,): pytest.approx(10 ** (-6 / 20)), (3,): pytest.approx(10 ** (-6 / 20))}
 
 
+def test_fan_lane_opens_on_the_band_of_the_impacts_not_an_edge_band(window, qtbot):
+    # sample_signals/README.md: the invented fan's impacts ring at 5200 Hz (d2, 3.2-6.4 kHz)
+    m = open_sample(window, "fan_bearing.wav")
+    QApplication.processEvents()
+    qtbot.waitUntil(lambda: bool(window.bands.open_keys), timeout=10000)
+    lo_hi = [m.band_range_hz(k) for k in window.bands.open_keys]
+    assert any(lo <= 5200.0 <= hi for lo, hi in lo_hi), lo_hi
+
+
 def test_lanes_open_on_the_most_impulsive_and_the_largest_band_and_close(window, qtbot):
     m = open_sample(window, PUMP)
     QApplication.processEvents()
     bands = window.bands
     qtbot.waitUntil(lambda: bool(bands.open_keys), timeout=10000)
-    # Reference: SciPy's Pearson kurtosis of each detail band's coefficients, and the
-    # share of energy of each band's own component, from PyWavelets' waverec.
+    # Reference: SciPy's Pearson kurtosis of each detail band's interior coefficients
+    # (those the boundary extension leaves alone, core/band_choice.py, checked against
+    # PyWavelets' modes in tests/core/test_band_choice.py), and the share of energy of
+    # each band's own component, from PyWavelets' waverec.
+    from scalesieve.core import band_choice as bc
+
     x = m.original(0)
     c = pywt.wavedec(x, m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)
-    kurt = {j: kurtosis(c[m.level - j + 1], fisher=False) for j in range(1, m.level + 1)}
+    edges = bc.dwt_edges(x.shape[0], pywt.Wavelet(m.spec.wavelet).dec_len, m.level)
+    kurt = {}
+    for j in range(1, m.level + 1):
+        d = c[m.level - j + 1]
+        inner = d[edges[j - 1][0]:d.shape[0] - edges[j - 1][1]]
+        if inner.shape[0] >= bc.MIN_INTERIOR:
+            kurt[j] = kurtosis(inner, fisher=False)
     energy = {}
     for i, key in enumerate(["a"] + list(range(m.level, 0, -1))):
         only = [np.zeros_like(v) for v in c]

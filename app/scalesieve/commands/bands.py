@@ -68,6 +68,14 @@ def _report_in_blocks(args, spec, progress) -> dict:
     }
 
 
+def _hz(v: float) -> str:
+    """A band edge in Hz as a plain number: 12800, 5512.5, 0.390625 (no exponent)."""
+    import numpy as np
+
+    return np.format_float_positional(float(v), precision=6, unique=True, fractional=False,
+                                      trim="-")
+
+
 def format_table(report: dict) -> str:
     t = report["transform"]
     lines = [f"{report['file']}: {report['samples']} samples at {report['rate']:g} Hz "
@@ -79,7 +87,7 @@ def format_table(report: dict) -> str:
                      f"{'RMS':>11} {'peak':>11} {'kurtosis':>9}")
         for b in ch["bands"]:
             k = "-" if b["kurtosis"] is None else f"{b['kurtosis']:.2f}"
-            lines.append(f"  {b['name']:<5} {b['low_hz']:>10.4g} {b['high_hz']:>10.4g} "
+            lines.append(f"  {b['name']:<5} {_hz(b['low_hz']):>10} {_hz(b['high_hz']):>10} "
                          f"{b['count']:>9d} {100 * b['energy_fraction']:>9.3f} "
                          f"{b['rms']:>11.4g} {b['peak']:>11.4g} {k:>9}")
     return "\n".join(lines)

@@ -135,10 +135,11 @@ def run(args) -> int:
         from scalesieve import api
 
         api.save_recipe(res["recipe"], args.save_recipe, force=args.force)
+    from scalesieve.io.writers import output_warnings
+
     for rep in res["outputs"]:
-        if rep.get("clipped"):
-            print(f"scalesieve: warning: {rep['clipped']} samples clipped in {rep['path']}",
-                  file=sys.stderr)
+        for w in output_warnings(rep):
+            print(f"scalesieve: warning: {w}", file=sys.stderr)
     if res.get("pieces"):
         spans = "; ".join(f"{p['start']}-{p['stop']}: {p['seconds']:.2f} s on {p['host']}"
                           f" ({p['pid']})" for p in res["pieces"])

@@ -57,7 +57,8 @@ def format_text(rep: dict) -> str:
                      f"BPFI {f['bpfi_hz']:.3f} Hz, BSF {f['bsf_hz']:.3f} Hz")
         for ln in rep["lines"]:
             side = "" if not ln.get("sideband") else f" {'-' if ln['sideband'] < 0 else '+'}shaft"
-            found = ("not found" if ln["found_hz"] is None else
+            found = ("not found (its peak is nearer another line's)" if ln.get("ambiguous")
+                     else "not found" if ln["found_hz"] is None else
                      f"peak {ln['found_hz']:.3f} Hz" + (
                          "" if ln["snr_db"] is None else f", {ln['snr_db']:.1f} dB over floor"))
             lines.append(f"    {ln['name'].upper()} x{ln['harmonic']}{side}: {ln['hz']:.3f} Hz, "

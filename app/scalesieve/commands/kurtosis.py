@@ -4,8 +4,12 @@ The statistic is the Pearson kurtosis (fourth central moment over the squared
 variance) of each wavelet packet band's own coefficients - about 3 for Gaussian
 noise, large where short bursts stand out - read over the packet tree of depths
 1..J: a wavelet-packet form of Antoni's spectral kurtosis (kurtogram, Antoni
-2006, 2007). The band where it is largest is the one to demodulate (see
-`scalesieve envelope`). Figures support a judgement about a machine; decisions
+2006, 2007). The table shows the kurtosis of all of a band's coefficients
+(as `bands --json` does). The choice of the most impulsive band (`best`, the
+band `envelope --band best` demodulates) uses the kurtosis of the band's
+interior coefficients only: those not touched by the boundary extension
+(derived from the filter length, level by level), and only bands with at
+least 128 of them (when none has, all coefficients). Figures support a judgement about a machine; decisions
 follow the applicable standards and qualified people.
 """
 
@@ -65,14 +69,18 @@ def format_table(report: dict) -> str:
         lines.append(f"  depth {lv['level']}: {cells}")
     b = report["best"]
     if b:
+        inner = b.get("interior_kurtosis")
+        judged = (f", interior kurtosis {inner:.2f} (the choice uses this)"
+                  if inner is not None else " (too short for an interior figure)")
         lines.append(f"most impulsive: {b['name']} ({b['low_hz']:g}-{b['high_hz']:g} Hz), "
-                     f"kurtosis {b['kurtosis']:.2f}")
+                     f"kurtosis {b['kurtosis']:.2f}{judged}")
     lines.append("Figures support a judgement about a machine; decisions follow the applicable "
                  "standards and qualified people.")
     return "\n".join(lines)
 
 
 def run(args) -> int:
+    from scalesieve.core import band_choice
     from scalesieve.core import impulsive_bands as ib
 
     rec = load_input(args, args.file)
@@ -85,6 +93,9 @@ def run(args) -> int:
     report = {"file": os.path.basename(args.file), "rate": rec.rate,
               "channel": rec.channel_names[0], "wavelet": wavelet, "mode": mode,
               "statistic": "pearson kurtosis of the packet coefficients (3 for Gaussian noise)",
+              "best_statistic": "pearson kurtosis of the interior coefficients (those the "
+                                "boundary extension does not touch), bands with at least "
+                                f"{band_choice.MIN_INTERIOR} of them",
               "levels": t["levels"], "best": t["best"]}
     if args.json:
         json.dump(report, sys.stdout)

@@ -9,8 +9,18 @@ angle phi, at shaft rate f_r (Randall & Antoni 2011, eqs. 1-4):
 * BSF  = D f_r / (2 d) (1 - (d/D cos phi)^2)   (ball spin)
 
 The figures assume rolling without slip; real bearings slip by 1-2 %
-(Randall & Antoni 2011, sect. 2), which is why lines are matched to the
-nearest peak within a tolerance, not to an exact bin.
+(Randall & Antoni 2011, sect. 2), which is why lines are matched to a peak
+within a tolerance, not to an exact bin: ``MIN_BINS`` resolution bins (the
+spectrum cannot place a peak closer) plus ``SLIP_SHARE`` of the line's
+frequency (slip).  One peak goes to one line at most: where two lines'
+tolerances reach the same peak, the line whose expected frequency is nearest
+keeps it, the other is left unmatched and flagged ``ambiguous``.  A peak
+counts only where it stands out of the floor more than noise would: the
+envelope spectrum of a noise-like envelope has bins of about Rayleigh
+distributed magnitude, whose median m gives sigma = m / sqrt(2 ln 2); the
+largest of K bins passes a sqrt(2 ln(K / p)) sigma level with probability
+about p, and a peak must pass it with p = ``FALSE_ALARM`` over the K bins of
+its tolerance window.
 
 References
 ----------
@@ -30,10 +40,13 @@ from scalesieve.core import envelope as env
 NAMES = ("ftf", "bpfo", "bpfi", "bsf")
 #: harmonics of each line that are marked and matched
 HARMONICS = 3
-#: a line matches the largest peak within this share of its frequency ...
-SLIP_SHARE = 0.02
-#: ... or within this many bins, whichever is wider (common practice: slip 1-2 %)
+#: a line matches the largest peak within this many resolution bins ...
 MIN_BINS = 3
+#: ... plus this share of its frequency for slip (Randall & Antoni 2011 give
+#: 1-2 % as typical; the lower end, as the tolerance adds the bins to it)
+SLIP_SHARE = 0.01
+#: chance that noise alone puts a bin over the match level within a tolerance window
+FALSE_ALARM = 0.01
 
 
 @dataclass(frozen=True)
@@ -99,34 +112,57 @@ def lines(freqs_hz: dict, shaft_hz: float, harmonics: int = HARMONICS) -> list[d
     return out
 
 
-def match(marked: list[dict], freqs: np.ndarray, amp: np.ndarray) -> list[dict]:
-    """Each line with the largest local maximum near it, and how far it stands out.
+def tolerance_hz(f: float, resolution_hz: float) -> float:
+    """How far from its expected ``f`` a line's peak may lie (module docstring)."""
+    return MIN_BINS * resolution_hz + SLIP_SHARE * abs(f)
 
-    ``found_hz``/``amplitude``: the largest local maximum within the
-    tolerance (``SLIP_SHARE`` of the line, at least ``MIN_BINS`` bins);
-    ``snr_db``: 20 log10 of its amplitude over the median amplitude of the
-    spectrum from 5 to 20 tolerances either side (the floor).  None where
-    no maximum lies within the tolerance or the line is beyond the spectrum.
+
+def noise_ratio(bins: int, false_alarm: float = FALSE_ALARM) -> float:
+    """Over the floor's median, the level the largest of ``bins`` Rayleigh bins passes
+    with probability ``false_alarm`` (Rayleigh: P(A > a) = exp(-a^2 / 2 sigma^2),
+    median sigma sqrt(2 ln 2))."""
+    return math.sqrt(2 * math.log(max(1, bins) / false_alarm)) / math.sqrt(2 * math.log(2))
+
+
+def match(marked: list[dict], freqs: np.ndarray, amp: np.ndarray) -> list[dict]:
+    """Each line with the peak near it that it alone claims, and how far it stands out.
+
+    ``found_hz``/``amplitude``: the largest local maximum within
+    ``tolerance_hz`` that passes ``noise_ratio`` times the floor;
+    ``snr_db``: 20 log10 of its amplitude over the floor, the median
+    amplitude of the spectrum from 5 to 20 tolerances either side.  A peak
+    claimed by several lines goes to the one whose expected frequency is
+    nearest; the others get None and ``"ambiguous": True`` (every row has
+    ``ambiguous``).  None where no maximum qualifies or the line is beyond
+    the spectrum.
     """
     res = float(freqs[1] - freqs[0]) if freqs.shape[0] > 1 else 1.0
     peaks = env.local_maxima(amp)
     out = []
+    claims = {}          # peak index -> rows that chose it
     for line in marked:
         f = line["hz"]
-        tol = max(SLIP_SHARE * f, MIN_BINS * res)
-        row = dict(line, found_hz=None, amplitude=None, snr_db=None)
+        tol = tolerance_hz(f, res)
+        row = dict(line, found_hz=None, amplitude=None, snr_db=None, ambiguous=False)
+        out.append(row)
         if f - tol > freqs[-1] or f <= 0:
-            out.append(row)
             continue
-        near = peaks[np.abs(freqs[peaks] - f) <= tol]
+        d = np.abs(freqs - f)
+        floor_mask = (d >= 5 * tol) & (d <= 20 * tol) & (freqs > 0)
+        floor = float(np.median(amp[floor_mask])) if floor_mask.any() else 0.0
+        level = floor * noise_ratio(int(np.count_nonzero(d <= tol)))
+        near = peaks[(np.abs(freqs[peaks] - f) <= tol) & (amp[peaks] > level)]
         if near.size:
             i = int(near[np.argmax(amp[near])])
-            d = np.abs(freqs - f)
-            floor_mask = (d >= 5 * tol) & (d <= 20 * tol) & (freqs > 0)
-            floor = float(np.median(amp[floor_mask])) if floor_mask.any() else 0.0
             row["found_hz"] = float(freqs[i])
             row["amplitude"] = float(amp[i])
             row["snr_db"] = (20 * math.log10(amp[i] / floor) if floor > 0 and amp[i] > 0
                              else None)
-        out.append(row)
+            claims.setdefault(i, []).append(row)
+    for i, rows in claims.items():
+        if len(rows) > 1:
+            keep = min(rows, key=lambda r: abs(r["hz"] - float(freqs[i])))
+            for r in rows:
+                if r is not keep:
+                    r.update(found_hz=None, amplitude=None, snr_db=None, ambiguous=True)
     return out

@@ -198,7 +198,7 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
            shaft_hz: float | None = None, exact: bool = False, check=None) -> dict:
     """The envelope spectrum of one packet band of ``x``, with bearing lines if given.
 
-    ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest kurtosis
+    ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest interior kurtosis
     over depths 1 .. ``depth``, core/impulsive_bands.py).  Returns the
     ``envelope --json`` fields (docs/reference.md) plus ``"freqs"`` and
     ``"amplitude"`` (the whole spectrum, numpy arrays) and, for ``best``,

@@ -78,11 +78,16 @@ def kurtosis(c: np.ndarray, work: np.ndarray | None = None) -> float | None:
 
 def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetric",
           depth: int = DEFAULT_DEPTH, keep_best: bool = False, check=None) -> dict:
-    """Kurtosis of every packet band of depths 1 .. ``depth``, and the largest.
+    """Kurtosis of every packet band of depths 1 .. ``depth``, and the most impulsive.
 
     Returns ``{"levels": [{"level": j, "bands": [{"name", "low_hz", "high_hz",
-    "kurtosis", "path"}, ...]}], "best": {...}}`` with bands in frequency
-    order; ``best`` adds ``"level"``.  Ties go to the shallower (wider) band.
+    "kurtosis", "interior_kurtosis", "path"}, ...]}], "best": {...}}`` with
+    bands in frequency order; ``kurtosis`` is of all the band's coefficients,
+    ``interior_kurtosis`` of those the boundary extension did not touch (None
+    with fewer than ``band_choice.MIN_INTERIOR``).  ``best`` is the band with
+    the largest ``interior_kurtosis`` (see ``core.band_choice``) and adds
+    ``"level"``; when no band has that many (a short recording) it is the band
+    with the largest ``kurtosis``.  Ties go to the shallower (wider) band.
     With ``keep_best`` also ``"best_coefficients"``: the best node's
     coefficients (``WaveletPacket(x)[path].data``), kept as the tree is walked.
     ``check()``, if given, is called before each depth and may raise to stop
@@ -96,9 +101,13 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
         raise ValueError(f"depth {depth} is deeper than {x.shape[0]} samples allow for "
                          f"{wavelet} (at most {top})")
     w = pywt.Wavelet(wavelet)
+    from scalesieve.core import band_choice
+
+    edges = band_choice.dwt_edges(x.shape[0], w.dec_len, depth)
     levels = []
     best = None
     best_data = None
+    fallback = None   # no band long enough for its interior: the largest kurtosis of all
     nodes = [("", x)]
     pool = ThreadPoolExecutor(max_workers=2) if x.shape[0] >= THREADS_FROM else None
 
@@ -135,17 +144,25 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
             rows = []
             for path, data, k in sorted(made, key=lambda m: wp.freq_index(m[0])):
                 lo, hi = wp.range_hz(path, rate)
+                inner = band_choice.interior_kurtosis(data, *edges[j - 1]) \
+                    if k is not None else None
                 rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo,
-                             "high_hz": hi, "kurtosis": k, "path": path})
-                if k is not None and (best is None or k > best["kurtosis"]):
+                             "high_hz": hi, "kurtosis": k, "interior_kurtosis": inner,
+                             "path": path})
+                if inner is not None and (best is None or inner > best["interior_kurtosis"]):
                     best = dict(rows[-1], level=j)
                     best_data = data if keep_best else None
+                elif best is None and k is not None and (
+                        fallback is None or k > fallback[0]["kurtosis"]):
+                    fallback = (dict(rows[-1], level=j), data if keep_best else None)
             levels.append({"level": j, "bands": rows})
             nodes = [(p, c) for p, c, _ in made] if j < depth else []
             del made
     finally:
         if pool:
             pool.shutdown()
+    if best is None and fallback is not None:
+        best, best_data = fallback
     out = {"levels": levels, "best": best}
     if keep_best:
         out["best_coefficients"] = best_data

@@ -106,6 +106,8 @@ class TransformSpec:
             return spec
         if self.level is None:
             return replace(self, level=default_level(n, self.wavelet))
+        if self.kind == "swt":
+            top = swt_max_level(n)
         if self.level > top:
             raise ValueError(
                 f"level {self.level} is deeper than {n} samples allow for {self.wavelet} "
@@ -170,6 +172,20 @@ def filter_length(wavelet: str) -> int:
 def max_level(n: int, wavelet: str) -> int:
     """Deepest level at which the filter still fits the data (PyWavelets' rule)."""
     return pywt.dwt_max_level(n, filter_length(wavelet))
+
+
+def swt_max_level(n: int) -> int:
+    """Deepest SWT level for ``n`` samples.
+
+    ``pywt.swt_max_level(n)`` (how often 2 divides n: the levels the samples
+    take as they are), and at least floor(log2 n): the transform pads the
+    signal to a multiple of 2^J (``swt_padded_length``), which for 2^J <= n
+    at most doubles it.
+    """
+    n = int(n)
+    if n < 2:
+        return 0
+    return int(max(pywt.swt_max_level(n), n.bit_length() - 1))
 
 
 def default_level(n: int, wavelet: str) -> int:

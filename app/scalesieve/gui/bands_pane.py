@@ -27,6 +27,8 @@ from scalesieve.gui.scale_map import first_and_step
 from scalesieve.gui.threshold_spread import ThresholdSpread
 
 ROW_HEIGHT = 90
+#: opacity (of 255) of the removed trace beneath a lane's as-edited one
+REMOVED_ALPHA = 110
 #: open lanes share the drawer's height within these bounds (scrolling beyond)
 ROW_MIN, ROW_MAX = 84, 180
 AXIS_HEIGHT = 30
@@ -90,7 +92,11 @@ class BandRow(QWidget):
         self.plot.getPlotItem().layout.setColumnFixedWidth(0, 0)
         self.plot.setFixedHeight(ROW_HEIGHT + (AXIS_HEIGHT if last else 0))
         vb = self.plot.getViewBox()
-        self.base = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "removed"), width=1),
+        # what was removed, lighter and beneath: the as-edited trace shows through it
+        # (as the Reconstruction draws cleaned over a lighter original)
+        light = pg.mkColor(colour("traces", "removed"))
+        light.setAlpha(REMOVED_ALPHA)
+        self.base = pg.PlotDataItem(pen=pg.mkPen(light, width=1),
                                     connect="all", skipFiniteCheck=True)
         self.curve = pg.PlotDataItem(pen=pg.mkPen(colour("traces", "band"), width=1),
                                      connect="all", skipFiniteCheck=True)
@@ -257,7 +263,7 @@ class BandsPane(QFrame):
         self.mode.setToolTip("each open band's part of the signal, or its wavelet coefficients")
         h.addWidget(self.mode)
         hint = QLabel("open a lane with a row's “trace” button on the map · dark: as edited · "
-                      "orange: removed from the band")
+                      "light orange, beneath: removed from the band")
         hint.setObjectName("hint")
         # The hint gives way when the pane is narrow; it must not widen the window.
         hint.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
@@ -413,8 +419,7 @@ class BandsPane(QFrame):
         for key in list(self.open_keys):
             self.set_lane(key, False)
         details = {k: r for k, r in table.items() if k != "a"} or table
-        impulsive = max(details, key=lambda k: details[k]["kurtosis"]
-                        if details[k]["kurtosis"] is not None else -1.0)
+        impulsive = _most_impulsive_key(m, self.channel, details)
         largest = max(table, key=lambda k: table[k]["energy_fraction"])
         for key in (impulsive, largest):
             self.set_lane(key, True)
@@ -484,3 +489,46 @@ class BandsPane(QFrame):
         if not set_band_threshold(self.adapter, key, values, scope):
             self._sync_controls()
         self.editMade.emit()
+
+
+def _most_impulsive_key(m, channel: int, details: dict):
+    """The band with the largest interior kurtosis (``core.band_choice``).
+
+    Interior: the coefficients the boundary extension leaves alone; a band
+    with too few of them takes no part.  When none qualifies (a short
+    recording) the largest kurtosis of all coefficients decides.
+    """
+    import pywt
+
+    from scalesieve.core import band_choice
+
+    spec = m.spec
+    L = pywt.Wavelet(spec.wavelet).dec_len
+    n = m.recording.n
+    if spec.kind == "packet":
+        depth = max(getattr(k, "depth", 1) for k in details)
+        edges = band_choice.dwt_edges(n, L, depth)
+    else:
+        edges = band_choice.dwt_edges(n, L, spec.level)
+
+    def level_of(key):
+        if hasattr(key, "path"):
+            return key.depth
+        return spec.level if key == "a" else int(key)
+
+    def inner(key):
+        try:
+            c = m.coefficients(channel, key)
+        except Exception:  # the model changed under it
+            return None
+        j = level_of(key)
+        if spec.kind == "swt":
+            e = band_choice.swt_edge(L, j)   # and the padding up to a multiple of 2^J
+            return band_choice.interior_kurtosis(c, e, e + max(0, c.shape[0] - n))
+        return band_choice.interior_kurtosis(c, *edges[j - 1])
+
+    key = band_choice.most_impulsive((k, inner(k)) for k in details)
+    if key is None:
+        key = max(details, key=lambda k: details[k]["kurtosis"]
+                  if details[k]["kurtosis"] is not None else -1.0)
+    return key

@@ -368,15 +368,24 @@ class MainWindow(RecipeFiles, QMainWindow):
             self.setWindowTitle(f"Scalesieve — {name}" if name else "Scalesieve")
             self.status_file.setText(self.describe_recording())
             self.time_axis.set_clock(rec.start_time)
+            from scalesieve.gui.channel_units import RESEARCH_CAUTION, looks_physiological
+
+            notes = []
             if rec.warnings:  # e.g. a header declaring more frames than the file holds
-                self.statusBar().showMessage("warning: " + "; ".join(rec.warnings), 20000)
+                notes.append("warning: " + "; ".join(rec.warnings))
+            if looks_physiological(rec.channel_names, rec.source):
+                notes.append(RESEARCH_CAUTION)
+            if notes:
+                self.statusBar().showMessage("  ·  ".join(notes), 60000)
             if rec.source and os.path.exists(rec.source):
                 ws.add_recent(self.settings, rec.source)
                 ws.set_last_folder(self.settings, rec.source)
                 self._fill_recent()
         self.transform_line.show_spec(m.spec, rec.n)
         s = m.spec
-        self.status_transform.setText(f"{s.kind.upper()} {s.wavelet}, level {s.level}, {s.mode}")
+        from scalesieve.gui.transform_line import spec_line
+
+        self.status_transform.setText(spec_line(s, rec.n))   # the words of the map's line
         self._update_history_actions()
 
     def _open_transform(self) -> None:

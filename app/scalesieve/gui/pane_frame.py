@@ -63,6 +63,8 @@ def make_plot(view_box: pg.ViewBox | None = None, bottom_axis: bool = True,
     if bottom_axis:
         pi.getAxis("bottom").setHeight(30)
         pi.setLabel("bottom", "time", units="s")
+        # seconds always (no "ms" for a short file), as the Overview and status bar say
+        pi.getAxis("bottom").enableAutoSIPrefix(False)
         pi.getAxis("bottom").label.setFont(tick_font())
     else:
         pi.hideAxis("bottom")

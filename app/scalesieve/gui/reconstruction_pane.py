@@ -37,6 +37,21 @@ def format_metrics(m: dict) -> str:
             f"peak change {m['peak_change']:.4g}")
 
 
+def sparse_ticks(lo: float, hi: float) -> list:
+    """pyqtgraph ticks for a short lane: 0 and one round value above it, no minor ones
+    (two labels half a lane apart cannot overlap)."""
+    top = max(abs(lo), abs(hi))
+    if not (top > 0 and math.isfinite(top)):
+        return [[(0.0, "0")], []]
+    step = 10.0 ** math.floor(math.log10(top))
+    m = math.floor(top / step) * step
+    if m > 0.9 * top:          # keep the label off the lane's very edge
+        m = (math.floor(top / step) - 1) * step or step / 2
+    side = m if abs(hi) >= abs(lo) else -m      # the round value on the wider side
+    ticks = [(v, "0" if v == 0 else f"{v:.2g}") for v in (0.0, side) if lo <= v <= hi]
+    return [ticks, []]
+
+
 class ReconstructionPane(PaneFrame):
     """Draws the current channel's original, cleaned and removed signals."""
 
@@ -208,3 +223,6 @@ class ReconstructionPane(PaneFrame):
             if math.isfinite(lo) and math.isfinite(hi):
                 pad = 0.06 * (hi - lo) if hi > lo else max(abs(hi), 1e-12)
                 plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)
+                if plot is self.removed_plot:
+                    # a short lane: three labels at most, so they never overlap
+                    plot.getAxis("left").setTicks(sparse_ticks(lo - pad, hi + pad))

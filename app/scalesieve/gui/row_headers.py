@@ -23,13 +23,16 @@ MUTE_TEXT = "−∞ dB"
 
 
 def percent_text(share: float) -> str:
-    """An energy share for a narrow label: ``24%``, ``0.46%``, ``<0.01%``."""
+    """An energy share for a narrow label, two significant digits: ``24%``, ``9.0%``,
+    ``0.46%``, ``0.10%``; below 0.1 % ``<0.1%`` (and ``0%`` for nothing)."""
     p = 100.0 * share
     if p == 0:
         return "0%"
-    if p < 0.01:
-        return "<0.01%"
-    return f"{p:.2g}%" if p < 10 else f"{p:.0f}%"
+    if p < 0.1:
+        return "<0.1%"
+    if p >= 9.95:
+        return f"{p:.0f}%"
+    return f"{p:#.2g}".rstrip(".") + "%"
 
 
 class ShareBar(QWidget):

@@ -103,7 +103,7 @@ class SharedTimeAxis(QObject):
                 axis.setLabel(f"clock time (from {clock.isoformat(sep=' ')})")
         elif "tickStrings" in axis.__dict__:
             del axis.tickStrings  # the class's own seconds
-            axis.enableAutoSIPrefix(True)
+            axis.enableAutoSIPrefix(False)   # seconds at every length, as the Overview says
             if axis.isVisible() and axis.label.isVisible():
                 axis.setLabel("time", units="s")
         axis.picture = None

@@ -96,6 +96,7 @@ class TransformControls(QWidget):
             # Long family names must not widen the dock.
             box.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
             box.setMinimumContentsLength(10)
+        self.kind.currentIndexChanged.connect(lambda *_: self._set_level_range())  # SWT goes deeper
         self.kind.currentIndexChanged.connect(self._changed)
         self.family.currentIndexChanged.connect(self._family_changed)
         self.order.currentIndexChanged.connect(self._order_changed)
@@ -123,7 +124,10 @@ class TransformControls(QWidget):
 
     def _set_level_range(self) -> None:
         w = self.order.currentData() or "db4"
-        top = max(1, tf.max_level(self._n, w)) if self._n else 12
+        if self._n and self.kind.currentData() == "swt":
+            top = max(1, tf.swt_max_level(self._n))
+        else:
+            top = max(1, tf.max_level(self._n, w)) if self._n else 12
         for widget in (self.level_slider, self.level_spin):
             widget.blockSignals(True)
             widget.setMaximum(top)

@@ -386,8 +386,42 @@ def write_signal(path: str | os.PathLike[str], samples, rate: float, channel_nam
     sub = subtype
     if sub is None and like is not None:
         sub = _choose_subtype(fmt, like.subtype)
-    return write_audio(target, samples, rate, subtype=sub, format=fmt, force=force,
-                       protect=guard)
+    rep = write_audio(target, samples, rate, subtype=sub, format=fmt, force=force,
+                      protect=guard)
+    if subtype is None and like is not None and like.subtype and rep["subtype"] != like.subtype:
+        rep["subtype_from"] = like.subtype     # the input's, which this format cannot hold
+    return rep
+
+
+#: share of clipped samples from which the warning says how to avoid it
+CLIP_ADVICE_SHARE = 0.01
+
+
+def output_warnings(rep: dict) -> list[str]:
+    """One-line warnings about an output report: ``"OUT: what"`` each (CONTRACT form).
+
+    A sample format other than the input's that the caller did not ask for
+    (``subtype_from``, e.g. FLOAT into FLAC becomes PCM_24), and clipped
+    samples; from ``CLIP_ADVICE_SHARE`` of all samples on, how to avoid them.
+    """
+    out = []
+    path = rep.get("path")
+    if rep.get("subtype_from"):
+        out.append(f"{path}: written as {rep['subtype']}, not the input's "
+                   f"{rep['subtype_from']} ({rep.get('format') or 'this format'} cannot hold "
+                   f"it); use a .wav output or --subtype to choose")
+    clipped = int(rep.get("clipped") or 0)
+    if clipped:
+        total = int(rep.get("frames") or 0) * int(rep.get("channels") or 1)
+        share = clipped / total if total else 0.0
+        text = f"{path}: {clipped} samples clipped to full scale"
+        if total:
+            text += f" ({100 * share:.2g} % of {total})"
+        if share > CLIP_ADVICE_SHARE:
+            text += ("; to keep them write a float WAV (--subtype FLOAT, .wav) or .csv, "
+                     "or lower the level with a gain edit")
+        out.append(text)
+    return out
 
 
 def write_recording(path: str | os.PathLike[str], recording: Recording, *,

@@ -206,6 +206,8 @@ class _AudioTarget:
         self.clipped = 0
         self.report = {"path": target, "kind": "audio", "format": fmt, "subtype": sub,
                        "rate": float(sr), "channels": int(src.channels), "frames": int(n)}
+        if subtype is None and src.subtype and sub != src.subtype:
+            self.report["subtype_from"] = src.subtype   # as io.writers.write_signal says it
         tmp = stack.enter_context(atomic_target(target, force=force, protect=protect))
         try:
             self.file = stack.enter_context(sf.SoundFile(tmp, "w", samplerate=sr,

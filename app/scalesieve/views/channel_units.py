@@ -30,3 +30,21 @@ def unit_of(name: str) -> str:
     if m and m.group(1) in UNITS:
         return m.group(1)
     return ""
+
+
+#: channel units and name words that suggest a physiological trace
+_BIO_UNITS = ("mV", "uV", "µV", "μV")
+_BIO_WORDS = re.compile(r"(?<![A-Za-z])(ECG|EKG|EEG|EMG|EOG|EDA|PPG|GSR)(?![a-z])", re.I)
+#: the one-line caution shown when such a recording is opened
+RESEARCH_CAUTION = ("Physiological traces: Scalesieve is for research and teaching, "
+                    "not for diagnosis or treatment.")
+
+
+def looks_physiological(channel_names, source: str | None = None) -> bool:
+    """A channel in mV/µV, a name like ECG/EEG/EMG, or an EDF/BDF file."""
+    if source and str(source).lower().endswith((".edf", ".bdf")):
+        return True
+    for name in channel_names or ():
+        if unit_of(name) in _BIO_UNITS or _BIO_WORDS.search(name or ""):
+            return True
+    return False

@@ -1,0 +1,113 @@
+"""The choice of the most impulsive band reads the coefficients the boundary left alone."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+import pywt
+import soundfile as sf
+from scipy import stats
+
+from scalesieve.core import band_choice as bc
+from scalesieve.core import impulsive_bands as ib
+
+SAMPLES = Path(__file__).resolve().parents[2] / "sample_signals"
+
+
+@pytest.mark.parametrize("wavelet", ["haar", "db4", "sym8", "coif3", "bior3.5"])
+@pytest.mark.parametrize("n", [1000, 4096, 4099])
+def test_edge_counts_are_the_coefficients_pywt_modes_disagree_on(wavelet, n):
+    # reference: PyWavelets' wavedec itself. Modes differ only in the extension,
+    # so a coefficient the extension does not touch is the same in every mode,
+    # and each touched one (next to the interior) differs for a random signal.
+    rng = np.random.default_rng(3)
+    x = rng.standard_normal(n)
+    L = pywt.Wavelet(wavelet).dec_len
+    depth = min(5, pywt.dwt_max_level(n, L))
+    out = {m: pywt.wavedec(x, wavelet, m, level=depth) for m in ("symmetric", "zero", "constant")}
+    edges = bc.dwt_edges(n, L, depth)
+    for j in range(1, depth + 1):
+        left, right = edges[j - 1]
+        ds = [out[m][depth - j + 1] for m in out]
+        k = ds[0].shape[0]
+        assert all(d.shape[0] == k for d in ds)
+        for d in ds[1:]:
+            np.testing.assert_allclose(d[left:k - right], ds[0][left:k - right], rtol=0,
+                                       atol=1e-12)
+        # and the count is tight: the coefficients where some mode differs reach
+        # to within one of it (filters with zero end taps, bior*, touch fewer)
+        differs = np.flatnonzero(np.max(np.abs(np.array(ds[1:]) - ds[0]), axis=0) > 1e-12)
+        seen_left = differs[differs < k // 2].max() + 1 if (differs < k // 2).any() else 0
+        seen_right = k - differs[differs >= k // 2].min() if (differs >= k // 2).any() else 0
+        if not wavelet.startswith("bior"):
+            assert left - 1 <= seen_left <= left and right - 1 <= seen_right <= right
+
+
+def test_swt_edge_is_where_the_periodic_wrap_stops_mattering():
+    # reference: pywt.swt (periodic): a change in the last sample reaches the
+    # first coefficients of level j only through the wrap, at most swt_edge of them
+    rng = np.random.default_rng(4)
+    x = rng.standard_normal(1024)
+    y = x.copy()
+    y[-1] += 1.0
+    L = pywt.Wavelet("db4").dec_len
+    a = pywt.swt(x, "db4", level=4, trim_approx=True, norm=True)
+    b = pywt.swt(y, "db4", level=4, trim_approx=True, norm=True)
+    for j in range(1, 5):
+        d = np.abs(a[-j] - b[-j])
+        changed = np.flatnonzero(d > 1e-12)
+        front = changed[changed < 512]
+        assert front.size and front.max() < bc.swt_edge(L, j)
+
+
+@pytest.mark.parametrize("depth", range(2, 11))
+def test_fan_bearing_choice_lands_in_the_resonance_region(depth):
+    # sample_signals/README.md: the invented fan's impacts ring at 5200 Hz,
+    # the 3.2-6.4 kHz band; the choice must land there at every depth 2..10
+    x, rate = sf.read(SAMPLES / "fan_bearing.wav", dtype="float64", always_2d=True)
+    best = ib.table(x[:, 0], rate, "db4", "symmetric", depth)["best"]
+    assert 3200.0 <= best["low_hz"] and best["high_hz"] <= 6400.0, best
+
+
+def test_gaussian_noise_interior_kurtosis_is_near_three_and_is_scipy_kurtosis():
+    # normal distribution: Pearson kurtosis 3, sampling sd about sqrt(24/n) (common practice);
+    # reference: scipy.stats.kurtosis(fisher=False) of the same interior node data
+    rng = np.random.default_rng(11)
+    x = rng.standard_normal(1 << 16)
+    depth = 9
+    t = ib.table(x, 1000.0, "db4", "symmetric", depth)
+    tree = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=depth)
+    edges = bc.dwt_edges(x.shape[0], 8, depth)
+    seen = 0
+    for lv in t["levels"]:
+        left, right = edges[lv["level"] - 1]
+        for b in lv["bands"]:
+            c = tree[b["path"]].data
+            inner = c[left:c.shape[0] - right]
+            if inner.shape[0] < bc.MIN_INTERIOR:
+                assert b["interior_kurtosis"] is None
+                continue
+            seen += 1
+            assert b["interior_kurtosis"] == pytest.approx(
+                stats.kurtosis(inner, fisher=False), rel=1e-9)
+            assert abs(b["interior_kurtosis"] - 3.0) < 7 * math.sqrt(24 / inner.shape[0])
+    assert seen > 200
+
+
+def test_edge_heavy_band_is_not_chosen_over_the_impacts():
+    # a drift whose ends differ: the symmetric extension folds it into a kink at
+    # each end, which fills the deep bands' edge coefficients; the impacts ring
+    # at 300 Hz (fs 1000 Hz) and the choice must land on them
+    rng = np.random.default_rng(5)
+    rate = 1000.0
+    n = 1 << 14
+    x = 0.05 * rng.standard_normal(n) + np.linspace(0.0, 30.0, n)
+    ring = np.exp(-np.arange(40) / 8.0) * np.sin(2 * np.pi * 300.0 * np.arange(40) / rate)
+    for s in range(200, n - 200, 400):
+        x[s:s + 40] += ring
+    t = ib.table(x, rate, "db4", "symmetric", 8)
+    best = t["best"]
+    assert best["low_hz"] <= 300.0 <= best["high_hz"], best
