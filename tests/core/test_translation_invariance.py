@@ -1,7 +1,7 @@
 """Translation-invariant denoising beats decimated denoising (Coifman & Donoho 1995).
 
 R. R. Coifman and D. L. Donoho, "Translation-invariant de-noising", in
-Wavelets and Statistics, Springer Lecture Notes in Statistics 103, 1995:
+Wavelets and Statistics, Springer LNS 103, 1995:
 thresholding the undecimated transform (the average over all shifts) gives
 a lower mean squared error than thresholding the decimated one, and fewer
 pseudo-Gibbs artefacts, on the Donoho-Johnstone test functions.  Those

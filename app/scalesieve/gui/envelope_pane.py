@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel,
 from scalesieve.core import bearing as br
 from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.impulse_map import CAUTION, BackgroundRun, busy_bar
+from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, caution_label
 from scalesieve.io.atomic import atomic_write
 
 #: marker colours per line family (our own; readable on the light plot background)
@@ -94,10 +94,7 @@ class EnvelopePane(QWidget):
         self.readout.setWordWrap(True)
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         col.addWidget(self.readout)
-        caution = QLabel(CAUTION)
-        caution.setWordWrap(True)
-        caution.setStyleSheet("color: #8a5a00;")
-        col.addWidget(caution)
+        col.addWidget(caution_label())
 
     def set_channel(self, channel: int) -> None:
         self.channel = channel

@@ -30,6 +30,14 @@ CAUTION = ("Figures support a judgement about a machine; decisions follow the ap
 COLOURS = "magma"
 
 
+def caution_label() -> QLabel:
+    """The machine-decisions caution both Impacts panes show under their figures."""
+    caution = QLabel(CAUTION)
+    caution.setWordWrap(True)
+    caution.setStyleSheet("color: #8a5a00;")
+    return caution
+
+
 class Outdated(Exception):
     """A newer request made the work in flight pointless."""
 
@@ -202,10 +210,7 @@ class ImpulseMapPane(QWidget):
         self.readout = QLabel("")
         self.readout.setWordWrap(True)
         col.addWidget(self.readout)
-        caution = QLabel(CAUTION)
-        caution.setWordWrap(True)
-        caution.setStyleSheet("color: #8a5a00;")
-        col.addWidget(caution)
+        col.addWidget(caution_label())
 
     # ---------------------------------------------------------------- model
 
