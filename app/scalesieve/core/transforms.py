@@ -175,17 +175,15 @@ def max_level(n: int, wavelet: str) -> int:
 
 
 def swt_max_level(n: int) -> int:
-    """Deepest SWT level for ``n`` samples.
+    """Deepest SWT level for ``n`` samples: floor(log2 n).
 
-    ``pywt.swt_max_level(n)`` (how often 2 divides n: the levels the samples
-    take as they are), and at least floor(log2 n): the transform pads the
-    signal to a multiple of 2^J (``swt_padded_length``), which for 2^J <= n
-    at most doubles it.
+    ``pywt.swt_max_level(n)`` counts how often 2 divides n (the levels the
+    samples take as they are), never more than floor(log2 n); the transform
+    pads the signal to a multiple of 2^J (``swt_padded_length``), which for
+    2^J <= n at most doubles it, so every level up to floor(log2 n) is open.
     """
     n = int(n)
-    if n < 2:
-        return 0
-    return int(max(pywt.swt_max_level(n), n.bit_length() - 1))
+    return 0 if n < 2 else n.bit_length() - 1
 
 
 def default_level(n: int, wavelet: str) -> int:
