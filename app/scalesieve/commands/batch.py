@@ -2,22 +2,12 @@
 
 from __future__ import annotations
 
-import argparse
 import os
 import sys
 
-from scalesieve.commands.options import add_input_options, add_transform_options, transform_from
+from scalesieve.commands.options import (add_input_options, add_transform_options, count,
+                                         transform_from)
 from scalesieve.errors import ScalesieveError
-
-
-def _workers(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 1:
-        raise argparse.ArgumentTypeError("--workers must be at least 1")
-    return v
 
 
 def configure(p) -> None:
@@ -29,7 +19,7 @@ def configure(p) -> None:
                    help="output folder: gets OUTDIR/<input name> per input and "
                         "batch-report.json (created if missing)")
     where = p.add_mutually_exclusive_group()
-    where.add_argument("--workers", type=_workers, default=None, metavar="N",
+    where.add_argument("--workers", type=count, default=None, metavar="N",
                        help="local processes (default: one per available CPU)")
     where.add_argument("--scheduler", metavar="ADDRESS",
                        help="run on an existing Dask distributed cluster, e.g. "

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import sys
 
-from scalesieve.commands.options import add_input_options, add_transform_options, transform_from
+from scalesieve.commands.options import (add_input_options, add_transform_options, count,
+                                         transform_from)
 from scalesieve.errors import ScalesieveError
 
 
@@ -44,27 +45,15 @@ def configure(p) -> None:
     o.add_argument("--force", action="store_true", help="replace existing output files")
     w = p.add_argument_group("one long recording on several workers (read in blocks)")
     where = w.add_mutually_exclusive_group()
-    where.add_argument("--workers", type=_workers, default=None, metavar="N",
+    where.add_argument("--workers", type=count, default=None, metavar="N",
                        help="clean time pieces of the recording in N local processes")
     where.add_argument("--scheduler", metavar="ADDRESS",
                        help="clean time pieces on an existing Dask cluster (tcp:// or tls://; "
                             "its workers must reach FILE and OUT's folder under the same paths)")
-    w.add_argument("--pieces", type=_workers, default=None, metavar="P",
+    w.add_argument("--pieces", type=count, default=None, metavar="P",
                    help="cut the recording into P pieces (default: one per worker)")
     add_transform_options(p)
     add_input_options(p)
-
-
-def _workers(text: str) -> int:
-    import argparse
-
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError("must be at least 1")
-    return value
 
 
 def edits_from_args(args):

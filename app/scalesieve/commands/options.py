@@ -17,14 +17,20 @@ def _positive_float(text: str) -> float:
     return v
 
 
-def _level(text: str) -> int:
+def count(text: str, what: str = "") -> int:
+    """A whole number of at least 1 (levels, workers, pieces), for argparse."""
     try:
         v = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
     if v < 1:
-        raise argparse.ArgumentTypeError(f"level {v} must be at least 1")
+        raise argparse.ArgumentTypeError(f"{what}{v} must be at least 1" if what else
+                                         "must be at least 1")
     return v
+
+
+def _level(text: str) -> int:
+    return count(text, "level ")
 
 
 def _channel(text: str) -> int | str:
