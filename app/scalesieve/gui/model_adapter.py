@@ -28,7 +28,6 @@ from scalesieve.core.recording import Recording
 from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
-from scalesieve.core import band_figures as bf
 from scalesieve.views.band_envelopes import FIGURES, EnvelopeThread, coefficient_list
 from scalesieve.views.display_data import ChannelPictures, Superseded
 from scalesieve.views.thread_priority import lower_this_thread
@@ -434,12 +433,10 @@ class ModelAdapter(QObject):
         for pic in self._pictures:
             coeffs = coefficient_list(m, pic.channel)
             if not pic.stats:
-                # a long recording: the band figures by the model's own function
-                # on the same read-only arrays (the same numbers, bit for bit)
+                # a long recording: the model's band table, made once however
+                # many threads ask (the Scale map's row headers ask too)
                 jobs.append((pic.channel, FIGURES,
-                             lambda x=m.original(pic.channel), c=coeffs, spec=m.spec,
-                             rate=m.recording.rate, dt=m.dtype:
-                             bf.band_table(x, c, spec, rate, dt)))
+                             lambda ch=pic.channel: m.band_table(ch)))
             for key in pic.missing_bands():
                 jobs.append((pic.channel, key, coeffs, m.spec, pic.n, pic.block))
         if not jobs:

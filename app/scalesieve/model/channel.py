@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import threading
 from dataclasses import replace
 
 import numpy as np
@@ -37,6 +38,8 @@ class Channel:
         self.positions: dict = {}        # key -> sample position of each coefficient
         self.sigma: dict = {}            # key or "finest" -> MAD noise of the original
         self.figures: list | None = None     # band table of the original, once asked
+        # the window asks for it from more than one thread: it is made once
+        self.figures_lock = threading.Lock()
         self.signal_energy: float | None = None  # energy of the original, once asked
         self.muted_figures: dict = {}    # key -> (non-zero count, coefficient energy)
 

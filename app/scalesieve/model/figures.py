@@ -24,8 +24,9 @@ def band_table(ch: Channel, spec: tf.TransformSpec, rate: float, dtype) -> list[
 
     Returns copies: a caller may change its rows.
     """
-    if ch.figures is None:
-        ch.figures = bf.band_table(ch.x, ch.coeffs, spec, rate, dtype)
+    with ch.figures_lock:       # a second caller waits for the first one's table
+        if ch.figures is None:
+            ch.figures = bf.band_table(ch.x, ch.coeffs, spec, rate, dtype)
     return [dict(r) for r in ch.figures]
 
 

@@ -87,8 +87,8 @@ class EnvelopeThread(threading.Thread):
     Parameters
     ----------
     jobs : list of (channel, key, coeffs, spec, n, block), or (channel, FIGURES, fn)
-        the last kind delivers ``fn()`` (the band table, made by
-        ``core.band_figures.band_table`` on the same read-only arrays)
+        the last kind delivers ``fn()`` (the model's band table, made once for
+        every thread that asks)
     deliver : callable(channel, key, envelope)
         Called from this thread for each envelope made (a queued Qt signal
         carries it to the GUI thread).
