@@ -54,6 +54,19 @@ def _text_lines(text: str, limit: int):
     return out
 
 
+
+def _add_status_and_buttons(dialog, lay) -> None:
+    """The status line and the Import / Cancel buttons both import dialogs end with."""
+    dialog.status = QLabel("")
+    dialog.status.setWordWrap(True)
+    lay.addWidget(dialog.status)
+    dialog.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
+                                      | QDialogButtonBox.StandardButton.Cancel)
+    dialog.buttons.button(QDialogButtonBox.StandardButton.Ok).setText("Import")
+    dialog.buttons.accepted.connect(dialog.accept)
+    dialog.buttons.rejected.connect(dialog.reject)
+    lay.addWidget(dialog.buttons)
+
 class TextChoice:
     """The settings chosen in the dialog, and what they make of the file."""
 
@@ -212,15 +225,7 @@ class CsvImportDialog(QDialog):
         self.table.setEditTriggers(QTableWidget.EditTrigger.NoEditTriggers)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
         lay.addWidget(self.table, 1)
-        self.status = QLabel("")
-        self.status.setWordWrap(True)
-        lay.addWidget(self.status)
-        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
-                                        | QDialogButtonBox.StandardButton.Cancel)
-        self.buttons.button(QDialogButtonBox.StandardButton.Ok).setText("Import")
-        self.buttons.accepted.connect(self.accept)
-        self.buttons.rejected.connect(self.reject)
-        lay.addWidget(self.buttons)
+        _add_status_and_buttons(self, lay)
         for box in (self.delimiter, self.decimal, self.header, self.time, self.unit):
             box.currentIndexChanged.connect(self.update_preview)
         self.rate.valueChanged.connect(self.update_preview)
@@ -404,15 +409,7 @@ class MeasurementImportDialog(QDialog):
         self.channels = QListWidget()
         self.channels.setToolTip("untick the channels not to load")
         lay.addWidget(self.channels, 1)
-        self.status = QLabel("")
-        self.status.setWordWrap(True)
-        lay.addWidget(self.status)
-        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok
-                                        | QDialogButtonBox.StandardButton.Cancel)
-        self.buttons.button(QDialogButtonBox.StandardButton.Ok).setText("Import")
-        self.buttons.accepted.connect(self.accept)
-        self.buttons.rejected.connect(self.reject)
-        lay.addWidget(self.buttons)
+        _add_status_and_buttons(self, lay)
         self.part.currentIndexChanged.connect(self._fill)
         self.channels.itemChanged.connect(self._check)
         self._fill()
