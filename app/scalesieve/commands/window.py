@@ -54,7 +54,6 @@ def run(args) -> int:
     gets plain values, so the gui never reads the command line.
     """
     from scalesieve import api
-    from scalesieve.bundled_files import demo_path
     from scalesieve.commands.options import load_input, transform_from
     from scalesieve.recipe import load as load_recipe
 

@@ -20,7 +20,6 @@ costs, bottom-up best-basis search).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np

@@ -11,9 +11,13 @@ from __future__ import annotations
 import threading
 import warnings
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pywt
+
+if TYPE_CHECKING:                  # annotations only: transforms imports this module
+    from scalesieve.core.transforms import TransformSpec
 
 
 @lru_cache(maxsize=2)
