@@ -91,9 +91,8 @@ def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window
     pic = tmp_path / "spec.png"
     env.export_picture(str(pic))
     assert pic.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    for pane in (imap, env):
-        texts = " ".join(w.text() for w in pane.findChildren(type(env.readout)))
-        assert "qualified people" in texts
+    # one caution under both panes (the same words for both figures)
+    assert "qualified people" in dock.caution.text() and dock.caution.isVisible()
 
 
 def test_cell_under_a_point():
@@ -176,3 +175,27 @@ def test_a_snapshot_waits_for_the_impacts_figures(window, tmp_path):
     assert imap.table is not None and env.report is not None
     assert not imap.working.isVisible() and not env.working.isVisible()
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"     # the PNG signature
+
+
+def test_impacts_dock_on_a_1280_wide_window_is_not_cramped(window, qtbot):
+    # the panes keep their minimum sizes, and no readout paints over the plot above it
+    # (the workbench with the dock open needs about 835 px of height at this width)
+    from scalesieve import api
+
+    window.resize(1280, 840)
+    window.open_recording(api.load(sample(FAN)), TransformSpec("dwt", "db4", None, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    dock = window.impacts_dock
+    dock.show()
+    QApplication.processEvents()
+    imap, env = dock.impulse_map, dock.envelope
+    _drawn(qtbot, imap, env)
+    env.set_bearing("10,8.0,42.0,0", 29.5)
+    QApplication.processEvents()
+    assert imap.width() >= 380 and imap.plot.height() >= 100 and env.plot.height() >= 100
+    for pane in (imap, env):
+        assert pane.readout.geometry().top() >= pane.plot.geometry().bottom()
+        need = pane.readout.heightForWidth(pane.readout.width())
+        assert pane.readout.height() >= min(need, 2 * pane.readout.fontMetrics().lineSpacing())
+    # the dock opened with a real share of the height, not its bare minimum
+    assert dock.height() >= dock.minimumSizeHint().height()

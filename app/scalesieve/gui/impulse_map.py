@@ -31,11 +31,18 @@ COLOURS = "magma"
 
 
 def caution_label() -> QLabel:
-    """The machine-decisions caution both Impacts panes show under their figures."""
+    """The machine-decisions caution the Impacts dock shows once, under both panes."""
     caution = QLabel(CAUTION)
     caution.setWordWrap(True)
     caution.setStyleSheet("color: #8a5a00;")
+    keep_lines(caution, 1)
     return caution
+
+
+def keep_lines(label: QLabel, lines: int) -> None:
+    """Room for ``lines`` lines of a wrapping label: a dock's layout does not ask how many
+    its width needs, and a squeezed label would paint its text over the pane above it."""
+    label.setMinimumHeight(lines * label.fontMetrics().lineSpacing() + 4)
 
 
 class Outdated(Exception):
@@ -206,11 +213,13 @@ class ImpulseMapPane(QWidget):
                                    label="kurtosis")
         self.bar.setImageItem(self.image, insert_in=self.plot.getPlotItem())
         self.plot.scene().sigMouseClicked.connect(self._clicked)
+        self.plot.setMinimumHeight(100)      # the map and its colour bar stay readable
+        self.setMinimumWidth(380)
         col.addWidget(self.plot, 1)
         self.readout = QLabel("")
         self.readout.setWordWrap(True)
+        keep_lines(self.readout, 2)
         col.addWidget(self.readout)
-        col.addWidget(caution_label())
 
     # ---------------------------------------------------------------- model
 
