@@ -111,3 +111,39 @@ def test_edge_heavy_band_is_not_chosen_over_the_impacts():
     t = ib.table(x, rate, "db4", "symmetric", 8)
     best = t["best"]
     assert best["low_hz"] <= 300.0 <= best["high_hz"], best
+
+
+def test_kurtosis_z_is_scipys_kurtosistest():
+    # Reference: scipy.stats.kurtosistest (Anscombe & Glynn 1983) on the same values
+    from scipy import stats
+
+    from scalesieve.core.band_choice import kurtosis_z
+    from scalesieve.core.impulsive_bands import kurtosis as pearson
+
+    rng = np.random.default_rng(11)
+    for n in (20, 128, 700, 20000):
+        for burst in (1.0, 3.0, 8.0):
+            x = rng.standard_normal(n)
+            x[: max(1, n // 100)] *= burst
+            want = stats.kurtosistest(x).statistic
+            assert abs(kurtosis_z(pearson(x), n) - want) < 1e-9 * max(1.0, abs(want))
+
+
+def test_is_impulsive_at_its_level_on_gaussian_noise_and_on_bursts():
+    from statistics import NormalDist
+
+    from scalesieve.core.band_choice import is_impulsive, kurtosis_z
+    from scalesieve.core.impulsive_bands import kurtosis as pearson
+
+    rng = np.random.default_rng(5)
+    x = rng.standard_normal(4096)
+    assert not is_impulsive(pearson(x), x.size, bands=10)
+    y = x.copy()
+    y[::512] = 12.0                      # eight clear impacts
+    assert is_impulsive(pearson(y), y.size, bands=10)
+    # Bonferroni: the same figure passes for one band and may fail for many
+    z1 = NormalDist().inv_cdf(0.99)
+    z10 = NormalDist().inv_cdf(1 - 0.01 / 10)
+    assert z10 > z1
+    assert not is_impulsive(None, 4096)
+    assert kurtosis_z(3.0, 4096) < z1

@@ -91,9 +91,8 @@ def test_impulse_map_marks_the_resonance_band_and_a_cell_chooses_the_band(window
     pic = tmp_path / "spec.png"
     env.export_picture(str(pic))
     assert pic.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    for pane in (imap, env):
-        texts = " ".join(w.text() for w in pane.findChildren(type(env.readout)))
-        assert "qualified people" in texts
+    # one caution under both panes (the same words for both figures)
+    assert "qualified people" in dock.caution.text() and dock.caution.isVisible()
 
 
 def test_cell_under_a_point():
@@ -176,3 +175,72 @@ def test_a_snapshot_waits_for_the_impacts_figures(window, tmp_path):
     assert imap.table is not None and env.report is not None
     assert not imap.working.isVisible() and not env.working.isVisible()
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"     # the PNG signature
+
+
+def test_impacts_dock_on_a_1280_wide_window_is_not_cramped(window, qtbot):
+    # the panes keep their minimum sizes, and no readout paints over the plot above it
+    # (the workbench with the dock open needs about 835 px of height at this width)
+    from scalesieve import api
+
+    window.resize(1280, 840)
+    window.open_recording(api.load(sample(FAN)), TransformSpec("dwt", "db4", None, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    dock = window.impacts_dock
+    dock.show()
+    QApplication.processEvents()
+    imap, env = dock.impulse_map, dock.envelope
+    _drawn(qtbot, imap, env)
+    env.set_bearing("10,8.0,42.0,0", 29.5)
+    QApplication.processEvents()
+    assert imap.width() >= 380 and imap.plot.height() >= 100 and env.plot.height() >= 100
+    for pane in (imap, env):
+        assert pane.readout.geometry().top() >= pane.plot.geometry().bottom()
+        need = pane.readout.heightForWidth(pane.readout.width())
+        assert pane.readout.height() >= min(need, 2 * pane.readout.fontMetrics().lineSpacing())
+    # the dock opened with a real share of the height, not its bare minimum
+    assert dock.height() >= dock.minimumSizeHint().height()
+
+
+def test_impulse_map_readout_shows_the_figure_the_map_shows(window, qtbot, tmp_path):
+    # the cell's colour is the band's kurtosis of all coefficients (table_image); the
+    # readout prints that figure, and the interior one the choice uses beside it
+    import soundfile as sf
+    from scipy import stats
+
+    from scalesieve import api
+    from scalesieve.gui.impulse_map import table_image
+
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()
+    QApplication.processEvents()
+    imap = dock.impulse_map
+    _drawn(qtbot, imap, dock.envelope)
+    best = imap.table["best"]
+    img = table_image(imap.table)
+    width = 2 ** (len(imap.table["levels"]) - best["level"])
+    index = int(best["name"].split(".")[1])
+    assert img[best["level"] - 1, index * width] == best["kurtosis"]
+    text = imap.readout.text()
+    assert f"kurtosis {best['kurtosis']:.2f} on the map" in text
+    assert f"{best['interior_kurtosis']:.2f} inside its edges" in text
+    # Gaussian noise: the map's best band is no answer (scipy.stats.kurtosistest on its
+    # interior coefficients is far from significant), and the readout says so
+    path = tmp_path / "hiss.wav"
+    sf.write(path, 0.1 * np.random.default_rng(3).standard_normal(65536), 16000,
+             subtype="FLOAT")
+    window.open_recording(api.load(str(path)))
+    assert window.adapter.wait_idle(60) is None
+    QApplication.processEvents()
+    _drawn(qtbot, imap, dock.envelope)
+    best = imap.table["best"]
+    assert best is not None
+    assert imap.readout.text().startswith("No band stands out as impulsive")
+    x = window.adapter.recording.samples[:, 0]
+    wp = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=best["level"])
+    node = wp[best["path"]].data
+    from scalesieve.core import band_choice as bc
+
+    e, r = bc.dwt_edges(x.shape[0], 8, best["level"])[best["level"] - 1]
+    p = stats.kurtosistest(node[e:node.shape[0] - r], alternative="greater").pvalue
+    assert p > 0.01 / sum(len(lv["bands"]) for lv in imap.table["levels"])

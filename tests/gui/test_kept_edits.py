@@ -58,7 +58,20 @@ def _open(window, path, answers, told=None):
     keeper = SessionKeeper(window, ask=ask, tell=(told.append if told is not None else None))
     window.open_path(str(path))
     assert window.adapter.wait_idle(60) is None
+    _wait_for_restore_check(keeper)
     return keeper, seen
+
+
+def _wait_for_restore_check(keeper, timeout_s=60.0):
+    # the saved edits are looked for in a worker thread; the offer comes after
+    import time
+
+    from PySide6.QtTest import QTest
+
+    deadline = time.monotonic() + timeout_s
+    while keeper.checking and time.monotonic() < deadline:
+        QTest.qWait(10)
+    assert not keeper.checking
 
 
 def _kept():

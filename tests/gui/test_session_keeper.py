@@ -1,5 +1,6 @@
 """No lost work: edits are kept after each change and offered back on reopening."""
 
+import json
 import os
 import shutil
 
@@ -32,7 +33,20 @@ def _open(window, path, answers):
     keeper = SessionKeeper(window, ask=ask)
     window.open_path(str(path))
     assert window.adapter.wait_idle(60) is None
+    _wait_for_restore_check(keeper)
     return keeper, seen
+
+
+def _wait_for_restore_check(keeper, timeout_s=60.0):
+    # the saved edits are looked for in a worker thread; the offer comes after
+    import time
+
+    from PySide6.QtTest import QTest
+
+    deadline = time.monotonic() + timeout_s
+    while keeper.checking and time.monotonic() < deadline:
+        QTest.qWait(10)
+    assert not keeper.checking
 
 
 def test_edits_saved_then_offered_back(window, qtbot, tmp_path, data_dir):
@@ -131,3 +145,54 @@ def test_window_shows_batch_command_for_saved_recipe(window, tmp_path):
     assert words[words.index("-o") + 1].startswith(str(tmp_path))
     assert load(str(rp)).edits == (Edit("gain", levels=(1,), gain=0.0),)
     dlg.close()
+
+
+def test_recording_is_hashed_off_the_window_thread_and_offered_after(qtbot, qapp, tmp_path,
+                                                                     data_dir, monkeypatch):
+    import threading
+
+    from scalesieve import autosave
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.main_window import MainWindow
+    from scalesieve.gui.session_keeper import SessionKeeper
+    from scalesieve.recipe import Recipe
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    saved = (Edit("gain", levels=(1,), gain=0.0),)
+    autosave.save_session(str(rec_path), Recipe(TransformSpec("dwt", "db4", 6), saved).to_json(),
+                          {})
+    real = autosave.fingerprint
+    hashed_on, gate = [], threading.Event()
+
+    def slow_fingerprint(path, **kw):
+        hashed_on.append(threading.current_thread() is threading.main_thread())
+        gate.wait(30)            # a large recording: the hash takes a while
+        return real(path, **kw)
+
+    monkeypatch.setattr(autosave, "fingerprint", slow_fingerprint)
+    w = MainWindow(ws.open_settings(str(tmp_path / "s.ini")))
+    qtbot.addWidget(w)
+    w.show()
+    seen = []
+    keeper = SessionKeeper(w, ask=lambda info, parent: seen.append(info) or "later")
+    w.open_path(str(rec_path))
+    assert w.adapter.wait_idle(60) is None
+    qtbot.waitUntil(lambda: bool(hashed_on), timeout=10000)
+    # the window goes on while the hash runs: an edit is taken, the offer waits
+    assert keeper.checking and seen == []
+    w.adapter.add_edit(Edit("gain", levels=(2,), gain=0.5))
+    keeper.save_now()
+    # ... and the saved edits are not overwritten before they are offered
+    with open(autosave.session_file(str(rec_path)), encoding="utf-8") as fh:
+        assert json.load(fh)["recipe"]["edits"] == [e.to_json() for e in saved]
+    gate.set()
+    qtbot.waitUntil(lambda: not keeper.checking, timeout=20000)
+    assert hashed_on and not any(hashed_on)          # never on the window's thread
+    assert len(seen) == 1 and seen[0].edit_count == 1 and not seen[0].changed
+    # kept for later; the edit made meanwhile is saved once the answer is in
+    assert len([s for s in autosave.list_sessions() if s["kept"]]) == 1
+    with open(autosave.session_file(str(rec_path)), encoding="utf-8") as fh:
+        assert json.load(fh)["recipe"]["edits"] == [e.to_json() for e in w.adapter.edits]
+    w.close()

@@ -92,7 +92,7 @@ def test_muting_a_band_changes_the_cleaned_trace_and_the_recipe(window, qtbot):
     qtbot.mouseClick(row.mute, Qt.MouseButton.LeftButton)
     assert [e.to_json() for e in m.edits] == [{"op": "gain", "levels": [1], "gain": 0.0}]
     assert window.recipe.tree.topLevelItemCount() == 1
-    assert window.recipe.tree.topLevelItem(0).text(1) == "gain −∞ dB on d1"
+    assert window.recipe.tree.topLevelItem(0).text(1) == "mute d1 (−∞ dB)"
     ref = pywt_cleaned(m.original(0), m.spec, [1])
     np.testing.assert_allclose(m.cleaned(0), ref, rtol=0, atol=1e-12)
     after = window.reconstruction.trace_data("cleaned")[1]

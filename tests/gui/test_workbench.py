@@ -245,3 +245,37 @@ def test_events_columns_that_tell_events_apart_are_visible_at_the_docks_width(wi
     for field in ("peak_s", "score", "level", "channel"):
         col = fields.index(field)
         assert header.sectionViewportPosition(col) + header.sectionSize(col) <= shown + 1, field
+
+
+def test_no_lane_for_an_impulsive_band_on_pure_noise(window, qtbot, tmp_path):
+    # Gaussian noise (a fixed generator state): no band's interior kurtosis passes
+    # scipy.stats.kurtosistest at 1 % over all bands (checked here with SciPy),
+    # so only the largest-share band opens and the window says why
+    import soundfile as sf
+    from scipy import stats
+
+    from scalesieve import api
+    from scalesieve.core import band_choice as bc
+
+    path = tmp_path / "hiss.wav"
+    sf.write(path, 0.1 * np.random.default_rng(3).standard_normal(65536), 16000,
+             subtype="FLOAT")
+    window.open_recording(api.load(str(path)))
+    assert window.adapter.wait_idle(60) is None
+    m = window.adapter.model
+    bands = window.bands
+    qtbot.waitUntil(lambda: bands.impulsive_note is not None or len(bands.open_keys) > 1,
+                    timeout=10000)
+    x = m.original(0)
+    c = pywt.wavedec(x, m.spec.wavelet, mode=m.spec.mode, level=m.spec.level)
+    edges = bc.dwt_edges(x.shape[0], pywt.Wavelet(m.spec.wavelet).dec_len, m.level)
+    p_values = []
+    for j in range(1, m.level + 1):
+        d = c[m.level - j + 1]
+        inner = d[edges[j - 1][0]:d.shape[0] - edges[j - 1][1]]
+        if inner.shape[0] >= bc.MIN_INTERIOR:
+            p_values.append(stats.kurtosistest(inner, alternative="greater").pvalue)
+    assert min(p_values) > 0.01 / (m.level)          # nothing significant (Bonferroni)
+    assert bands.impulsive_note and "No band stands out" in bands.impulsive_note
+    assert len(bands.open_keys) == 1
+    assert "No band stands out" in window.statusBar().currentMessage()

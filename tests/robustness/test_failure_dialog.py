@@ -7,6 +7,7 @@ off for the tests that need ours to see them.
 
 from __future__ import annotations
 
+import math
 import os
 import threading
 
@@ -189,9 +190,26 @@ def test_prompt_lists_the_edits_and_restores(qtbot, saved):
     assert "15 edits to fan_vibration.wav" in p.question.text()
     assert not p.warning.isVisible()
     assert p.edits.count() == 13 and p.edits.item(12).text() == "… and 3 more"
-    assert p.edits.item(0).text() == RECIPE.edits[0].summary()
+    # the window's words (docs/vocabulary.md: gain in dB, 20·log10 of the factor)
+    db = 20 * math.log10(RECIPE.edits[0].gain)
+    assert p.edits.item(0).text() == f"gain {db:+.1f} dB on d1".replace("-", "−")
+    assert "×" not in p.edits.item(0).text()
     p.restore_button.click()
     assert p.choice == rp.RESTORE and p.result() == p.DialogCode.Accepted
+
+
+def test_prompt_says_mute_for_gain_zero(qtbot, saved):
+    # docs/vocabulary.md: mute is gain 0, −∞ dB in the window
+    recipe = Recipe(TransformSpec("dwt", "db4", 5, "symmetric"),
+                    (Edit("gain", levels=(1, 2), gain=0.0),
+                     Edit("region", levels=(3,), start_s=0.5, stop_s=0.75, gain=0.25)))
+    autosave.save_session(saved, recipe, {})
+    p = rp.RestorePrompt(autosave.pending_restore(saved))
+    qtbot.addWidget(p)
+    lines = [p.edits.item(i).text() for i in range(p.edits.count())]
+    assert lines[0] == "mute d1, d2 (−∞ dB)"
+    assert lines[1].startswith("region ") and lines[1].endswith(" −12.0 dB on d3")
+    assert not any("×" in ln for ln in lines)
 
 
 def test_prompt_warns_when_the_recording_changed(qtbot, saved):

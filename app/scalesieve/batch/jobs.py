@@ -87,12 +87,33 @@ def _entry(job: FileJob) -> dict:
             "input_sha256": job.input_sha256, "samples": None, "rate": None, "seconds": None}
 
 
+def _output_warnings(job: FileJob, reports: Sequence[dict]) -> list[str]:
+    """What ``clean`` warns of its output (``OUT: what``), under the batch's output name.
+
+    Also when the output took another format than the input's name says
+    (a measurement file written as WAV).
+    """
+    from scalesieve.io.writers import output_warnings
+
+    notes = []
+    ext_in = os.path.splitext(job.input)[1]
+    ext_out = os.path.splitext(job.output)[1]
+    if ext_in.lower() != ext_out.lower():
+        notes.append(f"{job.output}: written as {ext_out.lstrip('.').upper()} "
+                     f"({ext_in or 'this input'} files cannot be written)")
+    for rep in reports:     # in send-data mode the writer's path is a private temporary
+        notes += output_warnings({**rep, "path": job.output})
+    return notes
+
+
 def run_job(job: FileJob) -> dict:
     """Clean one file of a batch; return its report entry, never raise for bad input.
 
     The entry has the contract keys (``input``, ``output``, ``status``,
     ``error``, ``input_sha256``, ``samples``, ``rate``, ``seconds``) and
-    ``channels``, ``clipped``, ``energy_removed_fraction`` and ``worker``.
+    ``channels``, ``clipped``, ``energy_removed_fraction``, ``warnings`` (the
+    reader's), ``output_warnings`` (the writer's, as ``clean`` prints them) and
+    ``worker``.
     In send-data mode the cleaned file's bytes come back as ``output_data``.
     """
     t0 = time.perf_counter()
@@ -131,7 +152,8 @@ def run_job(job: FileJob) -> dict:
         out.update(status="ok", samples=res["samples"], rate=res["rate"],
                    channels=res["channels"], clipped=res["clipped"],
                    energy_removed_fraction=res["energy_removed_fraction"],
-                   warnings=list(res.get("warnings", ())))
+                   warnings=list(res.get("warnings", ())),
+                   output_warnings=_output_warnings(job, res["outputs"]))
     except ScalesieveError as exc:
         out["error"] = exc.one_line()
     except MemoryError:

@@ -43,8 +43,27 @@ def expand_inputs(inputs: Sequence[str]) -> list[str]:
     return out
 
 
+#: what an input is written as when no writer takes its own extension (measurement files)
+FALLBACK_EXTENSION = ".wav"
+
+
+def output_name(name: str) -> str:
+    """The output file name for an input named ``name``: the same, where a writer takes it.
+
+    Inputs whose extension names no output format (TDMS, EDF, MATLAB, HDF5,
+    MDF 4, Excel, ...) are written as ``<stem>.wav``, 32-bit float as from a
+    text table.
+    """
+    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
+
+    stem, ext = os.path.splitext(name)
+    if ext.lower() in AUDIO_FORMAT_BY_EXTENSION or ext.lower() in CSV_EXTENSIONS:
+        return name
+    return stem + FALLBACK_EXTENSION
+
+
 def plan_outputs(inputs: Sequence[str], outdir: str, force: bool = False) -> list[tuple[str, str]]:
-    """Pair every input with OUTDIR/<its name>; refuse clashes before any work.
+    """Pair every input with OUTDIR/<its name> (see :func:`output_name`); refuse clashes first.
 
     Returns absolute ``(input, output)`` pairs in the order given.
 
@@ -68,16 +87,17 @@ def plan_outputs(inputs: Sequence[str], outdir: str, force: bool = False) -> lis
         name = os.path.basename(src)
         if not name:
             raise ScalesieveError("is not a file name", item)
-        key = name.casefold()
-        if key == REPORT_NAME:
+        if name.casefold() == REPORT_NAME:
             raise ScalesieveError(f"an input may not be named {REPORT_NAME} "
                                   "(the batch writes its report under that name)", item)
+        out_name = output_name(name)
+        key = out_name.casefold()
         if key in seen:
             raise ScalesieveError(
-                f"shares its name with {seen[key]}; both would be written to "
-                f"{os.path.join(out_abs, name)} (rename one or run two batches)", item)
+                f"shares its output name with {seen[key]}; both would be written to "
+                f"{os.path.join(out_abs, out_name)} (rename one or run two batches)", item)
         seen[key] = item
-        pairs.append((src, os.path.join(out_abs, name)))
+        pairs.append((src, os.path.join(out_abs, out_name)))
     existing = []
     for src, dst in pairs:
         if os.path.exists(src) and os.path.exists(dst) and os.path.samefile(src, dst):

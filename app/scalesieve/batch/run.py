@@ -107,6 +107,9 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
                                  force=force, protect=[entry["input"]])
                 except ScalesieveError as exc:
                     entry.update(status="error", error=exc.one_line())
+            if entry["status"] != "ok":
+                entry["output"] = None      # a failed file claims no output
+                entry.pop("output_warnings", None)
             entries[i] = entry
             if on_result is not None:
                 on_result(entry)
@@ -127,7 +130,7 @@ def run_batch(inputs: Sequence[str], outdir: str, recipe: Recipe | None = None, 
         for job, e in zip(jobs, entries):
             if e is None:
                 e = _entry(job)
-                e["error"] = f"{job.input}: not run: the batch was interrupted"
+                e.update(output=None, error=f"{job.input}: not run: the batch was interrupted")
                 entries[job.index] = e
         recipe_json = Recipe(spec, tuple(recipe.edits if recipe else ()) + tuple(edits)).to_json()
         report = {

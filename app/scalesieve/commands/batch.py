@@ -84,16 +84,11 @@ def run(args) -> int:
             bar.close()
     report_path = os.path.join(args.output, batch.REPORT_NAME)
     total = len(report["files"])
-    from scalesieve.io.writers import output_warnings
-
     for e in report["files"]:
         for w in e.get("warnings") or ():  # what the readers said of each input
             print(f"scalesieve: warning: {e['input']}: {w}", file=sys.stderr)
-        if e.get("clipped"):
-            for w in output_warnings({"path": e.get("output"), "clipped": e["clipped"],
-                                      "frames": e.get("samples"),
-                                      "channels": e.get("channels")}):
-                print(f"scalesieve: warning: {w}", file=sys.stderr)
+        for w in e.get("output_warnings") or ():  # what the writers did (as clean says)
+            print(f"scalesieve: warning: {w}", file=sys.stderr)
     print(f"batch: {report['ok']} of {total} files cleaned into {args.output} "
           f"in {report['seconds']:.3g} s; report {report_path}")
     if report["failed"]:

@@ -99,3 +99,51 @@ def most_impulsive(candidates):
         if val is not None and (best_val is None or val > best_val):
             best_key, best_val = key, val
     return best_key
+
+
+#: chance that pure Gaussian noise is called impulsive, over all bands compared together
+IMPULSIVE_ALPHA = 0.01
+
+
+def kurtosis_z(kurt: float, count: int) -> float:
+    """How many standard deviations a Pearson kurtosis lies above Gaussian noise's.
+
+    The normal score of the sample kurtosis b2 of ``count`` values by the
+    transformation of Anscombe & Glynn ("Distribution of the kurtosis
+    statistic b2 for normal samples", Biometrika 70:227-234, 1983), the test
+    SciPy's ``scipy.stats.kurtosistest`` makes: b2 is standardised with its
+    exact mean 3(n-1)/(n+1) and variance for normal samples, then its skewed
+    distribution is mapped onto the normal one.  (The plain sqrt(24 / n)
+    standard error would call noise impulsive too often at a few hundred
+    coefficients.)
+    """
+    n = float(count)
+    if n < 5:
+        return 0.0
+    mean = 3.0 * (n - 1) / (n + 1)
+    var = 24.0 * n * (n - 2) * (n - 3) / ((n + 1) ** 2 * (n + 3) * (n + 5))
+    x = (kurt - mean) / math.sqrt(var)
+    root_beta1 = (6.0 * (n * n - 5 * n + 2) / ((n + 7) * (n + 9))
+                  * math.sqrt(6.0 * (n + 3) * (n + 5) / (n * (n - 2) * (n - 3))))
+    a = 6.0 + 8.0 / root_beta1 * (2.0 / root_beta1 + math.sqrt(1.0 + 4.0 / root_beta1 ** 2))
+    term1 = 1.0 - 2.0 / (9.0 * a)
+    denom = 1.0 + x * math.sqrt(2.0 / (a - 4.0))
+    if denom <= 0:
+        return -math.inf                 # far below: flatter than any noise sample
+    term2 = ((1.0 - 2.0 / a) / denom) ** (1.0 / 3.0)
+    return (term1 - term2) / math.sqrt(2.0 / (9.0 * a))
+
+
+def is_impulsive(kurt: float | None, count: int, bands: int = 1,
+                 alpha: float = IMPULSIVE_ALPHA) -> bool:
+    """Whether a band's kurtosis stands out of Gaussian noise at level ``alpha``.
+
+    One-sided: :func:`kurtosis_z` above the normal quantile at
+    ``alpha / bands`` (Bonferroni: the largest of ``bands`` figures is the
+    one compared).
+    """
+    from statistics import NormalDist
+
+    if kurt is None or count < 5:
+        return False
+    return kurtosis_z(kurt, count) > NormalDist().inv_cdf(1.0 - alpha / max(1, int(bands)))

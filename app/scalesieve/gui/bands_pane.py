@@ -245,6 +245,7 @@ class BandsPane(QFrame):
         self.rows: dict = {}
         self.open_keys: list = []
         self._defaults_for = None
+        self.impulsive_note: str | None = None   # why no lane opened for an impulsive band
         self.scrollbar_width = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
         outer = QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
@@ -419,10 +420,16 @@ class BandsPane(QFrame):
         for key in list(self.open_keys):
             self.set_lane(key, False)
         details = {k: r for k, r in table.items() if k != "a"} or table
-        impulsive = _most_impulsive_key(m, self.channel, details)
+        impulsive, self.impulsive_note = _most_impulsive_key(m, self.channel, details)
         largest = max(table, key=lambda k: table[k]["energy_fraction"])
         for key in (impulsive, largest):
-            self.set_lane(key, True)
+            if key is not None:
+                self.set_lane(key, True)
+        if self.impulsive_note:
+            try:
+                self.window().statusBar().showMessage(self.impulsive_note, 10000)
+            except (AttributeError, RuntimeError):
+                pass
 
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
@@ -492,11 +499,13 @@ class BandsPane(QFrame):
 
 
 def _most_impulsive_key(m, channel: int, details: dict):
-    """The band with the largest interior kurtosis (``core.band_choice``).
+    """``(the band with the largest interior kurtosis or None, a note or None)``.
 
     Interior: the coefficients the boundary extension leaves alone; a band
     with too few of them takes no part.  When none qualifies (a short
-    recording) the largest kurtosis of all coefficients decides.
+    recording) the largest kurtosis of all coefficients decides.  A band whose
+    kurtosis does not stand out of Gaussian noise (``band_choice.is_impulsive``,
+    all bands compared together) is no answer: the note says so instead.
     """
     import pywt
 
@@ -516,19 +525,33 @@ def _most_impulsive_key(m, channel: int, details: dict):
             return key.depth
         return spec.level if key == "a" else int(key)
 
+    counts: dict = {}        # interior coefficients of each band
+    sizes: dict = {}         # all its coefficients
+
     def inner(key):
         try:
             c = m.coefficients(channel, key)
         except Exception:  # the model changed under it
             return None
+        sizes[key] = int(np.shape(c)[0])
         j = level_of(key)
         if spec.kind == "swt":
             e = band_choice.swt_edge(L, j)   # and the padding up to a multiple of 2^J
-            return band_choice.interior_kurtosis(c, e, e + max(0, c.shape[0] - n))
-        return band_choice.interior_kurtosis(c, *edges[j - 1])
+            right = e + max(0, c.shape[0] - n)
+        else:
+            e, right = edges[j - 1]
+        counts[key] = int(band_choice.interior(c, e, right).shape[0])
+        return band_choice.interior_kurtosis(c, e, right)
 
-    key = band_choice.most_impulsive((k, inner(k)) for k in details)
+    figures = {k: inner(k) for k in details}
+    key = band_choice.most_impulsive(figures.items())
+    kurt = figures.get(key)
     if key is None:
         key = max(details, key=lambda k: details[k]["kurtosis"]
                   if details[k]["kurtosis"] is not None else -1.0)
-    return key
+        kurt = details[key]["kurtosis"]
+        counts[key] = sizes.get(key, 0)
+    if band_choice.is_impulsive(kurt, counts.get(key, 0), bands=len(details)):
+        return key, None
+    return None, ("No band stands out as impulsive (the largest kurtosis is within what "
+                  "Gaussian noise gives), so no lane opens for one.")

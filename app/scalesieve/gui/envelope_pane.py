@@ -24,13 +24,19 @@ from PySide6.QtWidgets import (QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel,
 from scalesieve.core import bearing as br
 from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
-from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, caution_label
+from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, keep_lines
 from scalesieve.io.atomic import atomic_write
 
 #: marker colours per line family (our own; readable on the light plot background)
 LINE_COLOURS = {"ftf": "#7a5195", "bpfo": "#d1495b", "bpfi": "#00798c", "bsf": "#c98a12"}
-#: where each family's labels sit up the plot, so neighbours do not overwrite each other
-LABEL_HEIGHTS = {"bpfo": 0.96, "bpfi": 0.88, "bsf": 0.80, "ftf": 0.72}
+#: the plot keeps room for its curve and two rows of line labels
+PLOT_MIN_HEIGHT = 100
+
+
+def _line_text(ln: dict) -> str:
+    """A line's label: its family for the first harmonic, ``2× BPFO`` for the others."""
+    name = ln["name"].upper()
+    return f"{ln['harmonic']}× {name}" if ln["harmonic"] > 1 else name
 
 
 class EnvelopePane(QWidget):
@@ -53,6 +59,8 @@ class EnvelopePane(QWidget):
         col.setContentsMargins(4, 4, 4, 4)
         head = QHBoxLayout()
         self.title = QLabel("<b>Envelope spectrum</b>")
+        self.title.setWordWrap(True)     # the band and resolution wrap rather than widen the dock
+        keep_lines(self.title, 2)
         head.addWidget(self.title, 1)
         self.working = busy_bar()
         head.addWidget(self.working)
@@ -83,6 +91,7 @@ class EnvelopePane(QWidget):
         self.plot.setMenuEnabled(False)
         self.plot.setLabel("bottom", "envelope frequency (Hz)")
         self.plot.setLabel("left", "amplitude")
+        self.plot.setMinimumHeight(PLOT_MIN_HEIGHT)
         self.plot.showGrid(x=True, y=True, alpha=0.2)
         self.curve = self.plot.plot([], [], pen=pg.mkPen("#2b4c7e", width=1))
 
@@ -92,9 +101,9 @@ class EnvelopePane(QWidget):
         col.addWidget(self.plot, 1)
         self.readout = QLabel("")
         self.readout.setWordWrap(True)
+        keep_lines(self.readout, 2)
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         col.addWidget(self.readout)
-        col.addWidget(caution_label())
 
     def set_channel(self, channel: int) -> None:
         self.channel = channel
@@ -205,22 +214,37 @@ class EnvelopePane(QWidget):
         for m in self.markers:
             self.plot.removeItem(m)
         self.markers = []
-        for ln in lines:
+        heights = self._label_heights(lines, x_max)
+        for ln, height in zip(lines, heights):
             colour = QColor(LINE_COLOURS[ln["name"]])
             style = Qt.PenStyle.DotLine if ln.get("sideband") else Qt.PenStyle.DashLine
-            label = None
-            if not ln.get("sideband"):
-                label = f"{ln['harmonic']}×" if ln["harmonic"] > 1 else ln["name"].upper()
             m = pg.InfiniteLine(ln["hz"], angle=90, pen=pg.mkPen(colour, style=style, width=1),
-                                label=label, labelOpts={"position": LABEL_HEIGHTS[ln["name"]],
-                                                        "color": colour, "anchors": [(0, 0.5),
-                                                                                     (0, 0.5)]})
+                                label=_line_text(ln) if height is not None else None,
+                                labelOpts={"position": height if height is not None else 0.96,
+                                           "color": colour,
+                                           "anchors": [(0, 0.5), (0, 0.5)]})
             m.setZValue(-5)             # under the spectrum: a line must not hide its peak
             self.plot.addItem(m)
             self.markers.append(m)
         self.plot.setXRange(0, x_max, padding=0.01)
         self.plot.setYRange(0, float(amp[shown].max()) * 1.1 if amp[shown].size else 1.0)
         self.readout.setText(problem + self.readout_text())
+
+    def _label_heights(self, lines: list, x_max: float) -> list:
+        """Where each line's label goes (None: no room; sidebands never get one)."""
+        from scalesieve.views.line_labels import place_labels
+
+        vb = self.plot.getPlotItem().getViewBox()
+        w, h = vb.width(), vb.height()
+        if w < 50 or h < 30:            # not laid out yet: a plot of the smallest size
+            w, h = 500.0, float(PLOT_MIN_HEIGHT)
+        wanted = [(i, ln) for i, ln in enumerate(lines) if not ln.get("sideband")]
+        placed = place_labels([(ln["hz"], _line_text(ln), ln["harmonic"]) for _, ln in wanted],
+                              0.0, x_max, w, h)
+        out: list = [None] * len(lines)
+        for (i, _), height in zip(wanted, placed):
+            out[i] = height
+        return out
 
     def _draw_curve(self, freqs: np.ndarray, amp: np.ndarray, x_max: float) -> None:
         """The spectrum up to ``x_max``, as the largest value per screen column (lines kept)."""

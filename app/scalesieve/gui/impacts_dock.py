@@ -10,10 +10,10 @@ from __future__ import annotations
 import time
 
 from PySide6.QtCore import QCoreApplication, QEventLoop, Qt
-from PySide6.QtWidgets import QDockWidget, QSplitter
+from PySide6.QtWidgets import QDockWidget, QSplitter, QVBoxLayout, QWidget
 
 from scalesieve.gui.envelope_pane import EnvelopePane
-from scalesieve.gui.impulse_map import ImpulseMapPane
+from scalesieve.gui.impulse_map import ImpulseMapPane, caution_label
 
 
 def add_impacts_dock(window) -> QDockWidget:
@@ -25,19 +25,42 @@ def add_impacts_dock(window) -> QDockWidget:
     split = QSplitter(Qt.Orientation.Horizontal)
     split.addWidget(impulse)
     split.addWidget(envelope)
-    split.setSizes([560, 900])
+    split.setChildrenCollapsible(False)
+    split.setSizes([440, 840])
+    body = QWidget()
+    col = QVBoxLayout(body)
+    col.setContentsMargins(0, 0, 0, 2)
+    col.setSpacing(0)
+    col.addWidget(split, 1)
+    caution = caution_label()            # once for both panes: it is the same caution
+    caution.setContentsMargins(6, 0, 6, 0)
+    col.addWidget(caution)
     dock = QDockWidget("Impacts", window)
     dock.setObjectName("impactsDock")
-    dock.setWidget(split)
+    dock.setWidget(body)
     dock.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable
                      | QDockWidget.DockWidgetFeature.DockWidgetFloatable
                      | QDockWidget.DockWidgetFeature.DockWidgetClosable)
     window.addDockWidget(Qt.DockWidgetArea.BottomDockWidgetArea, dock)
     dock.hide()
+    dock.visibilityChanged.connect(lambda shown: shown and _give_room(window, dock))
     dock.impulse_map = impulse
     dock.envelope = envelope
+    dock.caution = caution
     window.adapter.modelReplaced.connect(lambda: _refresh(dock))
     return dock
+
+
+#: the dock's share of the window's height when it opens (its panes' minimum below that)
+DOCK_SHARE = 0.36
+
+
+def _give_room(window, dock) -> None:
+    """On opening, the dock takes a third or so of the height (the workbench keeps the rest)."""
+    if dock.isFloating():
+        return
+    want = max(dock.minimumSizeHint().height(), int(DOCK_SHARE * window.height()))
+    window.resizeDocks([dock], [want], Qt.Orientation.Vertical)
 
 
 def _refresh(dock) -> None:

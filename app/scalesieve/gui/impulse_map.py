@@ -31,11 +31,18 @@ COLOURS = "magma"
 
 
 def caution_label() -> QLabel:
-    """The machine-decisions caution both Impacts panes show under their figures."""
+    """The machine-decisions caution the Impacts dock shows once, under both panes."""
     caution = QLabel(CAUTION)
     caution.setWordWrap(True)
     caution.setStyleSheet("color: #8a5a00;")
+    keep_lines(caution, 1)
     return caution
+
+
+def keep_lines(label: QLabel, lines: int) -> None:
+    """Room for ``lines`` lines of a wrapping label: a dock's layout does not ask how many
+    its width needs, and a squeezed label would paint its text over the pane above it."""
+    label.setMinimumHeight(lines * label.fontMetrics().lineSpacing() + 4)
 
 
 class Outdated(Exception):
@@ -140,6 +147,42 @@ def table_image(table: dict) -> np.ndarray:
     return img
 
 
+def interior_count(n: int, wavelet: str, depth: int, mode: str = "symmetric") -> int:
+    """Interior coefficients of a packet node at ``depth`` of ``n`` samples (all nodes alike)."""
+    import pywt
+
+    from scalesieve.core import band_choice
+
+    L = pywt.Wavelet(wavelet).dec_len
+    m = n
+    for _ in range(depth):
+        m = pywt.dwt_coeff_len(m, L, mode)
+    left, right = band_choice.dwt_edges(n, L, depth)[depth - 1]
+    return max(0, m - left - right)
+
+
+def readout_text(table: dict, samples: tuple[int, str, str]) -> str:
+    """What the map's readout says of its best band: the figure the map shows for that cell
+    (``kurtosis``), and the interior figure the choice is made on, or that none stands out."""
+    from scalesieve.core import band_choice
+
+    best = table["best"]
+    inner = best.get("interior_kurtosis")
+    where = f"<b>{best['name']}</b> ({best['low_hz']:g}–{best['high_hz']:g} Hz)"
+    if inner is not None:
+        bands = sum(len(lv["bands"]) for lv in table["levels"])
+        count = interior_count(samples[0], samples[1], best["level"], samples[2])
+        if not band_choice.is_impulsive(inner, count, bands):
+            return (f"No band stands out as impulsive: the largest, {where}, has kurtosis "
+                    f"{best['kurtosis']:.2f} on the map ({inner:.2f} inside its edges), "
+                    "within what Gaussian noise gives (3).")
+        inside = f", {inner:.2f} inside its edges (the choice uses this)"
+    else:
+        inside = ""
+    return (f"Most impulsive: {where}, kurtosis {best['kurtosis']:.2f} on the map{inside}; "
+            "Gaussian noise gives 3. Click a cell to demodulate that band.")
+
+
 def cell_at(hz: float, row: float, depth: int, rate: float) -> tuple[int, int] | None:
     """(depth j, index K) of the cell under a point (frequency in Hz, row from the top)."""
     j = int(np.floor(row)) + 1
@@ -206,11 +249,13 @@ class ImpulseMapPane(QWidget):
                                    label="kurtosis")
         self.bar.setImageItem(self.image, insert_in=self.plot.getPlotItem())
         self.plot.scene().sigMouseClicked.connect(self._clicked)
+        self.plot.setMinimumHeight(100)      # the map and its colour bar stay readable
+        self.setMinimumWidth(380)
         col.addWidget(self.plot, 1)
         self.readout = QLabel("")
         self.readout.setWordWrap(True)
+        keep_lines(self.readout, 3)
         col.addWidget(self.readout)
-        col.addWidget(caution_label())
 
     # ---------------------------------------------------------------- model
 
@@ -245,6 +290,7 @@ class ImpulseMapPane(QWidget):
             return
         self._wanted = key
         x, rate, wavelet, mode = rec.samples[:, ch], rec.rate, spec.wavelet, spec.mode
+        self._samples = (rec.n, wavelet, mode)
         # the samples are never written (edits change gains), so the thread may read them
         self.run.request((key, rate), lambda check: ib.table(x, rate, wavelet, mode, depth,
                                                              check=check))
@@ -276,10 +322,7 @@ class ImpulseMapPane(QWidget):
         if best:
             self.marker.setRect(self._cell_rect(best["level"], best["low_hz"], best["high_hz"]))
             self.marker.setVisible(True)
-            self.readout.setText(
-                f"Most impulsive: <b>{best['name']}</b> ({best['low_hz']:g}–{best['high_hz']:g}"
-                f" Hz), kurtosis {best['kurtosis']:.2f} (Gaussian noise: about 3). "
-                "Click a cell to demodulate that band.")
+            self.readout.setText(readout_text(self.table, self._samples))
         else:
             self.marker.setVisible(False)
             self.readout.setText("No band carries anything beyond round-off.")

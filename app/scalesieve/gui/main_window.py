@@ -75,9 +75,9 @@ class MainWindow(RecipeFiles, QMainWindow):
         self.splitter.setChildrenCollapsible(False)
         for w in (self.scale_map, self.bands, self.reconstruction):
             self.splitter.addWidget(w)
-        self.scale_map.setMinimumHeight(260)
-        self.bands.setMinimumHeight(120)
-        self.reconstruction.setMinimumHeight(150)
+        self.scale_map.setMinimumHeight(250)
+        self.bands.setMinimumHeight(62)
+        self.reconstruction.setMinimumHeight(104)
         self.splitter.setSizes([470, 250, 200])
         self.splitter.setStretchFactor(0, 5)
         self.splitter.setStretchFactor(1, 3)

@@ -18,6 +18,8 @@ from PySide6.QtCore import Qt, Slot
 from PySide6.QtWidgets import (QDialog, QDialogButtonBox, QLabel, QListWidget, QVBoxLayout,
                                QWidget)
 
+from scalesieve.views.edit_words import db_text, edit_text
+
 RESTORE = "restore"
 DISCARD = "discard"
 LATER = "later"
@@ -32,14 +34,35 @@ def _local_time(iso: str) -> str:
     return t.astimezone().strftime("%Y-%m-%d %H:%M")
 
 
+class _BandNames:
+    """Band names of a recipe's own transform, as the model would name them."""
+
+    def __init__(self, level: int):
+        self.level = level
+
+    def band_name(self, key) -> str:
+        from scalesieve.core.transforms import band_name
+
+        return band_name(key, self.level)
+
+
 def edit_lines(info) -> list[str]:
-    """One line per saved edit (from the parsed recipe, else from the raw JSON)."""
+    """One line per saved edit, in the window's words (gains in dB, "mute").
+
+    From the parsed recipe (as the Recipe list shows it), else from the raw JSON.
+    """
     if info.recipe is not None:
-        return [e.summary() for e in info.recipe.edits]
+        spec = info.recipe.transform
+        names = (_BandNames(int(spec.level))
+                 if spec is not None and spec.level and spec.kind != "packet" else None)
+        return [edit_text(e, names) for e in info.recipe.edits]
     lines = []
     for e in info.recipe_json.get("edits") or []:
         if isinstance(e, dict):
-            lines.append(f"{e.get('op', '?')} on {e.get('levels', '?')}")
+            gain = e.get("gain")
+            how = (f" {db_text(float(gain))}" if isinstance(gain, (int, float))
+                   and not isinstance(gain, bool) else "")
+            lines.append(f"{e.get('op', '?')}{how} on {e.get('levels', e.get('bands', '?'))}")
         else:
             lines.append(repr(e)[:60])
     return lines

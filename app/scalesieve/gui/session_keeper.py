@@ -63,6 +63,13 @@ class SessionKeeper(QObject):
         self._captured: dict | None = None   # the recipe as last saved or exported
         self._hold: tuple | None = None      # edits a restore puts in place (session kept till then)
         self._refingerprint = False          # restored onto a changed file: take its new hash
+        self._opened: autosave.Fingerprint | None = None  # the recording as opened (hashed aside)
+        self._checking: str | None = None    # the recording whose saved edits are being looked for
+        self._owed_save = False              # an edit came while they were: saved after the answer
+        from scalesieve.gui.impulse_map import BackgroundRun
+
+        self._look = BackgroundRun("restore check", self)
+        self._look.finished.connect(self._looked)
         self.last_problem: str | None = None
         self.last_report: str | None = None  # what the last restore could not apply
         self._timer = QTimer(self)
@@ -127,7 +134,43 @@ class SessionKeeper(QObject):
             self._end(self._source)
         self._source = path
         self._captured = None
-        self.offer_restore(path)
+        self._opened = None
+        self.check_restore(path)
+
+    @property
+    def checking(self) -> bool:
+        """Saved edits of the open recording are still being looked for."""
+        return self._checking is not None
+
+    def check_restore(self, path: str) -> None:
+        """Look for saved edits of ``path`` in a worker thread; offer them when found.
+
+        Comparing them with the recording hashes it (up to ``FULL_HASH_BYTES``
+        whole), which must not hold up the window; the offer comes when the
+        hash is done.  Until then nothing is saved for ``path``, so an edit
+        made meanwhile cannot overwrite the saved edits before they are offered.
+        """
+        self._checking = path
+        self._look.request(path, lambda check: _look_for_saved_edits(path))
+
+    def _looked(self, path, result, problem) -> None:
+        if path != self._checking:
+            return                   # another recording was opened meanwhile
+        self._checking = None
+        if path != self._source:
+            return
+        if problem is not None:
+            self.last_problem = problem
+        else:
+            info, opened, trouble = result
+            self._opened = opened
+            if trouble is not None:
+                self.last_problem = trouble
+            elif info is not None:
+                self._answer(path, info)
+        if self._owed_save:
+            self._owed_save = False
+            self.save_now()
 
     def _notify(self, text: str) -> None:
         self.last_report = text
@@ -147,6 +190,9 @@ class SessionKeeper(QObject):
             return None
         if info is None:
             return None
+        return self._answer(path, info)
+
+    def _answer(self, path: str, info) -> str:
         choice = self._ask(info, self.window)
         if choice == "restore" and info.recipe is not None:
             self.put_back(info.recipe, path, info.edit_count, changed=info.changed)
@@ -240,7 +286,10 @@ class SessionKeeper(QObject):
         model = self.adapter.model
         if path is None or model is None or path != self._source:
             return None
-        fingerprint = None
+        if self._checking == path:
+            self._owed_save = True   # the saved edits are not offered yet: keep them whole
+            return None
+        fingerprint = self._opened
         if self._hold is not None:
             if self.adapter.busy:
                 return None          # the restore is still being put in place
@@ -259,7 +308,7 @@ class SessionKeeper(QObject):
             self._refingerprint = False
             try:
                 # The user chose these edits for the file as it is now.
-                fingerprint = autosave.fingerprint(path)
+                fingerprint = self._opened or autosave.fingerprint(path)
             except ScalesieveError as exc:
                 self.last_problem = exc.one_line()
         recipe_json = model.recipe().to_json()
@@ -278,3 +327,18 @@ class SessionKeeper(QObject):
             except RuntimeError:
                 pass
             return None
+
+
+def _look_for_saved_edits(path: str):
+    """``(restore info or None, the recording's fingerprint or None, problem or None)``.
+
+    Runs in a worker thread.  When there is nothing to offer, the recording
+    is fingerprinted here, so the first save of its edits need not hash it
+    on the window's thread.
+    """
+    try:
+        info = autosave.pending_restore(path)
+        opened = info.current if info is not None else autosave.fingerprint(path)
+    except ScalesieveError as exc:
+        return None, None, exc.one_line()
+    return info, opened, None

@@ -26,12 +26,14 @@ def db_text(gain: float) -> str:
 
 def bands_text(edit, model) -> str:
     """The bands an edit acts on, by name (``d1, d2``; ``every detail band``)."""
+    if edit.bands is not None:      # named as the model names them
+        return ", ".join(edit.bands)
     if edit.levels == "details":
         return "every detail band"
     if edit.levels == "all":
         return "every band"
     if model is None:
-        return ",".join(str(v) for v in edit.levels)
+        return "level " + ",".join(str(v) for v in edit.levels)
     try:
         keys = edit.band_keys(model.level)
     except ValueError:
@@ -43,6 +45,8 @@ def edit_text(edit, model=None) -> str:
     """One readable line for an edit, in the window's words."""
     where = bands_text(edit, model)
     if edit.op == "gain":
+        if edit.gain <= 0:
+            return f"mute {where} ({db_text(edit.gain)})"
         return f"gain {db_text(edit.gain)} on {where}"
     if edit.op == "threshold":
         rule = (f"manual λ {edit.value:g}" if edit.rule == "manual"
