@@ -35,7 +35,8 @@ def _figures(x, wavelet, level, mode):
     return rows
 
 
-@pytest.mark.parametrize("mode", ["symmetric", "reflect", "zero", "smooth", "antisymmetric"])
+@pytest.mark.parametrize("mode", ["symmetric", "reflect", "zero", "smooth", "antisymmetric",
+                                  "periodic"])
 def test_band_figures_in_blocks_are_the_whole_recording_ones(tmp_path, mode):
     n, level = 300_007, 8
     rng = np.random.default_rng(11)

@@ -44,7 +44,8 @@ def _visushrink(x, wavelet, level, mode):
     return pywt.waverec(c, wavelet, mode=mode)[:x.shape[0]]
 
 
-@pytest.mark.parametrize("mode", sorted(STREAM_MODES))
+# periodic: the wrap read from the recording's head and tail (stream.wrap)
+@pytest.mark.parametrize("mode", sorted(STREAM_MODES) + ["periodic"])
 def test_visushrink_in_blocks_is_pywavelets_on_the_whole_recording(tmp_path, mode):
     src = tmp_path / "in.wav"
     x = _recording(src)
@@ -76,13 +77,14 @@ RECIPES = {
 }
 
 
+@pytest.mark.parametrize("mode", ["symmetric", "periodic"])
 @pytest.mark.parametrize("name", sorted(RECIPES))
-def test_every_rule_gives_what_the_whole_array_clean_gives(tmp_path, name):
+def test_every_rule_gives_what_the_whole_array_clean_gives(tmp_path, name, mode):
     # the CONTRACT's promise: the same numbers either way (the whole-array model is
     # itself tested against PyWavelets and scikit-image elsewhere)
     src = tmp_path / "in.wav"
     _recording(src, n=50_001, channels=2, seed=4)
-    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    spec = TransformSpec("dwt", "db4", 6, mode)
     a, b = tmp_path / "a.wav", tmp_path / "b.wav"
     ra = clean_file(str(src), str(a), transform=spec, edits=RECIPES[name],
                     removed=str(tmp_path / "ar.wav"), subtype="DOUBLE")
@@ -111,6 +113,21 @@ def test_the_command_chooses_blocks_by_length_and_says_so(tmp_path, monkeypatch,
     np.testing.assert_allclose(v, u, rtol=0, atol=1e-12)
     level = default_level(40_003, "db4")             # what the command chooses
     np.testing.assert_allclose(v, _visushrink(x[:, 0], "db4", level, "symmetric"), atol=1e-12)
+
+
+def test_the_periodic_mode_is_cleaned_in_blocks_by_the_command(tmp_path, monkeypatch, capsys):
+    # reference: whole-array VisuShrink with PyWavelets in the same mode
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=40_001, channels=2, seed=3)
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    out = tmp_path / "p.wav"
+    assert main(["clean", str(src), "-o", str(out), "--threshold", "universal", "--mode",
+                 "periodic", "--wavelet", "sym4", "--level", "5", "--subtype", "DOUBLE"]) == 0
+    assert "cleaned in blocks" in capsys.readouterr().err
+    y = sf.read(out)[0]
+    for k in range(2):
+        want = _visushrink(x[:, k], "sym4", 5, "periodic")
+        np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12)
 
 
 def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monkeypatch,

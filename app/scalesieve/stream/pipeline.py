@@ -30,7 +30,8 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.io.readers import truncation_warnings
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
+from scalesieve.stream.dwt import InverseStream
+from scalesieve.stream.wrap import forward_stream
 
 #: frames read at a time
 READ_FRAMES = tf.BLOCK
@@ -44,7 +45,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     """Why a command cannot run block by block, or None when it can.
 
     The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
-    kept for callers that passed it (``events``), and ``channel`` too: an
+    kept for callers that passed it (``events``, which needs no inverse, so it takes
+    periodization too), and ``channel`` too: an
     audio file's channel, by number or by name (``ch1``), is read in blocks.
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
@@ -57,9 +59,9 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         pass                   # every mode: the blocks read the circle the model pads
     elif spec.kind != "dwt":
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
-    elif not can_stream(spec):
-        return (f"boundary mode {spec.mode} reads the far end of the recording "
-                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect, "
+    elif spec.mode == "periodization" and not swt:
+        return ("boundary mode periodization wraps its inverse around the recording's ends, "
+                "which is not done in blocks (use periodic or another mode, "
                 "or the SWT, which takes every mode in blocks)")
     for out in outputs:
         ext = os.path.splitext(out)[1].lower()
@@ -511,7 +513,7 @@ def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> in
         if spec.kind == "swt":
             _swt_pass(src, spec, depth, puts, report, passes)
         else:
-            streams = [ForwardStream(n, spec, puts[k], depth=depth)
+            streams = [forward_stream(src, spec, puts[k], k, depth)
                        for k in range(src.channels)]
             for block in src.blocks():
                 for k, s in enumerate(streams):
@@ -665,7 +667,7 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
             def put(key, k0, c, inv=inv, bands=bands):
                 inv.put(key, k0, bands[key].edited(c, k0))
             inverses.append(inv)
-            forwards.append(ForwardStream(n, spec, put))
+            forwards.append(forward_stream(src, spec, put, k))
         if spec.kind == "swt":
             _clean_swt(src, spec, plan, join, report, passes)
         for block in src.blocks() if spec.kind == "dwt" else ():
