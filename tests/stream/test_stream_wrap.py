@@ -5,7 +5,7 @@ import pytest
 import pywt
 
 from scalesieve.core.transforms import TransformSpec
-from scalesieve.stream.wrap import WrapForward, edge_samples
+from scalesieve.stream.wrap import WrapForward, WrapInverse, band_edges, edge_samples
 
 
 def _blocks(x, spec, block, depth=None):
@@ -57,3 +57,26 @@ def test_a_shallow_pass_gives_the_fine_levels_only():
 def test_only_the_wrapping_modes_are_taken():
     with pytest.raises(ValueError, match="does not wrap"):
         WrapForward(100, TransformSpec("dwt", "db4", 3, "symmetric"), print, [], [])
+
+
+@pytest.mark.parametrize("wavelet,n,level", [
+    ("haar", 1001, 3), ("db2", 4000, 5), ("db4", 70_001, 6), ("sym5", 65_536, 7),
+    ("bior3.5", 300_003, 4), ("db8", 999, 5)])
+def test_periodization_samples_are_waverec_of_wavedec(wavelet, n, level):
+    # reference: pywt.waverec(pywt.wavedec(x)) on the whole array, periodization
+    x = np.random.default_rng(level).standard_normal(n)
+    spec = TransformSpec("dwt", wavelet, level, "periodization")
+    r = edge_samples(n, spec)
+    r = n if 2 * r >= n else r
+    outs = []
+    inv = WrapInverse(n, spec, lambda s0, seg: outs.append((s0, seg.copy())),
+                      band_edges(x[:r], x[n - r:], n, spec))
+    f = WrapForward(n, spec, lambda key, k0, v: inv.put(key, k0, v.copy()), x[:r], x[n - r:])
+    for s in range(0, n, 5000):
+        f.feed(x[s:s + 5000])
+    assert [s0 for s0, _ in outs] == list(np.cumsum([0] + [s.shape[0] for _, s in outs])[:-1])
+    y = np.concatenate([s for _, s in outs])
+    want = pywt.waverec(pywt.wavedec(x, wavelet, mode="periodization", level=level), wavelet,
+                        mode="periodization")[:n]
+    assert y.shape == want.shape
+    np.testing.assert_allclose(y, want, rtol=0, atol=1e-12)

@@ -41,6 +41,10 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     if spec.kind == "swt":
         return _band_figures_swt(src, spec, progress)
     why = not_streamable({"kind": "audio", "frames_exact": True}, spec, ())
+    if why is None and spec.mode == "periodization":
+        why = ("boundary mode periodization wraps each band's component around the "
+               "recording's ends, which is not synthesised in blocks (use periodic or another "
+               "mode, or the SWT)")
     if why is not None:
         raise ScalesieveError(why, input_path)
     keys = tf.band_keys(spec.level)

@@ -30,8 +30,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.io.readers import truncation_warnings
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import InverseStream
-from scalesieve.stream.wrap import forward_stream
+from scalesieve.stream.wrap import forward_stream, inverse_stream
 
 #: frames read at a time
 READ_FRAMES = tf.BLOCK
@@ -45,8 +44,7 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     """Why a command cannot run block by block, or None when it can.
 
     The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
-    kept for callers that passed it (``events``, which needs no inverse, so it takes
-    periodization too), and ``channel`` too: an
+    kept for callers that passed it (``events``), and ``channel`` too: an
     audio file's channel, by number or by name (``ch1``), is read in blocks.
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
@@ -59,10 +57,6 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         pass                   # every mode: the blocks read the circle the model pads
     elif spec.kind != "dwt":
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
-    elif spec.mode == "periodization" and not swt:
-        return ("boundary mode periodization wraps its inverse around the recording's ends, "
-                "which is not done in blocks (use periodic or another mode, "
-                "or the SWT, which takes every mode in blocks)")
     for out in outputs:
         ext = os.path.splitext(out)[1].lower()
         if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
@@ -661,8 +655,8 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
         join = _Join(src.channels, targets, removed is not None)
         inverses, forwards = [], []
         for k in range(src.channels if spec.kind == "dwt" else 0):
-            inv = InverseStream(n, spec, lambda s0, seg, k=k: join.put(k, s0, seg))
             bands = plan.bands[k]
+            inv = inverse_stream(src, spec, lambda s0, seg, k=k: join.put(k, s0, seg), k, bands)
 
             def put(key, k0, c, inv=inv, bands=bands):
                 inv.put(key, k0, bands[key].edited(c, k0))

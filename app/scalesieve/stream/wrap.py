@@ -19,7 +19,9 @@ The coefficients are ``pywt.wavedec``'s: bit for bit away from each level's
 ends, within round-off at them (PyWavelets sums the wrapped taps apart).
 
 The inverse of ``periodic`` is PyWavelets' one inverse of every mode but
-periodization, so ``InverseStream`` serves it unchanged.
+periodization, so ``InverseStream`` serves it unchanged; periodization's
+(``WrapInverse``) wraps each level's bands the same way, its edges worked
+out before the first block from the bands' edited edges (``band_edges``).
 """
 
 from __future__ import annotations
@@ -70,8 +72,8 @@ class _Known:
         return out
 
 
-def _edges(known: _Known, w: pywt.Wavelet, N: int) -> _Known:
-    """The head and tail of the level's approximation (N coefficients) the known ones allow."""
+def _edges(known: _Known, w: pywt.Wavelet, N: int, detail: bool = False) -> _Known:
+    """The head and tail of the level's approximation (or detail; N coefficients)."""
     L, r = w.dec_len, _phase(known.mode, w.dec_len)
     off = (L - 2) // 2
 
@@ -79,8 +81,8 @@ def _edges(known: _Known, w: pywt.Wavelet, N: int) -> _Known:
         if o1 <= o0:
             return np.empty(0)
         y = known.take(2 * o0 + r + 1 - L, 2 * (o1 - 1) + r + 1)
-        a, _ = pywt.dwt(y, w, "zero")
-        return a[off:off + o1 - o0]
+        a, d = pywt.dwt(y, w, "zero")
+        return (d if detail else a)[off:off + o1 - o0]
 
     if known.everything:
         hc = tc = N
@@ -88,7 +90,7 @@ def _edges(known: _Known, w: pywt.Wavelet, N: int) -> _Known:
         hc = min(N, max(0, (known.head.shape[0] - r - 1) // 2 + 1))
         lowest = known.m - known.tail.shape[0]
         tc = min(N, max(0, (2 * N + r + 1 - L - lowest) // 2))
-    return _Known(coeffs(0, hc), coeffs(N - tc, N), N, known.mode)
+    return _Known(coeffs(0, hc), coeffs(N - tc, N), N, known.mode if not detail else "periodic")
 
 
 class _Level:
@@ -189,3 +191,127 @@ def forward_stream(src, spec: tf.TransformSpec, put: Callable, k: int,
         head, tail = read_edges(src, spec)
         return WrapForward(src.frames, spec, put, head[:, k], tail[:, k], depth)
     return ForwardStream(src.frames, spec, put, depth=depth)
+
+
+# --------------------------------------------------------------------------
+# the inverse of periodization: each level's bands wrapped, through a valid
+# (mode-free) synthesis step; a wrap of p = L // 4 coefficients in front makes
+# output ``off = 2 p - (L / 2 - 1)`` of that step periodization's output 0
+
+
+def band_edges(head: np.ndarray, tail: np.ndarray, n: int, spec: tf.TransformSpec) -> dict:
+    """The head and tail of every band (``"a"``, 1 .. J) the recording's edges give."""
+    w = pywt.Wavelet(spec.wavelet)
+    known, m, out = _Known(np.asarray(head, float), np.asarray(tail, float), n, spec.mode), n, {}
+    for j in range(1, spec.level + 1):
+        N = pywt.dwt_coeff_len(m, w.dec_len, spec.mode)
+        out[j] = _edges(known, w, N, detail=True)
+        known, m = _edges(known, w, N), N
+    out["a"] = known
+    return out
+
+
+def _up_edges(a: _Known, d: _Known, w: pywt.Wavelet, m_out: int) -> _Known:
+    """The head and tail of one synthesis step's first ``m_out`` outputs."""
+    L, N = w.rec_len, a.m
+    p = L // 4
+    off = 2 * p - (L // 2 - 1)
+
+    def part(lo, hi):
+        if hi <= lo:
+            return np.empty(0)
+        e0, e1 = lo + off, hi + off
+        k0, k1 = e0 // 2, -(-(e1 + L - 2) // 2)
+        seg = pywt.idwt(a.take(k0 - p, k1 - p), d.take(k0 - p, k1 - p), w, "zero")
+        return seg[e0 - 2 * k0:e1 - 2 * k0]
+
+    if a.everything and d.everything:
+        hh = tt = m_out
+    else:
+        hk = min(a.head.shape[0], d.head.shape[0])
+        tk = min(a.tail.shape[0], d.tail.shape[0])
+        hh = min(m_out, max(0, 2 * (hk + p) - off - L + 2))
+        tt = min(m_out, max(0, m_out + off - 2 * (N - tk + p)))
+    return _Known(part(0, hh), part(m_out - tt, m_out), m_out, "periodic")
+
+
+class _Up:
+    """One synthesis step of periodization, its bands handed in as they come."""
+
+    def __init__(self, w: pywt.Wavelet, a: _Known, d: _Known, m_out: int, out: Callable):
+        from scalesieve.stream.dwt import InverseStream
+
+        L, self.N = w.rec_len, a.m
+        self.p, self.q = L // 4, L // 2
+        self.off, self.m_out, self.out = 2 * self.p - (L // 2 - 1), m_out, out
+        M = self.N + self.p + self.q
+        spec = tf.TransformSpec(kind="dwt", wavelet=w.name, level=1, mode="zero")
+        self.inv = InverseStream(2 * M - L + 2, spec, self._made, stop=self.off + m_out)
+        self.known = {"a": a, 1: d}
+        self.had = {"a": 0, 1: 0}
+        for key, k in self.known.items():
+            self.inv.put(key, 0, k.take(-self.p, 0))
+
+    def put(self, key, values: np.ndarray) -> None:
+        self.inv.put(key, self.p + self.had[key], values)
+        self.had[key] += values.shape[0]
+        if self.had[key] == self.N:
+            self.inv.put(key, self.p + self.N, self.known[key].take(self.N, self.N + self.q))
+        self.inv.pump()
+
+    def _made(self, s0: int, seg: np.ndarray) -> None:
+        lo = max(s0, self.off)
+        if s0 + seg.shape[0] > lo:
+            self.out(lo - self.off, seg[lo - s0:])
+
+
+class WrapInverse:
+    """``pywt.waverec`` in periodization mode, as ``InverseStream`` (``put``, ``pump``).
+
+    ``edges`` are ``band_edges`` of the bands as they will be handed in (edited).
+    """
+
+    def __init__(self, n: int, spec: tf.TransformSpec, out: Callable, edges: dict):
+        w = pywt.Wavelet(spec.wavelet)
+        J = spec.level
+        lengths = tf.band_lengths(n, spec)               # a_J, d_J .. d_1
+        N = {j: lengths[J - j + 1] for j in range(1, J + 1)}
+        self.steps: dict = {}
+        a = edges["a"]
+        knowns = {}
+        for j in range(J, 0, -1):                        # the approximation each step starts from
+            knowns[j] = a
+            m_out = n if j == 1 else N[j - 1]
+            a = _up_edges(_Known(a.head, a.tail, N[j], "periodic"), edges[j], w, m_out)
+        nxt = out
+        for j in range(1, J + 1):
+            m_out = n if j == 1 else N[j - 1]
+            a_j = knowns[j]
+            step = _Up(w, _Known(a_j.head, a_j.tail, N[j], "periodic"), edges[j], m_out,
+                       nxt if j == 1 else (lambda s0, v, up=self.steps[j - 1]: up.put("a", v)))
+            self.steps[j] = step
+            nxt = None
+        self.level = J
+
+    def put(self, key, k0: int, values: np.ndarray) -> None:
+        if key == "a":
+            self.steps[self.level].put("a", values)
+        else:
+            self.steps[key].put(1, values)
+
+    def pump(self) -> None:
+        """Outputs are made as the bands come (``put``)."""
+
+
+def inverse_stream(src, spec: tf.TransformSpec, out: Callable, k: int, bands: dict):
+    """The inverse DWT in blocks of channel ``k``, in any mode; ``bands`` edit what comes."""
+    from scalesieve.stream.dwt import InverseStream
+
+    if spec.mode != "periodization":
+        return InverseStream(src.frames, spec, out)
+    head, tail = read_edges(src, spec)
+    edges = {}
+    for key, kn in band_edges(head[:, k], tail[:, k], src.frames, spec).items():
+        edges[key] = _Known(bands[key].edited(kn.head, 0),
+                            bands[key].edited(kn.tail, kn.m - kn.tail.shape[0]), kn.m, "periodic")
+    return WrapInverse(src.frames, spec, out, edges)
