@@ -202,6 +202,9 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     if why is None and resolved.kind != "dwt":
         # time pieces join the DWT's blocks; the SWT in blocks runs in one process
         why = f"the {resolved.kind.upper()} is cleaned in blocks in one process only"
+    elif why is None and resolved.mode in ("periodic", "periodization"):
+        # each level wraps its own ends: a piece in the middle cannot see them
+        why = f"boundary mode {resolved.mode} wraps every level around the recording's ends"
     if why is not None:
         raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
                               f"{why}", input_path)

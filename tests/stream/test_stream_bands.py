@@ -12,6 +12,7 @@ from scalesieve import memory_guard
 from scalesieve.cli import main
 from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
+from scalesieve.errors import ScalesieveError
 from scalesieve.stream.bands import band_figures_stream
 
 
@@ -35,7 +36,8 @@ def _figures(x, wavelet, level, mode):
     return rows
 
 
-@pytest.mark.parametrize("mode", ["symmetric", "reflect", "zero", "smooth", "antisymmetric"])
+@pytest.mark.parametrize("mode", ["symmetric", "reflect", "zero", "smooth", "antisymmetric",
+                                  "periodic"])
 def test_band_figures_in_blocks_are_the_whole_recording_ones(tmp_path, mode):
     n, level = 300_007, 8
     rng = np.random.default_rng(11)
@@ -74,3 +76,10 @@ def test_the_command_reads_a_long_recording_in_blocks(tmp_path, monkeypatch, cap
         assert got[name]["energy"] == pytest.approx(w["energy"], rel=1e-9)
         lo, hi = tf.band_range_hz("a" if name[0] == "a" else int(name[1:]), 5, 8000)
         assert (got[name]["low_hz"], got[name]["high_hz"]) == (lo, hi)
+
+
+def test_periodization_components_are_refused_in_blocks_in_one_message(tmp_path):
+    src = tmp_path / "one.wav"
+    sf.write(src, np.zeros(5000), 20_000, subtype="DOUBLE")
+    with pytest.raises(ScalesieveError, match="periodization wraps each band's component"):
+        band_figures_stream(str(src), TransformSpec("dwt", "db4", 3, "periodization"))

@@ -44,7 +44,8 @@ def _visushrink(x, wavelet, level, mode):
     return pywt.waverec(c, wavelet, mode=mode)[:x.shape[0]]
 
 
-@pytest.mark.parametrize("mode", sorted(STREAM_MODES))
+# periodic, periodization: the wrap read from the recording's head and tail (stream.wrap)
+@pytest.mark.parametrize("mode", sorted(STREAM_MODES) + ["periodic", "periodization"])
 def test_visushrink_in_blocks_is_pywavelets_on_the_whole_recording(tmp_path, mode):
     src = tmp_path / "in.wav"
     x = _recording(src)
@@ -76,13 +77,14 @@ RECIPES = {
 }
 
 
+@pytest.mark.parametrize("mode", ["symmetric", "periodic", "periodization"])
 @pytest.mark.parametrize("name", sorted(RECIPES))
-def test_every_rule_gives_what_the_whole_array_clean_gives(tmp_path, name):
+def test_every_rule_gives_what_the_whole_array_clean_gives(tmp_path, name, mode):
     # the CONTRACT's promise: the same numbers either way (the whole-array model is
     # itself tested against PyWavelets and scikit-image elsewhere)
     src = tmp_path / "in.wav"
     _recording(src, n=50_001, channels=2, seed=4)
-    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    spec = TransformSpec("dwt", "db4", 6, mode)
     a, b = tmp_path / "a.wav", tmp_path / "b.wav"
     ra = clean_file(str(src), str(a), transform=spec, edits=RECIPES[name],
                     removed=str(tmp_path / "ar.wav"), subtype="DOUBLE")
@@ -113,15 +115,32 @@ def test_the_command_chooses_blocks_by_length_and_says_so(tmp_path, monkeypatch,
     np.testing.assert_allclose(v, _visushrink(x[:, 0], "db4", level, "symmetric"), atol=1e-12)
 
 
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_the_wrapping_modes_are_cleaned_in_blocks_by_the_command(tmp_path, monkeypatch, capsys,
+                                                                 mode):
+    # reference: whole-array VisuShrink with PyWavelets in the same mode
+    src = tmp_path / "in.wav"
+    x = _recording(src, n=40_001, channels=2, seed=3)
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    out = tmp_path / "p.wav"
+    assert main(["clean", str(src), "-o", str(out), "--threshold", "universal", "--mode",
+                 mode, "--wavelet", "sym4", "--level", "5", "--subtype", "DOUBLE"]) == 0
+    assert "cleaned in blocks" in capsys.readouterr().err
+    y = sf.read(out)[0]
+    for k in range(2):
+        want = _visushrink(x[:, k], "sym4", 5, mode)
+        np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12)
+
+
 def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monkeypatch,
                                                                    capsys):
     src = tmp_path / "in.wav"
     _recording(src, n=30_000, channels=1)
     monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
-    # periodization reads the far end: whole-array while memory allows ...
+    # filling gaps needs the whole recording: whole-array while memory allows ...
     out = tmp_path / "p.wav"
-    assert main(["clean", str(src), "-o", str(out), "--zero", "1", "--mode",
-                 "periodization"]) == 0
+    assert main(["clean", str(src), "-o", str(out), "--zero", "1", "--fill-gaps",
+                 "linear"]) == 0
     assert "in blocks" not in capsys.readouterr().err
 
     class Tight:
@@ -131,11 +150,11 @@ def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monke
 
     monkeypatch.setattr(psutil, "virtual_memory", lambda: Tight())
     # ... and refused, saying why, when it does not fit
-    assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1", "--mode",
-                 "periodization"]) == 2
+    assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1",
+                 "--fill-gaps", "linear"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "cannot be worked on in blocks" in err[0]
-    assert "periodization" in err[0]
+    assert "--fill-gaps" in err[0]
     assert not (tmp_path / "q.wav").exists()
 
 

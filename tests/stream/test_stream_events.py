@@ -33,7 +33,8 @@ def impacts(tmp_path_factory):
 @pytest.mark.parametrize("kind,mode,wavelet,levels", [
     ("swt", "symmetric", "db4", (1, 2)), ("swt", "periodization", "sym5", (1, 3)),
     ("dwt", "symmetric", "db4", (1, 2, 3)), ("dwt", "zero", "haar", (1,)),
-    ("dwt", "reflect", "coif1", (2, 4))])
+    ("dwt", "reflect", "coif1", (2, 4)), ("dwt", "periodic", "sym5", (1, 3)),
+    ("dwt", "periodization", "db4", (1, 2, 3))])
 def test_events_in_blocks_are_the_whole_array_events(impacts, kind, mode, wavelet, levels):
     # the whole-array detection (core.events, itself checked against the normal
     # distribution's false-alarm rate in tests/core) on the same samples

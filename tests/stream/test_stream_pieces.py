@@ -95,13 +95,17 @@ def test_pieces_on_a_dask_cluster_and_the_command_reports_them(tmp_path, capsys)
         np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12)
 
 
-def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys):
+@pytest.mark.parametrize("opts,why", [(["--transform", "swt"], "one process only"),
+                                      (["--mode", "periodic"], "wraps every level"),
+                                      (["--mode", "periodization"], "wraps every level")])
+def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, why):
     src = tmp_path / "in.wav"
     _two_channels(src, n=20_000)
     assert main(["clean", str(src), "-o", str(tmp_path / "o.wav"), "--zero", "1",
-                 "--workers", "2", "--transform", "swt"]) == 2
+                 "--workers", "2", *opts]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--workers and --scheduler clean in blocks" in err[0]
+    assert why in err[0]
     assert not (tmp_path / "o.wav").exists()
 
 

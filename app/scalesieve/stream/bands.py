@@ -14,7 +14,8 @@ from scalesieve.core import band_figures as bf
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
+from scalesieve.stream.dwt import InverseStream
+from scalesieve.stream.wrap import forward_stream
 from scalesieve.stream.pipeline import _Source, _swt_feed, not_streamable, open_source
 from scalesieve.stream.statistics import plain_dot
 
@@ -39,9 +40,13 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
         raise ScalesieveError(str(exc), input_path) from None
     if spec.kind == "swt":
         return _band_figures_swt(src, spec, progress)
-    if not can_stream(spec):
-        raise ScalesieveError(not_streamable({"kind": "audio", "frames_exact": True}, spec,
-                                             ()), input_path)
+    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, ())
+    if why is None and spec.mode == "periodization":
+        why = ("boundary mode periodization wraps each band's component around the "
+               "recording's ends, which is not synthesised in blocks (use periodic or another "
+               "mode, or the SWT)")
+    if why is not None:
+        raise ScalesieveError(why, input_path)
     keys = tf.band_keys(spec.level)
     energy = [0.0] * src.channels
     moments = [{key: st.Moments() for key in keys} for _ in range(src.channels)]
@@ -59,7 +64,7 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
             moments[k][key].add(c)
             invs[key].put(key, k0, c)
         inverses.append(invs)
-        forwards.append(ForwardStream(n, spec, put))
+        forwards.append(forward_stream(src, spec, put, k))
     for block in src.blocks():
         for k in range(src.channels):
             col = block[:, k]

@@ -5,8 +5,9 @@ Both reuse the machinery of ``core.transforms``: the forward cascade
 a whole array and hands each block of coefficients on instead of storing
 it; the inverse synthesises each block of output with ``_synthesise`` from
 windows of coefficients kept only until no later block reads them.  Only
-the boundary modes that extend the signal from samples near its edge can
-stream (``periodic`` and ``periodization`` read the far end).
+the boundary modes that extend the signal from samples near its edge run
+here (``periodic`` and ``periodization`` read the far end: ``stream.wrap``
+feeds each level its wrap in front of this cascade's steps).
 
 The coefficients are those of ``pywt.wavedec`` of the whole recording, bit
 for bit; the output is ``pywt.waverec`` of them.

@@ -22,7 +22,7 @@ from scalesieve.core import events as ev
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import ForwardStream, can_stream
+from scalesieve.stream.wrap import forward_stream
 from scalesieve.stream.pipeline import READ_FRAMES, _Source, open_source
 
 
@@ -103,16 +103,13 @@ def events_stream(input_path: str, spec: tf.TransformSpec, levels, k: float, *,
     """
     src = open_source(input_path, channel, rate)
     pick = src.pick
-    if spec.kind == "dwt" and not can_stream(spec):
-        raise ScalesieveError(f"boundary mode {spec.mode} reads the far end of the recording; "
-                              "events in blocks need another mode or the SWT", input_path)
     n, top = src.frames, max(levels)
     k = ev.check_k(k)
     chans = [{j: _Level(spec, j, n) for j in levels} for _ in range(src.channels)]
 
-    def source(put):
+    def source(put, c):
         if spec.kind == "dwt":
-            return ForwardStream(n, spec, put, depth=top)
+            return forward_stream(src, spec, put, c, top)
         return SwtStream(n, spec, levels, put)
 
     def run(work, what, p):
@@ -121,7 +118,7 @@ def events_stream(input_path: str, spec: tf.TransformSpec, levels, k: float, *,
             def put(j, k0, values, lv=chans[c]):
                 if j in lv:
                     work(lv[j], *lv[j].inside(k0, values))
-            streams.append(source(put))
+            streams.append(source(put, c))
         done = 0
         for block in src.blocks():
             for c, s in enumerate(streams):

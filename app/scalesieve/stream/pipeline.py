@@ -30,7 +30,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.io.readers import truncation_warnings
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import ForwardStream, InverseStream, can_stream
+from scalesieve.stream.wrap import forward_stream, inverse_stream
 
 #: frames read at a time
 READ_FRAMES = tf.BLOCK
@@ -57,10 +57,6 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         pass                   # every mode: the blocks read the circle the model pads
     elif spec.kind != "dwt":
         return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
-    elif not can_stream(spec):
-        return (f"boundary mode {spec.mode} reads the far end of the recording "
-                "(use symmetric, reflect, zero, constant, smooth, antisymmetric or antireflect, "
-                "or the SWT, which takes every mode in blocks)")
     for out in outputs:
         ext = os.path.splitext(out)[1].lower()
         if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
@@ -511,7 +507,7 @@ def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> in
         if spec.kind == "swt":
             _swt_pass(src, spec, depth, puts, report, passes)
         else:
-            streams = [ForwardStream(n, spec, puts[k], depth=depth)
+            streams = [forward_stream(src, spec, puts[k], k, depth)
                        for k in range(src.channels)]
             for block in src.blocks():
                 for k, s in enumerate(streams):
@@ -659,13 +655,13 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
         join = _Join(src.channels, targets, removed is not None)
         inverses, forwards = [], []
         for k in range(src.channels if spec.kind == "dwt" else 0):
-            inv = InverseStream(n, spec, lambda s0, seg, k=k: join.put(k, s0, seg))
             bands = plan.bands[k]
+            inv = inverse_stream(src, spec, lambda s0, seg, k=k: join.put(k, s0, seg), k, bands)
 
             def put(key, k0, c, inv=inv, bands=bands):
                 inv.put(key, k0, bands[key].edited(c, k0))
             inverses.append(inv)
-            forwards.append(ForwardStream(n, spec, put))
+            forwards.append(forward_stream(src, spec, put, k))
         if spec.kind == "swt":
             _clean_swt(src, spec, plan, join, report, passes)
         for block in src.blocks() if spec.kind == "dwt" else ():
