@@ -147,3 +147,21 @@ def test_is_impulsive_at_its_level_on_gaussian_noise_and_on_bursts():
     assert z10 > z1
     assert not is_impulsive(None, 4096)
     assert kurtosis_z(3.0, 4096) < z1
+
+
+@pytest.mark.parametrize("n", [5, 200, ib.MOMENT_BLOCK + 37, 3 * ib.MOMENT_BLOCK])
+@pytest.mark.parametrize("offset", [0.0, 50.0])
+def test_kurtosis_pair_is_scipy_kurtosis_of_all_and_of_the_interior(n, offset):
+    # reference: scipy.stats.kurtosis(fisher=False) of the whole array and of its
+    # interior slice; lengths across the moment blocks, a mean that needs the
+    # central (two-pass) moments, and an interior too short to count
+    rng = np.random.default_rng(5)
+    c = offset + rng.standard_t(5, n)
+    left, right = 7, 4
+    k, inner = ib.kurtosis_pair(c, left, right, bc.MIN_INTERIOR)
+    assert k == pytest.approx(stats.kurtosis(c, fisher=False), rel=1e-9)
+    if n - left - right < bc.MIN_INTERIOR:
+        assert inner is None
+    else:
+        assert inner == pytest.approx(stats.kurtosis(c[left:n - right], fisher=False), rel=1e-9)
+        assert inner == bc.interior_kurtosis(c, left, right)

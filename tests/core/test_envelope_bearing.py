@@ -218,3 +218,16 @@ def test_the_kurtosis_table_stops_when_asked_and_asks_once_per_depth():
 
     with pytest.raises(Enough):
         ib.table(x, 1000.0, "db4", "symmetric", 4, check=stop_at_third)
+
+
+def test_largest_peaks_with_many_tied_maxima_keep_the_full_sort_order():
+    # reference: numpy's stable argsort of every local maximum (the order the
+    # peaks are defined by), here on values rounded so that many tie
+    rng = np.random.default_rng(4)
+    amp = np.round(rng.standard_normal(50_000), 1)
+    freqs = np.arange(amp.shape[0]) * 0.5
+    mid = amp[1:-1]
+    idx = np.flatnonzero((mid > amp[:-2]) & (mid >= amp[2:])) + 1
+    ref = idx[np.argsort(amp[idx], kind="stable")[::-1][:10]]
+    got = en.largest_peaks(freqs, amp)
+    assert [p["hz"] for p in got] == [float(freqs[i]) for i in ref]

@@ -27,15 +27,14 @@ def analytic(x: np.ndarray) -> np.ndarray:
 
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[0]
-    spec = sfft.fft(x, workers=2)
-    h = np.zeros(n)
-    h[0] = 1.0
-    if n % 2 == 0:
-        h[n // 2] = 1.0
-        h[1:n // 2] = 2.0
-    else:
-        h[1:(n + 1) // 2] = 2.0
-    spec *= h
+    # the weights h (1 at DC and Nyquist, 2 between, 0 above) keep only the bins a
+    # real FFT gives: those are made, the rest of the spectrum stays zero
+    half = sfft.rfft(x, workers=2)
+    spec = np.zeros(n, dtype=complex)
+    spec[:half.shape[0]] = half
+    del half
+    top = n // 2 if n % 2 == 0 else (n + 1) // 2
+    spec[1:top] *= 2.0
     return sfft.ifft(spec, workers=2, overwrite_x=True)
 
 
@@ -73,6 +72,12 @@ def largest_peaks(freqs: np.ndarray, amp: np.ndarray, count: int = PEAKS,
     idx = local_maxima(amp)
     if max_hz is not None:
         idx = idx[freqs[idx] <= max_hz]
+    if idx.shape[0] > 4 * count > 0:
+        # only the maxima at least as large as the count-th largest (ties kept) are
+        # sorted: the same order as sorting them all
+        vals = amp[idx]
+        cut = np.partition(vals, vals.shape[0] - count)[vals.shape[0] - count]
+        idx = idx[vals >= cut]
     order = idx[np.argsort(amp[idx], kind="stable")[::-1][:count]]
     return [{"hz": float(freqs[i]), "amplitude": float(amp[i])} for i in order]
 
@@ -195,7 +200,8 @@ def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
 
 def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
            mode: str = "symmetric", depth: int = 6, geometry=None,
-           shaft_hz: float | None = None, exact: bool = False, check=None) -> dict:
+           shaft_hz: float | None = None, exact: bool = False, check=None,
+           table: dict | None = None) -> dict:
     """The envelope spectrum of one packet band of ``x``, with bearing lines if given.
 
     ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest interior kurtosis
@@ -209,15 +215,21 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     band's time-domain component at the full rate (``band_envelope_spectrum``:
     full-length syntheses and FFTs), ``"envelope": "component"`` in the result.
     ``check()``, if given, is called between the steps and may raise to stop.
+    ``table``, for ``best``: the kurtosis table of these samples already made
+    (``impulsive_bands.table(..., keep_best=True)`` with this wavelet, mode and
+    depth); it is read, not changed, and not made again.
     """
     from scalesieve.core import impulsive_bands as ib
     from scalesieve.core import packets as wp
 
     x = np.asarray(x, dtype=np.float64)
-    table = None
     c = None
+    if band != "best":
+        table = None
     if band == "best":
-        table = ib.table(x, rate, wavelet, mode, depth, keep_best=True, check=check)
+        if table is None:
+            table = ib.table(x, rate, wavelet, mode, depth, keep_best=True, check=check)
+        table = dict(table)
         c = table.pop("best_coefficients")
         if table["best"] is None:
             raise ValueError("no band carries anything beyond round-off (a constant signal?)")

@@ -39,28 +39,26 @@ RAW_MEAN_SHARE = 1e-3
 MOMENT_BLOCK = 1 << 15
 
 
-def kurtosis(c: np.ndarray, work: np.ndarray | None = None) -> float | None:
-    """Pearson kurtosis of one band's coefficients (None for a band that carries nothing).
+def _raw_sums(c: np.ndarray, buf: np.ndarray) -> np.ndarray:
+    """[sum c, sum c^2, sum c^3, sum c^4], block by block (``buf`` is written over).
 
-    ``work``, a float64 array at least ``MOMENT_BLOCK`` long (or as long as ``c``),
-    is written over: with it no temporary is made (fresh memory costs more here
-    than the arithmetic).
+    ``c`` is read from memory once; each block's squares stay in cache.
     """
-    c = np.asarray(c, dtype=np.float64)
-    n = c.shape[0]
-    if n < 4:
-        return None
-    # Raw sums, block by block: c is read from memory once, its squares stay in cache.
-    buf = np.empty(min(n, MOMENT_BLOCK)) if work is None else work
     s1 = s2 = s3 = s4 = 0.0
-    for i in range(0, n, MOMENT_BLOCK):
+    for i in range(0, c.shape[0], MOMENT_BLOCK):
         b = c[i:i + MOMENT_BLOCK]
         sq = np.multiply(b, b, out=buf[:b.shape[0]])
         s1 += float(b.sum())
         s2 += float(sq.sum())
         s3 += float(np.einsum("i,i->", sq, b))
         s4 += float(np.einsum("i,i->", sq, sq))
-    mean, s2, s3, s4 = s1 / n, s2 / n, s3 / n, s4 / n
+    return np.array([s1, s2, s3, s4])
+
+
+def _from_sums(c: np.ndarray, sums: np.ndarray, work: np.ndarray | None) -> float | None:
+    """Pearson kurtosis of ``c`` given its raw sums (:func:`_raw_sums`)."""
+    n = c.shape[0]
+    mean, s2, s3, s4 = sums[0] / n, sums[1] / n, sums[2] / n, sums[3] / n
     m2 = s2 - mean * mean
     if m2 > 0 and mean * mean <= RAW_MEAN_SHARE * s2:
         # the mean is small beside the spread (detail nodes): the central moments
@@ -74,6 +72,47 @@ def kurtosis(c: np.ndarray, work: np.ndarray | None = None) -> float | None:
     np.multiply(d, d, out=d)
     m4 = float(np.einsum("i,i->", d, d)) / n
     return m4 / (m2 * m2)
+
+
+def kurtosis(c: np.ndarray, work: np.ndarray | None = None) -> float | None:
+    """Pearson kurtosis of one band's coefficients (None for a band that carries nothing).
+
+    ``work``, a float64 array at least ``MOMENT_BLOCK`` long (or as long as ``c``),
+    is written over: with it no temporary is made (fresh memory costs more here
+    than the arithmetic).
+    """
+    c = np.asarray(c, dtype=np.float64)
+    if c.shape[0] < 4:
+        return None
+    buf = np.empty(min(c.shape[0], MOMENT_BLOCK)) if work is None else work
+    return _from_sums(c, _raw_sums(c, buf), work)
+
+
+def kurtosis_pair(c: np.ndarray, left: int, right: int, minimum: int,
+                  work: np.ndarray | None = None) -> tuple[float | None, float | None]:
+    """(kurtosis of all of ``c``, of its interior ``c[left:len - right]``) in one read.
+
+    The interior's sums are taken once and the few edge coefficients' added
+    for the whole: the same figures as :func:`kurtosis` of each, up to
+    round-off.  The interior's is None with fewer than ``max(4, minimum)``
+    coefficients (as ``band_choice.interior_kurtosis``), both are None where
+    the band carries nothing.
+    """
+    c = np.asarray(c, dtype=np.float64)
+    n = c.shape[0]
+    if n < 4:
+        return None, None
+    buf = np.empty(min(n, MOMENT_BLOCK)) if work is None else work
+    stop = n - right
+    if stop - left < max(4, minimum):
+        return _from_sums(c, _raw_sums(c, buf), work), None
+    inner = c[left:stop]
+    inside = _raw_sums(inner, buf)
+    whole = inside + _raw_sums(c[:left], buf) + _raw_sums(c[stop:], buf)
+    k = _from_sums(c, whole, work)
+    if k is None:
+        return None, None
+    return k, _from_sums(inner, inside, work)
 
 
 def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetric",
@@ -113,22 +152,24 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
 
     local = threading.local()
 
-    def kurt(c):
+    def kurt(c, j):
+        # (all, interior) of one node of depth j, from one read of its coefficients
         work = getattr(local, "work", None)
         if work is None:
             work = local.work = np.empty(MOMENT_BLOCK)   # one per thread, reused
-        return kurtosis(c, work)
+        return kurtosis_pair(c, *edges[j - 1], band_choice.MIN_INTERIOR, work)
 
     def split(item):
         path, data = item
         a, d = pywt.dwt(data, w, mode)
-        return [(path + "a", a, kurt(a)), (path + "d", d, kurt(d))]
+        j = len(path) + 1
+        return [(path + "a", a, kurt(a, j)), (path + "d", d, kurt(d, j))]
 
     def split_root(item):
         # one node alone: its dwt in two halves, then the two moments, each in two threads
         path, data = item
         a, d = _dwt_halves(data, w, mode, pool)
-        ka, kd = pool.map(kurt, (a, d))
+        ka, kd = pool.map(kurt, (a, d), (len(path) + 1,) * 2)
         return [(path + "a", a, ka), (path + "d", d, kd)]
 
     try:
@@ -142,10 +183,8 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
             made = [p for pair in parts for p in pair]
             del parts
             rows = []
-            for path, data, k in sorted(made, key=lambda m: wp.freq_index(m[0])):
+            for path, data, (k, inner) in sorted(made, key=lambda m: wp.freq_index(m[0])):
                 lo, hi = wp.range_hz(path, rate)
-                inner = band_choice.interior_kurtosis(data, *edges[j - 1]) \
-                    if k is not None else None
                 rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo,
                              "high_hz": hi, "kurtosis": k, "interior_kurtosis": inner,
                              "path": path})

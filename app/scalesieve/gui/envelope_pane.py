@@ -24,6 +24,7 @@ from PySide6.QtWidgets import (QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel,
 from scalesieve.core import bearing as br
 from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
+from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, keep_lines
 from scalesieve.io.atomic import atomic_write
 
@@ -164,8 +165,15 @@ class EnvelopePane(QWidget):
         x, rate, band, wavelet, mode = rec.samples[:, ch], rec.rate, self.band, spec.wavelet, \
             spec.mode
         self._wanted = key
-        self.run.request(key, lambda check: en.report(x, rate, band, wavelet, mode, min(6, top),
-                                                      check=check))
+        depth = min(6, top)
+
+        def work(check):
+            # the table of "best" is the Impulse map's when it wants the same one
+            table = shared_kurtosis.table(rec, ch, x, rate, wavelet, mode, depth, check=check) \
+                if band == "best" else None
+            return en.report(x, rate, band, wavelet, mode, depth, check=check, table=table)
+
+        self.run.request(key, work)
         self.working.show()
         what = "the most impulsive band" if band == "best" else band
         self.readout.setText(f"Working out the envelope spectrum of {what}…")

@@ -22,6 +22,7 @@ from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QProgress
 
 from scalesieve.core import impulsive_bands as ib
 from scalesieve.core import packets as wp
+from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.thread_priority import lower_this_thread
 
 CAUTION = ("Figures support a judgement about a machine; decisions follow the applicable "
@@ -292,8 +293,9 @@ class ImpulseMapPane(QWidget):
         x, rate, wavelet, mode = rec.samples[:, ch], rec.rate, spec.wavelet, spec.mode
         self._samples = (rec.n, wavelet, mode)
         # the samples are never written (edits change gains), so the thread may read them
-        self.run.request((key, rate), lambda check: ib.table(x, rate, wavelet, mode, depth,
-                                                             check=check))
+        # made once for this pane and the envelope pane's "best" (gui/shared_kurtosis.py)
+        self.run.request((key, rate), lambda check: shared_kurtosis.table(
+            rec, ch, x, rate, wavelet, mode, depth, check=check))
         self.working.show()
         self.readout.setText("Working out the kurtosis of every packet band…")
 
