@@ -104,7 +104,7 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
     ``swt``: the command takes the SWT in blocks too (``events``).
     """
     from scalesieve.core.transforms import TransformSpec
-    from scalesieve.stream.pipeline import not_streamable
+    from scalesieve.stream.choice import not_streamable
 
     if facts is None or facts.get("frames") is None:
         return False, None
@@ -182,7 +182,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
         available=available)
     if blocks:
-        from scalesieve.stream.pipeline import stream_bytes
+        from scalesieve.stream.choice import stream_bytes
 
         chans = 1 if channel is not None else int(facts["channels"])
         cost = stream_bytes(chans, transform or _default_spec())

@@ -190,7 +190,7 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     from scalesieve import memory_guard
     from scalesieve.core.transforms import default_level
     from scalesieve.stream.pieces import clean_pieces
-    from scalesieve.stream.pipeline import not_streamable
+    from scalesieve.stream.choice import not_streamable
 
     outputs = [output] + ([removed] if removed else [])
     facts = memory_guard.probe_quietly(input_path)

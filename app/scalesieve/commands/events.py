@@ -209,7 +209,7 @@ def _in_blocks(args):
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
         return None
     from scalesieve.stream.events import events_stream
-    from scalesieve.stream.pipeline import stream_bytes
+    from scalesieve.stream.choice import stream_bytes
 
     chans = 1 if args.channel is not None else int(facts["channels"])
     print(f"scalesieve: note: {args.file}: read in blocks, four passes over the file, about "

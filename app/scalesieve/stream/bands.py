@@ -16,7 +16,9 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
 from scalesieve.stream.dwt import InverseStream
 from scalesieve.stream.wrap import forward_stream
-from scalesieve.stream.pipeline import _Source, _swt_feed, not_streamable, open_source
+from scalesieve.stream.choice import not_streamable
+from scalesieve.stream.sources import _Source, open_source
+from scalesieve.stream.swt_clean import _swt_feed
 from scalesieve.stream.statistics import plain_dot
 
 

@@ -23,7 +23,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
 from scalesieve.stream.wrap import forward_stream
-from scalesieve.stream.pipeline import READ_FRAMES, _Source, open_source
+from scalesieve.stream.sources import READ_FRAMES, _Source, open_source
 
 
 class SwtStream:

@@ -1,0 +1,86 @@
+"""The recording's samples read in blocks of frames, checked as they come."""
+
+from __future__ import annotations
+
+import numpy as np
+import soundfile as sf
+
+from scalesieve.core import transforms as tf
+from scalesieve.errors import ScalesieveError
+
+#: frames read at a time
+READ_FRAMES = tf.BLOCK
+
+
+class _Source:
+    """The recording's samples in blocks of frames, float64, checked as they come."""
+
+    def __init__(self, path: str, channel: int | None):
+        from scalesieve.io.quiet_native import quiet_native_stderr
+
+        self.path, self.pick = path, channel
+        try:
+            with quiet_native_stderr(), sf.SoundFile(path) as f:
+                self.rate = float(f.samplerate)
+                self.file_channels = int(f.channels)
+                self.frames = int(f.frames)
+                self.format, self.subtype = f.format, f.subtype
+        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
+            raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
+        self.channels = 1 if channel is not None else self.file_channels
+
+    def blocks(self, frames: int = READ_FRAMES, start: int = 0, stop: int | None = None):
+        """Frames ``start .. stop`` (default all) in blocks of ``frames``."""
+        from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_unusable
+
+        stop = self.frames if stop is None else stop
+        done = start
+        try:
+            f = sf.SoundFile(self.path)
+        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
+            raise ScalesieveError(f"could not read the audio samples ({exc})", self.path) from None
+        with f:
+            if start:
+                f.seek(start)
+            while done < stop:
+                try:
+                    block = f.read(min(frames, stop - done), dtype="float64", always_2d=True)
+                except Exception as exc:  # noqa: BLE001 - as above
+                    raise ScalesieveError(f"could not read the audio samples after frame "
+                                          f"{done} ({exc})", self.path) from None
+                if block.shape[0] == 0:
+                    break
+                if self.pick is not None:
+                    block = block[:, self.pick:self.pick + 1]
+                bad = first_unusable(block)
+                if bad is not None:
+                    r, c = bad
+                    v = float(block[r, c])
+                    r += done
+                    c = self.pick if self.pick is not None else c
+                    where = f"sample {r} (at {r / self.rate:.6g} s) of channel {c}"
+                    what = ("is NaN; use --fill-gaps linear to fill gaps" if np.isnan(v) else
+                            "is infinite" if np.isinf(v) else
+                            f"is {v:.3g}, beyond ±{MAX_ABS_SAMPLE:g}; the file looks damaged")
+                    raise ScalesieveError(f"{where} {what}", self.path)
+                done += block.shape[0]
+                yield block
+        if done != stop:
+            raise ScalesieveError(f"holds {done} readable frames, but its header says "
+                                  f"{self.frames} (truncated?)", self.path)
+
+
+def open_source(input_path: str, channel=None, rate: float | None = None) -> _Source:
+    """The recording to read in blocks, its channel and rate checked as the readers check them."""
+    from scalesieve.io.csv_reader import check_channel, check_rate
+
+    whole = _Source(input_path, None)
+    # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
+    names = [f"ch{k}" for k in range(whole.file_channels)]
+    src = _Source(input_path, check_channel(channel, whole.file_channels, input_path, names))
+    given = check_rate(rate, input_path)
+    if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
+        raise ScalesieveError(
+            f"the file's header says {src.rate:g} Hz; --rate {given:g} does not match "
+            "(the rate of an audio file comes from its header; leave out --rate)", input_path)
+    return src
