@@ -26,8 +26,9 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
                         rate: float | None = None, progress=None) -> tuple[dict, list]:
     """The figures of ``bands --json`` for every band of every channel, in one pass.
 
-    Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples`` and
-    the resolved ``spec``; ``channels`` a list of band rows per channel
+    Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples``,
+    the resolved ``spec``, the channels' ``names``, ``pick`` (the file's index
+    of the one channel read, or None), ``start_time`` and ``warnings``; ``channels`` a list of band rows per channel
     (docs/reference.md: ``energy`` of the band's time-domain component,
     ``energy_fraction`` over the channel's energy, ``coef_energy``, ``rms``
     and ``peak`` of the component, ``kurtosis`` of the coefficients).  Each
@@ -146,4 +147,5 @@ def _band_rows(src: _Source, spec: tf.TransformSpec, energy, moments, comp):
                 "kurtosis": m.pearson_kurtosis() if m.square_sum > floor else None,
             })
         channels.append(rows)
-    return {"rate": src.rate, "samples": n, "spec": spec}, channels
+    return {"rate": src.rate, "samples": n, "spec": spec, "names": list(src.names),
+            "pick": src.pick, "start_time": src.start_time, "warnings": src.warnings()}, channels

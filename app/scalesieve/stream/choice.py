@@ -17,15 +17,18 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
                    fill_gaps: str | None = None, channel=None, swt: bool = False) -> str | None:
     """Why a command cannot run block by block, or None when it can.
 
-    The SWT runs in blocks in every boundary mode (``stream.swt``); ``swt`` is
-    kept for callers that passed it (``events``), and ``channel`` too: an
-    audio file's channel, by number or by name (``ch1``), is read in blocks.
+    Audio files and text tables (CSV, TSV, TXT, DAT: ``stream.text_source``)
+    are read in blocks.  The SWT runs in blocks in every boundary mode
+    (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
+    and ``channel`` too: a channel, by number or by name, is read in blocks.
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
-    if facts is None or facts.get("kind") != "audio":
-        return "only audio files (WAV, FLAC, AIFF, ...) are read in blocks"
-    if not facts.get("frames_exact"):
+    kind = None if facts is None else facts.get("kind")
+    if kind not in ("audio", "text"):
+        return "only audio files (WAV, FLAC, AIFF, ...) and text tables are read in blocks"
+    if kind == "audio" and not facts.get("frames_exact"):
+        # (a text table's rows are counted as it is parsed in chunks: stream.text_source)
         return "its header's frame count cannot be trusted"
     if spec.kind == "swt":
         pass                   # every mode: the blocks read the circle the model pads

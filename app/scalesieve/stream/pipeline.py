@@ -27,7 +27,6 @@ from typing import Sequence
 
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
-from scalesieve.io.readers import truncation_warnings
 # the parts live beside this module; their names stay importable from here
 from scalesieve.stream.choice import SWT_COPIES, not_streamable, stream_bytes  # noqa: F401
 from scalesieve.stream.recipe_plan import _Band, _chains, _Plan  # noqa: F401
@@ -98,9 +97,11 @@ def _result(src, reports, join, passes, spec, edits=()) -> dict:
         "clipped": int(sum(r["clipped"] for r in reports)),
         "energy_removed_fraction": join.removed_energy / join.energy if join.energy > 0 else 0.0,
         "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
-                   "bytes": stream_bytes(src.channels, spec)},
+                   "bytes": stream_bytes(src.channels, spec),
+                   # a text table: parsed once in chunks into a temporary file of rows
+                   "table_parsed": src.format is None},
         "recipe": Recipe(transform=spec, edits=edits),   # as applied: level resolved
-        "warnings": truncation_warnings(src.path, src.frames),
+        "warnings": src.warnings(),
     }
 
 

@@ -1,6 +1,14 @@
-"""The recording's samples read in blocks of frames, checked as they come."""
+"""The recording's samples read in blocks of frames, checked as they come.
+
+An audio file is read through soundfile (``_Source``); a text table is parsed
+once in chunks by the whole-file reader's rules (``stream.text_source``).
+Both give ``rate``, ``frames``, ``channels``, ``pick``, ``names``,
+``start_time``, ``clock``, ``blocks(frames, start, stop)`` and ``warnings()``.
+"""
 
 from __future__ import annotations
+
+import os
 
 import numpy as np
 import soundfile as sf
@@ -13,7 +21,9 @@ READ_FRAMES = tf.BLOCK
 
 
 class _Source:
-    """The recording's samples in blocks of frames, float64, checked as they come."""
+    """An audio recording's samples in blocks of frames, float64, checked as they come."""
+
+    start_time = clock = None        # audio files carry no clock
 
     def __init__(self, path: str, channel: int | None):
         from scalesieve.io.quiet_native import quiet_native_stderr
@@ -28,6 +38,15 @@ class _Source:
         except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
             raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
         self.channels = 1 if channel is not None else self.file_channels
+        # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
+        self.names = ([f"ch{k}" for k in range(self.file_channels)] if channel is None
+                      else [f"ch{channel}"])
+
+    def warnings(self) -> list[str]:
+        """The reader's warnings (a header that declares more frames than the file holds)."""
+        from scalesieve.io.readers import truncation_warnings
+
+        return truncation_warnings(self.path, self.frames)
 
     def blocks(self, frames: int = READ_FRAMES, start: int = 0, stop: int | None = None):
         """Frames ``start .. stop`` (default all) in blocks of ``frames``."""
@@ -70,10 +89,15 @@ class _Source:
                                   f"{self.frames} (truncated?)", self.path)
 
 
-def open_source(input_path: str, channel=None, rate: float | None = None) -> _Source:
+def open_source(input_path: str, channel=None, rate: float | None = None):
     """The recording to read in blocks, its channel and rate checked as the readers check them."""
     from scalesieve.io.csv_reader import check_channel, check_rate
+    from scalesieve.io.readers import TEXT_EXTENSIONS
 
+    if os.path.splitext(input_path)[1].lower() in TEXT_EXTENSIONS:
+        from scalesieve.stream.text_source import TextSource
+
+        return TextSource(input_path, channel, rate)
     whole = _Source(input_path, None)
     # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
     names = [f"ch{k}" for k in range(whole.file_channels)]

@@ -71,25 +71,30 @@ class _AudioTarget:
 
 class _CsvTarget:
     """One CSV output written block by block as ``io.writers.write_csv`` writes it whole:
-    a ``time_s`` column from 0 in steps of 1/rate, then one column per channel, ``%.17g``."""
+    a ``time_s`` column from 0 in steps of 1/rate (or ``timestamp`` continuing the input's
+    clock), then one column per channel named as in the input, ``%.17g``."""
 
     def __init__(self, stack: contextlib.ExitStack, target: str, src: _Source, n: int,
                  force: bool, protect: Sequence[str]):
         from scalesieve.io import writers as W
         from scalesieve.io.atomic import atomic_target
+        from scalesieve.io.time_column import ClockForm
 
         self.rate = float(src.rate)
-        names = ([f"ch{k}" for k in range(src.channels)] if src.pick is None
-                 else [f"ch{src.pick}"])
         self.row = ",".join(["%.17g"] * (src.channels + 1)) + "\n"
+        self.values_row = ",".join(["%.17g"] * src.channels) + "\n"
+        self.start_time = src.start_time
+        self.form = ClockForm(**src.clock) if src.clock else None
         self.report = {"path": target, "kind": "csv", "format": None, "subtype": None,
                        "rate": self.rate, "channels": int(src.channels), "frames": int(n)}
         tmp = stack.enter_context(atomic_target(target, force=force, protect=protect))
         self.file = stack.enter_context(open(tmp, "w", encoding="utf-8", newline=""))
-        self.file.write(W._header_line(["time_s"] + names))
+        first = "time_s" if self.start_time is None else "timestamp"
+        self.file.write(W._header_line([first] + [str(c) for c in src.names]))
         self.target, self.done = target, 0
 
     def write(self, block: np.ndarray) -> None:
+        from scalesieve.io.time_column import format_timestamps
         from scalesieve.io.writers import _CSV_CHUNK_ROWS
 
         if not np.isfinite(block).all():
@@ -98,10 +103,16 @@ class _CsvTarget:
         for a in range(0, block.shape[0], _CSV_CHUNK_ROWS):
             part = block[a:a + _CSV_CHUNK_ROWS]
             start = self.done
-            chunk = np.empty((part.shape[0], part.shape[1] + 1), dtype=np.float64)
-            chunk[:, 0] = np.arange(start, start + part.shape[0], dtype=np.float64) / self.rate
-            chunk[:, 1:] = part
-            self.file.write((self.row * part.shape[0]) % tuple(chunk.ravel().tolist()))
+            if self.start_time is not None:
+                stamps = format_timestamps(self.start_time, self.rate, start, part.shape[0],
+                                           self.form)
+                self.file.write("".join(s + "," + self.values_row % tuple(row)
+                                        for s, row in zip(stamps, part.tolist())))
+            else:
+                chunk = np.empty((part.shape[0], part.shape[1] + 1), dtype=np.float64)
+                chunk[:, 0] = np.arange(start, start + part.shape[0], dtype=np.float64) / self.rate
+                chunk[:, 1:] = part
+                self.file.write((self.row * part.shape[0]) % tuple(chunk.ravel().tolist()))
             self.done += part.shape[0]
 
     def finished(self) -> dict:
