@@ -357,3 +357,18 @@ def test_the_clock_median_keeps_distinct_steps_not_every_step():
                     assert kept <= 65                    # one distinct step per merge
             m.end_pass()
         assert m.value == float(np.median(steps))
+
+
+def test_the_parse_shows_on_the_progress_bar_before_the_passes(tmp_path):
+    text, _ = _logger_table(3001, 1, 13)
+    path = tmp_path / "log.csv"
+    _write(path, text)
+    told = []
+    clean_stream(str(path), str(tmp_path / "out.wav"), progress=lambda f, t: told.append((f, t)),
+                 edits=[Edit("threshold", levels="details", rule="universal", shape="soft")])
+    fractions = [f for f, _ in told]
+    assert fractions == sorted(fractions) and fractions[-1] == 1.0
+    words = [t for _, t in told]
+    first_pass = words.index("gathering the noise and band figures")
+    assert set(words[:first_pass]) == {"parsing the table"}
+    assert max(fractions[:first_pass]) <= 0.5 <= fractions[first_pass]

@@ -17,7 +17,7 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
 from scalesieve.stream.wrap import component_stream, forward_stream
 from scalesieve.stream.choice import not_streamable
-from scalesieve.stream.sources import _Source, open_source
+from scalesieve.stream.sources import _Source, after_parse, open_source
 from scalesieve.stream.swt_clean import _swt_feed
 from scalesieve.stream.statistics import plain_dot
 
@@ -35,7 +35,8 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     component is synthesised block by block on its own and summed as it
     comes, so nothing is held at full length.
     """
-    src = open_source(input_path, channel, rate)
+    src = open_source(input_path, channel, rate, progress)
+    progress = after_parse(src, progress)
     n = src.frames
     try:
         spec = spec.resolved(n)

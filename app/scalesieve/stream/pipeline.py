@@ -30,14 +30,15 @@ from scalesieve.errors import ScalesieveError
 # the parts live beside this module; their names stay importable from here
 from scalesieve.stream.choice import SWT_COPIES, not_streamable, stream_bytes  # noqa: F401
 from scalesieve.stream.recipe_plan import _Band, _chains, _Plan  # noqa: F401
-from scalesieve.stream.sources import READ_FRAMES, _Source, open_source  # noqa: F401
+from scalesieve.stream.sources import (READ_FRAMES, _Source, after_parse,  # noqa: F401
+                                       open_source)
 from scalesieve.stream.swt_clean import _circle, _clean_swt, _swt_feed, _swt_pass  # noqa: F401
 from scalesieve.stream.targets import _AudioTarget, _CsvTarget, _Join, _target  # noqa: F401
 from scalesieve.stream.wrap import forward_stream, inverse_stream
 
 
 def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force, rate,
-             channel, fill_gaps):
+             channel, fill_gaps, progress=None):
     """Every check a clean makes before it reads a sample: ``(src, spec, plan)``."""
     from scalesieve.io.atomic import check_target
     from scalesieve.recipe import check_against
@@ -48,7 +49,7 @@ def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force,
         check_target(out, force=force, protect=[input_path])
     if fill_gaps is not None:
         raise ScalesieveError("--fill-gaps needs the whole recording", input_path)
-    src = open_source(input_path, channel, rate)
+    src = open_source(input_path, channel, rate, progress)
     n = src.frames
     spec = transform or (recipe.transform if recipe is not None else None) or tf.TransformSpec()
     try:
@@ -120,7 +121,8 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
     outputs = [output] + ([removed] if removed else [])
     src, spec, plan = _prepare(input_path, outputs, recipe=recipe, transform=transform,
                                edits=edits, force=force, rate=rate, channel=channel,
-                               fill_gaps=fill_gaps)
+                               fill_gaps=fill_gaps, progress=progress)
+    progress = after_parse(src, progress)
     n = src.frames
     # a threshold rule needs two passes for a median, one for band sums
     expected = 1 + (2 if plan.medians else 0)

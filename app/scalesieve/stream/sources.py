@@ -18,12 +18,15 @@ from scalesieve.errors import ScalesieveError
 
 #: frames read at a time
 READ_FRAMES = tf.BLOCK
+#: the share of a command's progress a text table's parse takes (the passes take the rest)
+PARSE_SHARE = 0.5
 
 
 class _Source:
     """An audio recording's samples in blocks of frames, float64, checked as they come."""
 
     start_time = clock = None        # audio files carry no clock
+    parsed = False                   # read as it is, no parse before the passes
 
     def __init__(self, path: str, channel: int | None):
         from scalesieve.io.quiet_native import quiet_native_stderr
@@ -89,15 +92,21 @@ class _Source:
                                   f"{self.frames} (truncated?)", self.path)
 
 
-def open_source(input_path: str, channel=None, rate: float | None = None):
-    """The recording to read in blocks, its channel and rate checked as the readers check them."""
+def open_source(input_path: str, channel=None, rate: float | None = None, progress=None):
+    """The recording to read in blocks, its channel and rate checked as the readers check them.
+
+    ``progress(fraction, text)``: told how a text table's parse goes, over the
+    first ``PARSE_SHARE`` of the bar (``after_parse`` maps the passes onto the rest).
+    """
     from scalesieve.io.csv_reader import check_channel, check_rate
     from scalesieve.io.readers import TEXT_EXTENSIONS
 
     if os.path.splitext(input_path)[1].lower() in TEXT_EXTENSIONS:
         from scalesieve.stream.text_source import TextSource
 
-        return TextSource(input_path, channel, rate)
+        told = None if progress is None else \
+            (lambda f: progress(PARSE_SHARE * f, "parsing the table"))
+        return TextSource(input_path, channel, rate, progress=told)
     whole = _Source(input_path, None)
     # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
     names = [f"ch{k}" for k in range(whole.file_channels)]
@@ -108,3 +117,10 @@ def open_source(input_path: str, channel=None, rate: float | None = None):
             f"the file's header says {src.rate:g} Hz; --rate {given:g} does not match "
             "(the rate of an audio file comes from its header; leave out --rate)", input_path)
     return src
+
+
+def after_parse(src, progress):
+    """``progress`` for the passes over ``src``: the whole bar, or what a parse left of it."""
+    if progress is None or not src.parsed:
+        return progress
+    return lambda f, text: progress(PARSE_SHARE + (1.0 - PARSE_SHARE) * f, text)

@@ -35,10 +35,10 @@ CHECK_ROWS = 1 << 18
 class _Text:
     """The table's text in chunks of whole lines, decoded as the whole-file reader decodes it."""
 
-    def __init__(self, source: str, size: int):
+    def __init__(self, source: str, size: int, progress=None):
         from scalesieve.io import text_dialect as td
 
-        self.source, self.size = source, size
+        self.source, self.size, self.progress = source, size, progress
         with open(source, "rb") as fh:
             head = fh.read(td._SAMPLE_CHARS)
             fh.seek(max(0, size - td._SAMPLE_CHARS))
@@ -78,6 +78,8 @@ class _Text:
             while True:
                 raw = fh.read(CHUNK_BYTES)
                 final = not raw
+                if self.progress is not None:
+                    self.progress(min(1.0, fh.tell() / max(1, self.size)))
                 text = decoder.decode(raw, final=final)
                 if not checked:
                     head_chars.append(text)
@@ -163,12 +165,14 @@ class TextSource:
 
     The same attributes and ``blocks`` as ``stream.sources._Source``, and
     ``names``, ``start_time`` and ``clock`` as the whole-file reader's
-    Recording holds them.
+    Recording holds them.  ``progress(fraction)`` is told how far the parse
+    has got (by bytes read).
     """
 
     format = subtype = None
+    parsed = True            # parsed once before the passes (sources.after_parse)
 
-    def __init__(self, path: str, channel=None, rate: float | None = None):
+    def __init__(self, path: str, channel=None, rate: float | None = None, progress=None):
         from scalesieve.io import csv_reader as cr
         from scalesieve.io.input_check import (check_channel, check_rate, check_readable,
                                                os_error_message)
@@ -176,9 +180,10 @@ class TextSource:
         rate = check_rate(rate, os.fspath(path))
         self.path, size = check_readable(path)
         try:
-            self._text = _Text(self.path, size)
+            self._text = _Text(self.path, size, progress)
             self._values = tempfile.TemporaryFile(prefix="scalesieve-table-")
             self._parse(cr)
+            self._text.progress = None        # a message's line is found again silently
         except OSError as exc:
             raise ScalesieveError(os_error_message(exc), source=self.path) from None
         layout, k = self.layout, self.layout.columns
