@@ -32,8 +32,11 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         return "its header's frame count cannot be trusted"
     if spec.kind == "swt":
         pass                   # every mode: the blocks read the circle the model pads
-    elif spec.kind != "dwt":
-        return f"the {spec.kind.upper()} keeps every level at full length (use --transform dwt)"
+    elif spec.kind == "packet":
+        return ("wavelet packets are not worked on in blocks (use --transform dwt or swt, "
+                "or cut the recording into shorter files)")
+    elif spec.kind != "dwt":  # pragma: no cover - TransformSpec knows dwt, swt and packet
+        return f"the {spec.kind} transform is not worked on in blocks"
     for out in outputs:
         ext = os.path.splitext(out)[1].lower()
         if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
