@@ -81,12 +81,11 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
 
 
 def probe_quietly(path: str | os.PathLike) -> dict | None:
-    """The facts of an audio file, or None (a text table, or a file reading will refuse)."""
-    from scalesieve.io.readers import TEXT_EXTENSIONS, probe
+    """The facts of a recording (a text table's from its first rows: ``frames`` estimated),
+    or None (a file reading will refuse)."""
+    from scalesieve.io.readers import probe
 
     source = os.fspath(path)
-    if os.path.splitext(source)[1].lower() in TEXT_EXTENSIONS:
-        return None
     try:
         return probe(source)
     except ScalesieveError:
@@ -104,7 +103,7 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
     ``swt``: the command takes the SWT in blocks too (``events``).
     """
     from scalesieve.core.transforms import TransformSpec
-    from scalesieve.stream.pipeline import not_streamable
+    from scalesieve.stream.choice import not_streamable
 
     if facts is None or facts.get("frames") is None:
         return False, None
@@ -170,7 +169,9 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         except OSError:
             return None
         bound = {"frames": size, "channels": 1, "kind": "text", "file_bytes": size}
-        if estimate(bound, dtype=dtype, transform=transform) <= available:
+        # a command that can work in blocks (outputs given) does so past STREAM_ABOVE
+        room = available if outputs is None else min(available, STREAM_ABOVE)
+        if estimate(bound, dtype=dtype, transform=transform) <= room:
             return None
     try:
         facts = probe(source)
@@ -182,7 +183,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
         available=available)
     if blocks:
-        from scalesieve.stream.pipeline import stream_bytes
+        from scalesieve.stream.choice import stream_bytes
 
         chans = 1 if channel is not None else int(facts["channels"])
         cost = stream_bytes(chans, transform or _default_spec())

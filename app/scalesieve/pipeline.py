@@ -190,7 +190,7 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     from scalesieve import memory_guard
     from scalesieve.core.transforms import default_level
     from scalesieve.stream.pieces import clean_pieces
-    from scalesieve.stream.pipeline import not_streamable
+    from scalesieve.stream.choice import not_streamable
 
     outputs = [output] + ([removed] if removed else [])
     facts = memory_guard.probe_quietly(input_path)
@@ -199,7 +199,10 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
         resolved = replace(transform,
                            level=default_level(max(int(facts["frames"]), 2), transform.wavelet))
     why = not_streamable(facts, resolved, outputs, fill_gaps, channel)
-    if why is None and resolved.kind != "dwt":
+    if why is None and facts.get("kind") == "text":
+        # each worker would parse the whole table again to find its piece's rows
+        why = "a text table is parsed in one process only"
+    elif why is None and resolved.kind != "dwt":
         # time pieces join the DWT's blocks; the SWT in blocks runs in one process
         why = f"the {resolved.kind.upper()} is cleaned in blocks in one process only"
     elif why is None and resolved.mode in ("periodic", "periodization"):

@@ -13,6 +13,13 @@ side in this run (clean / bare time, long / short time and memory).
     python tests/perf/bench_long.py --samples 16777216 --only clean_swt,bands_swt --force-blocks
     python tests/perf/bench_long.py                        # 2**28: needs ~9 GiB free for the
                                                            # bare script, ~2 GiB of disk
+    python tests/perf/bench_long.py --samples 16000000 --table --only clean,clean_whole,bands,events
+                                                           # logger CSVs instead of WAVs
+
+``--table`` writes the recordings as a logger's CSV instead (``time [ms]``,
+semicolon, decimal comma); the bare script then reads it with
+``numpy.loadtxt``, and ``clean_whole`` / ``bands_whole`` run the command with
+the whole-file reader (the budget lifted) beside it.
 
 The full size is for a quiet machine: the bare script alone holds about
 8 GiB.  ``--no-bare`` leaves it out.
@@ -65,6 +72,20 @@ y = pywt.iswt(c, "db4", norm=True)[:n]
 sf.write(sys.argv[2], y, rate, subtype="FLOAT")
 """
 
+BARE_TABLE_READ = r"""
+import io
+def read(path):
+    with open(path, encoding="utf-8") as fh:
+        text = fh.read()
+    x = np.loadtxt(io.StringIO(text.replace(",", ".")), delimiter=";", skiprows=1)
+    return x[:, 1], int(round(1000.0 / (x[1, 0] - x[0, 0])))
+"""
+
+#: runs a command with the whole-file reader whatever the length (clean_whole, bands_whole)
+IN_MEMORY = ("import sys; from scalesieve import memory_guard; "
+             "memory_guard.STREAM_ABOVE = 1 << 62; "
+             "from scalesieve.cli import main; sys.exit(main(sys.argv[1:]))")
+
 #: runs a command with every recording taken in blocks (--force-blocks)
 IN_BLOCKS = ("import sys; from scalesieve import memory_guard; memory_guard.STREAM_ABOVE = 0; "
              "from scalesieve.cli import main; sys.exit(main(sys.argv[1:]))")
@@ -80,6 +101,20 @@ def _write(path: str, n: int, rate: int = 51200) -> None:
             x = 0.2 * np.sin(2 * np.pi * 24.5 * t) + 0.02 * rng.standard_normal(t.shape[0])
             x[(np.arange(s, s + t.shape[0]) % (rate // 10)) < 8] += 0.3
             f.write(x.astype(np.float32))
+
+
+def _write_table(path: str, n: int, rate: int = 2000) -> None:
+    """Invented strain logger export: slow drift, noise, a load step every 10 s."""
+    rng = np.random.default_rng(7)
+    block = 1 << 18
+    with open(path, "w", encoding="utf-8") as f:
+        f.write("time [ms];gauge 1 [µm/m]\n")
+        for s in range(0, n, block):
+            i = np.arange(s, min(n, s + block))
+            x = 40 * np.sin(2 * np.pi * i / (rate * 3600)) + rng.standard_normal(i.shape[0])
+            x += 25 * ((i // (10 * rate)) % 2)
+            rows = np.column_stack([i * (1000.0 / rate), x])
+            f.write("".join("%.1f;%.4f\n" % tuple(r) for r in rows.tolist()).replace(".", ","))
 
 
 def _run(cmd: list[str]) -> dict:
@@ -100,7 +135,11 @@ def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
     me = [sys.executable, "-c", IN_BLOCKS] if force_blocks else [sys.executable, "-m",
                                                                   "scalesieve"]
     swt = ["--transform", "swt"]
+    whole = [sys.executable, "-c", IN_MEMORY]
     return {
+        "clean_whole": whole + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
+        "bands_whole": whole + ["bands", src, "--json"],
+        "bands_periodization": me + ["bands", src, "--json", "--mode", "periodization"],
         "clean_swt": me + ["clean", src, "-o", out, "--threshold", "universal", "--force", *swt],
         "bands_swt": me + ["bands", src, "--json", *swt],
         "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
@@ -111,6 +150,14 @@ def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
     }
 
 
+def _bare(script: str, table: bool) -> str:
+    """The bare script, reading a logger CSV with numpy.loadtxt when ``table``."""
+    if not table:
+        return script
+    head, rest = script.split('x, rate = sf.read(sys.argv[1], dtype="float64")\n')
+    return head + BARE_TABLE_READ + "x, rate = read(sys.argv[1])\n" + rest
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--samples", type=int, default=1 << 28)
@@ -119,18 +166,24 @@ def main() -> None:
                     help="commands to run, comma-separated: clean, clean_workers (the same "
                          "clean in two local processes), bands, events (default "
                          "clean,bands,events); clean_swt and bands_swt: the same with "
-                         "--transform swt, clean_swt beside a bare whole-array SWT script")
+                         "--transform swt, clean_swt beside a bare whole-array SWT script; "
+                         "bands_periodization; clean_whole and bands_whole: the whole-file "
+                         "reader, the budget lifted")
+    ap.add_argument("--table", action="store_true",
+                    help="logger CSV inputs (time [ms], semicolon, decimal comma) instead of WAVs")
     ap.add_argument("--force-blocks", action="store_true",
                     help="every command in blocks whatever the length (both sizes alike)")
     ap.add_argument("--dir", default=None, help="folder for the test files (default a temp one)")
     args = ap.parse_args()
     wanted = args.only.split(",")
     sizes = {"long": args.samples, "short": args.samples // 4}
-    figures: dict = {"samples": sizes, "machine": {"cpus": os.cpu_count()}}
+    figures: dict = {"samples": sizes, "machine": {"cpus": os.cpu_count(),
+                                                   "load": os.getloadavg()},
+                     "input": "csv" if args.table else "wav"}
     with tempfile.TemporaryDirectory(dir=args.dir) as tmp:
         for label, n in sizes.items():
-            src = os.path.join(tmp, f"{label}.wav")
-            _write(src, n)
+            src = os.path.join(tmp, f"{label}.{'csv' if args.table else 'wav'}")
+            (_write_table if args.table else _write)(src, n)
             out = os.path.join(tmp, f"{label}-out.wav")
             row = {}
             for name, cmd in _commands(src, out, args.force_blocks).items():
@@ -139,12 +192,12 @@ def main() -> None:
             if not args.no_bare and "clean" in wanted:
                 script = os.path.join(tmp, "bare.py")
                 with open(script, "w") as fh:
-                    fh.write(BARE)
+                    fh.write(_bare(BARE, args.table))
                 row["bare"] = _run([sys.executable, script, src, os.path.join(tmp, "bare.wav")])
             if not args.no_bare and "clean_swt" in wanted:
                 script = os.path.join(tmp, "bare_swt.py")
                 with open(script, "w") as fh:
-                    fh.write(BARE_SWT)
+                    fh.write(_bare(BARE_SWT, args.table))
                 row["bare_swt"] = _run([sys.executable, script, src,
                                         os.path.join(tmp, "bare.wav")])
             figures[label] = row
@@ -166,6 +219,12 @@ def main() -> None:
                 long[name]["seconds"] / short[name]["seconds"], 3)
             ratios[f"{name}_long_over_short_memory"] = round(
                 long[name]["peak_mib"] / short[name]["peak_mib"], 3)
+    for name in ("clean", "bands"):
+        if name in long and f"{name}_whole" in long:
+            ratios[f"{name}_over_{name}_whole_time"] = round(
+                long[name]["seconds"] / long[f"{name}_whole"]["seconds"], 3)
+            ratios[f"{name}_over_{name}_whole_memory"] = round(
+                long[name]["peak_mib"] / long[f"{name}_whole"]["peak_mib"], 3)
     figures["ratios"] = ratios
     print(json.dumps(figures))
 

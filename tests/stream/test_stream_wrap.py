@@ -80,3 +80,26 @@ def test_periodization_samples_are_waverec_of_wavedec(wavelet, n, level):
                         mode="periodization")[:n]
     assert y.shape == want.shape
     np.testing.assert_allclose(y, want, rtol=0, atol=1e-12)
+
+
+def test_periodization_output_keeps_pace_with_its_input():
+    # a coarse level's synthesis step made blocks of tf.BLOCK outputs, and so waited for
+    # most of the recording before the first output: the memory then grew with the length
+    from scalesieve.core import transforms as tf
+
+    n, level = 1 << 21, 8
+    x = np.random.default_rng(4).standard_normal(n)
+    spec = TransformSpec("dwt", "db8", level, "periodization")
+    r = edge_samples(n, spec)
+    made = [0]
+    inv = WrapInverse(n, spec, lambda s0, seg: made.__setitem__(0, s0 + seg.shape[0]),
+                      band_edges(x[:r], x[n - r:], n, spec))
+    f = WrapForward(n, spec, lambda key, k0, v: inv.put(key, k0, v.copy()), x[:r], x[n - r:])
+    lag = 0
+    for s in range(0, n, tf.BLOCK):
+        f.feed(x[s:s + tf.BLOCK])
+        lag = max(lag, f.fed - made[0])
+    assert made[0] == n
+    # each of the J steps lags by its block (a quarter of tf.BLOCK input samples), plus one
+    # block of input: bounded whatever the length
+    assert lag <= (level // 4 + 2) * tf.BLOCK < n

@@ -47,23 +47,22 @@ def band_report(model, file_label: str) -> dict:
 
 def _report_in_blocks(args, spec, progress) -> dict:
     """``band_report``'s fields for a recording longer than the budget, in one pass."""
-    from scalesieve.io.readers import truncation_warnings
     from scalesieve.stream.bands import band_figures_stream
 
     facts, channels = band_figures_stream(
         args.file, spec, channel=args.channel, rate=args.rate,
         progress=None if progress is None else (lambda f, t: progress(f, t)))
-    pick = args.channel
+    pick, start = facts["pick"], facts["start_time"]
     return {
         "file": os.path.basename(args.file),
         "rate": facts["rate"],
         "samples": facts["samples"],
         "duration_s": facts["samples"] / facts["rate"],
         "transform": facts["spec"].to_json(),
-        "start_time": None,              # audio files carry no clock
-        "warnings": truncation_warnings(args.file, facts["samples"]),
-        "channels": [{"index": k if pick is None else pick,
-                      "name": f"ch{k if pick is None else pick}", "bands": rows}
+        "start_time": start.isoformat() if start is not None else None,
+        "warnings": facts["warnings"],
+        "channels": [{"index": k if pick is None else pick, "name": facts["names"][k],
+                      "bands": rows}
                      for k, rows in enumerate(channels)],
     }
 
@@ -102,8 +101,10 @@ def run(args) -> int:
                                fill_gaps=args.fill_gaps)
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if facts and facts.get("in_blocks"):
-            print(f"scalesieve: note: {args.file}: read in blocks, one pass over the file, "
-                  f"about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
+            what = ("parsed in chunks into a temporary file, then read in blocks, one pass "
+                    "over the rows" if facts.get("kind") == "text"
+                    else "read in blocks, one pass over the file")
+            print(f"scalesieve: note: {args.file}: {what}, about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
                   file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)
         else:

@@ -136,8 +136,10 @@ def run(args) -> int:
               f"{res['where']} in {res['pieces_seconds']:.2f} s: {spans}", file=sys.stderr)
     if res.get("blocks"):
         b = res["blocks"]
-        print(f"scalesieve: note: {args.file}: cleaned in blocks of {b['frames_per_block']} "
-              f"frames, {b['passes']} pass{'es' if b['passes'] > 1 else ''} over the file, "
+        parsed = "parsed in chunks into a temporary file, then " if b.get("table_parsed") else ""
+        print(f"scalesieve: note: {args.file}: {parsed}cleaned in blocks of "
+              f"{b['frames_per_block']} frames, {b['passes']} pass"
+              f"{'es' if b['passes'] > 1 else ''} over the {'rows' if parsed else 'file'}, "
               f"about {b['bytes'] / 2**20:.0f} MiB of memory", file=sys.stderr)
     chans = f"{res['channels']} channel" + ("" if res["channels"] == 1 else "s")
     print(f"wrote {args.output}: {res['samples']} samples x {chans} at "

@@ -27,7 +27,6 @@ from __future__ import annotations
 import json
 import math
 import os
-import re
 import sys
 from dataclasses import replace
 
@@ -197,6 +196,7 @@ def format_report(report: dict, rows: bool = True) -> str:
 
 def _in_blocks(args):
     """The events of a recording past the memory budget, found block by block; else None."""
+    from datetime import timedelta
     from types import SimpleNamespace
 
     from scalesieve import memory_guard
@@ -208,34 +208,31 @@ def _in_blocks(args):
     if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
         return None
+    from scalesieve.stream.choice import stream_bytes
     from scalesieve.stream.events import events_stream
-    from scalesieve.stream.pipeline import stream_bytes
+    from scalesieve.stream.sources import open_source
 
     chans = 1 if args.channel is not None else int(facts["channels"])
-    print(f"scalesieve: note: {args.file}: read in blocks, four passes over the file, about "
+    what = ("parsed in chunks into a temporary file, then read in blocks, four passes over "
+            "the rows" if facts.get("kind") == "text"
+            else "read in blocks, four passes over the file")
+    print(f"scalesieve: note: {args.file}: {what}, about "
           f"{stream_bytes(chans, spec) / 2**20:.0f} MiB of memory", file=sys.stderr)
-    levels = levels_from(args.levels, spec, int(facts["frames"]))
+    # a text table's rows are counted as it is parsed: the level follows that count
+    src = open_source(args.file, args.channel, args.rate)
+    spec = spec_from(args, src.frames, args.file)
+    levels = levels_from(args.levels, spec, src.frames)
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
-                                       rate=args.rate)
-    from scalesieve.io.readers import truncation_warnings
-
+                                       rate=args.rate, source=src)
+    start = got["start_time"]
     rec = SimpleNamespace(rate=got["rate"], n=got["samples"], channels=got["channels"],
                           duration_s=got["samples"] / got["rate"],
-                          channel_names=got["channel_names"],
-                          start_time=None,       # audio files carry no clock
-                          warnings=tuple(truncation_warnings(args.file, got["samples"])),
-                          file_index=lambda k: _picked(args.channel, got["channel_names"], k))
+                          channel_names=got["channel_names"], start_time=start,
+                          warnings=tuple(got["warnings"]),
+                          file_index=lambda k: k if got["pick"] is None else got["pick"],
+                          clock_at=lambda s: (None if start is None else
+                                              start + timedelta(seconds=float(s))))
     return rec, spec, levels, events, noise
-
-
-def _picked(channel, names, k: int) -> int:
-    """The file's index of the one channel read in blocks (audio names are chK)."""
-    if channel is None:
-        return k
-    if str(channel).isdigit():
-        return int(channel)
-    m = re.fullmatch(r"ch(\d+)", names[k]) if k < len(names) else None
-    return int(m.group(1)) if m else k
 
 
 def run(args) -> int:

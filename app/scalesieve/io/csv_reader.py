@@ -321,15 +321,22 @@ def _column_label(layout: TextLayout, j: int) -> str:
     return f"column {j + 1}"
 
 
-def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray, np.ndarray]:
-    """Row-by-row parse with exact messages; return ``(values, 1-based line numbers)``."""
+def _parse_rows(text: str, layout: TextLayout, source: str,
+                start: tuple[int, int] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Row-by-row parse with exact messages; return ``(values, 1-based line numbers)``.
+
+    ``start``: ``(offset, line number)`` of the first data row in ``text``, when
+    ``text`` is a later stretch of the table (a table read in blocks); by default
+    the layout's.
+    """
+    offset, first_line = (layout.data_offset, layout.data_line) if start is None else start
     d = layout.dialect
     k = layout.columns
     rows: list[list[float]] = []
     linenos: list[int] = []
     where = "the header" if layout.names is not None else f"line {layout.data_line}"
     convert = layout.time_converter()
-    for lineno, _, line in _lines(text, layout.data_offset, layout.data_line):
+    for lineno, _, line in _lines(text, offset, first_line):
         part = _data_part(line)
         if not part:
             continue
@@ -359,10 +366,12 @@ def _parse_rows(text: str, layout: TextLayout, source: str) -> tuple[np.ndarray,
     return values, np.array(linenos, dtype=np.int64)
 
 
-def _data_linenos(text: str, layout: TextLayout) -> np.ndarray:
-    """1-based line numbers of the data rows, in order (for messages)."""
-    return np.array([lineno for lineno, _, line in _lines(text, layout.data_offset,
-                                                          layout.data_line)
+def _data_linenos(text: str, layout: TextLayout,
+                  start: tuple[int, int] | None = None) -> np.ndarray:
+    """1-based line numbers of the data rows, in order (for messages); ``start`` as
+    for :func:`_parse_rows`."""
+    offset, first_line = (layout.data_offset, layout.data_line) if start is None else start
+    return np.array([lineno for lineno, _, line in _lines(text, offset, first_line)
                      if _data_part(line)], dtype=np.int64)
 
 

@@ -44,25 +44,40 @@ def decode_text(raw: bytes, source: str) -> tuple[str, str]:
     allowed), then Latin-1 (which decodes any bytes; binary data is caught by
     looking for NUL and other control characters).
     """
-    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+    if is_utf16(raw):
         try:
             text, encoding = raw.decode("utf-16"), "utf-16"
         except UnicodeDecodeError:
             raise ScalesieveError("is not readable text (broken UTF-16)", source=source) from None
     else:
-        if b"\x00" in raw[:_SAMPLE_CHARS] or b"\x00" in raw[-_SAMPLE_CHARS:]:
-            raise ScalesieveError("contains binary data, not a text table", source=source)
+        check_no_nul(raw[:_SAMPLE_CHARS], raw[-_SAMPLE_CHARS:], source)
         try:
             text, encoding = raw.decode("utf-8-sig"), "utf-8"
         except UnicodeDecodeError:
             text, encoding = raw.decode("latin-1"), "latin-1"
-    head = text[:_SAMPLE_CHARS]
-    controls = sum(1 for ch in head if ord(ch) < 32 and ch not in "\t\n\r\f\v")
-    if "\x00" in head or controls > max(2, len(head) // 100):
-        raise ScalesieveError("contains binary data, not a text table", source=source)
+    check_text_head(text[:_SAMPLE_CHARS], source)
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     return text, encoding
+
+
+def is_utf16(raw_head: bytes) -> bool:
+    """A UTF-16 byte-order mark starts the file."""
+    return raw_head.startswith((b"\xff\xfe", b"\xfe\xff"))
+
+
+def check_no_nul(raw_head: bytes, raw_tail: bytes, source: str) -> None:
+    """A file not in UTF-16 holds no NUL byte in its first and last ``_SAMPLE_CHARS``."""
+    if b"\x00" in raw_head or b"\x00" in raw_tail:
+        raise ScalesieveError("contains binary data, not a text table", source=source)
+
+
+def check_text_head(head: str, source: str) -> None:
+    """The first ``_SAMPLE_CHARS`` decoded characters (before line ends are made LF)
+    hold no NUL and few other control characters."""
+    controls = sum(1 for ch in head if ord(ch) < 32 and ch not in "\t\n\r\f\v")
+    if "\x00" in head or controls > max(2, len(head) // 100):
+        raise ScalesieveError("contains binary data, not a text table", source=source)
 
 
 def looks_like_text(head: bytes) -> bool:

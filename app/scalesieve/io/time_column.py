@@ -140,6 +140,47 @@ def _duration(s: float) -> str:
     return f"{s:.6g} s"
 
 
+def not_increasing(t_before: float, t_here: float, line: int, source: str,
+                   origin: datetime | None) -> ScalesieveError:
+    """The error for a time value not above the one before it (on ``line``)."""
+    step = t_here - t_before
+    back = "does not increase" if step == 0 else \
+        f"does not increase (it goes back by {_duration(-float(step))})"
+    return ScalesieveError(
+        f"time {back} ({describe_time(t_before, origin)}, then "
+        f"{describe_time(t_here, origin)})", source=source, line=line)
+
+
+def not_uniform(spread: float, step: float, typical: float, line: int,
+                source: str) -> ScalesieveError:
+    """The error for steps whose spread passes the limit; ``step`` the farthest off."""
+    return ScalesieveError(
+        f"time steps are not uniform (relative spread {spread:.3g}, limit "
+        f"{UNIFORM_STEP_TOLERANCE:g}): a step of {step:.9g} s where most are "
+        f"{typical:.9g} s; resample the data, or give --rate to treat the rows as "
+        "evenly spaced", source=source, line=line)
+
+
+def clock_jump(t_before: float, t_here: float, typical: float, line: int, source: str,
+               origin: datetime | None) -> ScalesieveError:
+    """The error for a jump of the clock (without ``--fill-gaps``)."""
+    return ScalesieveError(
+        f"time steps are not uniform: the clock jumps by "
+        f"{_duration(float(t_here - t_before))} (from "
+        f"{describe_time(t_before, origin)} to {describe_time(t_here, origin)}) where "
+        f"steps are {typical:.9g} s; use --fill-gaps linear to fill the gap, or "
+        "split the file there", source=source, line=line)
+
+
+def tidy_rate(rate: float, jumps: bool) -> float:
+    """Drop float noise from unit scaling (1e5 rather than 100000.00000000001)."""
+    if abs(rate - round(rate)) <= 1e-9 * rate:
+        return float(round(rate))
+    if jumps and abs(rate - round(rate)) <= 1e-6 * rate:
+        return float(round(rate))
+    return rate
+
+
 def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | None = None,
                   fill: str | None = None) -> TimeAxis:
     """Rate from a time axis in seconds; an error when it is not evenly spaced.
@@ -147,19 +188,15 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
     A clock that jumps forward (a logger paused, a daylight-saving change) is
     an error naming the line and the jump, unless ``fill`` is ``"linear"``:
     then each jump becomes a gap of whole steps that the caller fills.
+    (``stream.text_source`` makes the same checks over a table read in blocks.)
     """
     if t.size < 2:
-        raise ScalesieveError("a single row cannot give a rate from its time column; "
-                              "give --rate", source=source)
+        raise too_few_rows(source)
     steps = np.diff(t)
     bad = np.flatnonzero(~(steps > 0))
     if bad.size:
         i = int(bad[0]) + 1
-        back = "does not increase" if steps[i - 1] == 0 else \
-            f"does not increase (it goes back by {_duration(-float(steps[i - 1]))})"
-        raise ScalesieveError(
-            f"time {back} ({describe_time(t[i - 1], origin)}, then "
-            f"{describe_time(t[i], origin)})", source=source, line=line_of(i))
+        raise not_increasing(t[i - 1], t[i], line_of(i), source, origin)
     typical = float(np.median(steps))
     jumps = np.flatnonzero(steps >= JUMP_FACTOR * typical)
     regular = steps if not jumps.size else np.delete(steps, jumps)
@@ -168,22 +205,13 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
         dev = np.abs(steps - typical)
         dev[jumps] = -1.0
         i = int(np.argmax(dev)) + 1
-        raise ScalesieveError(
-            f"time steps are not uniform (relative spread {spread:.3g}, limit "
-            f"{UNIFORM_STEP_TOLERANCE:g}): a step of {steps[i - 1]:.9g} s where most are "
-            f"{typical:.9g} s; resample the data, or give --rate to treat the rows as "
-            "evenly spaced", source=source, line=line_of(i))
+        raise not_uniform(spread, steps[i - 1], typical, line_of(i), source)
     step = float(regular.mean())
     gaps: list[tuple[int, int]] = []
     if jumps.size:
         i = int(jumps[0]) + 1
         if fill is None:
-            raise ScalesieveError(
-                f"time steps are not uniform: the clock jumps by "
-                f"{_duration(float(steps[i - 1]))} (from "
-                f"{describe_time(t[i - 1], origin)} to {describe_time(t[i], origin)}) where "
-                f"steps are {typical:.9g} s; use --fill-gaps linear to fill the gap, or "
-                "split the file there", source=source, line=line_of(i))
+            raise clock_jump(t[i - 1], t[i], typical, line_of(i), source, origin)
         gaps = [(int(j) + 1, int(round(steps[j] / step)) - 1) for j in jumps]
         added = sum(m for _, m in gaps)
         if added > MOST_FILLED:
@@ -195,12 +223,12 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
     else:
         # The whole span is far more precise than any single printed step.
         rate = float((t.size - 1) / (t[-1] - t[0]))
-    # Drop float noise from unit scaling (1e5 rather than 100000.00000000001).
-    if abs(rate - round(rate)) <= 1e-9 * rate:
-        rate = float(round(rate))
-    elif jumps.size and abs(rate - round(rate)) <= 1e-6 * rate:
-        rate = float(round(rate))
-    return TimeAxis(rate, gaps)
+    return TimeAxis(tidy_rate(rate, bool(jumps.size)), gaps)
+
+
+def too_few_rows(source: str) -> ScalesieveError:
+    return ScalesieveError("a single row cannot give a rate from its time column; "
+                           "give --rate", source=source)
 
 
 def fill_jumps(values: np.ndarray, gaps: list[tuple[int, int]]) -> np.ndarray:

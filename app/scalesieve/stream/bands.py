@@ -1,7 +1,8 @@
 """The figures of ``bands --json`` for a recording longer than memory, in one pass.
 
 Each band's time-domain component is synthesised block by block on its own
-and summed as it comes (DWT), or made by FFT filtering per block (SWT), so
+and summed as it comes (DWT, in every mode: periodization's wraps each
+component round the recording's ends, ``stream.wrap``), or made by FFT filtering per block (SWT), so
 nothing is held at full length; the rows follow the whole-array table's
 order and rules (``core.band_figures``).
 """
@@ -14,9 +15,10 @@ from scalesieve.core import band_figures as bf
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
-from scalesieve.stream.dwt import InverseStream
-from scalesieve.stream.wrap import forward_stream
-from scalesieve.stream.pipeline import _Source, _swt_feed, not_streamable, open_source
+from scalesieve.stream.wrap import component_stream, forward_stream
+from scalesieve.stream.choice import not_streamable
+from scalesieve.stream.sources import _Source, after_parse, open_source
+from scalesieve.stream.swt_clean import _swt_feed
 from scalesieve.stream.statistics import plain_dot
 
 
@@ -24,15 +26,17 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
                         rate: float | None = None, progress=None) -> tuple[dict, list]:
     """The figures of ``bands --json`` for every band of every channel, in one pass.
 
-    Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples`` and
-    the resolved ``spec``; ``channels`` a list of band rows per channel
+    Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples``,
+    the resolved ``spec``, the channels' ``names``, ``pick`` (the file's index
+    of the one channel read, or None), ``start_time`` and ``warnings``; ``channels`` a list of band rows per channel
     (docs/reference.md: ``energy`` of the band's time-domain component,
     ``energy_fraction`` over the channel's energy, ``coef_energy``, ``rms``
     and ``peak`` of the component, ``kurtosis`` of the coefficients).  Each
     component is synthesised block by block on its own and summed as it
     comes, so nothing is held at full length.
     """
-    src = open_source(input_path, channel, rate)
+    src = open_source(input_path, channel, rate, progress)
+    progress = after_parse(src, progress)
     n = src.frames
     try:
         spec = spec.resolved(n)
@@ -41,10 +45,6 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     if spec.kind == "swt":
         return _band_figures_swt(src, spec, progress)
     why = not_streamable({"kind": "audio", "frames_exact": True}, spec, ())
-    if why is None and spec.mode == "periodization":
-        why = ("boundary mode periodization wraps each band's component around the "
-               "recording's ends, which is not synthesised in blocks (use periodic or another "
-               "mode, or the SWT)")
     if why is not None:
         raise ScalesieveError(why, input_path)
     keys = tf.band_keys(spec.level)
@@ -57,8 +57,10 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
             acc[0] += float(plain_dot(seg, seg))
             if seg.size:
                 acc[1] = max(acc[1], float(np.max(np.abs(seg))))
-        invs = {key: InverseStream(n, spec, lambda s0, seg, acc=comp[k][key]: add(s0, seg, acc),
-                                   only=key) for key in keys}
+        # in periodization each component wraps round the ends (stream.wrap)
+        invs = {key: component_stream(src, spec,
+                                      lambda s0, seg, acc=comp[k][key]: add(s0, seg, acc),
+                                      k, key) for key in keys}
 
         def put(key, k0, c, k=k, invs=invs):
             moments[k][key].add(c)
@@ -146,4 +148,5 @@ def _band_rows(src: _Source, spec: tf.TransformSpec, energy, moments, comp):
                 "kurtosis": m.pearson_kurtosis() if m.square_sum > floor else None,
             })
         channels.append(rows)
-    return {"rate": src.rate, "samples": n, "spec": spec}, channels
+    return {"rate": src.rate, "samples": n, "spec": spec, "names": list(src.names),
+            "pick": src.pick, "start_time": src.start_time, "warnings": src.warnings()}, channels

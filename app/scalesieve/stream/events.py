@@ -23,7 +23,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream import statistics as st
 from scalesieve.stream.wrap import forward_stream
-from scalesieve.stream.pipeline import READ_FRAMES, _Source, open_source
+from scalesieve.stream.sources import READ_FRAMES, _Source, open_source
 
 
 class SwtStream:
@@ -94,14 +94,16 @@ class _Level:
 
 
 def events_stream(input_path: str, spec: tf.TransformSpec, levels, k: float, *,
-                  channel=None, rate: float | None = None, progress=None):
+                  channel=None, rate: float | None = None, progress=None, source=None):
     """``core.events.detect_channels`` of a recording read block by block.
 
     ``spec`` is resolved for the recording and ``levels`` checked (as the
     command does).  Returns ``(events, noise, facts)`` with ``facts`` the
-    ``rate``, ``samples``, ``channels`` and ``channel_names``.
+    ``rate``, ``samples``, ``channels``, ``channel_names``, ``pick`` (the
+    file's index of the one channel read, or None), ``start_time`` and
+    ``warnings``.  ``source``: the recording already opened (``open_source``).
     """
-    src = open_source(input_path, channel, rate)
+    src = open_source(input_path, channel, rate) if source is None else source
     pick = src.pick
     n, top = src.frames, max(levels)
     k = ev.check_k(k)
@@ -164,9 +166,9 @@ def events_stream(input_path: str, spec: tf.TransformSpec, levels, k: float, *,
     found.sort(key=lambda e: (e.start_s, e.channel))
     noise = [{"level": j, "sigma": lv.median.sigma(), "channel": c}
              for c in range(src.channels) for j, lv in sorted(chans[c].items())]
-    names = [f"ch{c if pick is None else pick}" for c in range(src.channels)]
     return found, noise, {"rate": src.rate, "samples": n, "channels": src.channels,
-                          "channel_names": names}
+                          "channel_names": list(src.names), "pick": pick,
+                          "start_time": src.start_time, "warnings": src.warnings()}
 
 
 def _peaks(src: _Source, holders: list[dict]) -> list[np.ndarray]:

@@ -24,8 +24,10 @@ import numpy as np
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
-from scalesieve.stream.pipeline import (READ_FRAMES, _Join, _Plan, _prepare, _result, _Source,
-                                        _target, _thresholds)
+from scalesieve.stream.pipeline import _prepare, _result, _thresholds
+from scalesieve.stream.recipe_plan import _Plan
+from scalesieve.stream.sources import READ_FRAMES, _Source
+from scalesieve.stream.targets import _Join, _target
 
 
 def clean_piece(job: dict) -> dict:

@@ -32,7 +32,7 @@ import numpy as np
 import pywt
 
 from scalesieve.core import transforms as tf
-from scalesieve.stream.dwt import ForwardStream
+from scalesieve.stream.dwt import MIN_STEP, ForwardStream
 
 WRAP_MODES = ("periodic", "periodization")
 
@@ -238,7 +238,8 @@ def _up_edges(a: _Known, d: _Known, w: pywt.Wavelet, m_out: int) -> _Known:
 class _Up:
     """One synthesis step of periodization, its bands handed in as they come."""
 
-    def __init__(self, w: pywt.Wavelet, a: _Known, d: _Known, m_out: int, out: Callable):
+    def __init__(self, w: pywt.Wavelet, a: _Known, d: _Known, m_out: int, out: Callable,
+                 block: int = tf.BLOCK):
         from scalesieve.stream.dwt import InverseStream
 
         L, self.N = w.rec_len, a.m
@@ -246,7 +247,8 @@ class _Up:
         self.off, self.m_out, self.out = 2 * self.p - (L // 2 - 1), m_out, out
         M = self.N + self.p + self.q
         spec = tf.TransformSpec(kind="dwt", wavelet=w.name, level=1, mode="zero")
-        self.inv = InverseStream(2 * M - L + 2, spec, self._made, stop=self.off + m_out)
+        self.inv = InverseStream(2 * M - L + 2, spec, self._made, stop=self.off + m_out,
+                                 block=block)
         self.known = {"a": a, 1: d}
         self.had = {"a": 0, 1: 0}
         for key, k in self.known.items():
@@ -287,8 +289,14 @@ class WrapInverse:
         for j in range(1, J + 1):
             m_out = n if j == 1 else N[j - 1]
             a_j = knowns[j]
+            # step j makes level j - 1's approximation: B outputs read B / 2 of its
+            # coefficients, B 2^(j - 1) samples of input, so its blocks shrink with j
+            # (one of tf.BLOCK at a coarse level would wait for most of the recording);
+            # each step lags by its block, so the output lags by about J tf.BLOCK / 4
+            block = max(MIN_STEP, tf.BLOCK >> (j + 1))
             step = _Up(w, _Known(a_j.head, a_j.tail, N[j], "periodic"), edges[j], m_out,
-                       nxt if j == 1 else (lambda s0, v, up=self.steps[j - 1]: up.put("a", v)))
+                       nxt if j == 1 else (lambda s0, v, up=self.steps[j - 1]: up.put("a", v)),
+                       block)
             self.steps[j] = step
             nxt = None
         self.level = J
@@ -315,3 +323,51 @@ def inverse_stream(src, spec: tf.TransformSpec, out: Callable, k: int, bands: di
         edges[key] = _Known(bands[key].edited(kn.head, 0),
                             bands[key].edited(kn.tail, kn.m - kn.tail.shape[0]), kn.m, "periodic")
     return WrapInverse(src.frames, spec, out, edges)
+
+
+class WrapComponent:
+    """One band's time-domain component in periodization, as ``InverseStream(only=key)``.
+
+    The other bands are zeros: they are handed to a ``WrapInverse`` (whose
+    edges are zero for them) as the band itself comes, in proportion to how
+    far it has got, so every synthesis step keeps going and holds little.
+    """
+
+    def __init__(self, n: int, spec: tf.TransformSpec, out: Callable, edges: dict, key):
+        self.key, self.level = key, spec.level
+        zeroed = {b: kn if b == key else
+                  _Known(np.zeros_like(kn.head), np.zeros_like(kn.tail), kn.m, "periodic")
+                  for b, kn in edges.items()}
+        self.inv = WrapInverse(n, spec, out, zeroed)
+        lengths = tf.band_lengths(n, spec)              # a_J, d_J .. d_1
+        self.length = {b: lengths[tf.band_index(b, spec.level)] for b in edges}
+        self.had = dict.fromkeys(edges, 0)
+        self.slack = 2 * pywt.Wavelet(spec.wavelet).rec_len
+
+    def put(self, key, k0: int, values: np.ndarray) -> None:
+        if key != self.key:
+            return
+        self.inv.put(key, k0, values)
+        self.had[key] = k0 + values.shape[0]
+        f = self.had[key] / self.length[key]
+        for b, m in self.length.items():
+            if b == key:
+                continue
+            want = m if f >= 1.0 else min(m, int(np.ceil(f * m)) + self.slack)
+            if want > self.had[b]:
+                self.inv.put(b, self.had[b], np.zeros(want - self.had[b]))
+                self.had[b] = want
+
+    def pump(self) -> None:
+        """Outputs are made as the bands come (``put``)."""
+
+
+def component_stream(src, spec: tf.TransformSpec, out: Callable, k: int, key):
+    """Band ``key``'s component of channel ``k`` in blocks, in any mode of the DWT."""
+    from scalesieve.stream.dwt import InverseStream
+
+    if spec.mode != "periodization":
+        return InverseStream(src.frames, spec, out, only=key)
+    head, tail = read_edges(src, spec)
+    return WrapComponent(src.frames, spec, out,
+                         band_edges(head[:, k], tail[:, k], src.frames, spec), key)

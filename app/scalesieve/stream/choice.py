@@ -1,0 +1,71 @@
+"""Whether a command can run block by block, and about what memory that takes."""
+
+from __future__ import annotations
+
+import os
+from typing import Sequence
+
+from scalesieve.core import transforms as tf
+from scalesieve.stream.sources import READ_FRAMES
+
+#: band-sized stretches of one channel an SWT in blocks holds at its peak, per block
+#: of coefficients (see stream_bytes; fitted to tests/perf/bench_long.py)
+SWT_COPIES = 5
+
+
+def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
+                   fill_gaps: str | None = None, channel=None, swt: bool = False) -> str | None:
+    """Why a command cannot run block by block, or None when it can.
+
+    Audio files and text tables (CSV, TSV, TXT, DAT: ``stream.text_source``)
+    are read in blocks.  The SWT runs in blocks in every boundary mode
+    (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
+    and ``channel`` too: a channel, by number or by name, is read in blocks.
+    """
+    from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
+
+    kind = None if facts is None else facts.get("kind")
+    if kind not in ("audio", "text"):
+        return "only audio files (WAV, FLAC, AIFF, ...) and text tables are read in blocks"
+    if kind == "audio" and not facts.get("frames_exact"):
+        # (a text table's rows are counted as it is parsed in chunks: stream.text_source)
+        return "its header's frame count cannot be trusted"
+    if spec.kind == "swt":
+        pass                   # every mode: the blocks read the circle the model pads
+    elif spec.kind == "packet":
+        return ("wavelet packets are not worked on in blocks (use --transform dwt or swt, "
+                "or cut the recording into shorter files)")
+    elif spec.kind != "dwt":  # pragma: no cover - TransformSpec knows dwt, swt and packet
+        return f"the {spec.kind} transform is not worked on in blocks"
+    for out in outputs:
+        ext = os.path.splitext(out)[1].lower()
+        if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
+            return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
+    if fill_gaps is not None:
+        return "--fill-gaps needs the whole recording"
+    return None
+
+
+def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
+    """About what a clean in blocks holds, whatever the length (see docs/performance.md).
+
+    Per channel: blocks of samples and their temporaries, the level-1 input
+    history, the coefficients waiting for the inverse (the coarse levels lag
+    the input by about MIN_STEP * 2^J samples) and blocks of output, in
+    float64; and the interpreter with its libraries (about 85 MiB).  Fitted
+    to the peaks tests/perf/bench_long.py measures (see docs/performance.md).
+    """
+    from scalesieve.stream.dwt import MIN_STEP
+
+    level = spec.level or tf.MAX_DEFAULT_LEVEL
+    if spec.kind == "swt":
+        from scalesieve.stream.swt import SWT_BLOCK
+
+        # per channel: the forward's window and its level + 1 bands, the inverse's
+        # window of level + 1 bands and what pywt.iswt makes of it (see stream.swt)
+        reach = 2 * (tf.filter_length(spec.wavelet) - 1) * 2 ** level
+        per_channel = 8 * (level + 1) * (SWT_BLOCK + 2 * reach) * SWT_COPIES
+        return int(channels * per_channel + 8 * 12 * READ_FRAMES + (96 << 20))
+    lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
+    per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
+    return int(channels * per_channel + (96 << 20))
