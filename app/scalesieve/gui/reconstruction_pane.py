@@ -6,8 +6,8 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QTimer, Signal
-from PySide6.QtWidgets import QCheckBox, QLabel
+from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel
 
 from scalesieve.views.channel_units import unit_of
 from scalesieve.views.decimate import trace_points
@@ -18,6 +18,9 @@ from scalesieve.gui.resource_files import colour
 TRACES = (("original", "Original", "the recording as read"),
           ("cleaned", "Cleaned", "after the recipe"),
           ("removed", "Removed", "original minus cleaned"))
+#: least heights of the two lanes: the cleaned-over-original one, and the removed one
+#: with the time axis under it (30 px, pane_frame.make_plot)
+MAIN_LANE_MIN, REMOVED_LANE_MIN = 38, 52
 #: wait this long after the last edit before recomputing the metrics (ms)
 METRICS_DELAY_MS = 250
 
@@ -73,10 +76,21 @@ class ReconstructionPane(PaneFrame):
         self.content.addWidget(self.removed_plot, 2)
         self.metrics_label = QLabel("")
         self.metrics_label.setObjectName("metrics")
-        # at a narrow width the line wraps: it must neither widen the window nor be cut
+        # the whole pane's width (one line at 1280 px with the Recipe dock open); narrower,
+        # the line wraps: it must neither widen the window nor be cut
         self.metrics_label.setWordWrap(True)
-        self.metrics_label.setContentsMargins(10, 3, 6, 4)
-        self.content.addWidget(self.metrics_label)
+        self.metrics_label.setContentsMargins(8, 1, 6, 2)
+        foot = QHBoxLayout()
+        foot.setContentsMargins(0, 0, 0, 0)
+        foot.addWidget(self.metrics_label, 1)
+        hint = QLabel("wheel: zoom time · drag: pan")
+        hint.setObjectName("hint")
+        hint.setContentsMargins(6, 1, 8, 2)
+        foot.addWidget(hint, 0, Qt.AlignmentFlag.AlignTop)
+        self.footer.addLayout(foot)
+        # each lane keeps room to show its trace (the removed one also holds the time axis)
+        self.plot.setMinimumHeight(MAIN_LANE_MIN)
+        self.removed_plot.setMinimumHeight(REMOVED_LANE_MIN)
         self.curves = {}
         self.toggles = {}
         widths = {"original": 1.0, "cleaned": 1.0, "removed": 1.0}
@@ -94,10 +108,7 @@ class ReconstructionPane(PaneFrame):
             box.toggled.connect(lambda on, k=key: self._toggle(k, on))
             self.gutter_layout.addWidget(box)
             self.toggles[key] = box
-        hint = QLabel("wheel: zoom time · drag: pan")
-        hint.setObjectName("hint")
         self.gutter_layout.addStretch(1)
-        self.gutter_layout.addWidget(hint)
         self.axis.link(self.plot.getViewBox())
         self.axis.link(self.removed_plot.getViewBox())
         self.axis.rangeChanged.connect(self._schedule)
