@@ -21,6 +21,7 @@ from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QProgress
                                QSizePolicy, QSpinBox, QVBoxLayout, QWidget)
 
 from scalesieve.core import impulsive_bands as ib
+from scalesieve.core.band_choice import interior_count  # noqa: F401 - its old place
 from scalesieve.core import packets as wp
 from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
@@ -149,20 +150,6 @@ def table_image(table: dict) -> np.ndarray:
     return img
 
 
-def interior_count(n: int, wavelet: str, depth: int, mode: str = "symmetric") -> int:
-    """Interior coefficients of a packet node at ``depth`` of ``n`` samples (all nodes alike)."""
-    import pywt
-
-    from scalesieve.core import band_choice
-
-    L = pywt.Wavelet(wavelet).dec_len
-    m = n
-    for _ in range(depth):
-        m = pywt.dwt_coeff_len(m, L, mode)
-    left, right = band_choice.dwt_edges(n, L, depth)[depth - 1]
-    return max(0, m - left - right)
-
-
 def readout_text(table: dict, samples: tuple[int, str, str]) -> str:
     """What the map's readout says of its best band: the figure the map shows for that cell
     (``kurtosis``), and the interior figure the choice is made on, or that none stands out."""
@@ -172,12 +159,10 @@ def readout_text(table: dict, samples: tuple[int, str, str]) -> str:
     inner = best.get("interior_kurtosis")
     where = f"<b>{best['name']}</b> ({best['low_hz']:g}–{best['high_hz']:g} Hz)"
     if inner is not None:
-        bands = sum(len(lv["bands"]) for lv in table["levels"])
-        count = interior_count(samples[0], samples[1], best["level"], samples[2])
-        if not band_choice.is_impulsive(inner, count, bands):
+        if not band_choice.best_stands_out(table, *samples):
             return (f"No band stands out as impulsive: the largest, {where}, has kurtosis "
-                    f"{best['kurtosis']:.2f} on the map ({inner:.2f} inside its edges), "
-                    "within what Gaussian noise gives (3).")
+                    f"{best['kurtosis']:.2f} ({inner:.2f} inside its edges), as Gaussian "
+                    "noise gives (3).")
         inside = f", {inner:.2f} inside its edges (the choice uses this)"
     else:
         inside = ""
