@@ -7,6 +7,7 @@ import math
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtGui import QFontMetrics
 from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel
 
 from scalesieve.views.channel_units import unit_of
@@ -20,7 +21,7 @@ TRACES = (("original", "Original", "the recording as read"),
           ("removed", "Removed", "original minus cleaned"))
 #: least heights of the two lanes: the cleaned-over-original one, and the removed one
 #: with the time axis under it (30 px, pane_frame.make_plot)
-MAIN_LANE_MIN, REMOVED_LANE_MIN = 38, 52
+MAIN_LANE_MIN, REMOVED_LANE_MIN = 32, 58
 #: wait this long after the last edit before recomputing the metrics (ms)
 METRICS_DELAY_MS = 250
 
@@ -40,9 +41,12 @@ def format_metrics(m: dict) -> str:
             f"peak change {m['peak_change']:.4g}")
 
 
-def sparse_ticks(lo: float, hi: float) -> list:
+def sparse_ticks(lo: float, hi: float, room_px: float | None = None,
+                 label_px: float = 12.0) -> list:
     """pyqtgraph ticks for a short lane: 0 and one round value above it, no minor ones
-    (two labels half a lane apart cannot overlap)."""
+    (two labels half a lane apart cannot overlap).  When the lane is ``room_px`` high and
+    two labels of ``label_px`` would still touch, one label at 0 says its size: ``±m``
+    (a label near the lane's edge would stick out of the axis, which drops it)."""
     top = max(abs(lo), abs(hi))
     if not (top > 0 and math.isfinite(top)):
         return [[(0.0, "0")], []]
@@ -51,6 +55,10 @@ def sparse_ticks(lo: float, hi: float) -> list:
     if m > 0.9 * top:          # keep the label off the lane's very edge
         m = (math.floor(top / step) - 1) * step or step / 2
     side = m if abs(hi) >= abs(lo) else -m      # the round value on the wider side
+    if room_px is not None and lo <= side <= hi:
+        gap = abs(side) / (hi - lo) * room_px    # pixels between the two labels' centres
+        if gap < 1.2 * label_px:
+            return [[(0.0 if lo <= 0.0 <= hi else side, f"±{m:.2g}")], []]
     ticks = [(v, "0" if v == 0 else f"{v:.2g}") for v in (0.0, side) if lo <= v <= hi]
     return [ticks, []]
 
@@ -143,7 +151,8 @@ class ReconstructionPane(PaneFrame):
             ax.enableAutoSIPrefix(False)     # the values as they are, in the channel's unit
             ax.setLabel(unit)
             ax.label.setFont(tick_font())
-            ax.showLabel(bool(unit))
+            # the removed lane is short and in the same unit: named on the lane above only
+            ax.showLabel(bool(unit) and plot is self.plot)
 
     def _on_model(self) -> None:
         self._show_unit()
@@ -236,4 +245,6 @@ class ReconstructionPane(PaneFrame):
                 plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)
                 if plot is self.removed_plot:
                     # a short lane: three labels at most, so they never overlap
-                    plot.getAxis("left").setTicks(sparse_ticks(lo - pad, hi + pad))
+                    label = QFontMetrics(tick_font()).height()    # make_plot's tick type
+                    plot.getAxis("left").setTicks(sparse_ticks(
+                        lo - pad, hi + pad, plot.getViewBox().height(), label))

@@ -14,6 +14,8 @@ from PySide6.QtWidgets import QCheckBox, QComboBox, QLabel, QToolBar
 
 #: beside the greyed listening buttons when there is no sound output (the tooltip says why)
 NO_SOUND, NO_SOUND_SHORT = "  no sound output", " no sound"
+#: the channel list's widest (px): longer names are cut in the box, whole in its list
+CHANNEL_BOX_MAX = 240
 
 
 def _toolbar(window, title: str, name: str) -> QToolBar:
@@ -37,7 +39,10 @@ class WindowToolbars:
         tb.addSeparator()
         tb.addWidget(QLabel(" Channel"))
         self.channel_box = QComboBox()
+        # as wide as its longest name (up to a limit; the list shows whole names)
+        self.channel_box.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToContents)
         self.channel_box.setMinimumWidth(100)
+        self.channel_box.setMaximumWidth(CHANNEL_BOX_MAX)
         self.channel_box.setToolTip("the channel the panes show")
         self.channel_box.currentIndexChanged.connect(window.set_channel)
         tb.addWidget(self.channel_box)
