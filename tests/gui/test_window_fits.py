@@ -164,3 +164,70 @@ def test_the_first_start_fits_a_small_screen():
     assert first_size(Screen(1280, 770)) == (1280, 770)
     assert first_size(Screen(2560, 1400)) == FIRST_SIZE
     assert first_size(None) == FIRST_SIZE
+
+
+def _x_span(widget):
+    """(left, right) of a widget in its window's coordinates."""
+    left = widget.mapTo(widget.window(), widget.rect().topLeft()).x()
+    return left, left + widget.width()
+
+
+def test_sixty_four_packet_rows_stay_readable_and_scroll(window, qtbot):
+    from scalesieve import api
+    from scalesieve.gui.map_scroll import ROW_MIN
+
+    window.resize(1280, 800)
+    window.open_recording(api.load(sample(FAN)), TransformSpec("packet", "db4", 6, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    QApplication.processEvents()
+    smap = window.scale_map
+    heads = [smap.headers[k] for k in smap.keys]
+    assert len(heads) == 64                        # 2^6 bands at depth 6 (the packet tree)
+    assert smap.row_scroll.scrolling
+    for h in heads:
+        assert h.height() >= ROW_MIN
+        assert h.name.width() >= h.name.fontMetrics().horizontalAdvance(h.name.text())
+        assert h.hz.geometry().right() < h.name.geometry().left()
+        assert h.name.geometry().right() < h.share.geometry().left()
+    assert heads[63].name.text() == "w6.63"
+    # with the scroll bar shown, the map still ends where the Reconstruction's plot ends
+    assert _x_span(smap.plot)[1] == _x_span(window.reconstruction.plot)[1]
+    # scrolled to the end, the last band's header is in view beside its own row
+    bar = smap.row_scroll.verticalScrollBar()
+    bar.setValue(bar.maximum())
+    QApplication.processEvents()
+    last = heads[-1]
+    port = smap.row_scroll.viewport()
+    y = last.mapTo(port, last.rect().center()).y()
+    assert 0 <= y <= port.height()
+    view = smap.view
+    row_top = view.mapViewToScene(pg_point(0, 63)).y()
+    row_bottom = view.mapViewToScene(pg_point(0, 64)).y()
+    centre = smap.plot.mapFromScene(pg_point(0, (row_top + row_bottom) / 2))
+    assert abs(smap.plot.mapTo(port, centre).y() - y) <= 2
+
+
+def pg_point(x, y):
+    from PySide6.QtCore import QPointF
+
+    return QPointF(x, y)
+
+
+def test_the_wheel_over_a_gain_field_scrolls_instead_of_changing_the_gain(window, qtbot):
+    from PySide6.QtCore import QPoint, QPointF, Qt
+    from PySide6.QtGui import QWheelEvent
+
+    from scalesieve import api
+
+    window.resize(1280, 800)
+    window.open_recording(api.load(sample(FAN)), TransformSpec("packet", "db4", 6, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    QApplication.processEvents()
+    field = window.scale_map.headers[window.scale_map.keys[3]].gain
+    before = field.value()
+    ev = QWheelEvent(QPointF(5, 5), QPointF(field.mapToGlobal(QPoint(5, 5))), QPoint(0, 0),
+                     QPoint(0, -120), Qt.MouseButton.NoButton, Qt.KeyboardModifier.NoModifier,
+                     Qt.ScrollPhase.NoScrollPhase, False)
+    QApplication.sendEvent(field, ev)
+    assert field.value() == before and not ev.isAccepted()
+    assert window.adapter.edits == () or len(window.adapter.edits) == 0
