@@ -50,6 +50,8 @@ def test_the_window_with_the_impacts_dock_fits_the_screen(window, qtbot, size):
     # every pane keeps its least height (the splitter never squeezes one below it)
     for pane in (window.scale_map, window.bands, window.reconstruction):
         assert pane.height() >= pane.minimumHeight()
+    # the fan's 13 DWT rows fit the map without scrolling its time axis away
+    assert len(window.scale_map.keys) == 13 and not window.scale_map.row_scroll.scrolling
     imap, env = dock.impulse_map, dock.envelope
     for pane in (imap, env):
         assert pane.plot.height() >= pane.plot.minimumHeight()

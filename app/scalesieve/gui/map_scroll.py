@@ -13,8 +13,9 @@ from __future__ import annotations
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QFrame, QScrollArea, QWidget
 
-#: the least height of one row: the row header's gain field and buttons stay whole
-ROW_MIN = 16
+#: the least height of one row: the row header's gain field and buttons stay whole (13
+#: DWT rows then fit the Scale map at its least height, 250 px, without scrolling)
+ROW_MIN = 14
 #: the map's own height besides its rows: the time axis and the margin above the image
 CHROME = 36
 
