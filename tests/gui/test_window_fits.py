@@ -111,10 +111,16 @@ def test_toolbars_fall_back_to_two_rows_only_when_one_cannot_hold_them(window):
     assert window.toolbars.compact and not window.toolbars.listen_on_own_row
     undo = window.main_toolbar.widgetForAction(window.act_undo)
     assert undo.toolTip()                        # an icon alone still says what it does
-    window.resize(900, 800)
+    # narrower than even the compact row (the window's panes keep it wider than this;
+    # a long channel name does the same): full words again, the listening row below
+    window.toolbars.fit(900)
     QApplication.processEvents()
     assert window.toolbars.listen_on_own_row and not window.toolbars.compact
     assert window.listen_toolbar.y() > window.main_toolbar.y()
+    window.toolbars.fit(window.width())
+    QApplication.processEvents()
+    assert not window.toolbars.listen_on_own_row
+    assert window.listen_toolbar.y() == window.main_toolbar.y()
 
 
 @pytest.mark.parametrize("size", [(1280, 800), (1366, 768)])
@@ -233,3 +239,22 @@ def test_the_wheel_over_a_gain_field_scrolls_instead_of_changing_the_gain(window
     QApplication.sendEvent(field, ev)
     assert field.value() == before and not ev.isAccepted()
     assert window.adapter.edits == () or len(window.adapter.edits) == 0
+
+
+def test_long_channel_names_keep_one_toolbar_row_at_1280(window, qtbot):
+    # the invented logger's channels are "pressure [bar]" and "flow [l/min]"
+    # (sample_signals/README.md): the list widens, the row goes compact, not in two
+    from scalesieve import api
+
+    window.resize(1280, 800)
+    window.open_recording(api.load(sample("cooling_loop_logger.csv")))
+    assert window.adapter.wait_idle(60) is None
+    qtbot.waitUntil(lambda: window.channel_box.count() == 2, timeout=5000)
+    QApplication.processEvents()
+    QApplication.processEvents()
+    assert window.channel_box.currentText().endswith("pressure [bar]")
+    assert window.listen_toolbar.y() == window.main_toolbar.y()
+    right = window.listen_toolbar.x() + window.listen_toolbar.width()
+    assert right <= window.width()
+    assert window.listen_toolbar.width() >= window.listen_toolbar.sizeHint().width()
+    assert window.scope_box.text() and window.scope_box.toolTip()

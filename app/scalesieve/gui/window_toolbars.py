@@ -1,19 +1,22 @@
 """The window's two toolbars (files, history and channel; listening) and how they share a row.
 
 Each toolbar row costs the workbench its height, so both stay on one row as
-long as the width allows: in full words when they fit, else with the undo,
-redo and stop buttons as their icons only (the usual arrows and square; the
-tooltip and the Edit and Listen menus name them); the listening buttons go to
-a row of their own only when even that does not fit.
+long as the width allows: in full words when they fit, else compact - the
+undo, redo and stop buttons as their icons only (the usual arrows and square;
+the tooltip and the Edit and Listen menus name them) and the channel scope
+and the no-sound note in fewer words; the listening buttons go to a row of
+their own only when even that does not fit.
 """
 
 from __future__ import annotations
 
-from PySide6.QtCore import QSize, Qt
+from PySide6.QtCore import QSize, Qt, QTimer
 from PySide6.QtWidgets import QCheckBox, QComboBox, QLabel, QToolBar
 
 #: beside the greyed listening buttons when there is no sound output (the tooltip says why)
 NO_SOUND, NO_SOUND_SHORT = "  no sound output", " no sound"
+#: the channel scope's words, in full and when the row is short of room (the tooltip says all)
+SCOPE, SCOPE_SHORT = "new edits: this channel only", "this channel only"
 #: the channel list's widest (px): longer names are cut in the box, whole in its list
 CHANNEL_BOX_MAX = 240
 
@@ -46,8 +49,9 @@ class WindowToolbars:
         self.channel_box.setToolTip("the channel the panes show")
         self.channel_box.currentIndexChanged.connect(window.set_channel)
         tb.addWidget(self.channel_box)
-        self.scope_box = QCheckBox("new edits: this channel only")
-        self.scope_box.setToolTip("unticked, an edit made in the panes applies to every channel")
+        self.scope_box = QCheckBox(SCOPE)
+        self.scope_box.setToolTip("ticked, a new edit made in the panes applies to this channel "
+                                  "only; unticked, to every channel")
         self.scope_box.toggled.connect(window._scope_changed)
         tb.addWidget(self.scope_box)
         # "Show all" is the Overview strip's "all" button and View › Show all (Ctrl+0)
@@ -67,6 +71,13 @@ class WindowToolbars:
         self.compact_actions = (window.act_undo, window.act_redo, window.act_stop)
         self.listen_on_own_row = False
         self.compact = False
+        # a recording's channel names widen the channel list: fit again once they are in
+        refit = QTimer(window)
+        refit.setSingleShot(True)
+        refit.setInterval(0)
+        refit.timeout.connect(lambda: self.fit(window.width()))
+        self.channel_box.model().rowsInserted.connect(lambda *_: refit.start())
+        self.channel_box.model().rowsRemoved.connect(lambda *_: refit.start())
 
     def fit(self, width: int) -> None:
         """One row in full words, else one row compact, else two rows in full words."""
@@ -97,6 +108,7 @@ class WindowToolbars:
         self.compact = compact
         if self.no_sound is not None:
             self.no_sound.setText(NO_SOUND_SHORT if compact else NO_SOUND)
+        self.scope_box.setText(SCOPE_SHORT if compact else SCOPE)
         style = (Qt.ToolButtonStyle.ToolButtonIconOnly if compact
                  else Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
         for a in self.compact_actions:
