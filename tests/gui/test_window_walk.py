@@ -73,3 +73,23 @@ def test_restore_prompt_lists_every_edit_whole(qtbot, tmp_path, monkeypatch):
     # the three answers side by side, none cut
     for b in (prompt.restore_button, prompt.discard_button, prompt.later_button):
         assert b.width() >= b.sizeHint().width()
+
+
+def test_envelope_readout_names_each_bearing_line_once(window, qtbot):
+    # Randall & Antoni 2011, eqs. 1-4, for the fan's geometry (sample_signals/README.md):
+    # BPFO = n f_r / 2 (1 - d/D cos 0) = 119.40 Hz at 29.5 Hz shaft rate
+    from scalesieve import api
+    from scalesieve.core.transforms import TransformSpec
+
+    window.resize(1280, 800)
+    window.open_recording(api.load(sample("fan_bearing.wav")),
+                          TransformSpec("dwt", "db4", None, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    dock = window.impacts_dock
+    dock.show()
+    qtbot.waitUntil(lambda: not dock.envelope.busy, timeout=60000)
+    dock.envelope.set_bearing("10,8.0,42.0,0", 29.5)
+    text = dock.envelope.readout.text()
+    assert "BPFO 119.40 Hz → peak" in text
+    for family in ("FTF", "BPFO", "BPFI", "BSF"):
+        assert text.count(family + " ") == 1, text

@@ -285,7 +285,6 @@ class EnvelopePane(QWidget):
         peaks = ", ".join(f"{p['hz']:.2f}" for p in rep["peaks"][:6])
         text = f"Largest peaks (Hz): {peaks}."
         if "bearing" in rep:
-            f = rep["bearing"]
             found = []
             for ln in rep["lines"]:
                 if ln.get("sideband") or ln["harmonic"] != 1:
@@ -296,8 +295,8 @@ class EnvelopePane(QWidget):
                     snr = "" if ln["snr_db"] is None else f", {ln['snr_db']:.1f} dB over floor"
                     found.append(f"{ln['name'].upper()} {ln['hz']:.2f} Hz → peak "
                                  f"{ln['found_hz']:.2f} Hz{snr}")
-            text += (f"  FTF {f['ftf_hz']:.2f}, BPFO {f['bpfo_hz']:.2f}, BPFI {f['bpfi_hz']:.2f}, "
-                     f"BSF {f['bsf_hz']:.2f} Hz.  " + "; ".join(found) + ".")
+            # each family once: its frequency and the peak it was matched to (or none)
+            text += "  " + "; ".join(found) + "."
         return text
 
     # ------------------------------------------------------------- exports
