@@ -120,3 +120,83 @@ def test_subtype_the_output_cannot_keep_warns_once_as_clean_does(tmp_path, recip
     assert lines == [clean_lines[0].replace(str(ref), str(target))]
     entry = _report(out)["files"][0]
     assert entry["output_warnings"] == [lines[0].removeprefix("scalesieve: warning: ")]
+
+
+def _measurement_folder(folder, x):
+    """One small recording per measurement format, each written by its own library
+    (npTDMS, edfio, scipy.io.savemat, h5py, asammdf, openpyxl), plus a TSV table and
+    files no reader takes; returns the names a folder INPUT must take."""
+    import datetime
+    import warnings
+
+    nptdms = pytest.importorskip("nptdms")
+    edfio = pytest.importorskip("edfio")
+    h5py = pytest.importorskip("h5py")
+    asammdf = pytest.importorskip("asammdf")
+    openpyxl = pytest.importorskip("openpyxl")
+    scipy_io = pytest.importorskip("scipy.io")
+
+    folder.mkdir()
+    with nptdms.TdmsWriter(str(folder / "rig.tdms")) as w:
+        w.write_segment([nptdms.ChannelObject("run", "strain", x,
+                                              properties={"wf_increment": 1 / 8000})])
+    edfio.Edf([edfio.EdfSignal(x, 8000, label="trace", physical_dimension="uV")],
+              starttime=datetime.time(9, 0, 0)).write(folder / "lab.edf")
+    scipy_io.savemat(folder / "bench.mat", {"fs": 8000.0, "accel": x})
+    with h5py.File(folder / "script.h5", "w") as f:
+        f.create_dataset("vibration", data=x).attrs["sample_rate"] = 8000.0
+    m = asammdf.MDF(version="4.10")
+    m.append([asammdf.Signal(x, np.arange(x.size) / 8000.0, name="accel", unit="g")])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        m.save(folder / "drive.mf4", overwrite=True)
+    m.close()
+    wb = openpyxl.Workbook()
+    wb.active.append(["time [s]", "pressure [bar]"])
+    for i, v in enumerate(x[:400]):
+        wb.active.append([i / 8000.0, float(v)])
+    wb.save(folder / "logger.xlsx")
+    with open(folder / "loop.tsv", "w", encoding="utf-8") as fh:
+        fh.write("time_s\tflow\n")
+        fh.writelines(f"{i / 8000.0!r}\t{float(v)!r}\n" for i, v in enumerate(x))
+    sf.write(folder / "pump.wav", x, 8000, subtype="FLOAT")
+    # not recordings: a recipe, a picture, a hidden file, a headerless .raw
+    (folder / "notes.json").write_text("{}")
+    (folder / "look.png").write_bytes(b"\x89PNG\r\n\x1a\n")
+    (folder / ".hidden.wav").write_bytes(b"")
+    (folder / "dump.raw").write_bytes(b"\x00" * 64)
+    return sorted(["rig.tdms", "lab.edf", "bench.mat", "script.h5", "drive.mf4",
+                   "logger.xlsx", "loop.tsv", "pump.wav"])
+
+
+def test_a_folder_input_takes_every_format_the_readers_take(tmp_path, recipe, capsys):
+    from scalesieve.batch.plan import expand_inputs
+
+    x = _signal(8000)                  # 1 s: edfio writes whole 1 s data records
+    folder = tmp_path / "campaign"
+    names = _measurement_folder(folder, x)
+    assert [os.path.basename(p) for p in expand_inputs([str(folder)])] == names
+    out = tmp_path / "out"
+    assert main(["batch", "--recipe", str(recipe), "-o", str(out), "--workers", "1",
+                 str(folder)]) == 0, capsys.readouterr().err
+    files = _report(out)["files"]
+    assert sorted(os.path.basename(e["input"]) for e in files) == names
+    assert all(e["status"] == "ok" for e in files)
+    # each output is what `clean` writes for that input (docs/reference.md, batch)
+    for e in files:
+        ref = tmp_path / ("ref-" + os.path.basename(e["output"]))
+        assert main(["clean", e["input"], "-o", str(ref), "--recipe", str(recipe)]) == 0
+        if ref.suffix == ".wav":
+            assert np.array_equal(sf.read(ref)[0], sf.read(e["output"])[0])
+        else:
+            assert ref.read_bytes() == open(e["output"], "rb").read()
+
+
+def test_a_folder_with_no_recordings_is_one_line(tmp_path, recipe, capsys):
+    folder = tmp_path / "empty"
+    folder.mkdir()
+    (folder / "notes.json").write_text("{}")
+    assert main(["batch", "--recipe", str(recipe), "-o", str(tmp_path / "out"),
+                 str(folder)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "folder holds no recordings" in err and ".tdms" in err

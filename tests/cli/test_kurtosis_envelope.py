@@ -134,3 +134,63 @@ def test_packet_bands_json_and_save_recipe_replays(tmp_path, capsys):
     a, _ = sf.read(str(tmp_path / "a.wav"))
     b, _ = sf.read(str(tmp_path / "b.wav"))
     assert (a == b).all()
+
+
+def _interior(x, best):
+    """The best band's interior coefficients, from PyWavelets' own packet tree."""
+    import pywt
+
+    from scalesieve.core import band_choice
+
+    node = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=best["level"])[best["path"]].data
+    left, right = band_choice.dwt_edges(x.shape[0], pywt.Wavelet("db4").dec_len,
+                                        best["level"])[best["level"] - 1]
+    return node[left:node.shape[0] - right]
+
+
+@pytest.mark.parametrize("seed", [3, 11])
+def test_kurtosis_on_gaussian_noise_says_no_band_stands_out(tmp_path, capsys, seed):
+    # scipy.stats.kurtosistest (Anscombe & Glynn 1983) on the best band's interior
+    # coefficients, one-sided, at 1 % shared over every band of the table (Bonferroni)
+    import numpy as np
+    import soundfile as sf
+    from scipy import stats
+
+    x = 0.1 * np.random.default_rng(seed).standard_normal(65536)
+    path = tmp_path / "hiss.wav"
+    sf.write(path, x, 16000, subtype="DOUBLE")
+    d = _json(capsys, "kurtosis", str(path))
+    assert set(d) >= {"file", "rate", "levels", "best", "impulsive", "finding"}
+    best = d["best"]
+    assert best is not None and best["name"].startswith("w")     # the contract's key stays
+    bands = sum(len(lv["bands"]) for lv in d["levels"])
+    p = stats.kurtosistest(_interior(x, best), alternative="greater").pvalue
+    assert d["impulsive"] is bool(p < 0.01 / bands) is False
+    assert d["finding"].startswith("no band stands out as impulsive")
+    assert best["name"] in d["finding"]
+    assert main(["kurtosis", str(path)]) == 0
+    text = capsys.readouterr().out
+    assert d["finding"] in text.splitlines()
+
+
+def test_kurtosis_on_the_fan_says_its_band_stands_out(capsys):
+    import soundfile as sf
+    from scipy import stats
+
+    d = _json(capsys, "kurtosis", FAN)
+    x = sf.read(FAN, dtype="float64", always_2d=True)[0][:, 0]
+    bands = sum(len(lv["bands"]) for lv in d["levels"])
+    p = stats.kurtosistest(_interior(x, d["best"]), alternative="greater").pvalue
+    assert d["impulsive"] is bool(p < 0.01 / bands) is True
+    assert d["finding"].startswith("most impulsive: w")
+
+
+def test_kurtosis_too_short_for_an_interior_figure_does_not_judge(tmp_path, capsys):
+    # 64 samples: no packet band keeps 128 interior coefficients (core/band_choice)
+    import numpy as np
+    import soundfile as sf
+
+    path = tmp_path / "short.wav"
+    sf.write(path, np.random.default_rng(5).standard_normal(64), 8000, subtype="DOUBLE")
+    d = _json(capsys, "kurtosis", str(path), "--level", "2")
+    assert d["impulsive"] is None and "not tested" in d["finding"]

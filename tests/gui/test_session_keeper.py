@@ -196,3 +196,62 @@ def test_recording_is_hashed_off_the_window_thread_and_offered_after(qtbot, qapp
     with open(autosave.session_file(str(rec_path)), encoding="utf-8") as fh:
         assert json.load(fh)["recipe"]["edits"] == [e.to_json() for e in w.adapter.edits]
     w.close()
+
+
+@pytest.mark.parametrize("where", ["look-up", "after the restore"])
+def test_a_restore_onto_a_resized_recording_hashes_it_off_the_window_thread(
+        qtbot, qapp, tmp_path, data_dir, monkeypatch, where):
+    # a changed size is told without hashing (autosave._compare); the restored edits then
+    # take the file's new fingerprint, which is made in the worker thread, never here
+    import threading
+
+    from scalesieve import autosave
+    from scalesieve.gui import session_keeper as sk
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.main_window import MainWindow
+    from scalesieve.gui.session_keeper import SessionKeeper
+    from scalesieve.recipe import Recipe
+
+    rec_path = tmp_path / "pump.wav"
+    shutil.copy(LAB, rec_path)
+    saved = (Edit("gain", levels=(2,), gain=0.0),)
+    autosave.save_session(str(rec_path), Recipe(None, saved).to_json(), {})
+    x, rate = sf.read(str(rec_path))
+    sf.write(str(rec_path), x[: x.shape[0] // 2], rate, subtype="PCM_16")   # now shorter
+    new_size = os.path.getsize(rec_path)
+    real = autosave.fingerprint
+    hashed_on = []
+
+    def watched(path, **kw):
+        hashed_on.append(threading.current_thread() is threading.main_thread())
+        return real(path, **kw)
+
+    monkeypatch.setattr(autosave, "fingerprint", watched)
+    if where == "after the restore":
+        # the look-up could not hash it (say the file was busy then): the save hashes it
+        look = sk._look_for_saved_edits
+        monkeypatch.setattr(sk, "_look_for_saved_edits",
+                            lambda path: (look(path)[0], None, None))
+    w = MainWindow(ws.open_settings(str(tmp_path / "s.ini")))
+    qtbot.addWidget(w)
+    w.show()
+    seen = []
+    keeper = SessionKeeper(w, ask=lambda info, parent: seen.append(info) or "restore")
+    w.open_path(str(rec_path))
+    assert w.adapter.wait_idle(60) is None
+    qtbot.waitUntil(lambda: bool(seen), timeout=20000)
+    assert seen[0].changed and "size changed" in seen[0].change_reason
+    assert seen[0].current is None                  # compared without hashing
+    qtbot.waitUntil(lambda: tuple(w.adapter.edits) == saved and not keeper.checking,
+                    timeout=20000)
+    assert w.adapter.wait_idle(60) is None
+    qtbot.waitUntil(lambda: not keeper.checking, timeout=20000)
+    assert hashed_on and not any(hashed_on)          # every hash in the worker
+    with open(autosave.session_file(str(rec_path)), encoding="utf-8") as fh:
+        session = json.load(fh)
+    assert session["recipe"]["edits"] == [e.to_json() for e in saved]
+    assert session["recording"]["fingerprint"]["size"] == new_size
+    # and opened again, the file is the one the edits were restored onto
+    again = autosave.pending_restore(str(rec_path))
+    assert again is not None and not again.changed
+    w.close()

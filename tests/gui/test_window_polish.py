@@ -31,6 +31,14 @@ def test_removed_lane_has_at_most_two_labels():
         assert all(lo <= v <= hi or v == 0 for v, _ in major)
 
 
+def test_removed_lane_too_short_for_two_labels_has_one_at_zero_saying_its_size():
+    # 0 and 0.02 on a lane 24 px high would sit 8 px apart, under one 12 px label's height
+    major, _ = sparse_ticks(-0.03, 0.03, room_px=24, label_px=12)
+    assert major == [(0.0, "±0.02")]
+    major, _ = sparse_ticks(-0.03, 0.03, room_px=80, label_px=12)     # 27 px apart: both
+    assert [t for _, t in major] == ["0", "0.02"]
+
+
 def test_physiological_names_and_units_are_recognised():
     assert looks_physiological(["signal_mV"])
     assert looks_physiological(["ECG lead II"])

@@ -9,10 +9,12 @@ from typing import Sequence
 
 from scalesieve.batch_command import GLOB_CHARS as _GLOB_CHARS
 from scalesieve.errors import ScalesieveError
+from scalesieve.io.readers import RECORDING_EXTENSIONS
 
 REPORT_NAME = "batch-report.json"
-#: what a folder given as INPUT contributes (not recursive)
-RECORDING_SUFFIXES = (".wav", ".flac", ".aiff", ".aif", ".ogg", ".csv", ".tsv", ".txt")
+#: what a folder given as INPUT contributes (not recursive): every extension the readers
+#: take, audio, text tables and measurement files alike (io/readers.py)
+RECORDING_SUFFIXES = tuple(sorted(RECORDING_EXTENSIONS))
 
 
 def expand_inputs(inputs: Sequence[str]) -> list[str]:
@@ -30,8 +32,9 @@ def expand_inputs(inputs: Sequence[str]) -> list[str]:
                            and os.path.splitext(n)[1].lower() in RECORDING_SUFFIXES
                            and os.path.isfile(os.path.join(item, n)))
             if not names:
-                raise ScalesieveError("folder holds no recordings (" +
-                                      " ".join(RECORDING_SUFFIXES) + ")", item)
+                raise ScalesieveError("folder holds no recordings (audio files, text tables "
+                                      "or measurement files such as .wav .flac .csv .tdms "
+                                      ".edf .mat .h5 .mf4 .xlsx)", item)
             out.extend(os.path.join(item, n) for n in names)
         elif not os.path.lexists(item) and _GLOB_CHARS & set(item):
             found = sorted(glob.glob(item))

@@ -147,3 +147,30 @@ def is_impulsive(kurt: float | None, count: int, bands: int = 1,
     if kurt is None or count < 5:
         return False
     return kurtosis_z(kurt, count) > NormalDist().inv_cdf(1.0 - alpha / max(1, int(bands)))
+
+
+def interior_count(n: int, wavelet: str, depth: int, mode: str = "symmetric") -> int:
+    """Interior coefficients of a packet node at ``depth`` of ``n`` samples (all nodes alike)."""
+    import pywt
+
+    L = pywt.Wavelet(wavelet).dec_len
+    m = n
+    for _ in range(depth):
+        m = pywt.dwt_coeff_len(m, L, mode)
+    left, right = dwt_edges(n, L, depth)[depth - 1]
+    return max(0, m - left - right)
+
+
+def best_stands_out(table: dict, n: int, wavelet: str, mode: str,
+                    alpha: float = IMPULSIVE_ALPHA) -> bool | None:
+    """Whether the most impulsive band of a kurtosis table (``impulsive_bands.table``)
+    stands out of Gaussian noise: :func:`is_impulsive` on its interior kurtosis, the
+    largest of every band of the table compared together.  None when it cannot be told:
+    no best band, or one too short for an interior figure.
+    """
+    best = table.get("best")
+    if not best or best.get("interior_kurtosis") is None:
+        return None
+    bands = sum(len(lv["bands"]) for lv in table["levels"])
+    count = interior_count(n, wavelet, best["level"], mode)
+    return bool(is_impulsive(best["interior_kurtosis"], count, bands, alpha))

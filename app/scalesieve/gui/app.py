@@ -55,7 +55,22 @@ def display_problem() -> str | None:
         return (f"the window needs the system library {missing} (Qt's X11 plugin cannot "
                 f"load without it: install the package that provides it); "
                 f"{NO_DISPLAY_HINT}")
-    return None
+    return _xcb_cursor_problem()
+
+
+def _xcb_cursor_problem() -> str | None:
+    """Qt 6.5 and later open libxcb-cursor only when the X11 plugin starts, and abort
+    without it: the plugin's own libraries above do not name it."""
+    import ctypes.util
+
+    from PySide6 import QtCore
+
+    major, minor = (int(v) for v in QtCore.qVersion().split(".")[:2])
+    if (major, minor) < (6, 5) or ctypes.util.find_library("xcb-cursor"):
+        return None
+    return ("the window needs the system library libxcb-cursor.so.0 (Qt's X11 plugin "
+            "cannot start without it: install the package that provides it, e.g. "
+            f"libxcb-cursor0); {NO_DISPLAY_HINT}")
 
 
 def make_application(argv: list[str] | None = None):

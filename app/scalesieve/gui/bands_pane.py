@@ -14,13 +14,14 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtWidgets import (QComboBox, QFrame, QHBoxLayout, QLabel, QScrollArea,
-                               QSizePolicy, QStyle, QToolButton, QVBoxLayout, QWidget)
+                               QStyle, QToolButton, QVBoxLayout, QWidget)
 
 from scalesieve.views.band_edits import (ALL_DETAILS, edits_on_band, own_edit,  # noqa: F401
                                        set_band_gain, set_band_threshold)
 from scalesieve.views.band_labels import hz_range
 from scalesieve.views.decimate import trace_points
 from scalesieve.views.edit_words import edit_text
+from scalesieve.gui.elided_label import ElidedLabel
 from scalesieve.gui.pane_frame import AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, make_plot
 from scalesieve.gui.resource_files import colour
 from scalesieve.gui.scale_map import first_and_step
@@ -263,12 +264,12 @@ class BandsPane(QFrame):
         self.mode.addItem("coefficients", "coefficients")
         self.mode.setToolTip("each open band's part of the signal, or its wavelet coefficients")
         h.addWidget(self.mode)
-        hint = QLabel("open a lane with a row's “trace” button on the map · dark: as edited · "
-                      "light orange, beneath: removed from the band")
+        # (how to open a lane is said while none is open, by self.empty)
+        hint = ElidedLabel("dark: as edited · light orange, beneath: removed from the band")
         hint.setObjectName("hint")
         # The hint gives way when the pane is narrow; it must not widen the window.
-        hint.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
         hint.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+        self.hint = hint
         h.addWidget(hint, 1)
         outer.addWidget(head)
         self.scroll = QScrollArea()

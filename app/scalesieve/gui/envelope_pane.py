@@ -26,12 +26,14 @@ from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, keep_lines
+from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.io.atomic import atomic_write
 
 #: marker colours per line family (our own; readable on the light plot background)
 LINE_COLOURS = {"ftf": "#7a5195", "bpfo": "#d1495b", "bpfi": "#00798c", "bsf": "#c98a12"}
 #: the plot keeps room for its curve and two rows of line labels
-PLOT_MIN_HEIGHT = 100
+PLOT_MIN_HEIGHT = 90
+FREQUENCY_LABEL = "envelope frequency (Hz)"
 
 
 def _line_text(ln: dict) -> str:
@@ -57,12 +59,13 @@ class EnvelopePane(QWidget):
         self.run.finished.connect(self._spectrum_ready)
         adapter.add_pending_check(lambda: self.run.busy)
         col = QVBoxLayout(self)
-        col.setContentsMargins(4, 4, 4, 4)
+        col.setContentsMargins(4, 3, 4, 2)
+        col.setSpacing(3)
         head = QHBoxLayout()
+        # one line: the band and resolution are said under the plot, on its frequency axis
         self.title = QLabel("<b>Envelope spectrum</b>")
-        self.title.setWordWrap(True)     # the band and resolution wrap rather than widen the dock
-        keep_lines(self.title, 2)
-        head.addWidget(self.title, 1)
+        head.addWidget(self.title)
+        head.addStretch(1)
         self.working = busy_bar()
         head.addWidget(self.working)
         head.addWidget(QLabel("bearing"))
@@ -90,9 +93,13 @@ class EnvelopePane(QWidget):
         col.addLayout(head)
         self.plot = pg.PlotWidget()
         self.plot.setMenuEnabled(False)
-        self.plot.setLabel("bottom", "envelope frequency (Hz)")
+        self.plot.setLabel("bottom", FREQUENCY_LABEL)
+        left = self.plot.getAxis("left")
+        # the values as they are: a "(x0.001)" beside the name would not fit the axis
+        left.enableAutoSIPrefix(False)
         self.plot.setLabel("left", "amplitude")
-        self.plot.setMinimumHeight(PLOT_MIN_HEIGHT)
+        small_axis_labels(self.plot)
+        self.plot.setMinimumHeight(plot_min_height(self.plot, PLOT_MIN_HEIGHT))
         self.plot.showGrid(x=True, y=True, alpha=0.2)
         self.curve = self.plot.plot([], [], pen=pg.mkPen("#2b4c7e", width=1))
 
@@ -122,6 +129,8 @@ class EnvelopePane(QWidget):
 
     def showEvent(self, ev):  # noqa: N802 - Qt API
         super().showEvent(ev)
+        # measured once shown: the axes know their fonts and heights only then
+        self.plot.setMinimumHeight(plot_min_height(self.plot, PLOT_MIN_HEIGHT))
         self.redraw()
 
     # ------------------------------------------------------------- drawing
@@ -209,8 +218,8 @@ class EnvelopePane(QWidget):
                 rep = {k: v for k, v in rep.items() if k not in ("bearing", "lines")}
         self.report = rep
         b = rep["band"]
-        self.title.setText(f"<b>Envelope spectrum</b> of {b['name']} ({b['low_hz']:g}–"
-                           f"{b['high_hz']:g} Hz), resolution {rep['resolution_hz']:.3g} Hz")
+        self.plot.setLabel("bottom", f"{FREQUENCY_LABEL}  ·  band {b['name']}, {b['low_hz']:g}–"
+                           f"{b['high_hz']:g} Hz  ·  resolution {rep['resolution_hz']:.3g} Hz")
         freqs, amp = rep["freqs"], rep["amplitude"]
         # the envelope of a band cannot move faster than the band is wide
         shown = freqs <= min(b["high_hz"] - b["low_hz"], freqs[-1])
@@ -276,7 +285,6 @@ class EnvelopePane(QWidget):
         peaks = ", ".join(f"{p['hz']:.2f}" for p in rep["peaks"][:6])
         text = f"Largest peaks (Hz): {peaks}."
         if "bearing" in rep:
-            f = rep["bearing"]
             found = []
             for ln in rep["lines"]:
                 if ln.get("sideband") or ln["harmonic"] != 1:
@@ -287,8 +295,8 @@ class EnvelopePane(QWidget):
                     snr = "" if ln["snr_db"] is None else f", {ln['snr_db']:.1f} dB over floor"
                     found.append(f"{ln['name'].upper()} {ln['hz']:.2f} Hz → peak "
                                  f"{ln['found_hz']:.2f} Hz{snr}")
-            text += (f"  FTF {f['ftf_hz']:.2f}, BPFO {f['bpfo_hz']:.2f}, BPFI {f['bpfi_hz']:.2f}, "
-                     f"BSF {f['bsf_hz']:.2f} Hz.  " + "; ".join(found) + ".")
+            # each family once: its frequency and the peak it was matched to (or none)
+            text += "  " + "; ".join(found) + "."
         return text
 
     # ------------------------------------------------------------- exports

@@ -24,6 +24,9 @@ def default_name(source: str, what: str, ext: str) -> str:
     return f"{base}-{what}.{ext}"
 
 
+MIN_WIDTH = 560
+
+
 class ExportDialog(QDialog):
     """Returns ``path``, ``what`` ('cleaned' or 'removed') and ``subtype`` after Accept."""
 
@@ -46,6 +49,7 @@ class ExportDialog(QDialog):
             self.format.setCurrentIndex([f for f, _ in FORMATS].index(src_ext))
         self.subtype = QComboBox()
         self.path = QLineEdit()
+        self.path.textChanged.connect(self.path.setToolTip)     # the whole path, always
         browse = QPushButton("Choose…")
         row = QHBoxLayout()
         row.addWidget(self.path, 1)
@@ -70,6 +74,8 @@ class ExportDialog(QDialog):
         self.what.currentIndexChanged.connect(self._suggest)
         browse.clicked.connect(self._browse)
         self._format_changed()
+        # room for a folder and the file's name in the path field, not its last letters only
+        self.setMinimumWidth(MIN_WIDTH)
 
     def _format_changed(self, *_):
         ext = self.format.currentData()

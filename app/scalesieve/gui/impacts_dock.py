@@ -29,7 +29,7 @@ def add_impacts_dock(window) -> QDockWidget:
     split.setSizes([440, 840])
     body = QWidget()
     col = QVBoxLayout(body)
-    col.setContentsMargins(0, 0, 0, 2)
+    col.setContentsMargins(0, 0, 0, 0)
     col.setSpacing(0)
     col.addWidget(split, 1)
     caution = caution_label()            # once for both panes: it is the same caution

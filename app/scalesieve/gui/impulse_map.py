@@ -17,12 +17,14 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QObject, QRectF, Qt, Signal
 from PySide6.QtGui import QColor, QPen
-from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QProgressBar, QSpinBox,
-                               QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (QGraphicsRectItem, QHBoxLayout, QLabel, QProgressBar,
+                               QSizePolicy, QSpinBox, QVBoxLayout, QWidget)
 
 from scalesieve.core import impulsive_bands as ib
+from scalesieve.core.band_choice import interior_count  # noqa: F401 - its old place
 from scalesieve.core import packets as wp
 from scalesieve.gui import shared_kurtosis
+from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.gui.thread_priority import lower_this_thread
 
 CAUTION = ("Figures support a judgement about a machine; decisions follow the applicable "
@@ -36,7 +38,7 @@ def caution_label() -> QLabel:
     caution = QLabel(CAUTION)
     caution.setWordWrap(True)
     caution.setStyleSheet("color: #8a5a00;")
-    keep_lines(caution, 1)
+    caution.setMinimumHeight(caution.fontMetrics().lineSpacing() + 2)
     return caution
 
 
@@ -148,20 +150,6 @@ def table_image(table: dict) -> np.ndarray:
     return img
 
 
-def interior_count(n: int, wavelet: str, depth: int, mode: str = "symmetric") -> int:
-    """Interior coefficients of a packet node at ``depth`` of ``n`` samples (all nodes alike)."""
-    import pywt
-
-    from scalesieve.core import band_choice
-
-    L = pywt.Wavelet(wavelet).dec_len
-    m = n
-    for _ in range(depth):
-        m = pywt.dwt_coeff_len(m, L, mode)
-    left, right = band_choice.dwt_edges(n, L, depth)[depth - 1]
-    return max(0, m - left - right)
-
-
 def readout_text(table: dict, samples: tuple[int, str, str]) -> str:
     """What the map's readout says of its best band: the figure the map shows for that cell
     (``kurtosis``), and the interior figure the choice is made on, or that none stands out."""
@@ -171,17 +159,15 @@ def readout_text(table: dict, samples: tuple[int, str, str]) -> str:
     inner = best.get("interior_kurtosis")
     where = f"<b>{best['name']}</b> ({best['low_hz']:g}–{best['high_hz']:g} Hz)"
     if inner is not None:
-        bands = sum(len(lv["bands"]) for lv in table["levels"])
-        count = interior_count(samples[0], samples[1], best["level"], samples[2])
-        if not band_choice.is_impulsive(inner, count, bands):
+        if not band_choice.best_stands_out(table, *samples):
             return (f"No band stands out as impulsive: the largest, {where}, has kurtosis "
-                    f"{best['kurtosis']:.2f} on the map ({inner:.2f} inside its edges), "
-                    "within what Gaussian noise gives (3).")
+                    f"{best['kurtosis']:.2f} ({inner:.2f} inside its edges), as Gaussian "
+                    "noise gives (3).")
         inside = f", {inner:.2f} inside its edges (the choice uses this)"
     else:
         inside = ""
     return (f"Most impulsive: {where}, kurtosis {best['kurtosis']:.2f} on the map{inside}; "
-            "Gaussian noise gives 3. Click a cell to demodulate that band.")
+            "Gaussian noise gives 3.")
 
 
 def cell_at(hz: float, row: float, depth: int, rate: float) -> tuple[int, int] | None:
@@ -208,11 +194,15 @@ class ImpulseMapPane(QWidget):
         self.run.finished.connect(self._table_ready)
         adapter.add_pending_check(lambda: self.run.busy)
         col = QVBoxLayout(self)
-        col.setContentsMargins(4, 4, 4, 4)
+        col.setContentsMargins(4, 3, 4, 2)
+        col.setSpacing(3)
         head = QHBoxLayout()
         title = QLabel("<b>Impulse map</b>")
         head.addWidget(title)
-        head.addStretch(1)
+        hint = QLabel("click a cell to demodulate it")
+        hint.setObjectName("hint")
+        hint.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        head.addWidget(hint, 1)
         head.addWidget(QLabel("depths 1 to"))
         self.depth = QSpinBox()
         self.depth.setRange(1, 10)
@@ -229,7 +219,8 @@ class ImpulseMapPane(QWidget):
         self.plot.hideButtons()
         self.plot.invertY(True)
         self.plot.setLabel("bottom", "frequency (Hz)")
-        self.plot.setLabel("left", "packet depth")
+        self.plot.setLabel("left", "depth")
+        small_axis_labels(self.plot)
         self.image = pg.ImageItem(axisOrder="row-major")
         self.image.setColorMap(pg.colormap.get(COLOURS))
         self.plot.addItem(self.image)
@@ -250,12 +241,12 @@ class ImpulseMapPane(QWidget):
                                    label="kurtosis")
         self.bar.setImageItem(self.image, insert_in=self.plot.getPlotItem())
         self.plot.scene().sigMouseClicked.connect(self._clicked)
-        self.plot.setMinimumHeight(100)      # the map and its colour bar stay readable
+        self.plot.setMinimumHeight(plot_min_height(self.plot))   # map, bar and labels readable
         self.setMinimumWidth(380)
         col.addWidget(self.plot, 1)
         self.readout = QLabel("")
         self.readout.setWordWrap(True)
-        keep_lines(self.readout, 3)
+        keep_lines(self.readout, 2)
         col.addWidget(self.readout)
 
     # ---------------------------------------------------------------- model
@@ -267,6 +258,8 @@ class ImpulseMapPane(QWidget):
 
     def showEvent(self, ev):  # noqa: N802 - Qt API
         super().showEvent(ev)
+        # measured once shown: the axes know their fonts and heights only then
+        self.plot.setMinimumHeight(plot_min_height(self.plot, 90))
         self.redraw()
 
     @property

@@ -5,9 +5,9 @@ from __future__ import annotations
 import importlib.util
 import os
 
-from PySide6.QtCore import QByteArray, QPoint, QRectF, QSize, Qt, Signal
+from PySide6.QtCore import QByteArray, QPoint, QRectF, Qt, Signal
 from PySide6.QtGui import QAction, QKeySequence, QPainter
-from PySide6.QtWidgets import (QApplication, QCheckBox, QComboBox, QDockWidget, QFileDialog,
+from PySide6.QtWidgets import (QApplication, QDockWidget, QFileDialog,
                                QLabel, QMainWindow, QMessageBox, QProgressBar, QScrollArea,
                                QSplitter,
                                QVBoxLayout, QWidget)
@@ -38,6 +38,18 @@ OPEN_FILTER = ("Recordings (*.wav *.flac *.aiff *.aif *.ogg *.csv *.tsv *.txt *.
                "Measurement files (" + " ".join("*" + e for e in MEASUREMENT_EXTENSIONS) + ");;"
                "All files (*)")
 EVENTS_MODULE = "scalesieve.gui.events_pane"
+
+#: the window's size on its first start, where the screen has room for it
+FIRST_SIZE = (1600, 1000)
+
+
+def first_size(screen) -> tuple[int, int]:
+    """The first start's size: ``FIRST_SIZE``, or the screen's free area where smaller
+    (a 1280×800 laptop must see the whole window, not a part of it)."""
+    if screen is None:
+        return FIRST_SIZE
+    free = screen.availableGeometry()
+    return min(FIRST_SIZE[0], free.width()), min(FIRST_SIZE[1], free.height())
 
 
 class MainWindow(RecipeFiles, QMainWindow):
@@ -76,8 +88,8 @@ class MainWindow(RecipeFiles, QMainWindow):
         for w in (self.scale_map, self.bands, self.reconstruction):
             self.splitter.addWidget(w)
         self.scale_map.setMinimumHeight(250)
-        self.bands.setMinimumHeight(62)
-        self.reconstruction.setMinimumHeight(104)
+        self.bands.setMinimumHeight(60)
+        self.reconstruction.setMinimumHeight(110)     # two lanes and the figures' line
         self.splitter.setSizes([470, 250, 200])
         self.splitter.setStretchFactor(0, 5)
         self.splitter.setStretchFactor(1, 3)
@@ -274,42 +286,13 @@ class MainWindow(RecipeFiles, QMainWindow):
         m.addAction(self.act_about)
         self._fill_recent()
 
-        tb = self.addToolBar("Main")
-        tb.setObjectName("mainToolbar")
-        tb.setIconSize(QSize(18, 18))
-        tb.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
-        for a in (self.act_open, self.act_recipe_save, self.act_export):
-            tb.addAction(a)
-        tb.addSeparator()
-        tb.addAction(self.act_undo)
-        tb.addAction(self.act_redo)
-        tb.addSeparator()
-        tb.addWidget(QLabel(" Channel "))
-        self.channel_box = QComboBox()
-        self.channel_box.setMinimumWidth(140)
-        self.channel_box.setToolTip("the channel the panes show")
-        self.channel_box.currentIndexChanged.connect(self.set_channel)
-        tb.addWidget(self.channel_box)
-        self.scope_box = QCheckBox("new edits: this channel only")
-        self.scope_box.setToolTip("unticked, an edit made in the panes applies to every channel")
-        self.scope_box.toggled.connect(self._scope_changed)
-        tb.addWidget(self.scope_box)
-        tb.addSeparator()
-        tb.addAction(self.act_all)
-        lt = self.addToolBar("Listen")
-        lt.setObjectName("listenToolbar")
-        lt.setIconSize(QSize(18, 18))
-        lt.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
-        self.listen_toolbar = lt
-        self._listen_on_own_row = False
-        for a in self.act_play.values():
-            lt.addAction(a)
-        lt.addAction(self.act_stop)
-        if not ok:
-            why = QLabel("  no sound output")
-            why.setObjectName("hint")
-            why.setToolTip(reason)
-            lt.addWidget(why)
+        from scalesieve.gui.window_toolbars import WindowToolbars
+
+        self.toolbars = WindowToolbars(self, ok, reason)
+        self.channel_box = self.toolbars.channel_box
+        self.scope_box = self.toolbars.scope_box
+        self.main_toolbar = self.toolbars.main
+        self.listen_toolbar = self.toolbars.listen
 
     def _build_status(self) -> None:
         sb = self.statusBar()
@@ -332,7 +315,7 @@ class MainWindow(RecipeFiles, QMainWindow):
         if isinstance(g, (QByteArray, bytes)):
             self.restoreGeometry(g)
         else:
-            self.resize(1600, 1000)
+            self.resize(*first_size(QApplication.primaryScreen()))
         st = self.settings.value("window/state")
         if isinstance(st, (QByteArray, bytes)):
             self.restoreState(st)
@@ -398,14 +381,8 @@ class MainWindow(RecipeFiles, QMainWindow):
 
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
-        # The listening buttons go to a row of their own when one row cannot hold them all.
-        narrow = self.width() < 1500
-        if narrow != self._listen_on_own_row:
-            self._listen_on_own_row = narrow
-            if narrow:
-                self.insertToolBarBreak(self.listen_toolbar)
-            else:
-                self.removeToolBarBreak(self.listen_toolbar)
+        if hasattr(self, "toolbars"):
+            self.toolbars.fit(self.width())
 
     def describe_recording(self) -> str:
         rec = self.adapter.recording

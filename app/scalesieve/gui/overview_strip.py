@@ -11,7 +11,8 @@ from scalesieve.views.decimate import trace_points
 from scalesieve.gui.pane_frame import PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, icon
 
-HEIGHT = 64
+#: title and "all" on one line, the span shown below: two lines of text
+HEIGHT = 48
 
 
 class _OverviewBox(pg.ViewBox):
@@ -37,7 +38,8 @@ class OverviewStrip(PaneFrame):
     def __init__(self, adapter, time_axis, parent=None):
         super().__init__("Overview", parent)
         self.setFixedHeight(HEIGHT)
-        self.gutter_layout.setContentsMargins(8, 4, 8, 4)
+        self.gutter_layout.setContentsMargins(8, 2, 8, 2)
+        self.gutter_layout.setSpacing(0)
         self.adapter = adapter
         self.axis = time_axis
         self.channel = 0

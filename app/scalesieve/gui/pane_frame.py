@@ -72,15 +72,48 @@ def make_plot(view_box: pg.ViewBox | None = None, bottom_axis: bool = True,
     return w
 
 
+def small_axis_labels(plot) -> None:
+    """Axis names and tick numbers in the panes' small type (as ``make_plot`` sets them)."""
+    pi = plot.getPlotItem()
+    for name in ("left", "bottom"):
+        ax = pi.getAxis(name)
+        ax.label.setFont(tick_font())
+        ax.setStyle(tickFont=tick_font())
+
+
+def label_length(axis) -> float:
+    """The length of an axis's name as drawn (its glyphs, not the text item's margins)."""
+    from PySide6.QtGui import QFontMetricsF
+
+    return QFontMetricsF(axis.label.font()).horizontalAdvance(axis.label.toPlainText())
+
+
+def plot_min_height(plot, least: int = 90) -> int:
+    """A plot's minimum height: ``least``, or more when its left axis name is longer than
+    the axis would be (a name drawn upright along the axis is cut where the axis ends)."""
+    pi = plot.getPlotItem()
+    left = pi.getAxis("left")
+    bottom = pi.getAxis("bottom")
+    label = label_length(left) if left.label.isVisible() else 0.0
+    _, top, _, under = pi.layout.getContentsMargins()
+    axis = bottom.height() if bottom.isVisible() else 0
+    return max(least, int(label + axis + top + under + 4))
+
+
 class PaneFrame(QFrame):
     """Gutter + content + right margin, with a title in the gutter."""
 
     def __init__(self, title: str, parent=None, right: QWidget | None = None):
         super().__init__(parent)
         self.setObjectName("pane")
-        row = QHBoxLayout(self)
+        # below the gutter-content-margin row, a footer spans the pane's whole width
+        self.footer = QVBoxLayout(self)
+        self.footer.setContentsMargins(0, 0, 0, 0)
+        self.footer.setSpacing(0)
+        row = QHBoxLayout()
         row.setContentsMargins(0, 0, 0, 0)
         row.setSpacing(0)
+        self.footer.addLayout(row, 1)
         self.gutter = QWidget()
         self.gutter.setObjectName("gutter")
         self.gutter.setFixedWidth(GUTTER_WIDTH)

@@ -6,8 +6,9 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QTimer, Signal
-from PySide6.QtWidgets import QCheckBox, QLabel
+from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtGui import QFontMetrics
+from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel
 
 from scalesieve.views.channel_units import unit_of
 from scalesieve.views.decimate import trace_points
@@ -18,6 +19,9 @@ from scalesieve.gui.resource_files import colour
 TRACES = (("original", "Original", "the recording as read"),
           ("cleaned", "Cleaned", "after the recipe"),
           ("removed", "Removed", "original minus cleaned"))
+#: least heights of the two lanes: the cleaned-over-original one, and the removed one
+#: with the time axis under it (30 px, pane_frame.make_plot)
+MAIN_LANE_MIN, REMOVED_LANE_MIN = 32, 58
 #: wait this long after the last edit before recomputing the metrics (ms)
 METRICS_DELAY_MS = 250
 
@@ -37,9 +41,12 @@ def format_metrics(m: dict) -> str:
             f"peak change {m['peak_change']:.4g}")
 
 
-def sparse_ticks(lo: float, hi: float) -> list:
+def sparse_ticks(lo: float, hi: float, room_px: float | None = None,
+                 label_px: float = 12.0) -> list:
     """pyqtgraph ticks for a short lane: 0 and one round value above it, no minor ones
-    (two labels half a lane apart cannot overlap)."""
+    (two labels half a lane apart cannot overlap).  When the lane is ``room_px`` high and
+    two labels of ``label_px`` would still touch, one label at 0 says its size: ``±m``
+    (a label near the lane's edge would stick out of the axis, which drops it)."""
     top = max(abs(lo), abs(hi))
     if not (top > 0 and math.isfinite(top)):
         return [[(0.0, "0")], []]
@@ -48,6 +55,10 @@ def sparse_ticks(lo: float, hi: float) -> list:
     if m > 0.9 * top:          # keep the label off the lane's very edge
         m = (math.floor(top / step) - 1) * step or step / 2
     side = m if abs(hi) >= abs(lo) else -m      # the round value on the wider side
+    if room_px is not None and lo <= side <= hi:
+        gap = abs(side) / (hi - lo) * room_px    # pixels between the two labels' centres
+        if gap < 1.2 * label_px:
+            return [[(0.0 if lo <= 0.0 <= hi else side, f"±{m:.2g}")], []]
     ticks = [(v, "0" if v == 0 else f"{v:.2g}") for v in (0.0, side) if lo <= v <= hi]
     return [ticks, []]
 
@@ -73,10 +84,21 @@ class ReconstructionPane(PaneFrame):
         self.content.addWidget(self.removed_plot, 2)
         self.metrics_label = QLabel("")
         self.metrics_label.setObjectName("metrics")
-        # at a narrow width the line wraps: it must neither widen the window nor be cut
+        # the whole pane's width (one line at 1280 px with the Recipe dock open); narrower,
+        # the line wraps: it must neither widen the window nor be cut
         self.metrics_label.setWordWrap(True)
-        self.metrics_label.setContentsMargins(10, 3, 6, 4)
-        self.content.addWidget(self.metrics_label)
+        self.metrics_label.setContentsMargins(8, 1, 6, 2)
+        foot = QHBoxLayout()
+        foot.setContentsMargins(0, 0, 0, 0)
+        foot.addWidget(self.metrics_label, 1)
+        hint = QLabel("wheel: zoom time · drag: pan")
+        hint.setObjectName("hint")
+        hint.setContentsMargins(6, 1, 8, 2)
+        foot.addWidget(hint, 0, Qt.AlignmentFlag.AlignTop)
+        self.footer.addLayout(foot)
+        # each lane keeps room to show its trace (the removed one also holds the time axis)
+        self.plot.setMinimumHeight(MAIN_LANE_MIN)
+        self.removed_plot.setMinimumHeight(REMOVED_LANE_MIN)
         self.curves = {}
         self.toggles = {}
         widths = {"original": 1.0, "cleaned": 1.0, "removed": 1.0}
@@ -94,10 +116,7 @@ class ReconstructionPane(PaneFrame):
             box.toggled.connect(lambda on, k=key: self._toggle(k, on))
             self.gutter_layout.addWidget(box)
             self.toggles[key] = box
-        hint = QLabel("wheel: zoom time · drag: pan")
-        hint.setObjectName("hint")
         self.gutter_layout.addStretch(1)
-        self.gutter_layout.addWidget(hint)
         self.axis.link(self.plot.getViewBox())
         self.axis.link(self.removed_plot.getViewBox())
         self.axis.rangeChanged.connect(self._schedule)
@@ -132,7 +151,8 @@ class ReconstructionPane(PaneFrame):
             ax.enableAutoSIPrefix(False)     # the values as they are, in the channel's unit
             ax.setLabel(unit)
             ax.label.setFont(tick_font())
-            ax.showLabel(bool(unit))
+            # the removed lane is short and in the same unit: named on the lane above only
+            ax.showLabel(bool(unit) and plot is self.plot)
 
     def _on_model(self) -> None:
         self._show_unit()
@@ -225,4 +245,6 @@ class ReconstructionPane(PaneFrame):
                 plot.getViewBox().setYRange(lo - pad, hi + pad, padding=0)
                 if plot is self.removed_plot:
                     # a short lane: three labels at most, so they never overlap
-                    plot.getAxis("left").setTicks(sparse_ticks(lo - pad, hi + pad))
+                    label = QFontMetrics(tick_font()).height()    # make_plot's tick type
+                    plot.getAxis("left").setTicks(sparse_ticks(
+                        lo - pad, hi + pad, plot.getViewBox().height(), label))

@@ -68,6 +68,10 @@ def edit_lines(info) -> list[str]:
     return lines
 
 
+#: wide enough for an edit's line and the three answers side by side (fits 1280 px)
+MIN_WIDTH = 560
+
+
 class RestorePrompt(QDialog):
     """The question, with the saved edits listed and any change of the recording."""
 
@@ -114,8 +118,15 @@ class RestorePrompt(QDialog):
         self.edits.addItems(lines[:_LISTED])
         if len(lines) > _LISTED:
             self.edits.addItem(f"… and {len(lines) - _LISTED} more")
+        # each edit whole: a long one wraps onto a second line instead of running off
+        self.edits.setWordWrap(True)
+        self.edits.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.edits.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        for i in range(self.edits.count()):
+            self.edits.item(i).setToolTip(self.edits.item(i).text())
         self.edits.setMaximumHeight(160)
         layout.addWidget(self.edits)
+        self.setMinimumWidth(MIN_WIDTH)
 
         box = QDialogButtonBox()
         self.restore_button = box.addButton("Restore edits",

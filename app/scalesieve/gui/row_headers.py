@@ -17,6 +17,9 @@ from PySide6.QtWidgets import (QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy,
 
 from scalesieve.views.band_labels import db_to_gain, gain_to_db, hz_range
 
+#: a row header's band name at least this wide, and it with the Hz range together this wide
+#: (the header's 390 px less its margins, spacing, share bar, mark, gain field and buttons)
+NAME_MIN, HZ_AND_NAME = 26, 124
 #: the gain field's range in dB; its lowest value reads −∞ and mutes the band
 GAIN_MIN_DB, GAIN_MAX_DB = -60.5, 24.0
 MUTE_TEXT = "−∞ dB"
@@ -41,7 +44,7 @@ class ShareBar(QWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
         self.share = 0.0
-        self.setFixedWidth(54)
+        self.setFixedWidth(48)
         self.setMinimumHeight(12)
         self.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Preferred)
 
@@ -70,6 +73,21 @@ class ShareBar(QWidget):
         p.end()
 
 
+class GainField(QDoubleSpinBox):
+    """The gain in dB; the wheel changes it only once it has the focus (a wheel passing
+    over a column of them scrolls the rows instead of changing gains on the way)."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
+
+    def wheelEvent(self, ev):  # noqa: N802 - Qt API
+        if not self.hasFocus():
+            ev.ignore()
+            return
+        super().wheelEvent(ev)
+
+
 class RowHeader(QWidget):
     """Controls of one band (one row of the Scale map)."""
 
@@ -87,12 +105,12 @@ class RowHeader(QWidget):
         lay.setSpacing(4)
         self.hz = QLabel("")
         self.hz.setObjectName("bandHz")
-        self.hz.setFixedWidth(110)
+        self.hz.setFixedWidth(HZ_AND_NAME - NAME_MIN)
         self.name = QLabel("")
         self.name.setObjectName("bandInfo")
-        self.name.setFixedWidth(26)
+        self.name.setFixedWidth(NAME_MIN)
         self.share = ShareBar()
-        self.gain = QDoubleSpinBox()
+        self.gain = GainField()
         self.gain.setRange(GAIN_MIN_DB, GAIN_MAX_DB)
         self.gain.setDecimals(1)
         self.gain.setSingleStep(1.0)
@@ -234,6 +252,20 @@ class RowHeaderColumn(QWidget):
             h.show()
             self.headers[key] = h
         self.empty.setVisible(not keys)
+
+    def fit_text_columns(self) -> None:
+        """One width for every row's band name (wide enough for ``w6.63``), the Hz range
+        beside it taking what the header's fixed controls leave (``HZ_AND_NAME``)."""
+        if not self.headers:
+            return
+        heads = list(self.headers.values())
+        fm_name, fm_hz = heads[0].name.fontMetrics(), heads[0].hz.fontMetrics()
+        name_w = max([NAME_MIN] + [fm_name.horizontalAdvance(h.name.text()) + 3 for h in heads])
+        hz_w = HZ_AND_NAME - name_w
+        for h in heads:
+            if h.name.width() != name_w or h.hz.width() != hz_w:
+                h.name.setFixedWidth(name_w)
+                h.hz.setFixedWidth(hz_w)
 
     def place(self, top: float, row_height: float) -> None:
         """Put header i at ``top + i * row_height`` (widget coordinates)."""

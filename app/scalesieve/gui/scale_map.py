@@ -27,6 +27,7 @@ from scalesieve.views.decimate import maxabs_columns, maxabs_columns_from_blocks
 from scalesieve.views.edit_words import edit_text
 from scalesieve.gui.pane_frame import (AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN,
                                        make_plot, tick_font)
+from scalesieve.gui.map_scroll import RowScroll
 from scalesieve.gui.map_regions import (MapRegions, MapViewBox,  # noqa: F401
                                         RegionOutline, contiguous_runs)
 from scalesieve.gui.resource_files import colour, palette
@@ -115,7 +116,8 @@ class ScaleMapPane(MapRegions, QFrame):
         body = QHBoxLayout()
         body.setContentsMargins(0, 0, 0, 0)
         body.setSpacing(0)
-        outer.addLayout(body, 1)
+        self.row_scroll = RowScroll(body, self.bar_widget, RIGHT_MARGIN)   # many rows scroll
+        outer.addWidget(self.row_scroll, 1)
         self.header_column = RowHeaderColumn()
         self.header_column.setObjectName("gutter")
         self.header_column.setAttribute(Qt.WidgetAttribute.WA_StyledBackground, True)
@@ -386,6 +388,7 @@ class ScaleMapPane(MapRegions, QFrame):
             h.show_gain(g.gain if g is not None and g.enabled else None,
                         "; ".join(edit_text(e, m) for e in thr) or None)
             h.set_selected(key in self.selected_rows)
+        self.header_column.fit_text_columns()
 
     def _header_gain(self, key, gain: float) -> None:
         keys = self.selected_rows if key in self.selected_rows else [key]
@@ -497,6 +500,7 @@ class ScaleMapPane(MapRegions, QFrame):
             c = m.coefficients(self.channel, key)
             self._ref[key] = float(max(c.max(), -c.min())) if c.size else 0.0
         self.header_column.set_keys(self.keys, self._make_header)
+        self.row_scroll.fit_rows(len(self.keys))
         self.view.setLimits(yMin=0, yMax=len(self.keys))
         self.view.setYRange(0, len(self.keys), padding=0)
         self._row_view = None

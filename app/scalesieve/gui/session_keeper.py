@@ -153,6 +153,12 @@ class SessionKeeper(QObject):
         self._checking = path
         self._look.request(path, lambda check: _look_for_saved_edits(path))
 
+    def hash_aside(self, path: str) -> None:
+        """Fingerprint ``path`` in the worker thread; what was to be saved is saved after."""
+        self._checking = path
+        self._owed_save = True
+        self._look.request(path, lambda check: _fingerprint_aside(path))
+
     def _looked(self, path, result, problem) -> None:
         if path != self._checking:
             return                   # another recording was opened meanwhile
@@ -161,11 +167,15 @@ class SessionKeeper(QObject):
             return
         if problem is not None:
             self.last_problem = problem
+            self._refingerprint = False
         else:
             info, opened, trouble = result
             self._opened = opened
             if trouble is not None:
                 self.last_problem = trouble
+                # saved with the fingerprint the session has (no second try on the
+                # window's thread)
+                self._refingerprint = False
             elif info is not None:
                 self._answer(path, info)
         if self._owed_save:
@@ -305,12 +315,14 @@ class SessionKeeper(QObject):
                 return None
             self._hold = None
         if self._refingerprint:
+            if self._opened is None:
+                # The user chose these edits for the file as it is now, and it has not
+                # been hashed yet (its size changed, so comparing did not need to): the
+                # worker hashes it, and the save follows when that is done.
+                self.hash_aside(path)
+                return None
             self._refingerprint = False
-            try:
-                # The user chose these edits for the file as it is now.
-                fingerprint = self._opened or autosave.fingerprint(path)
-            except ScalesieveError as exc:
-                self.last_problem = exc.one_line()
+            fingerprint = self._opened
         recipe_json = model.recipe().to_json()
         try:
             if self._captured is not None and autosave.same_recipe(recipe_json,
@@ -341,4 +353,19 @@ def _look_for_saved_edits(path: str):
         opened = info.current if info is not None else autosave.fingerprint(path)
     except ScalesieveError as exc:
         return None, None, exc.one_line()
+    if info is not None and opened is None and info.changed:
+        # A changed size is told without hashing; a restore onto the file as it is now
+        # takes its new fingerprint, made here rather than on the window's thread.
+        try:
+            opened = autosave.fingerprint(path)
+        except ScalesieveError:
+            opened = None               # gone or unreadable: the offer still comes
     return info, opened, None
+
+
+def _fingerprint_aside(path: str):
+    """``(None, the recording's fingerprint or None, problem or None)``, in a worker thread."""
+    try:
+        return None, autosave.fingerprint(path), None
+    except ScalesieveError as exc:
+        return None, None, exc.one_line()

@@ -41,7 +41,7 @@ class WaveletShape(pg.PlotWidget):
 
     def __init__(self, parent=None):
         super().__init__(parent, background=colour("plot", "background"))
-        self.setFixedSize(300, 110)
+        self.setFixedSize(300, 128)         # a caption line above the curve
         pi = self.getPlotItem()
         pi.hideButtons()
         pi.setMenuEnabled(False)
@@ -53,6 +53,9 @@ class WaveletShape(pg.PlotWidget):
     def show_wavelet(self, name: str) -> None:
         x, psi = wavelet_shape(name)
         self.curve.setData(x, psi)
+        # what the curve is: without a caption the picture is an unnamed wiggle
+        self.getPlotItem().setTitle(f"wavelet function ψ of {name}, over its support",
+                                    size="8pt")
         self.getPlotItem().autoRange()
 
 

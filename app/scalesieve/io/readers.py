@@ -83,6 +83,10 @@ def _audio_extensions() -> frozenset[str]:
 
 
 AUDIO_EXTENSIONS = _audio_extensions()
+#: every extension the readers take by name: what a folder given as a batch INPUT
+#: contributes.  Headerless ``.raw`` audio is left out: no header gives its rate or format.
+RECORDING_EXTENSIONS = frozenset((AUDIO_EXTENSIONS | TEXT_EXTENSIONS
+                                  | frozenset(measurement_readers.EXTENSIONS)) - {".raw"})
 
 
 def _read_head(source: str) -> bytes:

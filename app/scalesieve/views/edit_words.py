@@ -33,7 +33,8 @@ def bands_text(edit, model) -> str:
     if edit.levels == "all":
         return "every band"
     if model is None:
-        return "level " + ",".join(str(v) for v in edit.levels)
+        levels = [str(v) for v in edit.levels]
+        return ("level " if len(levels) == 1 else "levels ") + ", ".join(levels)
     try:
         keys = edit.band_keys(model.level)
     except ValueError:
