@@ -14,7 +14,9 @@ import soundfile as sf
 
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
-from scalesieve.io import csv_reader, measurement_readers
+# csv_reader (and its time-column and dialect modules) is imported where a text table is
+# read: an audio file's commands do not pay for it at start.
+from scalesieve.io import measurement_readers
 from scalesieve.io.input_check import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
@@ -116,6 +118,8 @@ def _kind(source: str) -> str:
         return "text"
     if ext in AUDIO_EXTENSIONS:
         return "audio"
+    from scalesieve.io import csv_reader
+
     if csv_reader.looks_like_text(head):
         return "text"
     return "audio"
@@ -445,6 +449,8 @@ def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
         raise ScalesieveError(str(exc), source=given) from None
     source, size = check_readable(path)
     kind = _kind(source)
+    if kind in ("text", "xlsx"):
+        from scalesieve.io import csv_reader
     if kind == "text":
         return csv_reader.read_text(source, rate=rate, channel=channel, fill_gaps=fill_gaps,
                                     dtype=dt)
@@ -484,6 +490,8 @@ def probe(path: str | os.PathLike[str]) -> dict:
     source, size = check_readable(path)
     kind = _kind(source)
     if kind == "text":
+        from scalesieve.io import csv_reader
+
         facts = csv_reader.probe_text(source)
     elif kind != "audio":
         found = measurement_readers.probe_facts(source, kind)
