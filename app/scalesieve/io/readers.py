@@ -35,6 +35,11 @@ _AUDIO_MAGIC = (b"RIFF", b"RIFX", b"RF64", b"BW64", b"FORM", b"fLaC", b"OggS", b
 _FIXED_WIDTH = {"PCM_S8": 1, "PCM_U8": 1, "ULAW": 1, "ALAW": 1, "PCM_16": 2,
                 "PCM_24": 3, "PCM_32": 4, "FLOAT": 4, "DOUBLE": 8}
 
+# Integer subtypes: soundfile reads them as value / 2**(bits - 1), never beyond ±1,
+# never NaN or infinite.
+_BOUNDED_SUBTYPES = frozenset({"PCM_S8", "PCM_U8", "PCM_16", "PCM_24", "PCM_32", "ULAW",
+                               "ALAW"})
+
 # Containers whose samples are compressed whatever the subtype says.
 _COMPRESSED_FORMATS = frozenset({"FLAC", "OGG", "MP3", "MPEG"})
 
@@ -281,7 +286,8 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
     if pick is not None:
         meta["channel_index"] = pick
 
-    first = first_unusable(samples)
+    # Integer samples read as floats lie in [-1, 1]: only float subtypes need the scan.
+    first = None if info.subtype in _BOUNDED_SUBTYPES else first_unusable(samples)
     if first is not None and np.isnan(samples[first]) and fill_gaps is not None:
         # Gaps are filled on request; an infinity or a huge value is still refused.
         if np.isinf(samples).any():
