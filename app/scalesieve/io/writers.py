@@ -110,7 +110,7 @@ def _whole_rate(rate: float, target: str) -> int:
     return whole
 
 
-def _check_finite(arr: np.ndarray, target: str) -> set[int]:
+def _finite_and_loud(arr: np.ndarray, target: str) -> set[int]:
     """Refuse NaN and infinite samples; return the starts of the blocks that reach full scale.
 
     One pass of each block's least and greatest value (NaN makes them NaN, an
@@ -227,7 +227,7 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
     sub = _check_subtype(fmt, subtype or _DEFAULT_SUBTYPE.get(fmt) or sf.default_subtype(fmt),
                          target)
     sr = _whole_rate(rate, target)
-    loud = _check_finite(arr, target)
+    loud = _finite_and_loud(arr, target)
     most = _MAX_CHANNELS.get(fmt)
     if most is not None and channels > most:
         raise ScalesieveError(f"{fmt} holds at most {most} channels and this signal has "
