@@ -61,9 +61,7 @@ def test_command_line_refuses_in_one_line(tmp_path, monkeypatch, capsys):
     class Tight:
         available = 1 << 20
 
-    import psutil
-
-    monkeypatch.setattr(psutil, "virtual_memory", lambda: Tight())
+    monkeypatch.setattr(memory_guard, "available_memory", lambda: Tight.available)
     assert main(["bands", str(f)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and err[0].startswith(f"scalesieve: error: {f}: needs about")
@@ -78,3 +76,34 @@ def test_a_header_claiming_more_than_the_file_holds_is_not_believed():
     facts = {"frames": 10**12, "frames_at_most": 1000, "channels": 1, "kind": "audio",
              "file_bytes": 2000}
     assert memory_guard.estimate(facts) == memory_guard.estimate(dict(facts, frames=1000))
+
+
+def test_available_memory_is_the_figure_psutil_gives():
+    # Reference: psutil.virtual_memory().available, which on Linux is the kernel's
+    # MemAvailable; both are read a moment apart, so they may differ by what other
+    # processes did meanwhile (allowed: 5 % of the memory, "common practice" slack).
+    psutil = pytest.importorskip("psutil")
+    ours = memory_guard.available_memory()
+    theirs = int(psutil.virtual_memory().available)
+    total = int(psutil.virtual_memory().total)
+    assert isinstance(ours, int) and ours > 0
+    assert abs(ours - theirs) <= 0.05 * total
+
+
+def test_available_memory_without_proc_meminfo_asks_psutil(monkeypatch):
+    psutil = pytest.importorskip("psutil")
+    import builtins
+
+    real_open = builtins.open
+
+    def no_meminfo(path, *a, **k):
+        if str(path) == "/proc/meminfo":
+            raise FileNotFoundError(path)
+        return real_open(path, *a, **k)
+
+    class Known:
+        available = 123 << 20
+
+    monkeypatch.setattr(builtins, "open", no_meminfo)
+    monkeypatch.setattr(psutil, "virtual_memory", lambda: Known())
+    assert memory_guard.available_memory() == 123 << 20

@@ -161,6 +161,10 @@ def _main(argv: list[str] | None = None) -> int:
             return 0
         parser, mod = build_parser(command)
         args = parser.parse_args(rest)
+        if command is not None:
+            from scalesieve.freed_memory import keep_freed_memory
+
+            keep_freed_memory()     # a command's block temporaries reused, not fresh pages
         return int(mod.run(args) or 0)
     except UsageError as exc:
         print(f"{PROG}: error: {exc}", file=sys.stderr)

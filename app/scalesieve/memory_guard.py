@@ -80,6 +80,26 @@ def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
     return int(need)
 
 
+def available_memory() -> int:
+    """Bytes of memory a new allocation can have without swapping, as psutil counts them.
+
+    On Linux that is the kernel's own estimate, ``MemAvailable`` in
+    ``/proc/meminfo`` (what ``psutil.virtual_memory().available`` reads there),
+    read directly: importing psutil costs a short command more than the reading.
+    Elsewhere, or on a kernel without that line, psutil's figure.
+    """
+    try:
+        with open("/proc/meminfo", "rb") as fh:
+            for line in fh:
+                if line.startswith(b"MemAvailable:"):
+                    return int(line.split()[1]) * 1024      # the kernel writes kB
+    except (OSError, ValueError, IndexError):
+        pass
+    import psutil
+
+    return int(psutil.virtual_memory().available)
+
+
 def probe_quietly(path: str | os.PathLike) -> dict | None:
     """The facts of a recording (a text table's from its first rows: ``frames`` estimated),
     or None (a file reading will refuse)."""
@@ -132,7 +152,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
     channel, dtype, transform
         As for ``estimate``.
     available : int, optional
-        Bytes free; default ``psutil.virtual_memory().available``.
+        Bytes free; default :func:`available_memory`.
 
     outputs : list of str, optional
         Given (empty for ``bands`` and ``events``, the files a clean will
@@ -156,12 +176,10 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         Naming how much is needed and what would need less (one channel,
         float32 samples, the DWT instead of the SWT).
     """
-    import psutil
-
     from scalesieve.io.readers import TEXT_EXTENSIONS, probe
 
     if available is None:
-        available = int(psutil.virtual_memory().available)
+        available = available_memory()
     source = os.fspath(path)
     if os.path.splitext(source)[1].lower() in TEXT_EXTENSIONS:
         try:

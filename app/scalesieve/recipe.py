@@ -15,27 +15,18 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Iterable
 
 from scalesieve.core.thresholds import NOISE, RULES, SHAPES
-from scalesieve.core.transforms import MODES, TransformSpec, discrete_wavelets
+from scalesieve.core.transforms import TransformSpec, discrete_wavelets
 from scalesieve.errors import ScalesieveError
+# The file's keys and ranges live beside its schema; these names stay importable here.
+from scalesieve.recipe_schema import (_COMMON_KEYS, _OP_KEYS, _REQUIRED,  # noqa: F401
+                                      LEVEL_WORDS, MAX_BAND_NAMES, MAX_CHANNEL, MAX_EDITS,
+                                      MAX_LEVEL, OPS, RECIPE_VERSION, VALUE_RANGES)
+from scalesieve import recipe_schema
+from scalesieve.recipe_schema import short_text as _short
 
-RECIPE_VERSION = 1
-OPS = ("gain", "threshold", "region")
-LEVEL_WORDS = ("details", "all")
-
-_COMMON_KEYS = {"op", "levels", "bands", "channels", "enabled"}
-_OP_KEYS = {
-    "gain": {"gain"},
-    "threshold": {"rule", "shape", "noise", "value", "scale"},
-    "region": {"start_s", "stop_s", "gain"},
-}
-_REQUIRED = {"gain": {"gain"}, "threshold": {"rule"}, "region": {"start_s", "stop_s"}}
-#: longest list of band names one edit may carry (a packet tree to depth 12 has 4096)
-MAX_BAND_NAMES = 1 << 16
 
 # Largest recipe file we read: a recipe is a short list of edits.
 MAX_RECIPE_BYTES = 8 * 1024 * 1024
-#: Most edits one recipe may hold (each is replayed on every channel).
-MAX_EDITS = 10_000
 # A version-1 recipe nests four deep (recipe, edits, edit, levels); deeper is not one.
 _MAX_DEPTH = 16
 
@@ -227,25 +218,7 @@ def resolve_levels(levels: Any, level: int) -> list:
     return keys
 
 
-#: Ranges of the numeric keys (inclusive); a recipe outside them is refused.
-#: Gains and scales beyond a million only blow a band up; times are seconds
-#: from the start of the recording.
-VALUE_RANGES = {
-    "gain": (0.0, 1e6),
-    "scale": (0.0, 1e6),
-    "value": (0.0, 1e100),
-    "start_s": (0.0, 1e12),
-    "stop_s": (0.0, 1e12),
-}
-#: A level beyond this would need more than 2**64 samples.
-MAX_LEVEL = 64
-MAX_CHANNEL = 65535
 
-
-def _short(text: str, limit: int = 80) -> str:
-    """A value quoted in a message, cut so the message stays one readable line."""
-    text = " ".join(str(text).split())
-    return text if len(text) <= limit else text[:limit - 1] + "…"
 
 
 def _num(v) -> str:
@@ -388,81 +361,6 @@ def check_against(recipe_edits: Iterable[Edit], level, duration_s: float | None 
 # reading and validating
 
 
-def _schema() -> dict:
-    def num(key):
-        lo, hi = VALUE_RANGES[key]
-        return {"type": "number", "minimum": lo, "maximum": hi}
-
-    level = {"type": "integer", "minimum": 1, "maximum": MAX_LEVEL}
-    level_list = {"type": "array", "minItems": 1, "maxItems": MAX_LEVEL + 1,
-                  "items": {"anyOf": [level, {"const": "a"}]}}
-    return {
-        "type": "object",
-        "required": ["scalesieve_recipe", "edits"],
-        "additionalProperties": False,
-        "properties": {
-            "scalesieve_recipe": {"const": RECIPE_VERSION},
-            "transform": {
-                "type": "object", "additionalProperties": False,
-                "properties": {
-                    "kind": {"enum": ["dwt", "swt", "packet"]},
-                    "wavelet": {"type": "string"},
-                    "level": {"anyOf": [level, {"type": "null"}]},
-                    "mode": {"enum": list(MODES)},
-                    "basis": {"anyOf": [{"enum": ["full", "best"]},
-                                        {"type": "array", "minItems": 1, "maxItems": 1 << 16,
-                                         "items": {"type": "string",
-                                                   "pattern": "^[ad]{1,64}$"}}]},
-                    "cost": {"enum": ["shannon", "log-energy"]},
-                },
-            },
-            "edits": {"type": "array", "maxItems": MAX_EDITS, "items": _edit_schema()},
-        },
-    }
-
-
-def _edit_schema() -> dict:
-    """One edit of a version-1 recipe: its keys by op, their types and ranges."""
-    def num(key):
-        lo, hi = VALUE_RANGES[key]
-        return {"type": "number", "minimum": lo, "maximum": hi}
-
-    level = {"type": "integer", "minimum": 1, "maximum": MAX_LEVEL}
-    level_list = {"type": "array", "minItems": 1, "maxItems": MAX_LEVEL + 1,
-                  "items": {"anyOf": [level, {"const": "a"}]}}
-    by_op = [{"if": {"properties": {"op": {"const": op}}, "required": ["op"]},
-              "then": {"required": sorted(_REQUIRED[op]),
-                       "propertyNames": {"enum": sorted(_COMMON_KEYS | _OP_KEYS[op])},
-                       # levels or bands, not both
-                       "oneOf": [{"required": ["levels"], "not": {"required": ["bands"]}},
-                                 {"required": ["bands"], "not": {"required": ["levels"]}}]}}
-             for op in OPS]
-    by_op.append({"if": {"properties": {"op": {"const": "threshold"},
-                                        "rule": {"const": "manual"}},
-                         "required": ["op", "rule"]},
-                  "then": {"required": ["value"]}})
-    return {"type": "object",
-                "required": ["op"],
-                "allOf": by_op,
-                "properties": {
-                    "op": {"enum": list(OPS)},
-                    "levels": {"anyOf": [level_list, {"enum": list(LEVEL_WORDS)}]},
-                    "bands": {"type": "array", "minItems": 1, "maxItems": MAX_BAND_NAMES,
-                              "items": {"type": "string", "maxLength": 64}},
-                    "channels": {"type": "array", "minItems": 1, "maxItems": MAX_CHANNEL + 1,
-                                 "items": {"type": "integer", "minimum": 0,
-                                           "maximum": MAX_CHANNEL}},
-                    "enabled": {"type": "boolean"},
-                    "gain": num("gain"),
-                    "rule": {"enum": list(RULES)},
-                    "shape": {"enum": list(SHAPES)},
-                    "noise": {"enum": list(NOISE)},
-                    "value": num("value"),
-                    "scale": num("scale"),
-                    "start_s": num("start_s"),
-                    "stop_s": num("stop_s"),
-                }}
-
 
 def _reject_constant(name: str):
     raise ValueError(f"{name} is not a number JSON allows")
@@ -551,80 +449,6 @@ def load(path: str | os.PathLike) -> Recipe:
     return loads(text, p)
 
 
-def _where(path, data=None) -> str:
-    parts = list(path)
-    if len(parts) >= 2 and parts[0] == "edits" and isinstance(parts[1], int):
-        rest = ".".join(str(x) for x in parts[2:])
-        op = None
-        try:
-            op = data["edits"][parts[1]].get("op") if data is not None else None
-        except (AttributeError, IndexError, KeyError, TypeError):
-            pass
-        head = f"edit {parts[1] + 1}" + (f" ({op})" if isinstance(op, str) and op in OPS
-                                          else "")
-        return head + (f" key '{rest}'" if rest else "")
-    return "key '" + ".".join(str(x) for x in parts) + "'" if parts else "recipe"
-
-
-_VALIDATORS: dict = {}
-
-
-def _validator(schema: dict):
-    """A cached Draft 2020-12 validator (jsonschema is imported only when one is needed)."""
-    import jsonschema  # only when a recipe is checked: keeps small commands quick
-
-    key = json.dumps(schema, sort_keys=True)
-    if key not in _VALIDATORS:
-        _VALIDATORS[key] = jsonschema.Draft202012Validator(schema)
-    return _VALIDATORS[key]
-
-
-def _schema_message(er) -> str:
-    """jsonschema's message with the offending value shortened."""
-    value = _short(repr(er.instance), 60)
-    v = er.validator
-    path = [str(p) for p in er.absolute_path]
-    if v == "required":
-        missing = [k for k in er.validator_value if k not in er.instance]
-        if missing == ["value"]:
-            return "rule 'manual' needs a 'value'"
-        return f"missing key '{missing[0]}'" if missing else _short(er.message, 160)
-    if v == "additionalProperties":
-        known = sorted(er.schema.get("properties", {}))
-        extra = [k for k in er.instance if k not in known]
-        return (f"unknown key {_short(repr(extra[0]), 60)} (known: {', '.join(known)})"
-                if extra else _short(er.message, 160))
-    if v == "propertyNames" or "propertyNames" in er.relative_schema_path:
-        known = er.validator_value if v == "enum" else er.schema["propertyNames"]["enum"]
-        return f"unknown key {_short(repr(er.instance), 60)} (known: {', '.join(known)})"
-    if v == "oneOf" and isinstance(er.instance, dict):
-        if "levels" in er.instance and "bands" in er.instance:
-            return "give 'levels' or 'bands', not both"
-        return "missing key 'levels' (or 'bands')"
-    if v == "enum" and path and path[-1] == "op":
-        return f"unknown op {value} (known: {', '.join(OPS)})"
-    if v == "type" and er.instance is None and er.validator_value == "number":
-        return "must be a number, not None"
-    if v == "type":
-        return f"{value} is not of type {er.validator_value!r}"
-    if v == "enum":
-        return f"{value} is not one of {', '.join(map(str, er.validator_value))}"
-    if v == "const":
-        return f"{value} is not {er.validator_value!r}"
-    if v in ("minimum", "maximum"):
-        word = "below the minimum" if v == "minimum" else "above the maximum"
-        return f"{value} is {word} of {er.validator_value:g}"
-    if v == "anyOf" and "levels" in path:
-        return (f"{value} is not a level (1 to {MAX_LEVEL}), 'a', a list of them, "
-                "'details' or 'all'")
-    if v == "anyOf":
-        return f"{value} is not an allowed value"
-    if v in ("maxItems", "minItems"):
-        if v == "maxItems":
-            return (f"holds {len(er.instance)} items; at most {er.validator_value} are "
-                    "allowed")
-        return f"has fewer than {er.validator_value} items"
-    return _short(er.message, 160)
 
 
 def from_json(data: Any, source: str | None = None) -> Recipe:
@@ -645,12 +469,11 @@ def from_json(data: Any, source: str | None = None) -> Recipe:
             f"(this program reads version {RECIPE_VERSION})", source)
     if _too_deep(data):
         raise ScalesieveError("not a recipe: its JSON nests deeper than a recipe does", source)
-    # Keys, ops, types and ranges: the schema, once.
-    errors = sorted(_validator(_schema()).iter_errors(data),
-                    key=lambda er: [str(p) for p in er.absolute_path])
-    if errors:
-        er = errors[0]
-        raise ScalesieveError(f"{_where(er.absolute_path, data)}: {_schema_message(er)}", source)
+    # Keys, ops, types and ranges: the schema, once (by hand where that is sure).
+    if not recipe_schema.quick_valid(data):
+        problem = recipe_schema.first_error(data)
+        if problem is not None:
+            raise ScalesieveError(problem, source)
     transform = data.get("transform")
     edits_raw = data["edits"]
     spec = None

@@ -75,6 +75,25 @@ def test_clipping_is_counted_and_clipped_to_full_scale(tmp_path):
     assert got[1] == got[2] == 32767 and got[4] == got[5] == -32768
 
 
+def test_clipping_in_a_few_blocks_of_a_long_signal_is_counted_and_clipped(tmp_path):
+    # Blocks of the writer are 65536 frames; loud samples at and around their edges,
+    # in one channel of two. Reference: Python's wave module reading the frames, and
+    # 16-bit full scale (-32768 .. 32767, the WAV format's signed PCM).
+    x = np.random.default_rng(3).uniform(-0.5, 0.5, (200_000, 2))
+    loud = [(65535, 1, 1.5), (65536, 1, -2.0), (131071, 0, 1.0), (199_999, 0, -1.25)]
+    for r, c, v in loud:
+        x[r, c] = v
+    out = write_audio(tmp_path / "long.wav", x, 8000, subtype="PCM_16")
+    assert out["clipped"] == int(np.count_nonzero((x < -1) | (x >= 1))) == 4
+    _, raw = wave_frames(tmp_path / "long.wav")
+    got = np.frombuffer(raw, "<i2").reshape(-1, 2)
+    assert [int(got[r, c]) for r, c, _ in loud] == [32767, -32768, 32767, -32768]
+    quiet = np.ones(x.shape, bool)
+    for r, c, _ in loud:
+        quiet[r, c] = False
+    assert np.all(np.abs(got[quiet] / 32768.0 - x[quiet]) <= 1 / 32768)
+
+
 def test_float_keeps_values_beyond_full_scale(tmp_path):
     x = np.array([[0.5, 2.5], [-4.0, 0.1]])
     out = write_audio(tmp_path / "f.wav", x, 48000)  # default FLOAT

@@ -13,7 +13,9 @@ Prints one JSON line of figures measured side by side in one run (medians of
 * ``kurtosis_s``, ``envelope_s`` (band ``best``: the kurtosis search is part of
   it) and ``envelope_named_s`` (a named band) against ``forward_dwt_s``, one
   forward DWT of the recording at its default depth, on ``--samples`` (10 M);
-  targets: within 3;
+  targets: within 3; this process keeps freed arrays for reuse, as the
+  ``kurtosis`` and ``envelope`` commands do (``--default-allocator``: not);
+  ``*_ratio_range``: the least and greatest of the ratios of each round;
 * with ``--window``: a packet band's gain change in the window at
   ``--samples``, from the click to the repainted 1600x1000 window (target
   150 ms), beside one pass over the signal's memory;
@@ -25,6 +27,7 @@ Prints one JSON line of figures measured side by side in one run (medians of
 
     python tests/perf/bench_packets.py [--samples 10000000] [--bands-samples 4000000]
                                        [--repeat 3] [--window] [--impacts] [--only-window]
+                                       [--no-bands] [--default-allocator]
 """
 
 from __future__ import annotations
@@ -84,12 +87,21 @@ def main() -> None:
     ap.add_argument("--impacts", action="store_true")
     ap.add_argument("--only-window", action="store_true",
                     help="only the window figures (--window, --impacts)")
+    ap.add_argument("--no-bands", action="store_true",
+                    help="leave out the bands-against-a-bare-script pair (fresh processes)")
+    ap.add_argument("--default-allocator", action="store_true",
+                    help="leave glibc's allocator as it is (the commands ask it to keep freed "
+                         "arrays for reuse, scalesieve.freed_memory; by default so does this)")
     args = ap.parse_args()
+    from scalesieve.freed_memory import keep_freed_memory
+
+    kept = False if args.default_allocator else keep_freed_memory()
     from scalesieve.core import envelope as en
     from scalesieve.core import impulsive_bands as ib
     from scalesieve.core import transforms as tf
 
-    res: dict = {"benchmark": "packets", "load_average": os.getloadavg()[0]}
+    res: dict = {"benchmark": "packets", "load_average": os.getloadavg()[0],
+                 "freed_memory_kept": kept}
     if args.only_window:
         x = recording(args.samples, args.rate)
         res["samples"] = args.samples
@@ -99,36 +111,37 @@ def main() -> None:
             res.update(impacts_pause(x, args.rate, args.repeat))
         print(json.dumps(res))
         return
-    with tempfile.TemporaryDirectory() as tmp:
-        path = os.path.join(tmp, "long.wav")
-        sf.write(path, recording(args.bands_samples, args.rate).astype(np.float32),
-                 int(args.rate), subtype="FLOAT")
-        cmd = [sys.executable, "-m", "scalesieve", "bands", path, "--transform", "packet",
-               "--level", "6", "--json"]
-        bare = [sys.executable, "-c", BARE, path]
-        # as this shell runs them, and with compiled modules cached for both (in a
-        # scratch folder): with PYTHONDONTWRITEBYTECODE set, every start compiles our
-        # modules again while the libraries' are compiled at install
-        cached = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
-        cached["PYTHONPYCACHEPREFIX"] = os.path.join(tmp, "pyc")
-        for argv in (cmd, bare):
-            subprocess.run(argv, check=True, stdout=subprocess.DEVNULL, env=cached)
-        ours, theirs, ours_c, theirs_c = [], [], [], []
-        for _ in range(args.repeat):
-            for argv, acc, env in ((cmd, ours, None), (bare, theirs, None),
-                                   (cmd, ours_c, cached), (bare, theirs_c, cached)):
-                t = time.perf_counter()
-                subprocess.run(argv, check=True, stdout=subprocess.DEVNULL, env=env)
-                acc.append(time.perf_counter() - t)
-        res["bands_samples"] = args.bands_samples
-        res["bands_packet_s"] = round(statistics.median(ours), 3)
-        res["bare_packet_s"] = round(statistics.median(theirs), 3)
-        res["ratio_bands_to_bare"] = round(res["bands_packet_s"] / res["bare_packet_s"], 2)
-        res["dont_write_bytecode"] = bool(os.environ.get("PYTHONDONTWRITEBYTECODE"))
-        res["bands_packet_cached_s"] = round(statistics.median(ours_c), 3)
-        res["bare_packet_cached_s"] = round(statistics.median(theirs_c), 3)
-        res["ratio_bands_to_bare_cached"] = round(
-            res["bands_packet_cached_s"] / res["bare_packet_cached_s"], 2)
+    if not args.no_bands:
+        with tempfile.TemporaryDirectory() as tmp:
+            path = os.path.join(tmp, "long.wav")
+            sf.write(path, recording(args.bands_samples, args.rate).astype(np.float32),
+                     int(args.rate), subtype="FLOAT")
+            cmd = [sys.executable, "-m", "scalesieve", "bands", path, "--transform", "packet",
+                   "--level", "6", "--json"]
+            bare = [sys.executable, "-c", BARE, path]
+            # as this shell runs them, and with compiled modules cached for both (in a
+            # scratch folder): with PYTHONDONTWRITEBYTECODE set, every start compiles our
+            # modules again while the libraries' are compiled at install
+            cached = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+            cached["PYTHONPYCACHEPREFIX"] = os.path.join(tmp, "pyc")
+            for argv in (cmd, bare):
+                subprocess.run(argv, check=True, stdout=subprocess.DEVNULL, env=cached)
+            ours, theirs, ours_c, theirs_c = [], [], [], []
+            for _ in range(args.repeat):
+                for argv, acc, env in ((cmd, ours, None), (bare, theirs, None),
+                                       (cmd, ours_c, cached), (bare, theirs_c, cached)):
+                    t = time.perf_counter()
+                    subprocess.run(argv, check=True, stdout=subprocess.DEVNULL, env=env)
+                    acc.append(time.perf_counter() - t)
+            res["bands_samples"] = args.bands_samples
+            res["bands_packet_s"] = round(statistics.median(ours), 3)
+            res["bare_packet_s"] = round(statistics.median(theirs), 3)
+            res["ratio_bands_to_bare"] = round(res["bands_packet_s"] / res["bare_packet_s"], 2)
+            res["dont_write_bytecode"] = bool(os.environ.get("PYTHONDONTWRITEBYTECODE"))
+            res["bands_packet_cached_s"] = round(statistics.median(ours_c), 3)
+            res["bare_packet_cached_s"] = round(statistics.median(theirs_c), 3)
+            res["ratio_bands_to_bare_cached"] = round(
+                res["bands_packet_cached_s"] / res["bare_packet_cached_s"], 2)
 
     x = recording(args.samples, args.rate)
     spec = tf.TransformSpec().resolved(x.shape[0])
@@ -146,6 +159,9 @@ def main() -> None:
     res["ratio_kurtosis_to_dwt"] = round(res["kurtosis_s"] / f, 2)
     res["ratio_envelope_to_dwt"] = round(res["envelope_s"] / f, 2)
     res["ratio_envelope_named_to_dwt"] = round(res["envelope_named_s"] / f, 2)
+    for name, got in (("kurtosis", kur), ("envelope", env), ("envelope_named", named)):
+        paired = [g / d for g, d in zip(got, fwd)]
+        res[f"{name}_ratio_range"] = [round(min(paired), 2), round(max(paired), 2)]
     if args.window:
         res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
     if args.impacts:

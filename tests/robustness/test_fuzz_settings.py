@@ -15,7 +15,7 @@ import sys
 import pytest
 
 TESTS = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-FUZZ_MODULES = ["test_fuzz_inputs", "test_recipe_checks", "test_edge_cases"]
+FUZZ_MODULES = ["test_fuzz_inputs", "test_recipe_checks", "test_edge_cases", "test_recipe_schema"]
 
 _PROBE = r"""
 import importlib, json, os, sys

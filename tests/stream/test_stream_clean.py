@@ -146,9 +146,7 @@ def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monke
     class Tight:
         available = 8 << 20
 
-    import psutil
-
-    monkeypatch.setattr(psutil, "virtual_memory", lambda: Tight())
+    monkeypatch.setattr(memory_guard, "available_memory", lambda: Tight.available)
     # ... and refused, saying why, when it does not fit
     assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1",
                  "--fill-gaps", "linear"]) == 2

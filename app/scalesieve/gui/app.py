@@ -78,7 +78,7 @@ def make_application(argv: list[str] | None = None):
     import pyqtgraph as pg
     from PySide6.QtWidgets import QApplication
 
-    from scalesieve.gui.freed_memory import keep_freed_memory
+    from scalesieve.freed_memory import keep_freed_memory
     from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons
     from scalesieve.gui.resource_files import colour, icon, style_sheet
 

@@ -1,39 +1,4 @@
-"""The window's process keeps freed working arrays for reuse (glibc's allocator).
+"""Where the window's allocator setting lived; it is ``scalesieve.freed_memory`` now."""
 
-An edit on a long recording makes temporaries of a few to a few tens of
-megabytes.  By default glibc hands each back to the system when it is
-freed, so the next edit's temporaries are fresh pages that the kernel must
-find and zero (and, on a virtual machine, the host may first have to back):
-on 100 M samples that was about half of a region edit's time.  Blocks up to
-32 MiB (glibc's ceiling for this setting) then come from the heap, and up
-to 256 MiB of free memory at its top is kept, so they are reused.  Larger
-arrays (whole signals) are still given back when freed.  With another C
-library this does nothing.
-"""
-
-from __future__ import annotations
-
-import ctypes
-import sys
-
-#: glibc's mallopt parameters
-M_TRIM_THRESHOLD = -1
-M_MMAP_THRESHOLD = -3
-#: blocks up to this size come from the heap and are reused once freed
-MMAP_THRESHOLD = 32 << 20
-#: free memory kept at the top of the heap before it is given back
-TRIM_THRESHOLD = 256 << 20
-
-
-def keep_freed_memory() -> bool:
-    """Ask the C library to keep freed blocks for reuse; True when it took the settings."""
-    if not sys.platform.startswith("linux"):
-        return False
-    try:
-        mallopt = ctypes.CDLL(None).mallopt     # the process's own C library
-    except (OSError, AttributeError):
-        return False
-    mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
-    mallopt.restype = ctypes.c_int
-    return bool(mallopt(M_MMAP_THRESHOLD, MMAP_THRESHOLD)
-                and mallopt(M_TRIM_THRESHOLD, TRIM_THRESHOLD))
+from scalesieve.freed_memory import (M_MMAP_THRESHOLD, M_TRIM_THRESHOLD,  # noqa: F401
+                                     MMAP_THRESHOLD, TRIM_THRESHOLD, keep_freed_memory)

@@ -81,12 +81,16 @@ def first_too_large(values: np.ndarray, block: int = 1 << 20) -> tuple[int, int]
 def first_unusable(values: np.ndarray, block: int = 1 << 16) -> tuple[int, int] | None:
     """``(row, column)`` of the first NaN, infinite or too large value, or ``None``.
 
-    One blocked pass (``not |x| <= MAX`` is true for all three), so checking a
-    long recording costs one read of it and no full-size temporary.
+    One blocked pass, so checking a long recording costs one read of it and no
+    full-size temporary: a block whose least and greatest values lie within
+    ±MAX holds none of the three (a NaN makes both NaN, and NaN fails every
+    comparison); only a block that fails is looked through value by value.
     """
     limit = min(MAX_ABS_SAMPLE, float(np.finfo(values.dtype).max))
     for start in range(0, values.shape[0], block):
         part = values[start:start + block]
+        if part.size and -limit <= part.min() and part.max() <= limit:
+            continue
         ok = np.abs(part) <= limit
         if not ok.all():
             r, c = np.argwhere(~ok)[0]

@@ -14,7 +14,9 @@ import soundfile as sf
 
 from scalesieve.core.recording import Recording
 from scalesieve.errors import ScalesieveError
-from scalesieve.io import csv_reader, measurement_readers
+# csv_reader (and its time-column and dialect modules) is imported where a text table is
+# read: an audio file's commands do not pay for it at start.
+from scalesieve.io import measurement_readers
 from scalesieve.io.input_check import check_channel, check_rate
 from scalesieve.io.gaps import check_fill_method, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
@@ -32,6 +34,11 @@ _AUDIO_MAGIC = (b"RIFF", b"RIFX", b"RF64", b"BW64", b"FORM", b"fLaC", b"OggS", b
 # Bytes per sample of subtypes whose size follows from the frame count.
 _FIXED_WIDTH = {"PCM_S8": 1, "PCM_U8": 1, "ULAW": 1, "ALAW": 1, "PCM_16": 2,
                 "PCM_24": 3, "PCM_32": 4, "FLOAT": 4, "DOUBLE": 8}
+
+# Integer subtypes: soundfile reads them as value / 2**(bits - 1), never beyond ±1,
+# never NaN or infinite.
+_BOUNDED_SUBTYPES = frozenset({"PCM_S8", "PCM_U8", "PCM_16", "PCM_24", "PCM_32", "ULAW",
+                               "ALAW"})
 
 # Containers whose samples are compressed whatever the subtype says.
 _COMPRESSED_FORMATS = frozenset({"FLAC", "OGG", "MP3", "MPEG"})
@@ -120,6 +127,8 @@ def _kind(source: str) -> str:
         return "text"
     if ext in AUDIO_EXTENSIONS:
         return "audio"
+    from scalesieve.io import csv_reader
+
     if csv_reader.looks_like_text(head):
         return "text"
     return "audio"
@@ -281,7 +290,8 @@ def _read_audio(source: str, size: int, *, rate, channel, fill_gaps, dtype) -> R
     if pick is not None:
         meta["channel_index"] = pick
 
-    first = first_unusable(samples)
+    # Integer samples read as floats lie in [-1, 1]: only float subtypes need the scan.
+    first = None if info.subtype in _BOUNDED_SUBTYPES else first_unusable(samples)
     if first is not None and np.isnan(samples[first]) and fill_gaps is not None:
         # Gaps are filled on request; an infinity or a huge value is still refused.
         if np.isinf(samples).any():
@@ -449,6 +459,8 @@ def read_recording(path: str | os.PathLike[str], *, rate: float | None = None,
         raise ScalesieveError(str(exc), source=given) from None
     source, size = check_readable(path)
     kind = _kind(source)
+    if kind in ("text", "xlsx"):
+        from scalesieve.io import csv_reader
     if kind == "text":
         return csv_reader.read_text(source, rate=rate, channel=channel, fill_gaps=fill_gaps,
                                     dtype=dt)
@@ -488,6 +500,8 @@ def probe(path: str | os.PathLike[str]) -> dict:
     source, size = check_readable(path)
     kind = _kind(source)
     if kind == "text":
+        from scalesieve.io import csv_reader
+
         facts = csv_reader.probe_text(source)
     elif kind != "audio":
         found = measurement_readers.probe_facts(source, kind)

@@ -110,14 +110,25 @@ def _whole_rate(rate: float, target: str) -> int:
     return whole
 
 
-def _check_finite(arr: np.ndarray, target: str) -> None:
-    for start in range(0, arr.shape[0], _BLOCK_FRAMES * 16):
-        block = arr[start:start + _BLOCK_FRAMES * 16]
-        if not np.isfinite(block).all():
+def _finite_and_loud(arr: np.ndarray, target: str) -> set[int]:
+    """Refuse NaN and infinite samples; return the starts of the blocks that reach full scale.
+
+    One pass of each block's least and greatest value (NaN makes them NaN, an
+    infinity is one of them) finds both, before anything is written: the
+    writer then clips only the blocks named here (values outside [-1, 1)).
+    """
+    loud = set()
+    for start in range(0, arr.shape[0], _BLOCK_FRAMES):
+        block = arr[start:start + _BLOCK_FRAMES]
+        lo, hi = float(block.min()), float(block.max())
+        if not (math.isfinite(lo) and math.isfinite(hi)):
             r, c = np.argwhere(~np.isfinite(block))[0]
             raise ScalesieveError(
                 f"sample {start + int(r)} of channel {int(c)} is not a finite number; "
                 "nothing was written", source=target)
+        if lo < -1.0 or hi >= 1.0:
+            loud.add(start)
+    return loud
 
 
 _NO_SPACE = "not enough disk space to write it"
@@ -216,7 +227,7 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
     sub = _check_subtype(fmt, subtype or _DEFAULT_SUBTYPE.get(fmt) or sf.default_subtype(fmt),
                          target)
     sr = _whole_rate(rate, target)
-    _check_finite(arr, target)
+    loud = _finite_and_loud(arr, target)
     most = _MAX_CHANNELS.get(fmt)
     if most is not None and channels > most:
         raise ScalesieveError(f"{fmt} holds at most {most} channels and this signal has "
@@ -236,7 +247,7 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
                               subtype=sub) as f:
                 for start in range(0, n, _BLOCK_FRAMES):
                     block = arr[start:start + _BLOCK_FRAMES]
-                    if clips:
+                    if clips and start in loud:
                         out = (block < -1.0) | (block >= 1.0)
                         count = int(np.count_nonzero(out))
                         if count:
