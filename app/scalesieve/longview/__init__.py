@@ -1,0 +1,12 @@
+"""The window's view of a recording longer than memory, without Qt.
+
+``samples`` reads any stretch of the file on demand (a memory map of a WAV's
+samples where their layout allows, soundfile otherwise); ``summary`` makes,
+in one streamed forward pass (and a second for the exact medians the noise
+needs), per-block minimum, maximum and energy of the signal and of every
+band's coefficients, at several block sizes; ``cache`` keeps that summary in
+the user cache folder, keyed by the file; ``span`` synthesises exactly any
+stretch with the current edits (read it with the filters' margins, forward,
+edit, inverse, crop) and exports the whole recording through the streaming
+pipeline.
+"""
