@@ -180,7 +180,13 @@ class LongRecording:
             count = lengths[tf.band_index(key, self.spec.level)]
             sl = tf.coefficient_slice(key, self.spec, count, t0, t1 - 1)
             a, b = max(sl.start, k0), min(sl.stop, k0 + values.shape[0])
-            out[key] = (a, values[a - k0:max(a, b) - k0])
+            if b <= a:
+                # a coarse band seen close up: the coefficient nearest the stretch's middle
+                step, shift = tf._position_formula(key, self.spec)
+                a = int(np.clip(np.rint((0.5 * (t0 + t1) - shift) / step), k0,
+                                k0 + values.shape[0] - 1))
+                b = a + 1
+            out[key] = (a, values[a - k0:b - k0])
         return out
 
     # ------------------------------------------------------------------ the whole file

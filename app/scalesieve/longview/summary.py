@@ -63,13 +63,14 @@ class Series:
         return t
 
     def window(self, t0: float, t1: float, columns: int):
-        """``(times, lo, hi, energy)`` of the blocks of the fitting table that meet ``t0 .. t1``."""
+        """``(centres, lo, hi, energy)`` of the blocks of the fitting table that meet ``t0 .. t1``;
+        ``centres`` in samples (a full block's middle)."""
         t = self.table_for((t1 - t0) / max(1, columns))
         lo, hi, en = self.tables[t]
         width = self.block_samples(t)
         a = max(0, int(np.floor((t0 - self.shift) / width)))
         b = min(lo.shape[0], int(np.ceil((t1 - self.shift) / width)))
-        times = self.shift + width * np.arange(a, b, dtype=np.float64)
+        times = self.shift + width * (np.arange(a, b, dtype=np.float64) + 0.5)
         return times, lo[a:b], hi[a:b], en[a:b]
 
 
