@@ -1,0 +1,168 @@
+"""The work behind the long-recording window, off the UI thread.
+
+Three kinds of work, each in its own Python thread (NumPy and PyWavelets
+release the GIL for their loops): opening (the summary read back or built,
+with progress), views (the latest request wins: a burst of edits or a drag
+draws only the last), and the export of the whole recording through the
+streaming pipeline (with progress; written atomically).  Results come back
+as Qt signals, queued to the window's thread.
+"""
+
+from __future__ import annotations
+
+import threading
+import time
+
+from PySide6.QtCore import QObject, Signal
+
+from scalesieve.gui.error_dialog import message_for
+
+
+class LongWorker(QObject):
+    opened = Signal(object, str)        # LongRecording, "kept" | "built"
+    progress = Signal(float, str)       # fraction, what
+    drawn = Signal(object, int)         # Picture, request number
+    exported = Signal(dict)             # the streaming pipeline's report
+    failed = Signal(str)                # one line
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self._lock = threading.Condition()
+        self._request = None            # (number, edits, t0, t1, columns, channel)
+        self._number = 0
+        self._drawn = 0
+        self._threads: list[threading.Thread] = []
+        self._stopping = False
+        self._opening = False
+        self._exporting = False
+        self._drawing = False
+        self.recording = None
+        self.last_failure: str | None = None
+        self.failed.connect(self._remember)
+
+    def _remember(self, message: str) -> None:
+        self.last_failure = message
+
+    def _start(self, target, *args) -> None:
+        t = threading.Thread(target=target, args=args, daemon=True)
+        self._threads = [x for x in self._threads if x.is_alive()] + [t]
+        t.start()
+
+    # ---------------------------------------------------------------- opening
+
+    def open(self, path: str, spec, channel, edits) -> None:
+        """Read back or build the summary of ``path``, then take ``edits``."""
+        self._opening = True
+        self._start(self._open, path, spec, channel, tuple(edits))
+
+    def _open(self, path, spec, channel, edits) -> None:
+        from scalesieve.longview.span import open_long
+
+        try:
+            lr, how = open_long(path, spec, channel, progress=self.progress.emit,
+                                cancelled=lambda: self._stopping)
+            lr.set_edits(edits, progress=self.progress.emit)
+            self.recording = lr
+            self.opened.emit(lr, how)
+        except InterruptedError:
+            pass
+        except Exception as exc:  # noqa: BLE001 - one line to the user, never a traceback
+            self.failed.emit(message_for(exc))
+        finally:
+            self._opening = False
+
+    # ---------------------------------------------------------------- views
+
+    def request(self, edits, t0: int, t1: int, columns: int, channel: int,
+                exact_most: int) -> int:
+        """Ask for the view ``t0 .. t1`` with ``edits``; returns the request's number."""
+        with self._lock:
+            self._number += 1
+            self._request = (self._number, tuple(edits), int(t0), int(t1), int(columns),
+                             int(channel), int(exact_most))
+            if not self._drawing:
+                self._drawing = True
+                self._start(self._draw_loop)
+            self._lock.notify()
+            return self._number
+
+    def _draw_loop(self) -> None:
+        from scalesieve.views.long_picture import picture
+
+        while True:
+            with self._lock:
+                req, self._request = self._request, None
+                if req is None or self._stopping:
+                    self._drawing = False
+                    return
+            number, edits, t0, t1, columns, channel, exact_most = req
+            lr = self.recording
+            try:
+                if edits != lr.edits:
+                    lr.set_edits(edits, progress=self.progress.emit)
+                pic = picture(lr, t0, t1, columns, channel, exact_most)
+            except Exception as exc:  # noqa: BLE001 - as above
+                self.failed.emit(message_for(exc))
+                with self._lock:
+                    self._drawn = number
+                continue
+            with self._lock:
+                self._drawn = number
+            self.drawn.emit(pic, number)
+
+    # ---------------------------------------------------------------- export
+
+    def export(self, edits, output: str, removed=None, subtype=None, force=False) -> bool:
+        """The edits over the whole recording into ``output``; False while one runs."""
+        if self._exporting or self.recording is None:
+            return False
+        self._exporting = True
+        self._start(self._export, tuple(edits), output, removed, subtype, force)
+        return True
+
+    def _export(self, edits, output, removed, subtype, force) -> None:
+        from scalesieve.stream.pipeline import clean_stream
+
+        lr = self.recording
+        try:
+            report = clean_stream(lr.path, output, transform=lr.spec, edits=edits,
+                                  removed=removed, subtype=subtype, force=force,
+                                  channel=lr.channel, progress=self.progress.emit)
+            self.exported.emit(report)
+        except Exception as exc:  # noqa: BLE001 - as above
+            self.failed.emit(message_for(exc))
+        finally:
+            self._exporting = False
+
+    # ---------------------------------------------------------------- state
+
+    @property
+    def busy(self) -> bool:
+        with self._lock:
+            drawing = self._drawing or self._request is not None
+        return self._opening or self._exporting or drawing
+
+    def wait_idle(self, timeout_s: float = 120.0) -> str | None:
+        """Process events until no work is in flight; the last failure, if any
+        (for snapshots, scripts and tests: the window itself never blocks)."""
+        from PySide6.QtCore import QCoreApplication, QEventLoop
+
+        deadline = time.monotonic() + timeout_s
+        while time.monotonic() < deadline:
+            QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
+            if not self.busy:
+                # what finished may have queued more (an opened recording asks for its view)
+                QCoreApplication.processEvents()
+                if not self.busy:
+                    return self.last_failure
+            time.sleep(0.002)
+        return "timed out waiting for the long recording's work"
+
+    def stop(self) -> None:
+        """Let every thread end (a summary being built stops; an export runs to its end)."""
+        self._stopping = True
+        with self._lock:
+            self._request = None
+        for t in self._threads:
+            if t.is_alive() and not self._exporting:
+                t.join(timeout=5.0)
