@@ -227,12 +227,16 @@ def _default_spec():
     return TransformSpec()
 
 
+#: bytes of in-memory model above which the window shows a recording in long-recording mode
+WINDOW_ABOVE = STREAM_ABOVE
+
+
 def window_long(facts: dict | None, *, channel=None, transform=None,
                 budget: int | None = None, available: int | None = None) -> bool:
     """Whether the window should show ``facts``'s recording in long-recording mode.
 
     True when the in-memory model (``estimate``) would need more than
-    ``budget`` (default ``STREAM_ABOVE``) or than is ``available`` (default
+    ``budget`` (default ``WINDOW_ABOVE``) or than is ``available`` (default
     the memory free): the window then reads the file on demand and draws
     from its summary (``scalesieve.longview``).  False for a file that was
     not probed (a text table: read whole, as before).
@@ -243,5 +247,5 @@ def window_long(facts: dict | None, *, channel=None, transform=None,
         import psutil
 
         available = int(psutil.virtual_memory().available)
-    limit = min(STREAM_ABOVE if budget is None else int(budget), available)
+    limit = min(WINDOW_ABOVE if budget is None else int(budget), available)
     return estimate(facts, channel=channel, transform=transform) > limit

@@ -174,3 +174,18 @@ def test_long_mode_refuses_what_it_cannot_show(long_file, tmp_path, monkeypatch,
     err = capsys.readouterr().err
     assert code == 2 and "long-recording view cannot show it" in err and "--mode" in err
     assert "Traceback" not in err
+
+
+def test_file_open_over_the_budget_opens_a_long_window(window, long_file, monkeypatch):
+    from scalesieve import memory_guard
+
+    path, x = long_file
+    monkeypatch.setattr(memory_guard, "WINDOW_ABOVE", 0)
+    window.open_path(path, ask_text_settings=False)
+    (w,) = window.long_windows
+    try:
+        assert w.wait_idle() is None
+        assert w.lr.n == N and "shown from a summary" in w.mode_line.text()
+        assert window.adapter.model is None            # nothing read whole
+    finally:
+        w.close()

@@ -9,7 +9,7 @@ from scalesieve.errors import ScalesieveError
 #: the size --snapshot draws the window at (docs/reference.md)
 SNAPSHOT_SIZE = (1600, 1000)
 #: bytes of in-memory model above which the window opens a recording in long-recording
-#: mode (None: memory_guard.STREAM_ABOVE, or less when less memory is free)
+#: mode (None: memory_guard.WINDOW_ABOVE, or less when less memory is free)
 LONG_ABOVE = None
 
 

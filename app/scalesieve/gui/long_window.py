@@ -296,10 +296,39 @@ class LongWindow(QMainWindow):
         atomic_write(path, write, force=force)
 
     def closeEvent(self, ev) -> None:
+        if self.worker._exporting and not QApplication.instance().property(
+                "scalesieve_quiet_errors"):
+            from PySide6.QtWidgets import QMessageBox
+
+            answer = QMessageBox.question(
+                self, "Scalesieve", "An export is still running. Closing stops it; the "
+                "file it writes is left as it was before. Close anyway?")
+            if answer != QMessageBox.StandardButton.Yes:
+                ev.ignore()
+                return
         self.worker.stop()
         if self.lr is not None:
             self.lr.close()
         super().closeEvent(ev)
+
+
+def open_if_long(parent, path: str) -> bool:
+    """Open ``path`` in a long-recording window when it is over the window's memory budget
+    (``memory_guard.window_long``); False when it is not (the caller reads it whole)."""
+    from scalesieve import memory_guard
+    from scalesieve.longview.span import why_not_long
+
+    spec = tf.TransformSpec()
+    if why_not_long(spec) is not None or \
+            not memory_guard.window_long(memory_guard.probe_quietly(path), transform=spec):
+        return False
+    w = LongWindow()
+    w.resize(parent.size())
+    w.show()
+    w.open_long(path, spec)
+    parent.long_windows = [x for x in getattr(parent, "long_windows", []) if x.isVisible()]
+    parent.long_windows.append(w)
+    return True
 
 
 def _duration(seconds: float) -> str:
