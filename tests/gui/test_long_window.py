@@ -189,3 +189,17 @@ def test_file_open_over_the_budget_opens_a_long_window(window, long_file, monkey
         assert window.adapter.model is None            # nothing read whole
     finally:
         w.close()
+
+
+def test_long_mode_checks_channel_and_rate_before_any_window(long_file, tmp_path, monkeypatch,
+                                                             capsys):
+    from scalesieve.cli import main
+    from scalesieve.commands import window as cmd
+
+    path, _ = long_file
+    monkeypatch.setattr(cmd, "LONG_ABOVE", 0)
+    assert main([path, "--snapshot", str(tmp_path / "x.png"), "--channel", "3"]) == 2
+    assert "channel" in capsys.readouterr().err
+    assert main([path, "--snapshot", str(tmp_path / "x.png"), "--rate", "1000"]) == 2
+    assert "--rate" in capsys.readouterr().err
+    assert not os.path.exists(tmp_path / "x.png")

@@ -171,3 +171,14 @@ def test_unmapped_formats_read_through_soundfile(tmp_path):
     r = SampleReader(path)
     assert not r.mapped
     np.testing.assert_array_equal(r.read(10, 2000), x[10:2000])
+
+
+def test_rf64_is_mapped_too(tmp_path):
+    # an RF64 file (the WAV form past 4 GiB), written by libsndfile, read back by it
+    rng = np.random.default_rng(4)
+    x = rng.uniform(-1, 1, (3000, 2))
+    path = str(tmp_path / "big.wav")
+    sf.write(path, x, 48000, subtype="PCM_24", format="RF64")
+    r = SampleReader(path)
+    assert r.mapped
+    np.testing.assert_array_equal(r.read(7, 2999), sf.read(path, dtype="float64")[0][7:2999])

@@ -114,4 +114,7 @@ def _long(args, path: str, spec) -> bool:
     if why is not None:
         raise ScalesieveError(f"needs about {need / 2**30:.1f} GiB of memory in the window, "
                               f"and the long-recording view cannot show it: {why}", path)
+    from scalesieve.stream.pipeline import open_source
+
+    open_source(path, args.channel, args.rate)      # the channel and --rate checked here
     return True

@@ -19,8 +19,10 @@ from scalesieve.views.band_labels import gain_to_db, hz_range
 
 #: the Scale map's colour range: this many dB below the view's largest magnitude
 MAP_FLOOR_DB = -50.0
+#: the Scale map's colour map (perceptual; resources/palette.json's default)
+MAP_COLOURS = palette()["default_colour_map"]
 #: height of one band row (px): row headers and map rows share it
-ROW_HEIGHT = 21
+ROW_HEIGHT = 19
 
 
 def trace_xy(times: np.ndarray, lo: np.ndarray, hi: np.ndarray):
@@ -45,6 +47,7 @@ class BandRows(QWidget):
 
     def set_bands(self, bands: list) -> None:
         """``bands``: ``(key, name, low_hz, high_hz)`` finest first."""
+        self.setMinimumHeight(ROW_HEIGHT * len(bands))
         for w in self.findChildren(QWidget):
             w.deleteLater()
         self.rows = {}
@@ -125,10 +128,15 @@ class LongScaleMap(PaneFrame):
         self.rows = BandRows()
         self.gutter_layout.addWidget(self.rows)
         self.gutter_layout.addStretch(1)
+        self.legend = QLabel(f"colour: each column's largest |c| as edited, in dB below the "
+                             f"view's largest (0 to {MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
+        self.legend.setObjectName("hint")
+        self.legend.setWordWrap(True)
+        self.gutter_layout.addWidget(self.legend)
         self.plot = make_plot()
         self.plot.getPlotItem().getViewBox().invertY(True)
         self.image = pg.ImageItem()
-        self.image.setColorMap(pg.colormap.get(palette()["default_colour_map"]))
+        self.image.setColorMap(pg.colormap.get(MAP_COLOURS))
         self.plot.addItem(self.image)
         self.content.addWidget(self.plot)
         self.plot.getPlotItem().getAxis("left").setLabel("band")
@@ -173,7 +181,7 @@ class LongTraces(PaneFrame):
         self.gutter_layout.addStretch(1)
         self.gutter_layout.addWidget(self.elsewhere)
         self.plot = make_plot()
-        self.plot.setMinimumHeight(160)
+        self.plot.setMinimumHeight(120)
         self.curves = {}
         for name in ("original", "removed", "cleaned"):
             self.curves[name] = self.plot.plot([], [], pen=pg.mkPen(colour("traces", name)))

@@ -16,14 +16,14 @@ import time
 
 import numpy as np
 
-from PySide6.QtCore import Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QApplication, QComboBox, QFileDialog, QLabel, QMainWindow,
-                               QProgressBar, QToolBar, QVBoxLayout, QWidget)
+                               QProgressBar, QSplitter, QToolBar)
 
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.error_dialog import show_error
-from scalesieve.gui.long_panes import LongOverview, LongScaleMap, LongTraces
+from scalesieve.gui.long_panes import ROW_HEIGHT, LongOverview, LongScaleMap, LongTraces
 from scalesieve.gui.long_worker import LongWorker
 from scalesieve.recipe import Edit
 from scalesieve.views.long_picture import EXACT_MOST, rows_of
@@ -82,19 +82,18 @@ class LongWindow(QMainWindow):
         self.channel_box = QComboBox()
         self.channel_box.currentIndexChanged.connect(self._channel_chosen)
         bar.addWidget(self.channel_box)
-        central = QWidget()
-        col = QVBoxLayout(central)
-        col.setContentsMargins(4, 4, 4, 4)
-        col.setSpacing(4)
         self.scale_map = LongScaleMap()
         self.traces = LongTraces()
         self.overview = LongOverview()
         for pane in (self.scale_map, self.traces, self.overview):
             pane.gutter.setFixedWidth(GUTTER)
-        col.addWidget(self.scale_map, 3)
-        col.addWidget(self.traces, 2)
-        col.addWidget(self.overview, 0)
-        self.setCentralWidget(central)
+        # a splitter: the band rows keep their height, the traces take what is left
+        self.splitter = QSplitter(Qt.Orientation.Vertical)
+        self.splitter.setChildrenCollapsible(False)
+        for i, pane in enumerate((self.scale_map, self.traces, self.overview)):
+            self.splitter.addWidget(pane)
+            self.splitter.setStretchFactor(i, 1 if pane is self.traces else 0)
+        self.setCentralWidget(self.splitter)
         self.facts = QLabel("opening…")
         self.mode_line = QLabel("")
         self.mode_line.setObjectName("hint")
@@ -132,6 +131,11 @@ class LongWindow(QMainWindow):
             lo, hi = tf.band_range_hz(key, level, lr.rate)
             bands.append((key, tf.band_name(key, level), lo, hi))
         self.scale_map.rows.set_bands(bands)
+        # title, threshold line, the rows and the colour legend
+        need = 150 + ROW_HEIGHT * len(bands)
+        self.scale_map.setMinimumHeight(need)
+        total = sum(self.splitter.sizes())
+        self.splitter.setSizes([need, max(120, total - need - 80), 80])
         self.scale_map.set_rows([b[1] for b in bands])
         self.channel_box.blockSignals(True)
         self.channel_box.clear()
