@@ -71,12 +71,18 @@ def test_zoomed_out_from_the_summary_zoomed_in_exact_as_in_memory(long_window, w
     assert w.wait_idle() is None
     assert "shown from a summary" in w.mode_line.text()
     assert "not available for long recordings" in w.traces.elsewhere.text()
-    assert w.picture.exact is False and w.picture.cleaned is None
-    assert "Zoom in" in w.traces.note.text()
+    assert w.picture.exact is False and w.picture.cleaned_done == 1.0   # nothing edited yet
     _edit_in_window(w)
+    assert w.wait_idle() is None
+    assert w.picture.cleaned is None and "zoom in" in w.traces.note.text()
     assert w.wait_idle() is None
     edits = w.edits()
     assert [e.op for e in edits] == ["gain", "gain", "threshold"]
+    # the whole view's cleaned trace, from a pass over the file once the edits rest
+    assert w.wait_idle(sweep=True) is None
+    assert w.picture.exact is False and w.picture.cleaned_done == 1.0
+    assert "Zoom in" not in w.traces.note.text()
+    wide = w.picture
     # the in-memory window on the same file with the same transform and edits, as the
     # command line opens it
     from scalesieve import api
@@ -86,6 +92,9 @@ def test_zoomed_out_from_the_summary_zoomed_in_exact_as_in_memory(long_window, w
     model = window.adapter.model
     assert model.spec == SPEC and tuple(model.edits) == edits
     cleaned = model.cleaned()[:, 0]
+    # every block lands in one column: the columns' extremes are the signal's
+    np.testing.assert_allclose(np.nanmax(wide.cleaned[1]), cleaned.max(), atol=1e-12)
+    np.testing.assert_allclose(np.nanmin(wide.removed[0]), (x - cleaned).min(), atol=1e-12)
     t0, t1 = 123_457, 140_000
     w.set_view(t0, t1)
     assert w.wait_idle() is None

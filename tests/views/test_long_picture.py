@@ -101,3 +101,51 @@ def test_edited_block_peaks_equal_editing_every_coefficient():
         peaks = np.maximum.reduceat(np.abs(c), starts)
         got = lp.edited_peaks(peaks, middles_s, chain, [0.6])
         np.testing.assert_allclose(got, want, rtol=1e-12)
+
+
+def test_zoomed_out_cleaned_trace_from_a_sweep_equals_numpy(tmp_path):
+    from scalesieve.longview.sweep import CleanedSweep
+
+    n = 1 << 21
+    path, x = _wav(tmp_path, n)
+    spec = TransformSpec(wavelet="db4", mode="symmetric", level=8)
+    lr, _ = open_long(path, spec)
+    lr.set_edits(EDITS)
+    assert lp.picture(lr, 0, n, 512).cleaned is None          # no sweep yet
+    model = api.build_model(api.load(path), transform=spec, edits=EDITS)
+    y = model.cleaned()[:, 0]
+    sweep = CleanedSweep(lr, 0)
+    seen = []
+    stopped = CleanedSweep(lr, 0)
+    assert stopped.run(cancelled=lambda: True) is False and stopped.done == 0
+    assert sweep.run(publish=lambda s: seen.append((s.done, s.finished)), every_s=0.0)
+    assert seen[-1] == (n, True) and len(seen) > 2
+    assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+    pic = lp.picture(lr, 0, n, 512, sweep=sweep)              # 4096 samples a column
+    starts = np.arange(0, n, 4096)
+    np.testing.assert_allclose(pic.cleaned[0], np.minimum.reduceat(y, starts), atol=1e-12)
+    np.testing.assert_allclose(pic.cleaned[1], np.maximum.reduceat(y, starts), atol=1e-12)
+    np.testing.assert_allclose(pic.removed[1], np.maximum.reduceat(x - y, starts), atol=1e-12)
+    assert pic.cleaned_done == 1.0
+    # a sweep made for other edits is not drawn
+    lr.set_edits(EDITS[:1])
+    assert lp.picture(lr, 0, n, 512, sweep=sweep).cleaned is None
+
+
+def test_a_sweep_part_way_draws_only_what_it_has_done(tmp_path):
+    from scalesieve.longview.sweep import CleanedSweep
+
+    n = 1 << 21
+    path, x = _wav(tmp_path, n)
+    lr, _ = open_long(path, TransformSpec(level=6))
+    lr.set_edits(EDITS)
+    partial = []
+
+    def publish(s):
+        if not s.finished and s.done and not partial:
+            partial.append(lp.picture(lr, 0, n, 256, sweep=s))
+    CleanedSweep(lr, 0).run(publish=publish, every_s=0.0)
+    pic = partial[0]
+    drawn = np.isfinite(pic.cleaned[0])
+    assert 0 < pic.cleaned_done < 1 and drawn.any() and not drawn.all()
+    assert drawn[0] and not drawn[-1]

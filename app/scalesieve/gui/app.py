@@ -155,7 +155,7 @@ def run_long_window(path: str, transform, edits=(), *, channel=None,
     window.show()
     window.open_long(path, transform, edits, channel)
     if snapshot:
-        problem = window.wait_idle()
+        problem = window.wait_idle(sweep=True)     # the cleaned trace of the whole view too
         if problem:
             window.close()
             raise ScalesieveError(problem)

@@ -184,7 +184,8 @@ class LongTraces(PaneFrame):
         self.plot.setMinimumHeight(120)
         self.curves = {}
         for name in ("original", "removed", "cleaned"):
-            self.curves[name] = self.plot.plot([], [], pen=pg.mkPen(colour("traces", name)))
+            self.curves[name] = self.plot.plot([], [], pen=pg.mkPen(colour("traces", name)),
+                                               connect="finite")
         self.content.addWidget(self.plot)
         for box in (self.show_original, self.show_cleaned, self.show_removed):
             box.toggled.connect(self._visibility)
@@ -204,9 +205,18 @@ class LongTraces(PaneFrame):
                 self.curves[name].setData([], [])
             else:
                 self.curves[name].setData(*trace_xy(pic.times, *values))
-        self.note.setText("" if pic.exact else
-                          f"Drawn from the summary: the original only. Zoom in to "
-                          f"{exact_seconds:.3g} s or less for the cleaned and removed traces.")
+        if pic.exact:
+            note = ""
+        elif pic.cleaned is None:
+            note = ("Drawn from the summary. The cleaned and removed traces follow from a "
+                    "pass over the whole recording once the edits rest; zoom in to "
+                    f"{exact_seconds:.3g} s or less for them at once.")
+        elif pic.cleaned_done < 1.0:
+            note = (f"Drawn from the summary; cleaned and removed traces worked out over "
+                    f"{100 * pic.cleaned_done:.0f} % of the recording so far.")
+        else:
+            note = "Drawn from the summary (per-block lowest and highest values)."
+        self.note.setText(note)
         self._visibility()
 
 

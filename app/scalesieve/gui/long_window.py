@@ -60,6 +60,7 @@ class LongWindow(QMainWindow):
         self.worker.drawn.connect(self._drawn)
         self.worker.failed.connect(self._failed)
         self.worker.exported.connect(self._exported)
+        self.worker.swept.connect(self._ask)
 
     # ------------------------------------------------------------------ layout
 
@@ -285,8 +286,8 @@ class LongWindow(QMainWindow):
         self.progress_text.setText("")
         show_error(self, message)
 
-    def wait_idle(self, timeout_s: float = 600.0) -> str | None:
-        return self.worker.wait_idle(timeout_s)
+    def wait_idle(self, timeout_s: float = 600.0, sweep: bool = False) -> str | None:
+        return self.worker.wait_idle(timeout_s, sweep)
 
     def snapshot(self, path: str, force: bool = False) -> None:
         """Write the whole window as a PNG once the view is drawn."""

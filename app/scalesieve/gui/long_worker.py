@@ -23,6 +23,7 @@ class LongWorker(QObject):
     progress = Signal(float, str)       # fraction, what
     drawn = Signal(object, int)         # Picture, request number
     exported = Signal(dict)             # the streaming pipeline's report
+    swept = Signal()                    # more of the cleaned trace over the whole file
     failed = Signal(str)                # one line
 
     def __init__(self, parent=None):
@@ -37,6 +38,10 @@ class LongWorker(QObject):
         self._exporting = False
         self._drawing = False
         self.recording = None
+        self.sweep = None               # the latest published CleanedSweep
+        self._sweeping = None           # the one running or last run
+        self._sweep_number = 0
+        self._sweep_running = False
         self.last_failure: str | None = None
         self.failed.connect(self._remember)
 
@@ -100,7 +105,7 @@ class LongWorker(QObject):
             try:
                 if edits != lr.edits:
                     lr.set_edits(edits, progress=self.progress.emit)
-                pic = picture(lr, t0, t1, columns, channel, exact_most)
+                pic = picture(lr, t0, t1, columns, channel, exact_most, self.sweep)
             except Exception as exc:  # noqa: BLE001 - as above
                 self.failed.emit(message_for(exc))
                 with self._lock:
@@ -109,6 +114,51 @@ class LongWorker(QObject):
             with self._lock:
                 self._drawn = number
             self.drawn.emit(pic, number)
+            self._maybe_sweep(channel)
+
+    # ---------------------------------------------------------------- the cleaned trace, wide
+
+    #: seconds the edits must stay unchanged before the pass over the whole file starts
+    SWEEP_AFTER_S = 0.6
+
+    def _maybe_sweep(self, channel: int) -> None:
+        """Start the pass for the cleaned trace of wide views, unless it runs or ran already."""
+        from scalesieve.longview.sweep import CleanedSweep
+
+        lr = self.recording
+        cur = self._sweeping
+        if not lr.edits or (cur is not None and cur.edits == lr.edits
+                            and cur.channel == channel):
+            return
+        with self._lock:
+            self._sweep_number += 1
+            number = self._sweep_number
+        s = CleanedSweep(lr, channel)
+        self._sweeping = s
+        self._sweep_running = True
+        self._start(self._sweep, s, number)
+
+    def _sweep(self, s, number: int) -> None:
+        def stale() -> bool:
+            return self._stopping or self._sweep_number != number
+
+        try:
+            waited = time.monotonic() + self.SWEEP_AFTER_S
+            while time.monotonic() < waited:
+                if stale():
+                    return
+                time.sleep(0.02)
+
+            def publish(done):
+                if not stale():
+                    self.sweep = done
+                    self.swept.emit()
+            s.run(stale, publish)
+        except Exception as exc:  # noqa: BLE001 - as above
+            self.failed.emit(message_for(exc))
+        finally:
+            if self._sweep_number == number:
+                self._sweep_running = False
 
     # ---------------------------------------------------------------- export
 
@@ -142,18 +192,22 @@ class LongWorker(QObject):
             drawing = self._drawing or self._request is not None
         return self._opening or self._exporting or drawing
 
-    def wait_idle(self, timeout_s: float = 120.0) -> str | None:
-        """Process events until no work is in flight; the last failure, if any
-        (for snapshots, scripts and tests: the window itself never blocks)."""
+    def _waiting(self, sweep: bool) -> bool:
+        return self.busy or (sweep and self._sweep_running)
+
+    def wait_idle(self, timeout_s: float = 120.0, sweep: bool = False) -> str | None:
+        """Process events until no work is in flight (with ``sweep``, the pass for wide
+        views' cleaned trace too); the last failure, if any (for snapshots, scripts and
+        tests: the window itself never blocks)."""
         from PySide6.QtCore import QCoreApplication, QEventLoop
 
         deadline = time.monotonic() + timeout_s
         while time.monotonic() < deadline:
             QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
-            if not self.busy:
+            if not self._waiting(sweep):
                 # what finished may have queued more (an opened recording asks for its view)
                 QCoreApplication.processEvents()
-                if not self.busy:
+                if not self._waiting(sweep):
                     return self.last_failure
             time.sleep(0.002)
         return "timed out waiting for the long recording's work"

@@ -8,8 +8,10 @@ draws.  A wider view is drawn from the summary: the original trace from the
 blocks' minima and maxima, the Scale map from the blocks' largest magnitude
 with the band's edits applied to it (a gain scales it; hard, soft and garrote
 thresholds grow with the magnitude, so the largest edited value is the edit
-of the largest value; a region edit counts for the blocks whose start lies
-in the region: by their middles); the cleaned trace then needs a zoom in, and says so.
+of the largest value; a region edit counts for the blocks whose middle lies
+in the region); its cleaned and removed traces come from one pass over the
+whole file once the edits settle (``longview.sweep``), drawn as far as that
+pass has got.
 """
 
 from __future__ import annotations
@@ -30,9 +32,9 @@ EXACT_MOST = 1 << 20
 class Picture:
     """One view of one channel: samples ``start .. stop``, ``columns`` wide.
 
-    ``times`` are the columns' centres in seconds; ``original`` and (exact
-    views only, else None) ``cleaned`` and ``removed`` are ``(lo, hi)`` per
-    column; ``rows`` name the Scale map's rows (d1 .. dJ, aJ), ``magnitudes``
+    ``times`` are the columns' centres in seconds; ``original``, ``cleaned``
+    and ``removed`` are ``(lo, hi)`` per column (in a wide view the last two
+    come from a sweep, NaN where it has not reached, None before it starts); ``rows`` name the Scale map's rows (d1 .. dJ, aJ), ``magnitudes``
     their largest edited |c| per column, ``(rows, columns)``.
     """
 
@@ -45,6 +47,9 @@ class Picture:
     removed: tuple | None
     rows: list
     magnitudes: np.ndarray
+    #: how much of the recording the cleaned trace covers (1: all; a wide view's cleaned
+    #: trace comes from a pass over the whole file, ``longview.sweep``)
+    cleaned_done: float = 1.0
 
 
 def rows_of(level: int) -> list:
@@ -115,12 +120,28 @@ def _binned(times: np.ndarray, lo: np.ndarray, hi: np.ndarray, t0: float, t1: fl
     return out_lo, out_hi
 
 
-def _from_summary(lr, t0: int, t1: int, columns: int, k: int) -> Picture:
+def _swept(series, done: int, t0: int, t1: int, columns: int, edges: np.ndarray) -> tuple:
+    """A sweep's figures in columns; columns past what it has done are NaN (not drawn)."""
+    times, lo, hi, _ = series.window(t0, min(t1, max(done, t0 + 1)), columns)
+    out = _binned(times, lo, hi, t0, t1, columns)
+    past = 0.5 * (edges[:-1] + edges[1:]) >= done
+    return tuple(np.where(past, np.nan, v) for v in out)
+
+
+def _from_summary(lr, t0: int, t1: int, columns: int, k: int, sweep=None) -> Picture:
     # columns are binned in samples (whole numbers: block starts fall on exact edges)
     s, rate, level = lr.summary, lr.rate, lr.spec.level
     times, lo, hi, _ = s.signal[k].window(t0, t1, columns)
     original = _binned(times, lo, hi, t0, t1, columns)
     edges = t0 + (t1 - t0) * np.arange(columns + 1) / columns
+    cleaned = removed = None
+    done = 0.0
+    if not lr.edits:                       # nothing edited: cleaned is the original
+        cleaned, removed, done = original, (np.zeros(columns), np.zeros(columns)), 1.0
+    elif sweep is not None and sweep.channel == k and sweep.edits == lr.edits and sweep.done:
+        cleaned = _swept(sweep.cleaned, sweep.done, t0, t1, columns, edges)
+        removed = _swept(sweep.removed, sweep.done, t0, t1, columns, edges)
+        done = 1.0 if sweep.finished else sweep.done / lr.n
     keys = rows_of(level)
     mags = np.zeros((len(keys), columns))
     for r, key in enumerate(keys):
@@ -129,16 +150,17 @@ def _from_summary(lr, t0: int, t1: int, columns: int, k: int) -> Picture:
         peaks = edited_peaks(np.maximum(np.abs(blo), np.abs(bhi)), bt / rate, band.chain,
                              band.lams)
         _, mags[r] = _binned(bt, peaks, peaks, t0, t1, columns)
-    return Picture(t0, t1, False, 0.5 * (edges[:-1] + edges[1:]) / rate, original, None, None,
-                   [tf.band_name(key, level) for key in keys], mags)
+    return Picture(t0, t1, False, 0.5 * (edges[:-1] + edges[1:]) / rate, original, cleaned,
+                   removed, [tf.band_name(key, level) for key in keys], mags, done)
 
 
 def picture(lr, t0: int, t1: int, columns: int, channel: int = 0,
-            exact_most: int = EXACT_MOST) -> Picture:
-    """The view ``t0 .. t1`` (samples, clipped) of ``lr`` (a ``LongRecording``), ``columns`` wide."""
+            exact_most: int = EXACT_MOST, sweep=None) -> Picture:
+    """The view ``t0 .. t1`` (samples, clipped) of ``lr`` (a ``LongRecording``), ``columns`` wide;
+    ``sweep``: a ``longview.sweep.CleanedSweep`` for a wide view's cleaned trace."""
     t0, t1 = max(0, int(t0)), min(lr.n, int(t1))
     t1 = max(t1, min(lr.n, t0 + 1))
     columns = max(1, int(columns))
     if t1 - t0 <= exact_most:
         return _exact(lr, t0, t1, columns, channel)
-    return _from_summary(lr, t0, t1, columns, channel)
+    return _from_summary(lr, t0, t1, columns, channel, sweep)
