@@ -182,3 +182,19 @@ def test_rf64_is_mapped_too(tmp_path):
     r = SampleReader(path)
     assert r.mapped
     np.testing.assert_array_equal(r.read(7, 2999), sf.read(path, dtype="float64")[0][7:2999])
+
+
+def test_damaged_headers_are_read_through_soundfile_or_refused_in_one_line(tmp_path):
+    from scalesieve.io.wav_header import data_layout
+
+    path, x = _wav(tmp_path, 2000, subtype="PCM_16")
+    data = open(path, "rb").read()
+    for cut in (5, 20, 40):
+        bad = tmp_path / f"cut{cut}.wav"
+        bad.write_bytes(data[:cut])
+        assert data_layout(str(bad)) is None
+        with pytest.raises(ScalesieveError, match="could not read"):
+            SampleReader(str(bad))
+    garbage = tmp_path / "garbage.wav"
+    garbage.write_bytes(b"RIFF\xff\xff\xff\xffWAVEfmt \x02\x00\x00\x00" + bytes(100))
+    assert data_layout(str(garbage)) is None
