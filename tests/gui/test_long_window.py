@@ -212,3 +212,39 @@ def test_long_mode_checks_channel_and_rate_before_any_window(long_file, tmp_path
     assert main([path, "--snapshot", str(tmp_path / "x.png"), "--rate", "1000"]) == 2
     assert "--rate" in capsys.readouterr().err
     assert not os.path.exists(tmp_path / "x.png")
+
+
+def test_edits_are_kept_unless_saved_or_exported(qtbot, qapp, long_file, tmp_path, monkeypatch):
+    from scalesieve import autosave
+    from scalesieve.gui.app import make_application
+    from scalesieve.gui.long_window import LongWindow
+
+    monkeypatch.setenv("SCALESIEVE_DATA_DIR", str(tmp_path / "data"))
+    path, _ = long_file
+    app = make_application()
+    app.setProperty("scalesieve_quiet_errors", True)
+
+    def session(edit=True, save=None):
+        w = LongWindow(keep_sessions=True)
+        qtbot.addWidget(w)
+        w.show()
+        w.open_long(path, SPEC)
+        assert w.wait_idle() is None
+        if edit:
+            w.scale_map.rows.rows[2][1].click()          # mute d2
+            assert w.wait_idle() is None
+            assert os.path.exists(autosave.session_file(path))   # saved after the edit
+        if save:
+            assert w.save_recipe(str(tmp_path / save))
+        w.close()
+        return w
+
+    try:
+        session()
+        kept = [s for s in autosave.list_sessions() if s["kept"]]
+        assert len(kept) == 1 and kept[0]["edits"] == 1
+        session(save="r.json")                           # saved: nothing more kept
+        assert len([s for s in autosave.list_sessions() if s["kept"]]) == 1
+        assert not os.path.exists(autosave.session_file(path))
+    finally:
+        app.setProperty("scalesieve_quiet_errors", None)

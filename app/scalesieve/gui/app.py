@@ -149,7 +149,7 @@ def run_long_window(path: str, transform, edits=(), *, channel=None,
     app = make_application()
     if snapshot:
         app.setProperty("scalesieve_quiet_errors", True)
-    window = LongWindow()
+    window = LongWindow(keep_sessions=not snapshot)
     reporter = install_excepthook(app, lambda: window)
     window.resize(*size)
     window.show()

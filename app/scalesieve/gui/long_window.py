@@ -40,10 +40,14 @@ class LongWindow(QMainWindow):
 
     painted = Signal(int)       # a request drawn (its number)
 
-    def __init__(self, parent=None):
+    def __init__(self, parent=None, keep_sessions: bool = False):
         super().__init__(parent)
         self.setWindowTitle("Scalesieve — long recording")
         self.worker = LongWorker(self)
+        # edits saved after each change and kept at close unless saved or exported
+        # (autosave; not for snapshots)
+        self.worker.keep_sessions = keep_sessions
+        self.captured = None             # the recipe as last saved or exported
         self.lr = None
         self.base_edits: tuple = ()      # the recipe's, as opened
         self.channel = 0
@@ -61,12 +65,15 @@ class LongWindow(QMainWindow):
         self.worker.failed.connect(self._failed)
         self.worker.exported.connect(self._exported)
         self.worker.swept.connect(self._ask)
+        self.worker.notice.connect(lambda text: self.progress_text.setText(text))
 
     # ------------------------------------------------------------------ layout
 
     def _build(self) -> None:
         menu = self.menuBar().addMenu("&File")
         self.export_menu_action = menu.addAction("Export signal…", self.export_dialog)
+        self.save_recipe_action = menu.addAction("Save recipe…", self.save_recipe_dialog)
+        self.save_recipe_action.setEnabled(False)
         menu.addAction("Close", self.close)
         panes = self.menuBar().addMenu("&View")
         for name in ("Impacts (Impulse map, Envelope spectrum)", "Events", "Band lanes"):
@@ -157,6 +164,7 @@ class LongWindow(QMainWindow):
         self.mode_line.setToolTip(NOT_HERE)
         self.export_action.setEnabled(True)
         self.export_menu_action.setEnabled(True)
+        self.save_recipe_action.setEnabled(True)
         self._draw_overview()
         self.show_all()
 
@@ -265,7 +273,35 @@ class LongWindow(QMainWindow):
         self._progress(0.0, "exporting")
         return True
 
+    def recipe(self):
+        """The recipe the window applies now (its transform and edits)."""
+        from scalesieve.recipe import Recipe
+
+        return Recipe(transform=self.lr.spec, edits=self.edits())
+
+    def save_recipe_dialog(self) -> None:
+        path, _ = QFileDialog.getSaveFileName(self, "Save recipe",
+                                              os.path.splitext(self.path)[0] + "-recipe.json",
+                                              "Recipe (*.json)")
+        if path:
+            self.save_recipe(path, force=os.path.exists(path))
+
+    def save_recipe(self, path: str, force: bool = False) -> bool:
+        """Write the current recipe to ``path`` (atomically; an existing file only with force)."""
+        from scalesieve import api
+
+        recipe = self.recipe()
+        try:
+            api.save_recipe(recipe, path, force=force)
+        except ScalesieveError as exc:
+            show_error(self, exc.one_line())
+            return False
+        self.captured = recipe.to_json()
+        self.progress_text.setText(f"recipe saved: {os.path.basename(path)}")
+        return True
+
     def _exported(self, report: dict) -> None:
+        self.captured = report["recipe"].to_json() if "recipe" in report else None
         self.progress_bar.hide()
         share = 100 * report.get("energy_removed_fraction", 0.0)
         self.progress_text.setText(f"exported {os.path.basename(self._exporting_to)} · "
@@ -314,6 +350,11 @@ class LongWindow(QMainWindow):
         self.worker.stop()
         if self.lr is not None:
             self.lr.close()
+            if self.worker.keep_sessions:
+                from scalesieve import autosave
+
+                # edits neither saved nor exported stay under File › Kept edits
+                autosave.finish_session(self.lr.path, self.captured)
         super().closeEvent(ev)
 
 
@@ -327,7 +368,7 @@ def open_if_long(parent, path: str) -> bool:
     if why_not_long(spec) is not None or \
             not memory_guard.window_long(memory_guard.probe_quietly(path), transform=spec):
         return False
-    w = LongWindow()
+    w = LongWindow(keep_sessions=True)
     w.resize(parent.size())
     w.show()
     w.open_long(path, spec)

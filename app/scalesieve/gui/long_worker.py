@@ -24,6 +24,7 @@ class LongWorker(QObject):
     drawn = Signal(object, int)         # Picture, request number
     exported = Signal(dict)             # the streaming pipeline's report
     swept = Signal()                    # more of the cleaned trace over the whole file
+    notice = Signal(str)                # one line for the status bar
     failed = Signal(str)                # one line
 
     def __init__(self, parent=None):
@@ -43,6 +44,8 @@ class LongWorker(QObject):
         self._sweep_number = 0
         self._sweep_running = False
         self.last_failure: str | None = None
+        #: save the edits after each change (autosave's sessions), as the main window does
+        self.keep_sessions = False
         self.failed.connect(self._remember)
 
     def _remember(self, message: str) -> None:
@@ -66,7 +69,10 @@ class LongWorker(QObject):
         try:
             lr, how = open_long(path, spec, channel, progress=self.progress.emit,
                                 cancelled=lambda: self._stopping)
+            if self.keep_sessions:
+                self._keep_earlier(path)
             lr.set_edits(edits, progress=self.progress.emit)
+            self._save_session(lr)
             self.recording = lr
             self.opened.emit(lr, how)
         except InterruptedError:
@@ -75,6 +81,30 @@ class LongWorker(QObject):
             self.failed.emit(message_for(exc))
         finally:
             self._opening = False
+
+    # ---------------------------------------------------------------- sessions
+
+    def _keep_earlier(self, path: str) -> None:
+        """Edits an earlier session left for this recording: kept aside, never written over."""
+        from scalesieve import autosave
+
+        kept = autosave.finish_session(path)
+        if kept:
+            self.notice.emit("edits left from an earlier session of this recording are kept "
+                             "(File › Kept edits in the window for recordings in memory)")
+
+    def _save_session(self, lr) -> None:
+        from scalesieve import autosave
+        from scalesieve.errors import ScalesieveError
+        from scalesieve.recipe import Recipe
+
+        if not self.keep_sessions:
+            return
+        try:
+            autosave.save_session(lr.path, Recipe(transform=lr.spec, edits=lr.edits).to_json(),
+                                  {"long_recording": True})
+        except ScalesieveError as exc:
+            self.notice.emit(f"edits not kept: {exc.one_line()}")
 
     # ---------------------------------------------------------------- views
 
@@ -105,6 +135,7 @@ class LongWorker(QObject):
             try:
                 if edits != lr.edits:
                     lr.set_edits(edits, progress=self.progress.emit)
+                    self._save_session(lr)
                 pic = picture(lr, t0, t1, columns, channel, exact_most, self.sweep)
             except Exception as exc:  # noqa: BLE001 - as above
                 self.failed.emit(message_for(exc))
