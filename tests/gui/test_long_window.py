@@ -248,3 +248,40 @@ def test_edits_are_kept_unless_saved_or_exported(qtbot, qapp, long_file, tmp_pat
         assert not os.path.exists(autosave.session_file(path))
     finally:
         app.setProperty("scalesieve_quiet_errors", None)
+
+
+def test_channels_are_shown_one_at_a_time(long_window, tmp_path, monkeypatch):
+    monkeypatch.setenv("SCALESIEVE_CACHE_DIR", str(tmp_path / "cache"))
+    rng = np.random.default_rng(2)
+    x = np.stack([0.1 * rng.standard_normal(100_000), 0.5 * np.sin(np.arange(100_000) / 9.0)],
+                 axis=1)
+    path = str(tmp_path / "two.wav")
+    sf.write(path, x, RATE, subtype="DOUBLE")
+    w = long_window
+    w.open_long(path, SPEC)
+    assert w.wait_idle() is None
+    assert w.channel_box.count() == 2 and w.channel_box.isEnabled()
+    w.set_view(1000, 2000)
+    assert w.wait_idle() is None
+    cols = w.picture.original[0].shape[0]
+    np.testing.assert_array_equal(w.picture.original[1], minmax_columns(x[1000:2000, 0], cols)[1])
+    w.channel_box.setCurrentIndex(1)
+    assert w.wait_idle() is None
+    np.testing.assert_array_equal(w.picture.original[1], minmax_columns(x[1000:2000, 1], cols)[1])
+
+
+def test_zooming_one_pane_moves_the_others_and_redraws(long_window, long_file):
+    path, _ = long_file
+    w = long_window
+    w.open_long(path, SPEC)
+    assert w.wait_idle() is None
+    # what a wheel or a drag on the traces does to their view box
+    w.traces.plot.getPlotItem().getViewBox().setXRange(4.0, 4.5, padding=0)
+    assert w.wait_idle() is None
+    a, b = w.scale_map.plot.getPlotItem().getViewBox().viewRange()[0]
+    assert abs(a - 4.0) < 1e-3 and abs(b - 4.5) < 1e-3
+    assert w.picture.exact and abs(w.picture.start - 4.0 * RATE) <= 1
+    assert "4–4.5 s of" in w.overview.span.text()
+    w.show_all()
+    assert w.wait_idle() is None
+    assert (w.picture.start, w.picture.stop) == (0, N) and not w.picture.exact
