@@ -32,7 +32,6 @@ class LongWorker(QObject):
         self._lock = threading.Condition()
         self._request = None            # (number, edits, t0, t1, columns, channel)
         self._number = 0
-        self._drawn = 0
         self._threads: list[threading.Thread] = []
         self._stopping = False
         self._opening = False
@@ -139,11 +138,7 @@ class LongWorker(QObject):
                 pic = picture(lr, t0, t1, columns, channel, exact_most, self.sweep)
             except Exception as exc:  # noqa: BLE001 - as above
                 self.failed.emit(message_for(exc))
-                with self._lock:
-                    self._drawn = number
                 continue
-            with self._lock:
-                self._drawn = number
             self.drawn.emit(pic, number)
             self._maybe_sweep(channel)
 

@@ -14,7 +14,7 @@ again from its own first passes: the same numbers the command line writes.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
@@ -215,8 +215,6 @@ def open_long(path: str, spec: tf.TransformSpec, channel: int | None = None,
         spec = spec.resolved(src.frames)
     except ValueError as exc:
         raise ScalesieveError(str(exc), path) from None
-    if spec.level is None:  # pragma: no cover - resolved() fills it in
-        spec = replace(spec, level=tf.default_level(src.frames, spec.wavelet))
     why = why_not_long(spec)
     if why is not None:
         raise ScalesieveError(why, path)
