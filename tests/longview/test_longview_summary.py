@@ -16,6 +16,8 @@ from scalesieve.core.transforms import TransformSpec
 from scalesieve.longview import cache
 from scalesieve.longview import summary as sm
 from scalesieve.longview.span import open_long
+from scalesieve.recipe import Edit
+from scalesieve.stream.pipeline import _Source
 
 
 @pytest.fixture(autouse=True)
@@ -43,6 +45,10 @@ def test_figures_equal_numpy_on_the_whole_arrays(tmp_path):
     lr, how = open_long(path, spec)
     s = lr.summary
     assert how == "built" and s.n == x.shape[0] and s.channels == 2
+    wanted = [(k, key) for k in range(2) for key in tf.band_keys(7)]
+    assert s.missing(wanted) == wanted                  # medians wait until asked for
+    assert s.find_medians(_Source(path, None), wanted) is True
+    assert s.find_medians(_Source(path, None), wanted) is False      # known now
     for k in range(2):
         lo, hi, en = _blocks(x[:, k], 1 << sm.BASE)
         got = s.signal[k].tables[0]
@@ -83,8 +89,13 @@ def test_kept_summary_is_read_back_stale_and_damaged_are_rebuilt(tmp_path):
     spec = TransformSpec(wavelet="db4", mode="symmetric", level=6)
     first, how = open_long(path, spec)
     assert how == "built"
+    # a threshold finds d1's median once and keeps it with the summary
+    first.set_edits([Edit("threshold", levels="details", rule="universal", noise="finest")])
+    assert first.summary.medians[0][1] is not None and first.summary.medians[0][2] is None
     again, how = open_long(path, spec)
     assert how == "kept"
+    assert again.summary.medians[0][1] == np.median(np.abs(
+        pywt.wavedec(x[:, 0], "db4", mode="symmetric", level=6)[-1]))
     for k in range(2):
         for key in tf.band_keys(6):
             for t in range(3):
@@ -130,6 +141,13 @@ def test_damaged_arrays_are_not_trusted(tmp_path):
     with open(kept, "wb") as fh:
         np.savez(fh, **arrays)
     assert open_long(path, spec)[1] == "built"
+    with np.load(kept) as z:
+        arrays = {k: z[k] for k in z.files}
+    arrays["c0_d1_counts"] = -arrays["c0_d1_counts"]            # noise counts that cannot be
+    with open(kept, "wb") as fh:
+        np.savez(fh, **arrays)
+    assert open_long(path, spec)[1] == "built"
+    assert open_long(path, spec)[1] == "kept"
 
 
 def test_a_cache_folder_that_cannot_be_written_only_costs_the_keeping(tmp_path, monkeypatch):

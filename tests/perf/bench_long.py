@@ -21,7 +21,9 @@ The full size is for a quiet machine: the bare script alone holds about
 (which the window opens in long-recording mode) a window process opens it
 twice (the summary built, then read back from a cache in a temporary
 folder), and times a band mute to the repainted window (``grab``) on the
-whole view and on a 10 s view; beside it a window process opens a
+whole view and on a 10 s view, then the first threshold (VisuShrink on every
+detail band: the first time, a pass to level 1 finds the finest band's noise)
+and changes of its shape on the 10 s view; beside it a window process opens a
 10 M-sample file (``--window-memory``) in memory and times the same mute.
 Prints each process's peak resident memory and the ratios long / in memory.
 
@@ -159,11 +161,17 @@ centre = w.lr.n // 2
 w.set_view(centre - int(5 * rate), centre + int(5 * rate))
 w.wait_idle()
 zoomed = [timed(mute.click) for _ in range(repeat)]
+th = w.scale_map.threshold
+first = timed(lambda: th.rule.setCurrentIndex(th.rule.findData("universal")))
+shapes = [timed(lambda s=s: th.shape.setCurrentIndex(th.shape.findData(s)))
+          for s in ("hard", "soft") * max(1, repeat // 2)]
 print(json.dumps({"open_s": round(opened, 3), "summary": "kept" if "cache" in
                   w.mode_line.text() else "built", "view_whole_exact": exact_whole,
                   "view_10s_exact": w.picture.exact,
                   "mute_whole_view_ms": round(1000 * statistics.median(whole), 2),
-                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2)}),
+                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2),
+                  "threshold_first_s": round(first, 3),
+                  "threshold_shape_10s_view_ms": round(1000 * statistics.median(shapes), 2)}),
       flush=True)
 w.close()
 app.processEvents()

@@ -22,7 +22,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.longview import summary as sm
 
 #: bumped when what a summary holds changes: older files are then rebuilt
-FORMAT = 1
+FORMAT = 2
 #: bytes of the file's head hashed into the key
 HEAD_BYTES = 1 << 20
 
@@ -79,6 +79,10 @@ def save(summary: sm.Summary, path: str, channel, facts: dict) -> str:
                            "step": s.step, "shift": s.shift})
             for j, what in enumerate(("lo", "hi", "energy")):
                 arrays[f"s{i}_{what}"] = s.tables[0][j]
+    for k in range(summary.channels):
+        for key, (bins, cnt) in summary.counts[k].items():
+            name = tf.band_name(key, summary.spec.level)
+            arrays[f"c{k}_{name}_bins"], arrays[f"c{k}_{name}_counts"] = bins, cnt
     manifest = {"format": FORMAT, "file": facts, "channel": channel, "n": summary.n,
                 "rate": summary.rate, "channels": summary.channels,
                 "spec": _spec_words(summary.spec), "series": series,
@@ -129,16 +133,28 @@ def _rebuild(manifest: dict, z, spec: tf.TransformSpec) -> sm.Summary:
             signal[d["channel"]] = s
         else:
             bands[d["channel"]][keys[d["name"]]] = s
-    medians = [{keys[name]: float(v) for name, v in m.items()} for m in manifest["medians"]]
+    medians = [{keys[name]: None if v is None else float(v) for name, v in m.items()}
+               for m in manifest["medians"]]
     lengths = tf.band_lengths(n, spec)
+    counts: list = []
     for k in range(chans):
         if signal[k] is None or signal[k].count != n or set(bands[k]) != set(keys.values()) \
                 or set(medians[k]) != set(keys.values()):
             raise ValueError(f"channel {k} is incomplete")
+        per = {}
         for key, s in bands[k].items():
-            if s.count != lengths[tf.band_index(key, level)]:
+            count = lengths[tf.band_index(key, level)]
+            if s.count != count:
                 raise ValueError(f"band {key} has the wrong length")
-    return sm.Summary(n, float(manifest["rate"]), chans, spec, signal, bands, medians)
+            name = tf.band_name(key, level)
+            bins = np.asarray(z[f"c{k}_{name}_bins"])
+            cnt = np.asarray(z[f"c{k}_{name}_counts"])
+            if bins.shape != cnt.shape or np.any(cnt < 0) or int(cnt.sum()) > count or \
+                    (bins.size and (bins.min() < 0 or bins.max() >= 1 << 20)):
+                raise ValueError(f"band {key}'s noise counts are inconsistent")
+            per[key] = (bins, cnt)
+        counts.append(per)
+    return sm.Summary(n, float(manifest["rate"]), chans, spec, signal, bands, counts, medians)
 
 
 def summary_for(path: str, spec: tf.TransformSpec, channel=None, progress=None,
@@ -148,17 +164,28 @@ def summary_for(path: str, spec: tf.TransformSpec, channel=None, progress=None,
     Returns ``(summary, how)``, ``how`` one of ``"kept"`` (read back) or
     ``"built"``.  A cache folder that cannot be written only costs the keeping.
     """
-    from scalesieve.errors import ScalesieveError
     from scalesieve.stream.pipeline import _Source
 
     facts = file_facts(path)
     got = load(path, spec, channel, facts)
     if got is not None:
+        got.kept_as = (path, channel, facts)
         return got, "kept"
     src = _Source(path, channel)
     summary = sm.build(src, spec, progress, cancelled)
+    summary.kept_as = (path, channel, facts)
+    keep(summary)
+    return summary, "built"
+
+
+def keep(summary: sm.Summary) -> None:
+    """Write ``summary`` back where it came from (with the file's facts as they were when it
+    was made, so a file changed since is still caught); a cache folder that cannot be
+    written only costs the keeping."""
+    from scalesieve.errors import ScalesieveError
+
+    path, channel, facts = summary.kept_as
     try:
         save(summary, path, channel, facts)
     except (OSError, ScalesieveError):
         pass                           # a read-only cache: the summary still serves this time
-    return summary, "built"

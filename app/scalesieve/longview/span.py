@@ -92,10 +92,12 @@ class LongRecording:
     def set_edits(self, edits: Sequence, progress=None) -> None:
         """Take ``edits`` (checked against the recording); thresholds worked out now.
 
-        Rules that read a whole band's noise take it from the summary; BayesShrink
-        after gains only, from the summary's band energies; any other threshold
-        (SURE, or BayesShrink after a region edit) needs a pass over the file,
-        told to ``progress(fraction, text)``.
+        Rules that read a whole band's noise take it from the summary (the first
+        time a band's noise is needed, a pass to its depth finds its exact median,
+        then kept with the summary); BayesShrink after gains only, from the
+        summary's band energies; any other threshold (SURE, or BayesShrink after
+        a region edit) needs a pass over the file; passes are told to
+        ``progress(fraction, text)``.
         """
         from scalesieve.recipe import check_against
 
@@ -109,7 +111,17 @@ class LongRecording:
         from scalesieve.stream.pipeline import _Plan, _Source, _thresholds
 
         plan = _Plan(edits, self.channels, self.spec, self.n, self.rate)
-        for (k, which) in list(plan.medians):
+        wanted = list(plan.medians)
+        if self.summary.missing(wanted):
+            from scalesieve.longview import cache
+
+            def told(fraction, text):
+                if progress:
+                    progress(fraction, text)
+            self.summary.find_medians(_Source(self.path, self.channel), wanted, told)
+            if self.summary.kept_as is not None:
+                cache.keep(self.summary)       # found once: kept with the summary
+        for (k, which) in wanted:
             done = st.MedianOfMagnitudes()
             done.counts, done.wanted, done.value = None, {}, self.summary.medians[k][which]
             plan.medians[(k, which)] = done

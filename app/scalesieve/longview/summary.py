@@ -6,9 +6,10 @@ blocks of ``2^BASE`` samples (a band at level j in blocks of ``2^(BASE-j)``
 coefficients, at least one), each block's minimum, maximum and sum of
 squares; coarser tables merge ``2^STEP`` blocks at a time, so a view of any
 width reads a table with about as many blocks as it has pixel columns.  The
-same pass counts each band's magnitudes for its median and a second pass
+same pass counts each band's magnitudes in bins for its median; when a
+threshold first needs a band's noise, one more pass to that band's depth
 keeps the few values the exact median needs (``stream.statistics``): the
-noise every threshold rule reads, the number ``numpy.median`` gives.
+number ``numpy.median`` gives.
 """
 
 from __future__ import annotations
@@ -109,8 +110,11 @@ class _Blocker:
 class Summary:
     """What the window draws a long recording from when zoomed out, and the bands' medians.
 
-    ``signal[k]`` and ``bands[k][key]`` are ``Series``; ``medians[k][key]``
-    is ``median(|c|)`` over the band's non-zero coefficients.
+    ``signal[k]`` and ``bands[k][key]`` are ``Series``; ``counts[k][key]`` the
+    first pass of each band's median (``(bins, counts)`` of its magnitudes'
+    leading bits, the non-empty bins only); ``medians[k][key]`` is
+    ``median(|c|)`` over the band's non-zero coefficients once
+    ``find_medians`` has made the second pass for it, else None.
     """
 
     n: int
@@ -119,13 +123,59 @@ class Summary:
     spec: tf.TransformSpec
     signal: list
     bands: list
+    counts: list
     medians: list
+    #: (path, channel, file facts) it was made from, for writing it back (cache.keep)
+    kept_as: tuple | None = None
 
     def sigma(self, k: int, key) -> float:
         """MAD noise of band ``key`` of channel ``k`` (Donoho & Johnstone 1994)."""
         from scalesieve.core import thresholds as th
 
         return self.medians[k][key] / th.MAD_TO_SIGMA
+
+    def missing(self, wanted) -> list:
+        """The ``(k, key)`` of ``wanted`` whose median is not known yet."""
+        return [(k, key) for k, key in wanted if self.medians[k][key] is None]
+
+    def find_medians(self, source, wanted, progress=None, cancelled=None) -> bool:
+        """The exact medians of the bands ``wanted`` (``(k, key)``), in one pass over
+        ``source`` to the deepest level they need; False when all were known."""
+        from scalesieve.stream.dwt import ForwardStream
+
+        todo = self.missing(wanted)
+        if not todo:
+            return False
+        level = self.spec.level
+        depth = max(level if key == "a" else int(key) for _, key in todo)
+        meds = {}
+        for k, key in todo:
+            m = st.MedianOfMagnitudes()
+            bins, cnt = self.counts[k][key]
+            m.counts[np.asarray(bins, dtype=np.intp)] = np.asarray(cnt, dtype=np.int64)
+            m.end_pass()                                # the first pass, from the summary
+            meds[(k, key)] = m
+
+        def put_for(k):
+            def put(key, k0, c):
+                m = meds.get((k, key))
+                if m is not None and m.stage == "keep":
+                    m.add(c)
+            return put
+        chans = sorted({k for k, _ in todo})
+        streams = {k: ForwardStream(self.n, self.spec, put_for(k), depth=depth) for k in chans}
+        for block in source.blocks():
+            if cancelled is not None and cancelled():
+                raise InterruptedError("noise pass cancelled")
+            for k, f in streams.items():
+                f.feed(np.ascontiguousarray(block[:, k]))
+            if progress:
+                progress(streams[chans[0]].fed / max(1, self.n), "finding the noise of the bands")
+        for (k, key), m in meds.items():
+            if m.stage != "done":
+                m.end_pass()
+            self.medians[k][key] = float(m.value)
+        return True
 
 
 def band_block(key, level: int) -> int:
@@ -134,11 +184,16 @@ def band_block(key, level: int) -> int:
     return max(1, 1 << max(0, BASE - j))
 
 
+def _sparse(m: st.MedianOfMagnitudes) -> tuple:
+    bins = np.flatnonzero(m.counts)
+    return bins.astype(np.int32), m.counts[bins].astype(np.int64)
+
+
 def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summary:
     """The summary of ``source`` (``stream.pipeline._Source``: ``blocks()``, ``frames``,
     ``rate``, ``channels``) under the resolved DWT ``spec`` in a mode that extends
-    the signal at its edges; ``progress(fraction, text)`` as it goes; ``cancelled()``
-    true stops it (``InterruptedError``)."""
+    the signal at its edges, in one pass; ``progress(fraction, text)`` as it goes;
+    ``cancelled()`` true stops it (``InterruptedError``)."""
     from scalesieve.stream.dwt import ForwardStream, can_stream
 
     if not can_stream(spec):
@@ -149,31 +204,21 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
     blockers = [{key: _Blocker(band_block(key, level)) for key in keys} for _ in range(chans)]
     medians = [{key: st.MedianOfMagnitudes() for key in keys} for _ in range(chans)]
 
-    def run(first: bool, p0: float, text: str) -> None:
-        def put_for(k):
-            def put(key, k0, c):
-                medians[k][key].add(c)
-                if first:
-                    blockers[k][key].add(c)
-            return put
-        streams = [ForwardStream(n, spec, put_for(k)) for k in range(chans)]
-        for block in source.blocks():
-            if cancelled is not None and cancelled():
-                raise InterruptedError("summary cancelled")
-            for k, f in enumerate(streams):
-                if first:
-                    signal[k].add(block[:, k])
-                f.feed(np.ascontiguousarray(block[:, k]))
-            if progress:
-                progress(p0 + 0.5 * streams[0].fed / max(1, n), text)
-        for k in range(chans):
-            for m in medians[k].values():
-                if m.stage != "done":
-                    m.end_pass()
-
-    run(True, 0.0, "summarising the recording")
-    run(False, 0.5, "finding the noise of each band")
-    sig, bands, meds = [], [], []
+    def put_for(k):
+        def put(key, k0, c):
+            medians[k][key].add(c)
+            blockers[k][key].add(c)
+        return put
+    streams = [ForwardStream(n, spec, put_for(k)) for k in range(chans)]
+    for block in source.blocks():
+        if cancelled is not None and cancelled():
+            raise InterruptedError("summary cancelled")
+        for k, f in enumerate(streams):
+            signal[k].add(block[:, k])
+            f.feed(np.ascontiguousarray(block[:, k]))
+        if progress:
+            progress(streams[0].fed / max(1, n), "summarising the recording")
+    sig, bands, counts = [], [], []
     for k in range(chans):
         sig.append(Series.from_blocks(1 << BASE, n, 1.0, 0.0, *signal[k].finish()))
         per = {}
@@ -182,7 +227,8 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
             step, shift = tf._position_formula(key, spec)
             per[key] = Series.from_blocks(b.block, b.count, step, shift, *b.finish())
         bands.append(per)
-        meds.append({key: float(medians[k][key].value) for key in keys})
+        counts.append({key: _sparse(medians[k][key]) for key in keys})
     if progress:
         progress(1.0, "summary ready")
-    return Summary(n, float(source.rate), chans, spec, sig, bands, meds)
+    return Summary(n, float(source.rate), chans, spec, sig, bands, counts,
+                   [dict.fromkeys(keys) for _ in range(chans)])
