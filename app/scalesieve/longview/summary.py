@@ -25,6 +25,8 @@ from scalesieve.stream import statistics as st
 BASE = 10
 #: each coarser table merges 2^STEP blocks of the one below
 STEP = 2
+#: magnitudes gathered before they are counted into a median's bins
+COUNT_BATCH = 1 << 20
 
 
 @dataclass
@@ -204,9 +206,22 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
     blockers = [{key: _Blocker(band_block(key, level)) for key in keys} for _ in range(chans)]
     medians = [{key: st.MedianOfMagnitudes() for key in keys} for _ in range(chans)]
 
+    # counting bins costs a pass over all 2^20 of them per call: count in batches
+    pending = [{key: [] for key in keys} for _ in range(chans)]
+    held = [dict.fromkeys(keys, 0) for _ in range(chans)]
+
+    def count(k, key):
+        parts = pending[k][key]
+        if parts:
+            medians[k][key].add(np.concatenate(parts))
+            pending[k][key], held[k][key] = [], 0
+
     def put_for(k):
         def put(key, k0, c):
-            medians[k][key].add(c)
+            pending[k][key].append(np.abs(c))
+            held[k][key] += c.shape[0]
+            if held[k][key] >= COUNT_BATCH:
+                count(k, key)
             blockers[k][key].add(c)
         return put
     streams = [ForwardStream(n, spec, put_for(k)) for k in range(chans)]
@@ -220,6 +235,8 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
             progress(streams[0].fed / max(1, n), "summarising the recording")
     sig, bands, counts = [], [], []
     for k in range(chans):
+        for key in keys:
+            count(k, key)
         sig.append(Series.from_blocks(1 << BASE, n, 1.0, 0.0, *signal[k].finish()))
         per = {}
         for key in keys:
