@@ -285,3 +285,16 @@ def test_zooming_one_pane_moves_the_others_and_redraws(long_window, long_file):
     w.show_all()
     assert w.wait_idle() is None
     assert (w.picture.start, w.picture.stop) == (0, N) and not w.picture.exact
+
+
+def test_the_finest_noise_is_found_ahead_of_the_first_threshold(long_window, long_file, qtbot):
+    import pywt
+
+    path, x = long_file
+    w = long_window
+    w.open_long(path, SPEC)
+    assert w.wait_idle() is None
+    qtbot.waitUntil(lambda: w.lr.summary.medians[0][1] is not None, timeout=30_000)
+    d1 = np.abs(pywt.wavedec(x, "db4", mode="symmetric", level=8)[-1])
+    assert w.lr.summary.medians[0][1] == np.median(d1[d1 != 0])      # NumPy's median
+    assert w.lr.summary.medians[0][2] is None                         # only what is needed

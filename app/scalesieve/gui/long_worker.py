@@ -74,12 +74,35 @@ class LongWorker(QObject):
             self._save_session(lr)
             self.recording = lr
             self.opened.emit(lr, how)
+            self._start(self._prepare_noise, lr)
         except InterruptedError:
             pass
         except Exception as exc:  # noqa: BLE001 - one line to the user, never a traceback
             self.failed.emit(message_for(exc))
         finally:
             self._opening = False
+
+    def _prepare_noise(self, lr) -> None:
+        """The finest band's noise, which most thresholds read, found ahead of the first one
+        (a pass to level 1, in the background; a threshold asked for meanwhile waits for it)."""
+        from scalesieve.longview import cache
+        from scalesieve.stream.pipeline import _Source
+
+        wanted = [(k, 1) for k in range(lr.channels)]
+        if not lr.summary.missing(wanted):
+            return
+        time.sleep(self.SWEEP_AFTER_S)          # the first view drawn first
+        try:
+            self.notice.emit("finding the finest band's noise for thresholds (in the background)")
+            if lr.summary.find_medians(_Source(lr.path, lr.channel), wanted,
+                                       cancelled=lambda: self._stopping):
+                if lr.summary.kept_as is not None:
+                    cache.keep(lr.summary)
+            self.notice.emit("")
+        except InterruptedError:
+            pass
+        except Exception as exc:  # noqa: BLE001 - as above
+            self.failed.emit(message_for(exc))
 
     # ---------------------------------------------------------------- sessions
 

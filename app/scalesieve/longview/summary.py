@@ -14,6 +14,7 @@ number ``numpy.median`` gives.
 
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -27,6 +28,8 @@ BASE = 10
 STEP = 2
 #: magnitudes gathered before they are counted into a median's bins
 COUNT_BATCH = 1 << 20
+#: held while a pass finds medians (a window may start one ahead of the first threshold)
+_FINDING = threading.Lock()
 
 
 @dataclass
@@ -143,6 +146,10 @@ class Summary:
     def find_medians(self, source, wanted, progress=None, cancelled=None) -> bool:
         """The exact medians of the bands ``wanted`` (``(k, key)``), in one pass over
         ``source`` to the deepest level they need; False when all were known."""
+        with _FINDING:                  # one pass at a time; a second caller finds it done
+            return self._find(source, wanted, progress, cancelled)
+
+    def _find(self, source, wanted, progress, cancelled) -> bool:
         from scalesieve.stream.dwt import ForwardStream
 
         todo = self.missing(wanted)
