@@ -140,7 +140,21 @@ class LongScaleMap(PaneFrame):
         self.plot.addItem(self.image)
         self.content.addWidget(self.plot)
         self.plot.getPlotItem().getAxis("left").setLabel("band")
+        self.plot.getPlotItem().getAxis("left").enableAutoSIPrefix(False)
         self.names: list = []
+        self.waiting = pg.TextItem("", color=colour("plot", "foreground"), anchor=(0.5, 0.5))
+        self.plot.addItem(self.waiting)
+
+    def wait_for(self, text: str) -> None:
+        """Say what is being prepared while there is nothing to draw (empty: drawing)."""
+        self.waiting.setText(text)
+        self.waiting.setVisible(bool(text))
+        self.threshold.setEnabled(not text)
+        if text:
+            vb = self.plot.getPlotItem().getViewBox()
+            vb.setRange(xRange=(0, 1), yRange=(0, 1), padding=0)
+            self.waiting.setPos(0.5, 0.5)
+            self.plot.getPlotItem().getAxis("left").setTicks([[]])
 
     def set_rows(self, names: list) -> None:
         self.names = list(names)
@@ -233,6 +247,7 @@ class LongOverview(PaneFrame):
         self.plot.getPlotItem().getViewBox().setMouseEnabled(x=False, y=False)
         self.curve = self.plot.plot([], [], pen=pg.mkPen(colour("traces", "original")))
         self.region = pg.LinearRegionItem(brush=pg.mkBrush(colour("plot", "overview_region")))
+        self.region.setVisible(False)             # until there is a recording to mark
         self.plot.addItem(self.region)
         self.content.addWidget(self.plot)
         self.setFixedHeight(72)
@@ -243,6 +258,7 @@ class LongOverview(PaneFrame):
         self.region.blockSignals(True)
         self.region.setBounds((0, duration_s))
         self.region.blockSignals(False)
+        self.region.setVisible(True)
         self.duration = duration_s
 
     def mark(self, t0_s: float, t1_s: float) -> None:

@@ -129,6 +129,8 @@ class LongWindow(QMainWindow):
         self.path = path
         self.base_edits = tuple(edits)
         self.facts.setText(f"{os.path.basename(path)} · long recording: preparing its summary")
+        self.scale_map.wait_for("Preparing this long recording's summary: one pass over the "
+                                "file, kept for the next time (progress below, right)")
         self.worker.open(path, spec, channel, self.base_edits)
 
     def _opened(self, lr, how: str) -> None:
@@ -138,6 +140,7 @@ class LongWindow(QMainWindow):
         for key in rows_of(level):
             lo, hi = tf.band_range_hz(key, level, lr.rate)
             bands.append((key, tf.band_name(key, level), lo, hi))
+        self.scale_map.wait_for("")
         self.scale_map.rows.set_bands(bands)
         # title, threshold line, the rows and the colour legend
         need = 150 + ROW_HEIGHT * len(bands)
@@ -320,6 +323,9 @@ class LongWindow(QMainWindow):
     def _failed(self, message: str) -> None:
         self.progress_bar.hide()
         self.progress_text.setText("")
+        if self.lr is None:
+            self.scale_map.wait_for(f"Not opened: {message}")
+            self.facts.setText(f"{os.path.basename(getattr(self, 'path', ''))} · not opened")
         show_error(self, message)
 
     def wait_idle(self, timeout_s: float = 600.0, sweep: bool = False) -> str | None:
