@@ -298,3 +298,14 @@ def test_the_finest_noise_is_found_ahead_of_the_first_threshold(long_window, lon
     d1 = np.abs(pywt.wavedec(x, "db4", mode="symmetric", level=8)[-1])
     assert w.lr.summary.medians[0][1] == np.median(d1[d1 != 0])      # NumPy's median
     assert w.lr.summary.medians[0][2] is None                         # only what is needed
+
+
+def test_a_file_that_does_not_read_says_so_in_one_line(long_window, tmp_path):
+    bad = tmp_path / "broken.wav"
+    bad.write_bytes(b"RIFF\x10\x00\x00\x00WAVEjunk")
+    w = long_window
+    w.open_long(str(bad), SPEC)
+    problem = w.wait_idle()
+    assert problem and "broken.wav" in problem and "Traceback" not in problem
+    assert w.scale_map.waiting.isVisible() and "Not opened" in w.scale_map.waiting.toPlainText()
+    assert not w.export_action.isEnabled()
