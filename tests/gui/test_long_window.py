@@ -282,6 +282,11 @@ def test_zooming_one_pane_moves_the_others_and_redraws(long_window, long_file):
     assert abs(a - 4.0) < 1e-3 and abs(b - 4.5) < 1e-3
     assert w.picture.exact and abs(w.picture.start - 4.0 * RATE) <= 1
     assert "4–4.5 s of" in w.overview.span.text()
+    # a view set in samples stays where it was when the panes are resized
+    w.set_view(123_457, 140_000)
+    w.resize(1100, 760)
+    assert w.wait_idle() is None
+    assert (w.picture.start, w.picture.stop) == (123_457, 140_000)
     w.show_all()
     assert w.wait_idle() is None
     assert (w.picture.start, w.picture.stop) == (0, N) and not w.picture.exact

@@ -14,8 +14,6 @@ from __future__ import annotations
 import os
 import time
 
-import numpy as np
-
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QApplication, QComboBox, QFileDialog, QLabel, QMainWindow,
                                QProgressBar, QSplitter, QToolBar)
@@ -221,8 +219,10 @@ class LongWindow(QMainWindow):
         """A plot was zoomed or panned (wheel, drag): the others follow."""
         if self.lr is None or self._setting_range:
             return
-        a, b = rng
-        self.set_view(int(np.floor(a * self.lr.rate)), int(np.ceil(b * self.lr.rate)))
+        a, b = (int(round(v * self.lr.rate)) for v in rng)
+        if abs(a - self.view[0]) <= 1 and abs(b - self.view[1]) <= 1:
+            return          # the view as set, come back through seconds (a resize, a redraw)
+        self.set_view(a, b)
 
     def _overview_moved(self) -> None:
         if self.lr is not None:
