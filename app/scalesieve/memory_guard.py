@@ -244,3 +244,27 @@ def _default_spec():
     from scalesieve.core.transforms import TransformSpec
 
     return TransformSpec()
+
+
+#: bytes of in-memory model above which the window shows a recording in long-recording mode
+WINDOW_ABOVE = STREAM_ABOVE
+
+
+def window_long(facts: dict | None, *, channel=None, transform=None,
+                budget: int | None = None, available: int | None = None) -> bool:
+    """Whether the window should show ``facts``'s recording in long-recording mode.
+
+    True when the in-memory model (``estimate``) would need more than
+    ``budget`` (default ``WINDOW_ABOVE``) or than is ``available`` (default
+    the memory free): the window then reads the file on demand and draws
+    from its summary (``scalesieve.longview``).  False for a file that was
+    not probed (a text table: read whole, as before).
+    """
+    if facts is None or facts.get("frames") is None or facts.get("kind") != "audio":
+        return False
+    if available is None:
+        import psutil
+
+        available = int(psutil.virtual_memory().available)
+    limit = min(WINDOW_ABOVE if budget is None else int(budget), available)
+    return estimate(facts, channel=channel, transform=transform) > limit

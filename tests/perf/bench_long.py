@@ -23,6 +23,18 @@ the whole-file reader (the budget lifted) beside it.
 
 The full size is for a quiet machine: the bare script alone holds about
 8 GiB.  ``--no-bare`` leaves it out.
+
+``--window``: the window instead of the commands.  On the ``--samples`` file
+(which the window opens in long-recording mode) a window process opens it
+twice (the summary built, then read back from a cache in a temporary
+folder), and times a band mute to the repainted window (``grab``) on the
+whole view and on a 10 s view, then the first threshold (VisuShrink on every
+detail band: the first time, a pass to level 1 finds the finest band's noise)
+and changes of its shape on the 10 s view; beside it a window process opens a
+10 M-sample file (``--window-memory``) in memory and times the same mute.
+Prints each process's peak resident memory and the ratios long / in memory.
+
+    python tests/perf/bench_long.py --window --samples 268435456   # 1 GiB float32 WAV
 """
 
 from __future__ import annotations
@@ -158,6 +170,159 @@ def _bare(script: str, table: bool) -> str:
     return head + BARE_TABLE_READ + "x, rate = read(sys.argv[1])\n" + rest
 
 
+WINDOW_LONG = r"""
+import json, os, statistics, sys, time
+os.environ["QT_QPA_PLATFORM"] = "offscreen"
+from PySide6.QtWidgets import QApplication
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.gui.app import make_application
+from scalesieve.gui.long_window import LongWindow
+path, repeat = sys.argv[1], int(sys.argv[2])
+app = make_application()
+app.setProperty("scalesieve_quiet_errors", True)
+w = LongWindow()
+w.resize(1600, 1000)
+w.show()
+t = time.perf_counter()
+w.open_long(path, TransformSpec())
+problem = w.wait_idle(7200)
+if problem:
+    sys.exit(problem)
+w.grab()
+opened = time.perf_counter() - t
+def timed(action):
+    asked = w.asked_number
+    t = time.perf_counter()
+    action()
+    while w.asked_number == asked or w.painted_number < w.asked_number:
+        QApplication.processEvents()
+        time.sleep(0.0002)
+    w.grab()
+    return time.perf_counter() - t
+mute = w.scale_map.rows.rows[3][1]
+timed(mute.click); timed(mute.click)
+whole = [timed(mute.click) for _ in range(repeat)]
+exact_whole = w.picture.exact
+rate = w.lr.rate
+centre = w.lr.n // 2
+w.set_view(centre - int(5 * rate), centre + int(5 * rate))
+w.wait_idle()
+zoomed = [timed(mute.click) for _ in range(repeat)]
+th = w.scale_map.threshold
+first = timed(lambda: th.rule.setCurrentIndex(th.rule.findData("universal")))
+shapes = [timed(lambda s=s: th.shape.setCurrentIndex(th.shape.findData(s)))
+          for s in ("hard", "soft") * max(1, repeat // 2)]
+print(json.dumps({"open_s": round(opened, 3), "summary": "kept" if "cache" in
+                  w.mode_line.text() else "built", "view_whole_exact": exact_whole,
+                  "view_10s_exact": w.picture.exact,
+                  "mute_whole_view_ms": round(1000 * statistics.median(whole), 2),
+                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2),
+                  "threshold_first_s": round(first, 3),
+                  "threshold_shape_10s_view_ms": round(1000 * statistics.median(shapes), 2)}),
+      flush=True)
+w.close()
+app.processEvents()
+"""
+
+WINDOW_MEMORY = r"""
+import json, os, statistics, sys, time
+os.environ["QT_QPA_PLATFORM"] = "offscreen"
+from PySide6.QtWidgets import QApplication
+from scalesieve.gui import window_settings as ws
+from scalesieve.gui.app import make_application
+from scalesieve.gui.main_window import MainWindow
+path, repeat, folder = sys.argv[1], int(sys.argv[2]), sys.argv[3]
+app = make_application()
+app.setProperty("scalesieve_quiet_errors", True)
+w = MainWindow(ws.open_settings(os.path.join(folder, "settings.ini")))
+w.resize(1600, 1000)
+w.show()
+t = time.perf_counter()
+w.open_path(path, ask_text_settings=False)
+problem = w.adapter.wait_idle(600)
+if problem:
+    sys.exit(problem)
+w.grab()
+opened = time.perf_counter() - t
+def timed(action):
+    t = time.perf_counter()
+    action()
+    QApplication.processEvents()
+    w.adapter.wait_idle(600, bands=False)
+    QApplication.processEvents()
+    w.grab()
+    return time.perf_counter() - t
+key = [k for k in w.adapter.model.band_keys if k != "a"][2]
+mute = w.scale_map.headers[key].mute
+timed(mute.click); timed(mute.click)
+whole = [timed(mute.click) for _ in range(repeat)]
+rate = w.adapter.model.recording.rate
+mid = w.adapter.model.recording.duration_s / 2
+w.time_axis.set_range(mid - 5, mid + 5)
+w.adapter.wait_idle(600)
+zoomed = [timed(mute.click) for _ in range(repeat)]
+print(json.dumps({"open_s": round(opened, 3),
+                  "mute_whole_view_ms": round(1000 * statistics.median(whole), 2),
+                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2)}),
+      flush=True)
+w.close()
+app.processEvents()
+"""
+
+
+def _peak(cmd: list[str], env: dict) -> dict:
+    """What a child prints as JSON, its wall time and its own peak resident memory (``wait4``)."""
+    t0 = time.perf_counter()
+    p = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env)
+    out, err = [], []
+    import threading
+
+    def drain(stream, into):
+        into.append(stream.read())
+    threads = [threading.Thread(target=drain, args=(p.stdout, out)),
+               threading.Thread(target=drain, args=(p.stderr, err))]
+    for t in threads:
+        t.start()
+    _, status, usage = os.wait4(p.pid, 0)
+    for t in threads:
+        t.join()
+    code = os.waitstatus_to_exitcode(status)
+    if code != 0:
+        raise SystemExit(f"a window process failed ({code}): "
+                         f"{err[0].decode(errors='replace').strip()[-600:]}")
+    row = json.loads(out[0].decode().strip().splitlines()[-1])
+    row["process_s"] = round(time.perf_counter() - t0, 3)
+    row["peak_mib"] = round(usage.ru_maxrss / 1024, 1)
+    return row
+
+
+def window_bench(args) -> None:
+    """The window on a long recording beside the window on 10 M samples in memory."""
+    figures: dict = {"samples": args.samples, "in_memory_samples": args.window_memory,
+                     "machine": {"cpus": os.cpu_count(), "load": os.getloadavg()}}
+    with tempfile.TemporaryDirectory(dir=args.dir) as tmp:
+        env = dict(os.environ, SCALESIEVE_CACHE_DIR=os.path.join(tmp, "cache"))
+        small = os.path.join(tmp, "memory.wav")
+        _write(small, args.window_memory)
+        figures["in_memory"] = _peak([sys.executable, "-c", WINDOW_MEMORY, small,
+                                      str(args.repeat), tmp], env)
+        os.unlink(small)
+        src = os.path.join(tmp, "long.wav")
+        _write(src, args.samples)
+        long_cmd = [sys.executable, "-c", WINDOW_LONG, src, str(args.repeat)]
+        figures["long_first_open"] = _peak(long_cmd, env)
+        figures["long_from_cache"] = _peak(long_cmd, env)
+    mem, first, again = figures["in_memory"], figures["long_first_open"], figures["long_from_cache"]
+    figures["ratios"] = {
+        "long_peak_gib": round(max(first["peak_mib"], again["peak_mib"]) / 1024, 3),
+        "mute_whole_view_long_over_in_memory": round(
+            again["mute_whole_view_ms"] / mem["mute_whole_view_ms"], 3),
+        "mute_10s_view_long_over_in_memory": round(
+            again["mute_10s_view_ms"] / mem["mute_10s_view_ms"], 3),
+    }
+    print(json.dumps(figures))
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--samples", type=int, default=1 << 28)
@@ -174,7 +339,16 @@ def main() -> None:
     ap.add_argument("--force-blocks", action="store_true",
                     help="every command in blocks whatever the length (both sizes alike)")
     ap.add_argument("--dir", default=None, help="folder for the test files (default a temp one)")
+    ap.add_argument("--window", action="store_true",
+                    help="the window on --samples (long-recording mode) beside the window on "
+                         "--window-memory samples in memory (see the module's words)")
+    ap.add_argument("--window-memory", type=int, default=10_000_000,
+                    help="samples of the in-memory window beside it (default 10 M)")
+    ap.add_argument("--repeat", type=int, default=9, help="edits timed per view (--window)")
     args = ap.parse_args()
+    if args.window:
+        window_bench(args)
+        return
     wanted = args.only.split(",")
     sizes = {"long": args.samples, "short": args.samples // 4}
     figures: dict = {"samples": sizes, "machine": {"cpus": os.cpu_count(),

@@ -8,6 +8,9 @@ from scalesieve.errors import ScalesieveError
 
 #: the size --snapshot draws the window at (docs/reference.md)
 SNAPSHOT_SIZE = (1600, 1000)
+#: bytes of in-memory model above which the window opens a recording in long-recording
+#: mode (None: memory_guard.WINDOW_ABOVE, or less when less memory is free)
+LONG_ABOVE = None
 
 
 def configure(p) -> None:
@@ -77,12 +80,41 @@ def run(args) -> int:
         if args.shaft is None:
             raise ScalesieveError("--bearing needs --shaft HZ (the shaft's rotation rate)")
     recipe = load_recipe(args.recipe) if args.recipe else None
-    rec = load_input(args, path)
     spec = transform_from(args, recipe.transform if recipe else None)
     edits = tuple(recipe.edits) if recipe else ()
+    long = _long(args, path, spec)
+    rec = None if long else load_input(args, path)
     # The one call from the command line into the gui; Qt is imported here only.
-    from scalesieve.gui.app import run_window
+    import scalesieve.gui.app as window_app
 
-    return run_window(rec, spec, edits, snapshot=snapshot, force=args.force, size=size,
-                      impacts=args.impacts, band=args.band, bearing=args.bearing,
-                      shaft=args.shaft)
+    if long:
+        # over the window's memory budget: read on demand, drawn from a summary
+        return window_app.run_long_window(path, spec, edits, channel=args.channel,
+                                          snapshot=snapshot, force=args.force, size=size)
+    return window_app.run_window(rec, spec, edits, snapshot=snapshot, force=args.force,
+                                 size=size, impacts=args.impacts, band=args.band,
+                                 bearing=args.bearing, shaft=args.shaft)
+
+
+def _long(args, path: str, spec) -> bool:
+    """Whether FILE is over the window's memory budget; refuses what the long view cannot show."""
+    from scalesieve import memory_guard
+    from scalesieve.longview.span import why_not_long
+    from scalesieve.stream.pipeline import not_streamable
+
+    facts = memory_guard.probe_quietly(path)
+    if not memory_guard.window_long(facts, channel=args.channel, transform=spec,
+                                    budget=LONG_ABOVE):
+        return False
+    need = memory_guard.estimate(facts, channel=args.channel, transform=spec)
+    why = (not_streamable(facts, spec, [], args.fill_gaps) if spec.kind == "dwt" else None) \
+        or why_not_long(spec)
+    if why is None and (args.impacts or args.band or args.bearing):
+        why = "the Impacts dock needs the whole recording in memory"
+    if why is not None:
+        raise ScalesieveError(f"needs about {need / 2**30:.1f} GiB of memory in the window, "
+                              f"and the long-recording view cannot show it: {why}", path)
+    from scalesieve.stream.pipeline import open_source
+
+    open_source(path, args.channel, args.rate)      # the channel and --rate checked here
+    return True

@@ -144,6 +144,46 @@ def run_window(recording, transform, edits=(), *, snapshot: str | None = None,
             tmp.cleanup()
 
 
+def run_long_window(path: str, transform, edits=(), *, channel=None,
+                    snapshot: str | None = None, force: bool = False,
+                    size: tuple[int, int] = SNAPSHOT_SIZE) -> int:
+    """Open the long-recording window on the audio file ``path`` (see gui/long_window.py)."""
+    from scalesieve.errors import ScalesieveError
+    from scalesieve.gui.failure_dialog import install_excepthook
+    from scalesieve.gui.long_window import LongWindow
+
+    if not snapshot:
+        problem = display_problem()
+        if problem:
+            raise ScalesieveError(problem)
+    else:
+        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from PySide6.QtCore import qInstallMessageHandler
+
+    qInstallMessageHandler(_qt_message)
+    app = make_application()
+    if snapshot:
+        app.setProperty("scalesieve_quiet_errors", True)
+    window = LongWindow(keep_sessions=not snapshot)
+    reporter = install_excepthook(app, lambda: window)
+    window.resize(*size)
+    window.show()
+    window.open_long(path, transform, edits, channel)
+    if snapshot:
+        problem = window.wait_idle(sweep=True)     # the cleaned trace of the whole view too
+        if problem:
+            window.close()
+            raise ScalesieveError(problem)
+        window.snapshot(snapshot, force=force)
+        reporter.uninstall()
+        _dispose(app, window)
+        return 0
+    code = int(app.exec())
+    reporter.uninstall()
+    _dispose(app, window)
+    return code
+
+
 def _run(app, settings, window_args, impacts) -> int:
     from scalesieve.errors import ScalesieveError
     from scalesieve.gui.failure_dialog import install_excepthook

@@ -461,6 +461,11 @@ class MainWindow(RecipeFiles, QMainWindow):
             if load is None:
                 return
         else:
+            from scalesieve.gui.long_window import open_if_long
+
+            if open_if_long(self, path):      # over the memory budget: read on demand
+                return
+
             def load():
                 return api.load(path)
         ws.set_last_folder(self.settings, path)

@@ -1,0 +1,106 @@
+"""Any stretch of a long recording's samples, read when asked for, as float64.
+
+A WAV holding 16-, 24- or 32-bit integer PCM or 32- or 64-bit float samples
+is read through a memory map of its data chunk (``io.wav_header.data_layout``),
+scaled as libsndfile scales it, so the numbers equal what ``soundfile.read``
+gives; any other file is read with soundfile, seeking to the stretch.  The
+map holds no pages of its own: what was read may be dropped by the system.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import soundfile as sf
+
+from scalesieve.errors import ScalesieveError
+from scalesieve.io.wav_header import data_layout
+
+
+class SampleReader:
+    """Frames ``start .. stop`` of ``path`` (one channel, or all), float64, shape (m, channels).
+
+    Parameters
+    ----------
+    path : str
+    channel : int, optional
+        Only this channel (0-based); default every channel.
+    mapped : bool
+        Use a memory map where the format allows (``False``: soundfile always).
+    """
+
+    def __init__(self, path: str, channel: int | None = None, mapped: bool = True):
+        from scalesieve.io.quiet_native import quiet_native_stderr
+
+        self.path, self.pick = path, channel
+        try:
+            with quiet_native_stderr(), sf.SoundFile(path) as f:
+                self.rate = float(f.samplerate)
+                self.file_channels = int(f.channels)
+                self.frames = int(f.frames)
+        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
+            raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
+        self.channels = 1 if channel is not None else self.file_channels
+        self.layout = data_layout(path) if mapped else None
+        self._map = None
+        if self.layout is not None and self.layout["channels"] == self.file_channels \
+                and self.layout["frames"] >= self.frames:
+            lay = self.layout
+            width = 3 if lay["kind"] == "i3" else int(lay["kind"][1])
+            order = ">" if lay["byteorder"] == "big" else "<"
+            if lay["kind"] == "i3":
+                dtype = np.dtype("u1")
+                shape = (self.frames, self.file_channels * 3)
+            else:
+                dtype = np.dtype(order + lay["kind"])
+                shape = (self.frames, self.file_channels)
+            if self.frames:
+                self._map = np.memmap(path, dtype=dtype, mode="r", offset=lay["offset"],
+                                      shape=shape)
+            self._width, self._order = width, order
+        else:
+            self.layout = None
+
+    @property
+    def mapped(self) -> bool:
+        """Whether the samples come from a memory map."""
+        return self._map is not None
+
+    def read(self, start: int, stop: int) -> np.ndarray:
+        """Frames ``start .. stop`` (clipped to the recording), float64, (m, channels)."""
+        start, stop = max(0, int(start)), min(self.frames, int(stop))
+        if stop <= start:
+            return np.zeros((0, self.channels))
+        if self._map is not None:
+            return self._mapped(start, stop)
+        try:
+            with sf.SoundFile(self.path) as f:
+                f.seek(start)
+                x = f.read(stop - start, dtype="float64", always_2d=True)
+        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
+            raise ScalesieveError(f"could not read the audio samples after frame {start} "
+                                  f"({exc})", self.path) from None
+        if x.shape[0] != stop - start:
+            raise ScalesieveError(f"holds {start + x.shape[0]} readable frames, but its header "
+                                  f"says {self.frames} (truncated?)", self.path)
+        return x if self.pick is None else x[:, self.pick:self.pick + 1].copy()
+
+    def _mapped(self, start: int, stop: int) -> np.ndarray:
+        lay = self.layout
+        raw = self._map[start:stop]
+        if lay["kind"] == "i3":
+            b = np.asarray(raw).reshape(stop - start, self.file_channels, 3).astype(np.int32)
+            if self._order == "<":
+                v = b[..., 0] | (b[..., 1] << 8) | (b[..., 2] << 16)
+            else:
+                v = b[..., 2] | (b[..., 1] << 8) | (b[..., 0] << 16)
+            v = np.where(v >= 1 << 23, v - (1 << 24), v)
+            x = v.astype(np.float64)
+        else:
+            x = np.asarray(raw, dtype=np.float64)
+        if lay["scale"] != 1.0:
+            x = x / lay["scale"]
+        return x if self.pick is None else x[:, self.pick:self.pick + 1].copy()
+
+    def close(self) -> None:
+        """Let the map go (the file may then be replaced or removed)."""
+        self._map = None
