@@ -49,7 +49,7 @@ def test_too_long_for_memory_but_fine_in_blocks_is_not_refused(wav, monkeypatch)
 
 
 @pytest.mark.parametrize("spec,why", [
-    (TransformSpec(kind="packet"), "wavelet packets are not worked on in blocks")])
+    (TransformSpec(kind="packet"), "wavelet packets are worked on in blocks for band figures only")])
 def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, why):
     with pytest.raises(ScalesieveError, match=why):
         memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20)

@@ -98,7 +98,7 @@ def run(args) -> int:
 
     spec = transform_from(args)
     facts = memory_guard.check(args.file, channel=args.channel, transform=spec, outputs=(),
-                               fill_gaps=args.fill_gaps)
+                               fill_gaps=args.fill_gaps, packets=True)
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if facts and facts.get("in_blocks"):
             what = ("parsed in chunks into a temporary file, then read in blocks, one pass "
