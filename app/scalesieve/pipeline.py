@@ -45,7 +45,7 @@ def guard(input_path: str, *, channel: int | str | None = None,
     from scalesieve import memory_guard
 
     return memory_guard.check(input_path, channel=channel, transform=transform,
-                              outputs=list(outputs), fill_gaps=fill_gaps)
+                              outputs=list(outputs), fill_gaps=fill_gaps, packets=True)
 
 
 def removed_energy_fraction(samples: np.ndarray, model) -> float:

@@ -1,6 +1,13 @@
-"""Wavelet packets block by block against PyWavelets' WaveletPacket and SciPy on the whole recording."""
+"""Wavelet packets block by block (bands, clean) against PyWavelets' WaveletPacket, SciPy and
+the whole-array commands on the same recording."""
 
 import json
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import time
 
 import numpy as np
 import pytest
@@ -197,13 +204,164 @@ def test_the_wrapping_modes_are_refused_in_one_line(tmp_path, monkeypatch, capsy
     assert len(err.splitlines()) == 1 and "Traceback" not in err and why in err
 
 
-def test_a_packet_clean_in_blocks_is_refused_with_the_reason(tmp_path, monkeypatch, capsys):
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_a_packet_clean_in_a_wrapping_mode_is_refused_in_one_line(tmp_path, monkeypatch,
+                                                                  capsys, mode):
     src = tmp_path / "long.wav"
     sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
     out = tmp_path / "out.wav"
     _little_memory(monkeypatch)
     assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
-                 "--threshold", "universal"]) == 2
+                 "--mode", mode, "--threshold", "universal"]) == 2
     err = capsys.readouterr().err.strip()
-    assert len(err.splitlines()) == 1 and "for band figures only, not to clean" in err
+    assert len(err.splitlines()) == 1
+    assert f"wavelet packets in boundary mode {mode} are not worked on in blocks" in err
     assert not out.exists()
+
+
+# ---------------------------------------------------------------------------- clean
+
+
+def _clean(argv, blocks: bool, monkeypatch, capsys):
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 0 if blocks else 1 << 62)
+    assert main(argv) == 0, capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert ("cleaned in blocks" in err) == blocks, err
+    return err
+
+
+def _write_recipe(path, transform, edits):
+    path.write_text(json.dumps({"scalesieve_recipe": 1, "transform": transform,
+                                "edits": edits}))
+
+
+EVERY_RULE = [
+    {"op": "threshold", "levels": "details", "rule": "universal", "shape": "soft",
+     "noise": "finest", "scale": 0.5},
+    {"op": "threshold", "bands": ["w4.5", "w4.6"], "rule": "bayes", "shape": "hard",
+     "noise": "level"},
+    {"op": "threshold", "bands": ["w4.9", "w4.14"], "rule": "sure", "shape": "soft",
+     "noise": "finest"},
+    {"op": "gain", "bands": ["w4.3"], "gain": 0.5},
+    {"op": "region", "bands": ["w4.2", "w4.7"], "start_s": 1.0, "stop_s": 1.5},
+]
+
+
+@pytest.mark.parametrize("mode", LOCAL_MODES)
+def test_a_packet_clean_in_blocks_is_the_whole_array_clean(tmp_path, monkeypatch, capsys, mode):
+    x = _two_channels(60_007, seed=4)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    recipe = tmp_path / "r.json"
+    _write_recipe(recipe, {"kind": "packet", "wavelet": "db4", "level": 4, "mode": mode,
+                           "basis": "full"}, EVERY_RULE)
+    got = {}
+    for blocks in (False, True):
+        out = tmp_path / f"out-{blocks}.wav"
+        _clean(["clean", str(src), "-o", str(out), "--recipe", str(recipe), "--subtype",
+                "DOUBLE", "--save-recipe", str(tmp_path / f"r-{blocks}.json")],
+               blocks, monkeypatch, capsys)
+        got[blocks] = sf.read(out)[0]
+    assert np.max(np.abs(got[True] - got[False])) <= 1e-12 * np.max(np.abs(x))
+    assert not np.allclose(got[True], x)                # the recipe did change it
+    assert (tmp_path / "r-True.json").read_text() == (tmp_path / "r-False.json").read_text()
+
+
+def test_packet_band_gains_in_blocks_are_waveletpacket_reconstruct(tmp_path):
+    from scalesieve.recipe import Edit
+    from scalesieve.stream.pipeline import clean_stream
+
+    n, wavelet, mode = 50_001, "sym5", "smooth"
+    x = _two_channels(n, seed=8)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    out = tmp_path / "out.wav"
+    gains = {"w3.1": 0.0, "w3.4": 2.0, "w3.6": 0.25}
+    rep = clean_stream(str(src), str(out), transform=TransformSpec("packet", wavelet, 3, mode),
+                       edits=[Edit("gain", bands=(b,), gain=g) for b, g in gains.items()],
+                       subtype="DOUBLE")
+    assert rep["samples"] == n
+    y = sf.read(out)[0]
+    for k in range(2):
+        # the reference: PyWavelets' own tree, its nodes scaled, WaveletPacket.reconstruct
+        tree = pywt.WaveletPacket(x[:, k], wavelet, mode, maxlevel=3)
+        for i, nd in enumerate(tree.get_level(3, "freq")):
+            tree[nd.path] = nd.data * gains.get(f"w3.{i}", 1.0)
+        want = tree.reconstruct(update=False)[:n]
+        assert np.max(np.abs(y[:, k] - want)) <= 1e-12 * np.max(np.abs(x[:, k]))
+
+
+def test_a_best_basis_clean_in_blocks_chooses_and_cleans_as_the_whole_array(tmp_path,
+                                                                           monkeypatch, capsys):
+    x = _two_channels(40_003, seed=6)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    got, saved = {}, {}
+    for blocks in (False, True):
+        out = tmp_path / f"out-{blocks}.wav"
+        saved[blocks] = tmp_path / f"r-{blocks}.json"
+        _clean(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "4",
+                "--basis", "best", "--cost", "log-energy", "--threshold", "bayes",
+                "--subtype", "DOUBLE", "--save-recipe", str(saved[blocks])],
+               blocks, monkeypatch, capsys)
+        got[blocks] = sf.read(out)[0]
+    # the same tiling chosen (saved as its node paths) and the same samples
+    assert json.loads(saved[True].read_text())["transform"] == \
+        json.loads(saved[False].read_text())["transform"]
+    assert isinstance(json.loads(saved[True].read_text())["transform"]["basis"], list)
+    assert np.max(np.abs(got[True] - got[False])) <= 1e-12 * np.max(np.abs(x))
+
+
+_KILLED = textwrap.dedent("""
+    import sys
+    from scalesieve import memory_guard
+    from scalesieve.cli import main
+    memory_guard.STREAM_ABOVE = 1 << 16
+    sys.exit(main(sys.argv[1:]))
+""")
+
+
+def test_a_killed_packet_export_in_blocks_leaves_no_torn_file(tmp_path):
+    src = tmp_path / "in.wav"
+    x = (np.random.default_rng(2).standard_normal((2_000_000, 1)) * 0.1).astype(np.float32)
+    sf.write(src, x, 48000, subtype="FLOAT")
+    out = tmp_path / "out.wav"
+    old = b"an older export"
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
+    cmd = [sys.executable, "-c", _KILLED, "clean", str(src), "-o", str(out), "--force",
+           "--transform", "packet", "--level", "5", "--threshold", "universal"]
+    t0 = time.perf_counter()
+    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
+    took = time.perf_counter() - t0
+    assert done.returncode == 0, done.stderr
+    assert "cleaned in blocks" in done.stderr
+    whole = sf.read(out, dtype="float32")[0]
+
+    def intact():
+        # the old bytes, or the complete new samples (libsndfile stamps a time in the header)
+        if out.read_bytes() == old:
+            return True
+        y = sf.read(out, dtype="float32")[0]
+        return y.shape == whole.shape and np.array_equal(y, whole)
+
+    torn_temporaries = 0
+    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
+        out.write_bytes(old)
+        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        # kill while the new file is being written: once its temporary file appears
+        deadline = time.monotonic() + 10 * took + 30
+        while p.poll() is None and time.monotonic() < deadline:
+            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
+                break
+            time.sleep(0.005)
+        time.sleep(extra)
+        p.send_signal(signal.SIGKILL)
+        p.wait()
+        assert intact()
+        for name in os.listdir(tmp_path):
+            assert name in ("in.wav", "out.wav") or ".tmp-scalesieve-" in name
+            torn_temporaries += ".tmp-scalesieve-" in name
+    assert torn_temporaries >= 1                       # some kills did land mid-write
+    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
+    assert intact() and out.read_bytes() != old
+    assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]

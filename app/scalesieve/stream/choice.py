@@ -22,8 +22,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     are read in blocks.  The SWT runs in blocks in every boundary mode
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
-    Wavelet packets run in blocks for the band figures only (``packets``:
-    the command is ``bands``), in the modes that extend the signal from
+    Wavelet packets run in blocks for the commands that can take them
+    (``packets``: ``bands`` and ``clean``), in the modes that extend the signal from
     samples near its edge (``stream.packet_tree``).
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
@@ -52,12 +52,11 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
 
 
 def packet_refusal(spec: tf.TransformSpec, bands: bool) -> str | None:
-    """Why wavelet packets of ``spec`` cannot run in blocks (``bands``: for band figures)."""
+    """Why wavelet packets of ``spec`` cannot run in blocks (``bands``: the command can)."""
     from scalesieve.stream.dwt import STREAM_MODES
 
     if not bands:
-        return ("wavelet packets are worked on in blocks for band figures only, not to clean; "
-                "--transform dwt or swt cleans in blocks")
+        return "wavelet packets are worked on in blocks by bands and clean only"
     if spec.mode not in STREAM_MODES:
         return (f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks, "
                 f"only in {', '.join(sorted(STREAM_MODES))}")

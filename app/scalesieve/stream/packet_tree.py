@@ -77,6 +77,53 @@ class PacketTree:
         self._deliver("", k0, block)
 
 
+class PacketInverse:
+    """``WaveletPacket.reconstruct`` of basis nodes handed in block by block, out in blocks.
+
+    Every inner node is a one-level inverse stage (``stream.dwt.InverseStream``
+    with level 1) that makes the node, cut to its length, from its two
+    children's blocks and hands its blocks to its parent's stage; the root's
+    are the output, in order.  A stage at depth d makes blocks of
+    ``BLOCK / 2**d`` (at least ``MIN_BLOCK``), so every depth lags the input alike.
+    """
+
+    MIN_BLOCK = 1024
+
+    def __init__(self, n: int, wavelet: str, mode: str, basis, out: Callable):
+        if mode not in STREAM_MODES:
+            raise ValueError(f"packets in mode {mode} cannot run block by block")
+        from scalesieve.stream.dwt import InverseStream
+
+        inner = inner_nodes(basis)
+        depth = max(len(p) for p in basis)
+        lengths = wp.node_lengths(n, wavelet, mode, depth)
+        one = tf.TransformSpec("dwt", wavelet, 1, mode)
+        self.out = out
+        self.stages = {}
+        for q in inner:
+            block = max(self.MIN_BLOCK, tf.BLOCK >> len(q))
+            self.stages[q] = InverseStream(lengths[len(q)], one,
+                                           lambda s0, seg, q=q: self._up(q, s0, seg),
+                                           block=block)
+        self.order = sorted(inner, key=len, reverse=True)     # children before parents
+        self.root = "" in inner
+
+    def _up(self, path: str, k0: int, values: np.ndarray) -> None:
+        if not path:
+            self.out(k0, values)
+            return
+        self.stages[path[:-1]].put("a" if path[-1] == "a" else 1, k0, values)
+
+    def put(self, path: str, k0: int, values: np.ndarray) -> None:
+        """The next block of coefficients of basis node ``path``."""
+        self._up(path, k0, values)
+
+    def pump(self) -> None:
+        """Make every block the coefficients handed in so far allow, deepest stages first."""
+        for q in self.order:
+            self.stages[q].pump()
+
+
 class NodeComponent:
     """Energy and peak |value| of one node's time-domain component, from its coefficients.
 
