@@ -16,8 +16,8 @@ side in this run (clean / bare time, long / short time and memory).
     python tests/perf/bench_long.py --samples 16000000 --table --only clean,clean_whole,bands,events
                                                            # logger CSVs instead of WAVs
     python tests/perf/bench_long.py --samples 16777216 --no-bare \
-        --only bands_packet,bands_packet_whole,bands_packet_best,bands_packet_best_whole
-                                                           # packet bands: blocks vs whole array
+        --only bands_packet,bands_packet_whole,bands_packet_best,bands_packet_best_whole,clean_packet,clean_packet_whole
+                                                           # packets: blocks vs whole array
 
 ``--table`` writes the recordings as a logger's CSV instead (``time [ms]``,
 semicolon, decimal comma); the bare script then reads it with
@@ -148,6 +148,10 @@ def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
         "bands_packet_whole": whole + ["bands", src, "--json", *packet],
         "bands_packet_best": blocks + ["bands", src, "--json", *best],
         "bands_packet_best_whole": whole + ["bands", src, "--json", *best],
+        "clean_packet": blocks + ["clean", src, "-o", out, "--threshold", "universal",
+                                  "--force", *packet],
+        "clean_packet_whole": whole + ["clean", src, "-o", out, "--threshold", "universal",
+                                       "--force", *packet],
         "clean_whole": whole + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
         "bands_whole": whole + ["bands", src, "--json"],
         "bands_periodization": me + ["bands", src, "--json", "--mode", "periodization"],
@@ -182,7 +186,8 @@ def main() -> None:
                          "reader, the budget lifted; bands_packet and bands_packet_best: "
                          "`bands --transform packet --level 6` (--basis full, best) always "
                          "in blocks, bands_packet_whole and bands_packet_best_whole the same "
-                         "on the whole array")
+                         "on the whole array; clean_packet and clean_packet_whole: "
+                         "`clean --threshold universal` of the same packet bands")
     ap.add_argument("--table", action="store_true",
                     help="logger CSV inputs (time [ms], semicolon, decimal comma) instead of WAVs")
     ap.add_argument("--force-blocks", action="store_true",
@@ -233,7 +238,7 @@ def main() -> None:
                 long[name]["seconds"] / short[name]["seconds"], 3)
             ratios[f"{name}_long_over_short_memory"] = round(
                 long[name]["peak_mib"] / short[name]["peak_mib"], 3)
-    for name in ("clean", "bands", "bands_packet", "bands_packet_best"):
+    for name in ("clean", "bands", "bands_packet", "bands_packet_best", "clean_packet"):
         if name in long and f"{name}_whole" in long:
             ratios[f"{name}_over_{name}_whole_time"] = round(
                 long[name]["seconds"] / long[f"{name}_whole"]["seconds"], 3)

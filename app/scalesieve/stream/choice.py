@@ -84,12 +84,14 @@ def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
         per_channel = 8 * (level + 1) * (SWT_BLOCK + 2 * reach) * SWT_COPIES
         return int(channels * per_channel + 8 * 12 * READ_FRAMES + (96 << 20))
     if spec.kind == "packet":
-        # per channel: blocks of samples and what the first stages make of them, and
-        # at every node of the tree its one-level stage's history and pending blocks
-        # (stream.packet_tree); fitted to tests/perf/bench_long.py (docs/performance.md)
+        # per channel: blocks of samples; at every depth of the tree the blocks its
+        # stages hand on and keep (forward and inverse, about one read block's worth
+        # per depth, several times over); at every node its stages' histories
+        # (stream.packet_tree).  Fitted to the peaks of clean in blocks, 1 and 2
+        # channels, depths 3, 6 and 8 (docs/performance.md); bands holds less.
         nodes = 2 ** (level + 1) - 1
-        per_channel = 8 * (12 * READ_FRAMES + 4 * nodes * (MIN_STEP + 2 * tf.filter_length(
-            spec.wavelet)))
+        per_channel = 8 * (12 * READ_FRAMES + 14 * level * READ_FRAMES
+                           + 4 * nodes * (1024 + MIN_STEP + 2 * tf.filter_length(spec.wavelet)))
         return int(channels * per_channel + (96 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
     per_channel = 8 * (12 * READ_FRAMES + 4 * lag)

@@ -181,12 +181,13 @@ class NodeComponent:
         if hi > lo:
             W = win[lo - k:hi - k]
             self.S += W.T @ W
-            self._peak(W)
+            self._peak(W, np.abs(ext[lo - k:hi - k + T - 1]))
         self.hist = ext[ext.shape[0] - (T - 1):] if T > 1 else self.hist
         self.k = k + m
 
-    def _peak(self, W: np.ndarray) -> None:
-        bound = np.abs(W) @ self.gmax
+    def _peak(self, W: np.ndarray, mags: np.ndarray) -> None:
+        # bound of row i: sum_j |W[i, j]| gmax[j], the window's magnitudes against the taps'
+        bound = np.correlate(mags, self.gmax, mode="valid")
         # a margin against round-off in the bound itself
         cand = np.flatnonzero(bound > self.top * (1 - 1e-9))
         if cand.shape[0] > _FIRST:
