@@ -365,3 +365,15 @@ def test_a_killed_packet_export_in_blocks_leaves_no_torn_file(tmp_path):
     assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
     assert intact() and out.read_bytes() != old
     assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+
+
+def test_workers_do_not_cut_packets_in_pieces_and_say_so(tmp_path, capsys):
+    src = tmp_path / "in.wav"
+    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
+    out = tmp_path / "out.wav"
+    assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
+                 "--workers", "2", "--threshold", "universal"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1
+    assert "wavelet packets are cleaned in blocks in one process only" in err
+    assert not out.exists()
