@@ -195,7 +195,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         from scalesieve.stream.choice import stream_bytes
 
         chans = 1 if channel is not None else int(facts["channels"])
-        cost = stream_bytes(chans, transform or _default_spec())
+        cost = stream_bytes(chans, transform or _default_spec(), clean=bool(outputs))
         facts["in_blocks"] = {"bytes": cost}
         if cost <= available:
             return facts

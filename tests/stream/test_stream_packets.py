@@ -128,6 +128,8 @@ def test_the_command_in_blocks_gives_the_whole_array_table(tmp_path, monkeypatch
     monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
     blocks, err = _cli_bands(argv, capsys)
     assert "read in blocks" in err
+    # a best basis is chosen in a pass of its own
+    assert ("two passes over the file" in err) == (basis == "best")
     assert blocks["transform"] == whole["transform"]          # the same basis chosen
     if basis == "best":
         assert isinstance(blocks["transform"]["basis"], list)
@@ -377,3 +379,21 @@ def test_workers_do_not_cut_packets_in_pieces_and_say_so(tmp_path, capsys):
     assert len(err.splitlines()) == 1
     assert "wavelet packets are cleaned in blocks in one process only" in err
     assert not out.exists()
+
+
+def test_a_best_basis_clean_counts_its_pass_and_its_progress_only_grows(tmp_path):
+    from scalesieve.recipe import Edit
+    from scalesieve.stream.pipeline import clean_stream
+
+    src = tmp_path / "in.wav"
+    sf.write(src, _two_channels(30_001, seed=3), 16_000, subtype="DOUBLE")
+    seen = []
+    rep = clean_stream(str(src), str(tmp_path / "out.wav"),
+                       transform=TransformSpec("packet", "db3", 3, "symmetric", basis="best"),
+                       edits=[Edit("threshold", levels="details", rule="universal")],
+                       progress=lambda f, text: seen.append(f))
+    # the basis pass, two passes for the median of node d, the cleaning pass
+    assert rep["blocks"]["passes"] == 4
+    assert isinstance(rep["recipe"].transform.basis, tuple)
+    # the basis pass fills the first quarter of the bar, the others the rest, in order
+    assert seen == sorted(seen) and seen[0] == 0.25 and seen[-1] == 1.0 and len(seen) >= 4

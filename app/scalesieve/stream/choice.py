@@ -63,8 +63,11 @@ def packet_refusal(spec: tf.TransformSpec, bands: bool) -> str | None:
     return None
 
 
-def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
+def stream_bytes(channels: int, spec: tf.TransformSpec, clean: bool = True) -> int:
     """About what a clean in blocks holds, whatever the length (see docs/performance.md).
+
+    ``clean`` False: a command that writes nothing (``bands``), which for
+    wavelet packets holds no inverse tree.
 
     Per channel: blocks of samples and their temporaries, the level-1 input
     history, the coefficients waiting for the inverse (the coarse levels lag
@@ -90,7 +93,8 @@ def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
         # (stream.packet_tree).  Fitted to the peaks of clean in blocks, 1 and 2
         # channels, depths 3, 6 and 8 (docs/performance.md); bands holds less.
         nodes = 2 ** (level + 1) - 1
-        per_channel = 8 * (12 * READ_FRAMES + 14 * level * READ_FRAMES
+        per_depth = 14 if clean else 2         # bands: the forward tree's blocks only
+        per_channel = 8 * (12 * READ_FRAMES + per_depth * level * READ_FRAMES
                            + 4 * nodes * (1024 + MIN_STEP + 2 * tf.filter_length(spec.wavelet)))
         return int(channels * per_channel + (96 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level

@@ -141,11 +141,15 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
     # a threshold rule needs two passes for a median, one for band sums
     expected = 1 + (2 if plan.medians else 0)
 
+    # a best packet basis took the bar's first quarter (_prepare); the passes share the rest
+    first, before = (0.25 if plan.passes_before else 0.0), plan.passes_before
+
     def report(p, fed, text):
         if progress:
-            progress(min(1.0, (p + fed / n) / max(expected, p + 1)), text)
+            done = min(1.0, (p + fed / n) / max(expected, p + 1))
+            progress(first + (1.0 - first) * done, text)
 
-    passes = plan.passes_before + _thresholds(src, spec, plan, report)
+    passes = before + _thresholds(src, spec, plan, report)
     with contextlib.ExitStack() as stack:
         targets = [_target(stack, out, src, n, subtype, force, [input_path])
                    for out in outputs]
@@ -160,18 +164,18 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
             inverses.append(inv)
             forwards.append(forward_stream(src, spec, put, k))
         if spec.kind == "swt":
-            _clean_swt(src, spec, plan, join, report, passes)
+            _clean_swt(src, spec, plan, join, report, passes - before)
         elif spec.kind == "packet":
             from scalesieve.stream.packet_clean import clean_packet
 
-            clean_packet(src, spec, plan, join, report, passes)
+            clean_packet(src, spec, plan, join, report, passes - before)
         for block in src.blocks() if spec.kind == "dwt" else ():
             join.add_input(block)
             for k in range(src.channels):
                 forwards[k].feed(block[:, k])
                 inverses[k].pump()
             join.flush()
-            report(passes, forwards[0].fed, "cleaning")
+            report(passes - before, forwards[0].fed, "cleaning")
         passes += 1
         if join.written != n:  # pragma: no cover - the inverse makes every sample
             raise AssertionError(f"made {join.written} of {n} samples")
