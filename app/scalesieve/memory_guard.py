@@ -114,13 +114,14 @@ def probe_quietly(path: str | os.PathLike) -> dict | None:
 
 def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
               fill_gaps=None, available: int | None = None,
-              swt: bool = False) -> tuple[bool, str | None]:
+              swt: bool = False, packets: bool = False) -> tuple[bool, str | None]:
     """Whether a clean of ``facts`` runs block by block, and why not when it cannot.
 
     Returns ``(True, None)`` when the whole-array work would need more than
     ``STREAM_ABOVE`` (or than is ``available``) and the blocks can do it;
     ``(False, reason)`` when they cannot (``reason`` None: no need).
-    ``swt``: the command takes the SWT in blocks too (``events``).
+    ``swt``: the command takes the SWT in blocks too (``events``);
+    ``packets``: it takes wavelet packets in blocks (``bands``).
     """
     from scalesieve.core.transforms import TransformSpec
     from scalesieve.stream.choice import not_streamable
@@ -136,14 +137,20 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
 
         from scalesieve.core import transforms as tf
 
-        spec = replace(spec, level=tf.default_level(max(int(facts["frames"]), 2), spec.wavelet))
-    why = not_streamable(facts, spec, list(outputs), fill_gaps, channel, swt)
+        frames = max(int(facts["frames"]), 2)
+        if spec.kind == "packet":
+            from scalesieve.core import packets as wp
+
+            spec = replace(spec, level=wp.default_depth(frames, spec.wavelet))
+        else:
+            spec = replace(spec, level=tf.default_level(frames, spec.wavelet))
+    why = not_streamable(facts, spec, list(outputs), fill_gaps, channel, swt, packets)
     return why is None, why
 
 
 def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float64,
           transform=None, available: int | None = None, outputs=None,
-          fill_gaps: str | None = None) -> dict:
+          fill_gaps: str | None = None, packets: bool = False) -> dict:
     """Probe ``path`` and refuse it when its model would need more memory than is free.
 
     Parameters
@@ -160,6 +167,8 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         ``STREAM_ABOVE`` or too long for memory is then not refused when the
         blocks can do it, and the facts say ``"in_blocks": {"bytes": ...}``
         (about what that takes).
+    packets : bool
+        The command takes wavelet packets in blocks (``bands``).
 
     Returns
     -------
@@ -199,12 +208,12 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
     facts = dict(facts, needed_bytes=need, available_bytes=int(available))
     blocks, why = (False, None) if outputs is None else in_blocks(
         facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
-        available=available)
+        available=available, packets=packets)
     if blocks:
         from scalesieve.stream.choice import stream_bytes
 
         chans = 1 if channel is not None else int(facts["channels"])
-        cost = stream_bytes(chans, transform or _default_spec())
+        cost = stream_bytes(chans, transform or _default_spec(), clean=bool(outputs))
         facts["in_blocks"] = {"bytes": cost}
         if cost <= available:
             return facts

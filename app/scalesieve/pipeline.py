@@ -45,7 +45,7 @@ def guard(input_path: str, *, channel: int | str | None = None,
     from scalesieve import memory_guard
 
     return memory_guard.check(input_path, channel=channel, transform=transform,
-                              outputs=list(outputs), fill_gaps=fill_gaps)
+                              outputs=list(outputs), fill_gaps=fill_gaps, packets=True)
 
 
 def removed_energy_fraction(samples: np.ndarray, model) -> float:
@@ -198,13 +198,15 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     if facts is not None and transform.level is None:
         resolved = replace(transform,
                            level=default_level(max(int(facts["frames"]), 2), transform.wavelet))
-    why = not_streamable(facts, resolved, outputs, fill_gaps, channel)
+    why = not_streamable(facts, resolved, outputs, fill_gaps, channel, packets=True)
     if why is None and facts.get("kind") == "text":
         # each worker would parse the whole table again to find its piece's rows
         why = "a text table is parsed in one process only"
     elif why is None and resolved.kind != "dwt":
-        # time pieces join the DWT's blocks; the SWT in blocks runs in one process
-        why = f"the {resolved.kind.upper()} is cleaned in blocks in one process only"
+        # time pieces join the DWT's blocks; the SWT and packets in blocks run in one process
+        what = "wavelet packets are" if resolved.kind == "packet" else \
+            f"the {resolved.kind.upper()} is"
+        why = f"{what} cleaned in blocks in one process only"
     elif why is None and resolved.mode in ("periodic", "periodization"):
         # each level wraps its own ends: a piece in the middle cannot see them
         why = f"boundary mode {resolved.mode} wraps every level around the recording's ends"

@@ -15,6 +15,9 @@ side in this run (clean / bare time, long / short time and memory).
                                                            # bare script, ~2 GiB of disk
     python tests/perf/bench_long.py --samples 16000000 --table --only clean,clean_whole,bands,events
                                                            # logger CSVs instead of WAVs
+    python tests/perf/bench_long.py --samples 16777216 --no-bare \
+        --only bands_packet,bands_packet_whole,bands_packet_best,bands_packet_best_whole,clean_packet,clean_packet_whole
+                                                           # packets: blocks vs whole array
 
 ``--table`` writes the recordings as a logger's CSV instead (``time [ms]``,
 semicolon, decimal comma); the bare script then reads it with
@@ -148,7 +151,19 @@ def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
                                                                   "scalesieve"]
     swt = ["--transform", "swt"]
     whole = [sys.executable, "-c", IN_MEMORY]
+    blocks = [sys.executable, "-c", IN_BLOCKS]
+    packet = ["--transform", "packet", "--level", "6"]
+    best = [*packet, "--basis", "best", "--cost", "shannon"]
     return {
+        # wavelet packets: always in blocks, beside the whole-array model on the same file
+        "bands_packet": blocks + ["bands", src, "--json", *packet],
+        "bands_packet_whole": whole + ["bands", src, "--json", *packet],
+        "bands_packet_best": blocks + ["bands", src, "--json", *best],
+        "bands_packet_best_whole": whole + ["bands", src, "--json", *best],
+        "clean_packet": blocks + ["clean", src, "-o", out, "--threshold", "universal",
+                                  "--force", *packet],
+        "clean_packet_whole": whole + ["clean", src, "-o", out, "--threshold", "universal",
+                                       "--force", *packet],
         "clean_whole": whole + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
         "bands_whole": whole + ["bands", src, "--json"],
         "bands_periodization": me + ["bands", src, "--json", "--mode", "periodization"],
@@ -333,7 +348,11 @@ def main() -> None:
                          "clean,bands,events); clean_swt and bands_swt: the same with "
                          "--transform swt, clean_swt beside a bare whole-array SWT script; "
                          "bands_periodization; clean_whole and bands_whole: the whole-file "
-                         "reader, the budget lifted")
+                         "reader, the budget lifted; bands_packet and bands_packet_best: "
+                         "`bands --transform packet --level 6` (--basis full, best) always "
+                         "in blocks, bands_packet_whole and bands_packet_best_whole the same "
+                         "on the whole array; clean_packet and clean_packet_whole: "
+                         "`clean --threshold universal` of the same packet bands")
     ap.add_argument("--table", action="store_true",
                     help="logger CSV inputs (time [ms], semicolon, decimal comma) instead of WAVs")
     ap.add_argument("--force-blocks", action="store_true",
@@ -393,7 +412,7 @@ def main() -> None:
                 long[name]["seconds"] / short[name]["seconds"], 3)
             ratios[f"{name}_long_over_short_memory"] = round(
                 long[name]["peak_mib"] / short[name]["peak_mib"], 3)
-    for name in ("clean", "bands"):
+    for name in ("clean", "bands", "bands_packet", "bands_packet_best", "clean_packet"):
         if name in long and f"{name}_whole" in long:
             ratios[f"{name}_over_{name}_whole_time"] = round(
                 long[name]["seconds"] / long[f"{name}_whole"]["seconds"], 3)

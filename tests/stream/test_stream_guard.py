@@ -48,11 +48,16 @@ def test_too_long_for_memory_but_fine_in_blocks_is_not_refused(wav, monkeypatch)
         memory_guard.check(wav, transform=TransformSpec(), available=2 << 30)
 
 
-@pytest.mark.parametrize("spec,why", [
-    (TransformSpec(kind="packet"), "wavelet packets are not worked on in blocks")])
-def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, why):
+@pytest.mark.parametrize("spec,packets,why", [
+    # a caller that does not take packets in blocks (events)
+    (TransformSpec(kind="packet"), False, "wavelet packets are worked on in blocks by bands "
+                                          "and clean only"),
+    (TransformSpec(kind="packet", mode="periodization"), True,
+     "wavelet packets in boundary mode periodization are not worked on in blocks")])
+def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, packets, why):
     with pytest.raises(ScalesieveError, match=why):
-        memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20)
+        memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20,
+                           packets=packets)
 
 
 def test_the_swt_is_taken_in_blocks_and_its_cost_said(wav, monkeypatch):

@@ -98,12 +98,15 @@ def run(args) -> int:
 
     spec = transform_from(args)
     facts = memory_guard.check(args.file, channel=args.channel, transform=spec, outputs=(),
-                               fill_gaps=args.fill_gaps)
+                               fill_gaps=args.fill_gaps, packets=True)
     with progress.for_file(args.file, args.channel, facts=facts) as bar:
         if facts and facts.get("in_blocks"):
-            what = ("parsed in chunks into a temporary file, then read in blocks, one pass "
+            # a best packet basis is chosen in a pass of its own (stream.packet_bands)
+            count = "two passes" if spec.kind == "packet" and spec.basis == "best" \
+                else "one pass"
+            what = (f"parsed in chunks into a temporary file, then read in blocks, {count} "
                     "over the rows" if facts.get("kind") == "text"
-                    else "read in blocks, one pass over the file")
+                    else f"read in blocks, {count} over the file")
             print(f"scalesieve: note: {args.file}: {what}, about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
                   file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)

@@ -44,9 +44,13 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
         raise ScalesieveError(str(exc), input_path) from None
     if spec.kind == "swt":
         return _band_figures_swt(src, spec, progress)
-    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, ())
+    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, (), packets=True)
     if why is not None:
         raise ScalesieveError(why, input_path)
+    if spec.kind == "packet":
+        from scalesieve.stream.packet_bands import packet_figures_stream
+
+        return packet_figures_stream(src, spec, progress)
     keys = tf.band_keys(spec.level)
     energy = [0.0] * src.channels
     moments = [{key: st.Moments() for key in keys} for _ in range(src.channels)]

@@ -14,13 +14,17 @@ SWT_COPIES = 5
 
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
-                   fill_gaps: str | None = None, channel=None, swt: bool = False) -> str | None:
+                   fill_gaps: str | None = None, channel=None, swt: bool = False,
+                   packets: bool = False) -> str | None:
     """Why a command cannot run block by block, or None when it can.
 
     Audio files and text tables (CSV, TSV, TXT, DAT: ``stream.text_source``)
     are read in blocks.  The SWT runs in blocks in every boundary mode
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
+    Wavelet packets run in blocks for the commands that can take them
+    (``packets``: ``bands`` and ``clean``), in the modes that extend the signal from
+    samples near its edge (``stream.packet_tree``).
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
@@ -33,8 +37,9 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     if spec.kind == "swt":
         pass                   # every mode: the blocks read the circle the model pads
     elif spec.kind == "packet":
-        return ("wavelet packets are not worked on in blocks (use --transform dwt or swt, "
-                "or cut the recording into shorter files)")
+        why = packet_refusal(spec, packets)
+        if why is not None:
+            return why
     elif spec.kind != "dwt":  # pragma: no cover - TransformSpec knows dwt, swt and packet
         return f"the {spec.kind} transform is not worked on in blocks"
     for out in outputs:
@@ -46,8 +51,23 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     return None
 
 
-def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
+def packet_refusal(spec: tf.TransformSpec, bands: bool) -> str | None:
+    """Why wavelet packets of ``spec`` cannot run in blocks (``bands``: the command can)."""
+    from scalesieve.stream.dwt import STREAM_MODES
+
+    if not bands:
+        return "wavelet packets are worked on in blocks by bands and clean only"
+    if spec.mode not in STREAM_MODES:
+        return (f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks, "
+                f"only in {', '.join(sorted(STREAM_MODES))}")
+    return None
+
+
+def stream_bytes(channels: int, spec: tf.TransformSpec, clean: bool = True) -> int:
     """About what a clean in blocks holds, whatever the length (see docs/performance.md).
+
+    ``clean`` False: a command that writes nothing (``bands``), which for
+    wavelet packets holds no inverse tree.
 
     Per channel: blocks of samples and their temporaries, the level-1 input
     history, the coefficients waiting for the inverse (the coarse levels lag
@@ -66,6 +86,17 @@ def stream_bytes(channels: int, spec: tf.TransformSpec) -> int:
         reach = 2 * (tf.filter_length(spec.wavelet) - 1) * 2 ** level
         per_channel = 8 * (level + 1) * (SWT_BLOCK + 2 * reach) * SWT_COPIES
         return int(channels * per_channel + 8 * 12 * READ_FRAMES + (96 << 20))
+    if spec.kind == "packet":
+        # per channel: blocks of samples; at every depth of the tree the blocks its
+        # stages hand on and keep (forward and inverse, about one read block's worth
+        # per depth, several times over); at every node its stages' histories
+        # (stream.packet_tree).  Fitted to the peaks of clean in blocks, 1 and 2
+        # channels, depths 3, 6 and 8 (docs/performance.md); bands holds less.
+        nodes = 2 ** (level + 1) - 1
+        per_depth = 14 if clean else 2         # bands: the forward tree's blocks only
+        per_channel = 8 * (12 * READ_FRAMES + per_depth * level * READ_FRAMES
+                           + 4 * nodes * (1024 + MIN_STEP + 2 * tf.filter_length(spec.wavelet)))
+        return int(channels * per_channel + (96 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
     per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
     return int(channels * per_channel + (96 << 20))

@@ -17,8 +17,9 @@ are the whole-array ones up to float round-off.
 The parts live beside it: ``sources`` (the samples in blocks), ``targets``
 (outputs written in blocks and the join of the channels), ``recipe_plan``
 (each band's chain of edits and the first passes its thresholds need),
-``swt_clean`` (the SWT's passes over its circle) and ``choice`` (what can
-run in blocks, and about what it holds).
+``swt_clean`` (the SWT's passes over its circle), ``packet_clean`` (wavelet
+packets: the tree's passes, the inverse tree) and ``choice`` (what can run in
+blocks, and about what it holds).
 """
 
 import contextlib
@@ -56,12 +57,21 @@ def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force,
         spec = spec.resolved(n)
     except ValueError as exc:
         raise ScalesieveError(str(exc), input_path) from None
-    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, outputs)
+    why = not_streamable({"kind": "audio", "frames_exact": True}, spec, outputs, packets=True)
     if why is not None:
         raise ScalesieveError(why, input_path)
+    if spec.kind == "packet" and spec.basis == "best":
+        from scalesieve.stream.packet_bands import choose_basis
+
+        # a pass of its own over the file, on the first quarter of the bar
+        spec = choose_basis(src, spec, after_parse(src, progress), (0.0, 0.25))
     all_edits = tuple(recipe.edits if recipe is not None else ()) + tuple(edits)
-    check_against(all_edits, spec.level, n / src.rate, src.channels, source=input_path)
-    return src, spec, _Plan(all_edits, src.channels, spec, n, src.rate)
+    check_against(all_edits, spec, n / src.rate, src.channels, source=input_path)
+    plan = _Plan(all_edits, src.channels, spec, n, src.rate)
+    plan.passes_before = int(spec is not None and spec.kind == "packet"
+                             and (transform or (recipe.transform if recipe is not None else None)
+                                  or tf.TransformSpec()).basis == "best")
+    return src, spec, plan
 
 
 def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> int:
@@ -75,6 +85,10 @@ def _thresholds(src: _Source, spec: tf.TransformSpec, plan: _Plan, report) -> in
         puts = [plan.gatherer(k) for k in range(src.channels)]
         if spec.kind == "swt":
             _swt_pass(src, spec, depth, puts, report, passes)
+        elif spec.kind == "packet":
+            from scalesieve.stream.packet_clean import packet_pass
+
+            packet_pass(src, spec, depth, puts, report, passes)
         else:
             streams = [forward_stream(src, spec, puts[k], k, depth)
                        for k in range(src.channels)]
@@ -127,11 +141,15 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
     # a threshold rule needs two passes for a median, one for band sums
     expected = 1 + (2 if plan.medians else 0)
 
+    # a best packet basis took the bar's first quarter (_prepare); the passes share the rest
+    first, before = (0.25 if plan.passes_before else 0.0), plan.passes_before
+
     def report(p, fed, text):
         if progress:
-            progress(min(1.0, (p + fed / n) / max(expected, p + 1)), text)
+            done = min(1.0, (p + fed / n) / max(expected, p + 1))
+            progress(first + (1.0 - first) * done, text)
 
-    passes = _thresholds(src, spec, plan, report)
+    passes = before + _thresholds(src, spec, plan, report)
     with contextlib.ExitStack() as stack:
         targets = [_target(stack, out, src, n, subtype, force, [input_path])
                    for out in outputs]
@@ -146,14 +164,18 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
             inverses.append(inv)
             forwards.append(forward_stream(src, spec, put, k))
         if spec.kind == "swt":
-            _clean_swt(src, spec, plan, join, report, passes)
+            _clean_swt(src, spec, plan, join, report, passes - before)
+        elif spec.kind == "packet":
+            from scalesieve.stream.packet_clean import clean_packet
+
+            clean_packet(src, spec, plan, join, report, passes - before)
         for block in src.blocks() if spec.kind == "dwt" else ():
             join.add_input(block)
             for k in range(src.channels):
                 forwards[k].feed(block[:, k])
                 inverses[k].pump()
             join.flush()
-            report(passes, forwards[0].fed, "cleaning")
+            report(passes - before, forwards[0].fed, "cleaning")
         passes += 1
         if join.written != n:  # pragma: no cover - the inverse makes every sample
             raise AssertionError(f"made {join.written} of {n} samples")

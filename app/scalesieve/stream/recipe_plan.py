@@ -9,6 +9,10 @@ from scalesieve.core import thresholds as th
 from scalesieve.core import transforms as tf
 from scalesieve.stream import statistics as st
 
+#: the key of the level-1 detail of a packet tree (node "d") among the medians
+FINEST = "finest"
+
+
 class _Band:
     """One band's chain of edits, its context and its thresholds as they become known."""
 
@@ -37,11 +41,11 @@ class _Band:
         return ed.state_values(c, ed.chain_values(c, self.chain[:i], self.ctx, self.lams[:t], k0))
 
 
-def _chains(edits, channel: int, level: int) -> dict:
-    chains: dict = {key: [] for key in tf.band_keys(level)}
+def _chains(edits, channel: int, spec: tf.TransformSpec) -> dict:
+    chains: dict = {key: [] for key in tf.spec_keys(spec)}
     for e in edits:
         if e.applies_to(channel):
-            for key in dict.fromkeys(e.band_keys(level)):
+            for key in dict.fromkeys(e.band_keys(spec)):
                 if key in chains:
                     chains[key].append(e)
     return {key: tuple(v) for key, v in chains.items()}
@@ -52,18 +56,22 @@ class _Plan:
 
     def __init__(self, edits, channels: int, spec: tf.TransformSpec, n: int, rate: float):
         self.spec, self.n = spec, n
+        self.passes_before = 0             # passes made before the plan's (a basis chosen)
         self.edits = tuple(edits)
         self.lengths = tf.band_lengths(n, spec)
         self.medians: dict = {}            # (channel, key) -> MedianOfMagnitudes
+        # where noise: finest is measured: level 1 (DWT, SWT); packets: the level-1
+        # detail, node "d", whether or not it is a band of the basis (as the model does)
+        self.finest = FINEST if spec.kind == "packet" else 1
         self.bands: list[dict] = []
         for k in range(channels):
             bands = {}
-            for key, chain in _chains(edits, k, spec.level).items():
+            for key, chain in _chains(edits, k, spec).items():
                 bands[key] = _Band(chain, self._ctx(k, key, rate))
                 for i in bands[key].thr:
                     e = chain[i]
                     if e.rule != "manual":
-                        self.medians.setdefault((k, 1 if e.noise == "finest" else key),
+                        self.medians.setdefault((k, self.finest if e.noise == "finest" else key),
                                                 st.MedianOfMagnitudes())
             self.bands.append(bands)
 
@@ -83,7 +91,7 @@ class _Plan:
         # noise: finest carries level 1's sigma by the transform's white-noise gain
         gain = th.white_noise_gain(spec.kind, key, spec.level)
         return ed.BandContext(key=key, n_samples=self.n, rate=rate, positions=positions,
-                              sigma_finest=lambda: sigma(1) * gain,
+                              sigma_finest=lambda: sigma(self.finest) * gain,
                               sigma_level=lambda: sigma(key),
                               span=lambda lo, hi: tf.coefficient_slice(key, spec, count, lo, hi))
 
@@ -115,10 +123,9 @@ class _Plan:
     def next_pass(self) -> int:
         """Set up what the next pass gathers; returns the deepest level it needs (0: none)."""
         depth = 0
-        level = self.spec.level
         for (k, key), m in self.medians.items():
             if m.stage != "done":
-                depth = max(depth, level if key == "a" else int(key))
+                depth = max(depth, self._depth(key))
         for bands in self.bands:
             for key, band in bands.items():
                 t = band.known()
@@ -128,8 +135,14 @@ class _Plan:
                     band.gather = (t, st.SquareSum() if e.rule == "bayes" else st.BandValues())
                     band.gathering = True
                 if band.gathering:
-                    depth = max(depth, level if key == "a" else int(key))
+                    depth = max(depth, self._depth(key))
         return depth
+
+    def _depth(self, key) -> int:
+        """How deep a pass must go to see band ``key`` (a packet band: its node's depth)."""
+        if key == "a":
+            return self.spec.level
+        return 1 if key == FINEST else int(key)
 
     def gatherer(self, k: int):
         """``put(key, k0, values)`` of a first pass, for channel k."""

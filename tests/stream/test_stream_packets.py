@@ -1,0 +1,399 @@
+"""Wavelet packets block by block (bands, clean) against PyWavelets' WaveletPacket, SciPy and
+the whole-array commands on the same recording."""
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import time
+
+import numpy as np
+import pytest
+import pywt
+import soundfile as sf
+from scipy import stats
+
+from scalesieve import memory_guard
+from scalesieve.cli import main
+from scalesieve.core.transforms import TransformSpec
+from scalesieve.errors import ScalesieveError
+from scalesieve.stream.bands import band_figures_stream
+from scalesieve.stream.dwt import STREAM_MODES
+from scalesieve.stream.packet_tree import PacketTree, inner_nodes
+
+LOCAL_MODES = sorted(STREAM_MODES)
+
+
+def _node_alone(tree, wavelet, mode, path, data):
+    """A node's time-domain component by PyWavelets alone: ``pywt.idwt`` up the node's path,
+    every other node zero, each parent cut to its length in ``tree`` (as
+    ``WaveletPacket.reconstruct`` cuts it)."""
+    r = data
+    for j in range(len(path), 0, -1):
+        r = pywt.idwt(r, None, wavelet, mode) if path[j - 1] == "a" else \
+            pywt.idwt(None, r, wavelet, mode)
+        parent = tree[path[:j - 1]].data if j > 1 else tree.data
+        r = r[:parent.shape[0]]
+    return r
+
+
+def _reference(x, wavelet, mode, depth, paths):
+    """The CONTRACT's band figures of every node in ``paths``, from PyWavelets on the whole array."""
+    tree = pywt.WaveletPacket(x, wavelet, mode, maxlevel=depth)
+    total = float(np.dot(x, x))
+    rows = {}
+    for p in paths:
+        c = tree[p].data
+        comp = _node_alone(tree, wavelet, mode, p, c)
+        e = float(np.dot(comp, comp))
+        rows[p] = {"energy": e, "energy_fraction": e / total,
+                   "coef_energy": float(np.dot(c, c)),
+                   "rms": float(np.sqrt(np.mean(comp * comp))),
+                   "peak": float(np.max(np.abs(comp))),
+                   # Pearson kurtosis (3 for a Gaussian): scipy.stats, fisher=False
+                   "kurtosis": float(stats.kurtosis(c, fisher=False, bias=True)),
+                   "count": c.shape[0]}
+    return rows
+
+
+def _two_channels(n, seed=5):
+    rng = np.random.default_rng(seed)
+    t = np.arange(n) / 16_000
+    return np.stack([0.3 + 0.5 * np.sin(2 * np.pi * 1_300 * t) + 0.05 * rng.standard_normal(n),
+                     0.2 * rng.laplace(size=n) * (1 + np.sin(2 * np.pi * 3 * t))], axis=1)
+
+
+@pytest.mark.parametrize("mode", LOCAL_MODES)
+def test_the_tree_in_blocks_is_waveletpacket_bit_for_bit(mode):
+    n, depth = 30_011, 4
+    x = _two_channels(n)[:, 1]
+    got = {}
+    ref = pywt.WaveletPacket(x, "db3", mode, maxlevel=depth)
+    paths = [nd.path for j in range(1, depth + 1) for nd in ref.get_level(j, "natural")]
+    tree = PacketTree(n, "db3", mode, inner_nodes([p for p in paths if len(p) == depth]),
+                      lambda p, k0, c: got.setdefault(p, []).append((k0, c.copy())))
+    for i in range(0, n, 4_999):              # odd blocks, none a multiple of 2^depth
+        tree.feed(x[i:i + 4_999], i)
+    for p in paths:
+        starts = [k0 for k0, _ in got[p]]
+        joined = np.concatenate([c for _, c in got[p]])
+        assert starts[0] == 0 and all(b > a for a, b in zip(starts, starts[1:]))
+        assert np.array_equal(joined, ref[p].data), p
+
+
+@pytest.mark.parametrize("mode", LOCAL_MODES)
+def test_packet_band_figures_in_blocks_are_the_whole_recording_ones(tmp_path, mode):
+    n, depth, wavelet = 40_009, 3, "sym4"
+    x = _two_channels(n)
+    src = tmp_path / "two.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    facts, channels = band_figures_stream(str(src), TransformSpec("packet", wavelet, depth, mode))
+    assert facts["samples"] == n and len(channels) == 2
+    # frequency order: PyWavelets' get_level(J, order="freq")
+    order = [nd.path for nd in pywt.WaveletPacket(x[:, 0], wavelet, mode,
+                                                  maxlevel=depth).get_level(depth, "freq")]
+    for k, rows in enumerate(channels):
+        assert [r["path"] for r in rows] == order
+        assert [r["name"] for r in rows] == [f"w{depth}.{i}" for i in range(2 ** depth)]
+        want = _reference(x[:, k], wavelet, mode, depth, order)
+        for r in rows:
+            w = want[r["path"]]
+            assert r["count"] == w["count"] and r["kind"] == "packet"
+            assert r["low_hz"] == r["index"] * 16_000 / 2 ** (depth + 1)
+            for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
+                assert r[field] == pytest.approx(w[field], rel=1e-9, abs=1e-300), \
+                    (r["name"], field)
+
+
+def _cli_bands(argv, capsys):
+    assert main(argv) == 0
+    captured = capsys.readouterr()
+    return json.loads(captured.out), captured.err
+
+
+@pytest.mark.parametrize("basis,cost", [("full", "shannon"), ("best", "shannon"),
+                                        ("best", "log-energy")])
+def test_the_command_in_blocks_gives_the_whole_array_table(tmp_path, monkeypatch, capsys,
+                                                           basis, cost):
+    n = 50_001
+    x = _two_channels(n, seed=9)
+    src = tmp_path / "long.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    argv = ["bands", str(src), "--json", "--transform", "packet", "--wavelet", "db4",
+            "--level", "4", "--basis", basis, "--cost", cost]
+    whole, err = _cli_bands(argv, capsys)
+    assert "in blocks" not in err
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
+    blocks, err = _cli_bands(argv, capsys)
+    assert "read in blocks" in err
+    # a best basis is chosen in a pass of its own
+    assert ("two passes over the file" in err) == (basis == "best")
+    assert blocks["transform"] == whole["transform"]          # the same basis chosen
+    if basis == "best":
+        assert isinstance(blocks["transform"]["basis"], list)
+    for cw, cb in zip(whole["channels"], blocks["channels"]):
+        assert [b["name"] for b in cb["bands"]] == [b["name"] for b in cw["bands"]]
+        for bw, bb in zip(cw["bands"], cb["bands"]):
+            for field in ("low_hz", "high_hz", "count", "path", "level", "index", "kind"):
+                assert bb[field] == bw[field]
+            for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
+                assert bb[field] == pytest.approx(bw[field], rel=1e-9, abs=1e-300), \
+                    (bb["name"], field)
+
+
+def _costs_by_hand(channels, wavelet, mode, depth, kind):
+    """Every node's cost as CONTRACT.md words it (Coifman & Wickerhauser 1992), channels added."""
+    out = {}
+    for x in channels:
+        tree = pywt.WaveletPacket(x, wavelet, mode, maxlevel=depth)
+        norm2 = float(np.dot(x, x))
+        for j in range(depth + 1):
+            for nd in (tree.get_level(j, "natural") if j else [tree]):
+                c2 = np.asarray(nd.data, dtype=float) ** 2
+                c2 = c2[c2 > 0]
+                if kind == "shannon":
+                    p = c2 / norm2
+                    v = float(-np.sum(p * np.log(p)))
+                else:
+                    v = float(np.sum(np.log(c2)))
+                out[nd.path] = out.get(nd.path, 0.0) + v
+    return out
+
+
+@pytest.mark.parametrize("kind", ["shannon", "log-energy"])
+def test_the_best_basis_from_one_pass_is_the_least_cost_tiling(tmp_path, kind):
+    n, depth = 20_003, 3
+    x = _two_channels(n, seed=2)
+    src = tmp_path / "two.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    facts, _ = band_figures_stream(str(src), TransformSpec("packet", "db2", depth, "symmetric",
+                                                           basis="best", cost=kind))
+    chosen = facts["spec"].basis
+    costs = _costs_by_hand([x[:, 0], x[:, 1]], "db2", "symmetric", depth, kind)
+    # bottom-up search by hand: split a node only when its children's best costs sum to less
+    def best(p):
+        if len(p) == depth:
+            return costs[p], [p]
+        ca, la = best(p + "a")
+        cd, ld = best(p + "d")
+        return (ca + cd, la + ld) if ca + cd < costs[p] else (costs[p], [p])
+    assert sorted(chosen) == sorted(best("")[1])
+
+
+def _little_memory(monkeypatch):
+    """A machine with 1 MiB free: what cannot run in blocks is refused, not run whole."""
+    import types
+
+    import psutil
+
+    monkeypatch.setattr(psutil, "virtual_memory", lambda: types.SimpleNamespace(
+        available=1 << 20, total=1 << 30))
+
+
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_the_wrapping_modes_are_refused_in_one_line(tmp_path, monkeypatch, capsys, mode):
+    src = tmp_path / "long.wav"
+    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
+    why = f"wavelet packets in boundary mode {mode} are not worked on in blocks"
+    with pytest.raises(ScalesieveError, match=why):
+        band_figures_stream(str(src), TransformSpec("packet", "db4", 3, mode))
+    _little_memory(monkeypatch)
+    assert main(["bands", str(src), "--transform", "packet", "--level", "3",
+                 "--mode", mode]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "Traceback" not in err and why in err
+
+
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_a_packet_clean_in_a_wrapping_mode_is_refused_in_one_line(tmp_path, monkeypatch,
+                                                                  capsys, mode):
+    src = tmp_path / "long.wav"
+    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
+    out = tmp_path / "out.wav"
+    _little_memory(monkeypatch)
+    assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
+                 "--mode", mode, "--threshold", "universal"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1
+    assert f"wavelet packets in boundary mode {mode} are not worked on in blocks" in err
+    assert not out.exists()
+
+
+# ---------------------------------------------------------------------------- clean
+
+
+def _clean(argv, blocks: bool, monkeypatch, capsys):
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 0 if blocks else 1 << 62)
+    assert main(argv) == 0, capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert ("cleaned in blocks" in err) == blocks, err
+    return err
+
+
+def _write_recipe(path, transform, edits):
+    path.write_text(json.dumps({"scalesieve_recipe": 1, "transform": transform,
+                                "edits": edits}))
+
+
+EVERY_RULE = [
+    {"op": "threshold", "levels": "details", "rule": "universal", "shape": "soft",
+     "noise": "finest", "scale": 0.5},
+    {"op": "threshold", "bands": ["w4.5", "w4.6"], "rule": "bayes", "shape": "hard",
+     "noise": "level"},
+    {"op": "threshold", "bands": ["w4.9", "w4.14"], "rule": "sure", "shape": "soft",
+     "noise": "finest"},
+    {"op": "gain", "bands": ["w4.3"], "gain": 0.5},
+    {"op": "region", "bands": ["w4.2", "w4.7"], "start_s": 1.0, "stop_s": 1.5},
+]
+
+
+@pytest.mark.parametrize("mode", LOCAL_MODES)
+def test_a_packet_clean_in_blocks_is_the_whole_array_clean(tmp_path, monkeypatch, capsys, mode):
+    x = _two_channels(60_007, seed=4)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    recipe = tmp_path / "r.json"
+    _write_recipe(recipe, {"kind": "packet", "wavelet": "db4", "level": 4, "mode": mode,
+                           "basis": "full"}, EVERY_RULE)
+    got = {}
+    for blocks in (False, True):
+        out = tmp_path / f"out-{blocks}.wav"
+        _clean(["clean", str(src), "-o", str(out), "--recipe", str(recipe), "--subtype",
+                "DOUBLE", "--save-recipe", str(tmp_path / f"r-{blocks}.json")],
+               blocks, monkeypatch, capsys)
+        got[blocks] = sf.read(out)[0]
+    assert np.max(np.abs(got[True] - got[False])) <= 1e-12 * np.max(np.abs(x))
+    assert not np.allclose(got[True], x)                # the recipe did change it
+    assert (tmp_path / "r-True.json").read_text() == (tmp_path / "r-False.json").read_text()
+
+
+def test_packet_band_gains_in_blocks_are_waveletpacket_reconstruct(tmp_path):
+    from scalesieve.recipe import Edit
+    from scalesieve.stream.pipeline import clean_stream
+
+    n, wavelet, mode = 50_001, "sym5", "smooth"
+    x = _two_channels(n, seed=8)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    out = tmp_path / "out.wav"
+    gains = {"w3.1": 0.0, "w3.4": 2.0, "w3.6": 0.25}
+    rep = clean_stream(str(src), str(out), transform=TransformSpec("packet", wavelet, 3, mode),
+                       edits=[Edit("gain", bands=(b,), gain=g) for b, g in gains.items()],
+                       subtype="DOUBLE")
+    assert rep["samples"] == n
+    y = sf.read(out)[0]
+    for k in range(2):
+        # the reference: PyWavelets' own tree, its nodes scaled, WaveletPacket.reconstruct
+        tree = pywt.WaveletPacket(x[:, k], wavelet, mode, maxlevel=3)
+        for i, nd in enumerate(tree.get_level(3, "freq")):
+            tree[nd.path] = nd.data * gains.get(f"w3.{i}", 1.0)
+        want = tree.reconstruct(update=False)[:n]
+        assert np.max(np.abs(y[:, k] - want)) <= 1e-12 * np.max(np.abs(x[:, k]))
+
+
+def test_a_best_basis_clean_in_blocks_chooses_and_cleans_as_the_whole_array(tmp_path,
+                                                                           monkeypatch, capsys):
+    x = _two_channels(40_003, seed=6)
+    src = tmp_path / "in.wav"
+    sf.write(src, x, 16_000, subtype="DOUBLE")
+    got, saved = {}, {}
+    for blocks in (False, True):
+        out = tmp_path / f"out-{blocks}.wav"
+        saved[blocks] = tmp_path / f"r-{blocks}.json"
+        _clean(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "4",
+                "--basis", "best", "--cost", "log-energy", "--threshold", "bayes",
+                "--subtype", "DOUBLE", "--save-recipe", str(saved[blocks])],
+               blocks, monkeypatch, capsys)
+        got[blocks] = sf.read(out)[0]
+    # the same tiling chosen (saved as its node paths) and the same samples
+    assert json.loads(saved[True].read_text())["transform"] == \
+        json.loads(saved[False].read_text())["transform"]
+    assert isinstance(json.loads(saved[True].read_text())["transform"]["basis"], list)
+    assert np.max(np.abs(got[True] - got[False])) <= 1e-12 * np.max(np.abs(x))
+
+
+_KILLED = textwrap.dedent("""
+    import sys
+    from scalesieve import memory_guard
+    from scalesieve.cli import main
+    memory_guard.STREAM_ABOVE = 1 << 16
+    sys.exit(main(sys.argv[1:]))
+""")
+
+
+def test_a_killed_packet_export_in_blocks_leaves_no_torn_file(tmp_path):
+    src = tmp_path / "in.wav"
+    x = (np.random.default_rng(2).standard_normal((2_000_000, 1)) * 0.1).astype(np.float32)
+    sf.write(src, x, 48000, subtype="FLOAT")
+    out = tmp_path / "out.wav"
+    old = b"an older export"
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
+    cmd = [sys.executable, "-c", _KILLED, "clean", str(src), "-o", str(out), "--force",
+           "--transform", "packet", "--level", "5", "--threshold", "universal"]
+    t0 = time.perf_counter()
+    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
+    took = time.perf_counter() - t0
+    assert done.returncode == 0, done.stderr
+    assert "cleaned in blocks" in done.stderr
+    whole = sf.read(out, dtype="float32")[0]
+
+    def intact():
+        # the old bytes, or the complete new samples (libsndfile stamps a time in the header)
+        if out.read_bytes() == old:
+            return True
+        y = sf.read(out, dtype="float32")[0]
+        return y.shape == whole.shape and np.array_equal(y, whole)
+
+    torn_temporaries = 0
+    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
+        out.write_bytes(old)
+        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        # kill while the new file is being written: once its temporary file appears
+        deadline = time.monotonic() + 10 * took + 30
+        while p.poll() is None and time.monotonic() < deadline:
+            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
+                break
+            time.sleep(0.005)
+        time.sleep(extra)
+        p.send_signal(signal.SIGKILL)
+        p.wait()
+        assert intact()
+        for name in os.listdir(tmp_path):
+            assert name in ("in.wav", "out.wav") or ".tmp-scalesieve-" in name
+            torn_temporaries += ".tmp-scalesieve-" in name
+    assert torn_temporaries >= 1                       # some kills did land mid-write
+    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
+    assert intact() and out.read_bytes() != old
+    assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+
+
+def test_workers_do_not_cut_packets_in_pieces_and_say_so(tmp_path, capsys):
+    src = tmp_path / "in.wav"
+    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
+    out = tmp_path / "out.wav"
+    assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
+                 "--workers", "2", "--threshold", "universal"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1
+    assert "wavelet packets are cleaned in blocks in one process only" in err
+    assert not out.exists()
+
+
+def test_a_best_basis_clean_counts_its_pass_and_its_progress_only_grows(tmp_path):
+    from scalesieve.recipe import Edit
+    from scalesieve.stream.pipeline import clean_stream
+
+    src = tmp_path / "in.wav"
+    sf.write(src, _two_channels(30_001, seed=3), 16_000, subtype="DOUBLE")
+    seen = []
+    rep = clean_stream(str(src), str(tmp_path / "out.wav"),
+                       transform=TransformSpec("packet", "db3", 3, "symmetric", basis="best"),
+                       edits=[Edit("threshold", levels="details", rule="universal")],
+                       progress=lambda f, text: seen.append(f))
+    # the basis pass, two passes for the median of node d, the cleaning pass
+    assert rep["blocks"]["passes"] == 4
+    assert isinstance(rep["recipe"].transform.basis, tuple)
+    # the basis pass fills the first quarter of the bar, the others the rest, in order
+    assert seen == sorted(seen) and seen[0] == 0.25 and seen[-1] == 1.0 and len(seen) >= 4
