@@ -532,9 +532,14 @@ def probe_facts(source: str, kind: str) -> dict:
             names = [f"ch{k}" for k in range(count)]
         elif kind == "mdf":
             asammdf = _library(kind, source)
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                mdf = asammdf.MDF(source)
+            reason = None
+            with _quiet_libraries():  # a half-made object is collected here, quietly
+                try:
+                    mdf = asammdf.MDF(source)
+                except Exception as exc:  # asammdf raises many kinds on damaged files
+                    reason = _reason(exc)
+            if reason is not None:
+                raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
             try:
                 for g in mdf.groups:
                     if int(g.channel_group.cycles_nr) > frames:
