@@ -11,8 +11,8 @@ from ``model.band_table(channel)`` only.
 from __future__ import annotations
 
 from PySide6.QtCore import QRectF, Qt, Signal
-from PySide6.QtGui import QColor, QPainter
-from PySide6.QtWidgets import (QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
+from PySide6.QtGui import QColor, QFontMetrics, QPainter
+from PySide6.QtWidgets import (QAbstractSpinBox, QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
                                QWidget)
 
 from scalesieve.views.band_labels import db_to_gain, gain_to_db, hz_range
@@ -77,9 +77,41 @@ class GainField(QDoubleSpinBox):
     """The gain in dB; the wheel changes it only once it has the focus (a wheel passing
     over a column of them scrolls the rows instead of changing gains on the way)."""
 
+    #: below this row height the field drops its frame and arrows and its font follows
+    #: the row (the arrows and frame alone take about 20 px in the usual styles)
+    COMPACT_BELOW = 22
+
     def __init__(self, parent=None):
         super().__init__(parent)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
+        self.compact = False
+        self._base_font = self.font()
+
+    def fit_height(self, h: int) -> None:
+        """Fit the field to a row ``h`` px high: the full field where it fits, else a
+        frameless one without arrows (keys, wheel once focused and typing still work)
+        whose font is no taller than the row."""
+        compact = h < self.COMPACT_BELOW
+        if compact != self.compact:
+            self.compact = compact
+            self.setFrame(not compact)
+            self.setButtonSymbols(QAbstractSpinBox.ButtonSymbols.NoButtons if compact
+                                  else QAbstractSpinBox.ButtonSymbols.UpDownArrows)
+            self.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
+                              if compact else Qt.AlignmentFlag.AlignLeft
+                              | Qt.AlignmentFlag.AlignVCenter)
+        f = self._base_font
+        if compact:
+            f = self.font()
+            px = max(7, h - 3)
+            base = QFontMetrics(self._base_font).height()
+            if base > px:
+                f.setPixelSize(px)
+            else:
+                f = self._base_font
+        if f != self.font():
+            self.setFont(f)
+        self.setFixedHeight(max(1, h - 1 if compact else min(h, self.sizeHint().height())))
 
     def wheelEvent(self, ev):  # noqa: N802 - Qt API
         if not self.hasFocus():
@@ -216,6 +248,10 @@ class RowHeader(QWidget):
         else:
             db = self.gain.value()
             self.gainChosen.emit(self.key, 1.0 if db <= GAIN_MIN_DB else db_to_gain(db))
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        self.gain.fit_height(self.height())
 
     def mousePressEvent(self, ev):
         if ev.button() == Qt.MouseButton.LeftButton:
