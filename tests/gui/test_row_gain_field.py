@@ -72,3 +72,20 @@ def test_a_compact_field_still_takes_a_gain(qtbot):
     qtbot.keyClick(h.gain.lineEdit(), Qt.Key.Key_Return)
     # 10^(-6/20) (definition of the decibel for amplitude)
     assert got and got[-1][0] == "d3" and abs(got[-1][1] - 10 ** (-6 / 20)) < 1e-9
+
+
+def test_every_row_of_a_column_shows_its_field_alike_at_a_fractional_row_height(qtbot):
+    # 21.5 px rows round to 21 and 22 px headers; all fields must take one form
+    from scalesieve.gui.row_headers import RowHeaderColumn, RowHeader
+
+    column = RowHeaderColumn()
+    qtbot.addWidget(column)
+    column.resize(390, 400)
+    column.set_keys([f"d{i}" for i in range(1, 13)], RowHeader)
+    column.show()
+    column.place(0.0, 21.5)
+    QApplication.processEvents()
+    heights = {h.height() for h in column.headers.values()}
+    assert heights == {21, 22}
+    assert len({h.gain.compact for h in column.headers.values()}) == 1
+    assert len({h.gain.height() for h in column.headers.values()}) == 1

@@ -249,9 +249,14 @@ class RowHeader(QWidget):
             db = self.gain.value()
             self.gainChosen.emit(self.key, 1.0 if db <= GAIN_MIN_DB else db_to_gain(db))
 
+    #: the column's row height (rows alternate by a pixel where it is fractional; every
+    #: row's field follows the column's, so all rows look alike), None: the own height
+    row_height: float | None = None
+
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
-        self.gain.fit_height(self.height())
+        h = self.height() if self.row_height is None else int(self.row_height)
+        self.gain.fit_height(min(h, self.height()))
 
     def mousePressEvent(self, ev):
         if ev.button() == Qt.MouseButton.LeftButton:
@@ -308,7 +313,10 @@ class RowHeaderColumn(QWidget):
         for i, key in enumerate(self.order):
             y0 = int(round(top + i * row_height))
             y1 = int(round(top + (i + 1) * row_height))
-            self.headers[key].setGeometry(0, y0, self.width(), max(1, y1 - y0))
+            head = self.headers[key]
+            head.row_height = row_height
+            head.setGeometry(0, y0, self.width(), max(1, y1 - y0))
+            head.gain.fit_height(min(int(row_height), head.height()))
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
 
     def resizeEvent(self, ev):
