@@ -9,6 +9,18 @@ import pytest
 from PySide6.QtWidgets import QApplication, QStyle, QStyleOptionSpinBox, QWidget
 
 
+@pytest.fixture(autouse=True, params=["no sheet", "window sheet"])
+def style(request, qapp):
+    """Each test with and without the window's own style sheet (resources/style.qss),
+    which sets a font size for every widget."""
+    from scalesieve.gui.resource_files import style_sheet
+
+    before = qapp.styleSheet()
+    qapp.setStyleSheet(style_sheet() if request.param == "window sheet" else "")
+    yield
+    qapp.setStyleSheet(before)
+
+
 def _header(qtbot, key, row_h):
     """A row header placed as the Scale map's column places it (setGeometry in a parent)."""
     from scalesieve.gui.row_headers import RowHeader
@@ -56,7 +68,7 @@ def test_short_rows_drop_the_arrows_and_tall_rows_keep_them(qtbot):
     h.setGeometry(0, 0, 390, 30)
     QApplication.processEvents()
     assert not h.gain.compact and h.gain.hasFrame()
-    assert h.gain.font() == h.gain._base_font
+    assert h.gain.styleSheet() == ""
 
 
 def test_a_compact_field_still_takes_a_gain(qtbot):

@@ -100,17 +100,14 @@ class GainField(QDoubleSpinBox):
             self.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
                               if compact else Qt.AlignmentFlag.AlignLeft
                               | Qt.AlignmentFlag.AlignVCenter)
-        f = self._base_font
-        if compact:
-            f = self.font()
-            px = max(7, h - 3)
-            base = QFontMetrics(self._base_font).height()
-            if base > px:
-                f.setPixelSize(px)
-            else:
-                f = self._base_font
-        if f != self.font():
-            self.setFont(f)
+        # The font goes through the field's own style sheet: the window's sheet sets a
+        # font size for every widget, which a plain setFont would not override.
+        px = max(7, h - 3)
+        sheet = ""
+        if compact and QFontMetrics(self._base_font).height() > px:
+            sheet = f"QAbstractSpinBox, QLineEdit {{ font-size: {px}px; }}"
+        if sheet != self.styleSheet():
+            self.setStyleSheet(sheet)
         self.setFixedHeight(max(1, h - 1 if compact else min(h, self.sizeHint().height())))
 
     def wheelEvent(self, ev):  # noqa: N802 - Qt API
