@@ -321,3 +321,33 @@ def test_mark_follows_the_channel_the_map_shows(qtbot, recording):
     p.channel_box.setCurrentIndex(p.channel_box.findData(0))
     p.set_channel(1)
     assert p.channel_box.currentData() == 1
+
+
+def test_a_narrow_dock_needs_no_sideways_scroll_and_a_wide_one_shows_every_column(
+        qtbot, pane):
+    """At a side dock's ~330 px the table keeps time, score, level and channel whole and
+    leaves out what does not fit (the row's tooltip still has it); widened, every column
+    is back.  Widths are Qt's own (QHeaderView section sizes, the viewport's width)."""
+    from PySide6.QtWidgets import QApplication
+
+    qtbot.waitUntil(lambda: len(pane.events) > 0, timeout=10000)
+    table, header = pane.table, pane.table.horizontalHeader()
+    fields = [c[0] for c in COLUMNS]
+    pane.resize(330, 500)
+    QApplication.processEvents()
+    shown = [f for f in fields if not header.isSectionHidden(fields.index(f))]
+    assert {"peak_s", "score", "level", "channel"} <= set(shown)
+    assert table.horizontalScrollBar().maximum() == 0
+    assert header.length() <= table.viewport().width()
+    fm = header.fontMetrics()
+    for f in ("peak_s", "score", "level", "channel"):
+        col = fields.index(f)
+        assert fm.horizontalAdvance(COLUMNS[col][1]) <= header.sectionSize(col)
+    row = pane.proxy.index(0, fields.index("peak_s"))
+    tip = pane.proxy.data(row, Qt.ItemDataRole.ToolTipRole)
+    start = pane.proxy.data(pane.proxy.index(0, fields.index("start_s")),
+                            Qt.ItemDataRole.UserRole)
+    assert f"from {start:.6f} to " in tip
+    pane.resize(1000, 500)
+    QApplication.processEvents()
+    assert not any(header.isSectionHidden(c) for c in range(len(COLUMNS)))

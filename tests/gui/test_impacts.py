@@ -244,3 +244,32 @@ def test_impulse_map_readout_shows_the_figure_the_map_shows(window, qtbot, tmp_p
     e, r = bc.dwt_edges(x.shape[0], 8, best["level"])[best["level"] - 1]
     p = stats.kurtosistest(node[e:node.shape[0] - r], alternative="greater").pvalue
     assert p > 0.01 / sum(len(lv["bands"]) for lv in imap.table["levels"])
+
+
+def test_bearing_line_labels_do_not_touch_at_1280_by_800(window, qtbot):
+    """The labels as pyqtgraph draws them (their scene rectangles, less the text
+    document's 4 px margin: Qt's QTextDocument default) keep at least 4 px apart in the
+    window at 1280×800, for the fan bearing of sample_signals/README.md."""
+    window.resize(1280, 800)
+    _open_packet(window)
+    dock = window.impacts_dock
+    dock.show()
+    QApplication.processEvents()
+    env = dock.envelope
+    _drawn(qtbot, dock.impulse_map, env)
+    env.set_bearing("10,8.0,42.0,0", 29.5)
+    QApplication.processEvents()
+    boxes = []
+    for m in env.markers:
+        label = getattr(m, "label", None)
+        if label is None or not label.isVisible() or not label.toPlainText():
+            continue
+        margin = label.textItem.document().documentMargin()
+        r = label.mapRectToScene(label.textItem.mapRectToParent(
+            label.textItem.boundingRect().adjusted(margin, margin, -margin, -margin)))
+        boxes.append((label.toPlainText(), r))
+    assert len(boxes) >= 4            # the first harmonics at least
+    for i, (t1, r1) in enumerate(boxes):
+        for t2, r2 in boxes[i + 1:]:
+            # "touch": closer than 4 px side by side, or overlapping rows
+            assert not r1.adjusted(-4, 0, 4, 0).intersects(r2), (t1, t2, r1, r2)

@@ -45,3 +45,27 @@ def test_rows_fit_the_plot_and_stay_apart():
     assert all(abs(a - b) * 110 >= ROW_PX - 1e-9 for a, b in zip(rows, rows[1:]))
     # a label that would run past the right edge is left out
     assert place_labels([(690.0, "BPFO", 1)], 0.0, 700.0, 500, 110) == [None]
+
+
+def test_measured_widths_keep_labels_apart_where_the_rough_width_would_not():
+    # a font twice as wide as CHAR_PX: labels measured so (as the window measures them
+    # with its font) are kept apart by their drawn widths, not the rough guess
+    lines = _fan_lines()
+    width, height, x1 = 520.0, 110.0, 600.0
+    wide = lambda t: 2 * CHAR_PX * len(t)  # noqa: E731
+    rows = place_labels(lines, 0.0, x1, width, height, text_px=wide, row_px=ROW_PX)
+    per_px = width / x1
+    boxes = [(row, hz * per_px, hz * per_px + wide(text))
+             for (hz, text, _), row in zip(lines, rows) if row is not None]
+    assert boxes
+    for i, (r1, a1, b1) in enumerate(boxes):
+        for r2, a2, b2 in boxes[i + 1:]:
+            assert r1 != r2 or b1 <= a2 or b2 <= a1
+    rough = place_labels(lines, 0.0, x1, width, height)
+    assert sum(r is not None for r in rough) > len(boxes)   # the guess packs more in
+
+
+def test_taller_labels_get_rows_their_own_height_apart():
+    rows = label_rows(200.0, row_px=24.0)
+    # fractions of a 200 px plot: 24 px apart
+    assert all(abs((a - b) * 200.0 - 24.0) < 1e-9 for a, b in zip(rows, rows[1:]))

@@ -20,7 +20,8 @@ import json
 import os
 import sys
 
-from scalesieve.commands.options import add_input_options, add_transform_options, load_input
+from scalesieve.commands.options import (add_input_options, add_transform_options, load_input,
+                                         print_warnings)
 from scalesieve.errors import ScalesieveError
 
 
@@ -89,6 +90,7 @@ def run(args) -> int:
         check_target(args.csv, force=args.force, protect=[args.file])
     rec = load_input(args, args.file)
     source = rec.source or args.file
+    print_warnings(rec, args.file)
     wavelet, mode, depth = packet_options(args, rec.n, source)
     try:
         rep = en.report(rec.samples[:, 0], rec.rate, args.band, wavelet, mode, depth,
@@ -98,7 +100,7 @@ def run(args) -> int:
     out = {"file": os.path.basename(args.file), "rate": rec.rate,
            "channel": rec.channel_names[0], "band": rep["band"],
            "resolution_hz": rep["resolution_hz"], "peaks": rep["peaks"],
-           "envelope": rep["envelope"]}
+           "envelope": rep["envelope"], "warnings": list(rec.warnings)}
     if "bearing" in rep:
         out["shaft_hz"] = args.shaft
         out["bearing"] = rep["bearing"]

@@ -24,7 +24,8 @@ import json
 import os
 import sys
 
-from scalesieve.commands.options import add_input_options, add_transform_options, load_input
+from scalesieve.commands.options import (add_input_options, add_transform_options, load_input,
+                                         print_warnings)
 from scalesieve.errors import ScalesieveError
 
 
@@ -57,7 +58,13 @@ def packet_options(args, n: int, source: str):
         raise ScalesieveError(f"--mode {mode!r} is not one of {', '.join(MODES)}")
     import pywt
 
-    top = pywt.dwt_max_level(n, pywt.Wavelet(wavelet).dec_len)
+    length = pywt.Wavelet(wavelet).dec_len
+    top = pywt.dwt_max_level(n, length)
+    if top < 1:
+        raise ScalesieveError(f"{n} {'sample is' if n == 1 else 'samples are'} too few for packet bands "
+                              f"with {wavelet} (filter length {length}: depth 1 needs at least "
+                              f"{2 * (length - 1)}); use a shorter wavelet such as haar or a "
+                              "longer recording", source)
     depth = args.level or min(ib.DEFAULT_DEPTH, max(1, top))
     if depth > top:
         raise ScalesieveError(f"--level {depth} is deeper than {n} samples allow for "
@@ -102,6 +109,7 @@ def run(args) -> int:
 
     rec = load_input(args, args.file)
     source = rec.source or args.file
+    print_warnings(rec, args.file)
     wavelet, mode, depth = packet_options(args, rec.n, source)
     try:
         t = ib.table(rec.samples[:, 0], rec.rate, wavelet, mode, depth)
@@ -113,7 +121,8 @@ def run(args) -> int:
               "best_statistic": "pearson kurtosis of the interior coefficients (those the "
                                 "boundary extension does not touch), bands with at least "
                                 f"{band_choice.MIN_INTERIOR} of them",
-              "levels": t["levels"], "best": t["best"]}
+              "levels": t["levels"], "best": t["best"],
+              "warnings": list(rec.warnings)}
     stands_out = band_choice.best_stands_out(t, rec.n, wavelet, mode)
     report["impulsive"] = stands_out
     report["finding"] = finding(t["best"], stands_out)

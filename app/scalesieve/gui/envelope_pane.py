@@ -17,8 +17,8 @@ import os
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtGui import QColor
-from PySide6.QtWidgets import (QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel, QLineEdit,
+from PySide6.QtGui import QColor, QFontMetricsF
+from PySide6.QtWidgets import (QApplication, QDoubleSpinBox, QFileDialog, QHBoxLayout, QLabel, QLineEdit,
                                QPushButton, QVBoxLayout, QWidget)
 
 from scalesieve.core import bearing as br
@@ -33,6 +33,9 @@ from scalesieve.io.atomic import atomic_write
 LINE_COLOURS = {"ftf": "#7a5195", "bpfo": "#d1495b", "bpfi": "#00798c", "bsf": "#c98a12"}
 #: the plot keeps room for its curve and two rows of line labels
 PLOT_MIN_HEIGHT = 90
+#: a line label's glyphs start this far right of its line (the margin of the text
+#: document pyqtgraph's TextItem draws in: Qt's QTextDocument default, 4 px)
+LABEL_MARGIN_PX = 4
 FREQUENCY_LABEL = "envelope frequency (Hz)"
 
 
@@ -256,8 +259,13 @@ class EnvelopePane(QWidget):
         if w < 50 or h < 30:            # not laid out yet: a plot of the smallest size
             w, h = 500.0, float(PLOT_MIN_HEIGHT)
         wanted = [(i, ln) for i, ln in enumerate(lines) if not ln.get("sideband")]
+        # measured as pyqtgraph draws a line's label: the application's font, the glyphs
+        # starting a text document's margin to the right of the line
+        fm = QFontMetricsF(QApplication.font())
         placed = place_labels([(ln["hz"], _line_text(ln), ln["harmonic"]) for _, ln in wanted],
-                              0.0, x_max, w, h)
+                              -0.01 * x_max, 1.01 * x_max, w, h,   # the range's 1 % padding
+                              text_px=lambda t: fm.horizontalAdvance(t) + LABEL_MARGIN_PX,
+                              row_px=fm.height() + 1)
         out: list = [None] * len(lines)
         for (i, _), height in zip(wanted, placed):
             out[i] = height

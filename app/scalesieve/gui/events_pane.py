@@ -73,6 +73,9 @@ COLUMNS = (
 COLUMN_MAX_PX = 70
 #: the order the columns are shown in
 VISIBLE_ORDER = ("peak_s", "score", "level", "channel", "start_s", "stop_s", "peak")
+#: columns left out while the table is too narrow for them (each row's tooltip and the
+#: CSV export keep them); the others are always shown
+OPTIONAL_COLUMNS = ("start_s", "stop_s", "peak")
 TRANSFORMS = (("swt", "SWT: sharper timing"), ("dwt", "DWT"))
 
 
@@ -139,6 +142,10 @@ class EventTable(QAbstractTableModel):
             return f"{value:.6f}"
         if role == Qt.ItemDataRole.TextAlignmentRole:
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+        if role == Qt.ItemDataRole.ToolTipRole:
+            return (f"time {e.peak_s:.6f} s · score {e.score:.2f} σ · level {e.level} · "
+                    f"channel {e.channel}\nfrom {e.start_s:.6f} to {e.stop_s:.6f} s · "
+                    f"peak {e.peak:.4g}")
         return None
 
     def headerData(self, section, orientation, role=Qt.ItemDataRole.DisplayRole):  # noqa: N802
@@ -224,6 +231,20 @@ class EventMark:
     @property
     def visible(self) -> bool:
         return self._added and self.box.isVisible()
+
+
+class _FittingTable(QTableView):
+    """The events table; on a change of width the pane fits its columns to it."""
+
+    def __init__(self, pane):
+        super().__init__()
+        self._pane = pane
+        self.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAsNeeded)
+
+    def resizeEvent(self, ev):  # noqa: N802 - Qt API
+        super().resizeEvent(ev)
+        if ev.size().width() != ev.oldSize().width():
+            self._pane.fit_columns()
 
 
 class EventsPane(QWidget):
@@ -330,7 +351,7 @@ class EventsPane(QWidget):
         self.table_model = EventTable(self)
         self.proxy = _ChannelFilter(self)
         self.proxy.setSourceModel(self.table_model)
-        self.table = QTableView()
+        self.table = _FittingTable(self)
         self.table.setModel(self.proxy)
         self.table.setSortingEnabled(True)
         self.table.sortByColumn(0, Qt.SortOrder.AscendingOrder)
@@ -465,6 +486,7 @@ class EventsPane(QWidget):
             for col in range(len(COLUMNS)):
                 header.resizeSection(col, min(header.sectionSize(col), COLUMN_MAX_PX))
             self._sized = True
+            self.fit_columns()
         self.summary.setText(error or summary_text(self.events, self.repetition, channels))
         self.summary.setToolTip("noise σ per level: " + ", ".join(
             f"ch {r['channel']} d{r['level']} {r['sigma']:.4g}" for r in self.noise))
@@ -476,6 +498,26 @@ class EventsPane(QWidget):
             self.select_event(same[0], emit=False)
         elif self.mark is not None:
             self.mark.clear()
+
+    def fit_columns(self) -> None:
+        """Show the optional columns (start, stop, peak) that fit beside the others in the
+        table's width, in their order, so the table never needs a sideways scroll in a
+        narrow dock; the hidden ones stay in each row's tooltip and the CSV export."""
+        header = self.table.horizontalHeader()
+        fields = [c[0] for c in COLUMNS]
+        room = self.table.viewport().width()
+        used = sum(header.sectionSize(fields.index(f)) for f in VISIBLE_ORDER
+                   if f not in OPTIONAL_COLUMNS)
+        fits = True
+        for f in VISIBLE_ORDER:
+            if f not in OPTIONAL_COLUMNS:
+                continue
+            col = fields.index(f)
+            fits = fits and used + header.sectionSize(col) <= room
+            if fits:
+                used += header.sectionSize(col)
+            if header.isSectionHidden(col) == fits:
+                header.setSectionHidden(col, not fits)
 
     # ------------------------------------------------------------- choosing
 

@@ -11,8 +11,8 @@ from ``model.band_table(channel)`` only.
 from __future__ import annotations
 
 from PySide6.QtCore import QRectF, Qt, Signal
-from PySide6.QtGui import QColor, QPainter
-from PySide6.QtWidgets import (QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
+from PySide6.QtGui import QColor, QFontMetrics, QPainter
+from PySide6.QtWidgets import (QAbstractSpinBox, QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
                                QWidget)
 
 from scalesieve.views.band_labels import db_to_gain, gain_to_db, hz_range
@@ -77,9 +77,38 @@ class GainField(QDoubleSpinBox):
     """The gain in dB; the wheel changes it only once it has the focus (a wheel passing
     over a column of them scrolls the rows instead of changing gains on the way)."""
 
+    #: below this row height the field drops its frame and arrows and its font follows
+    #: the row (the arrows and frame alone take about 20 px in the usual styles)
+    COMPACT_BELOW = 22
+
     def __init__(self, parent=None):
         super().__init__(parent)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
+        self.compact = False
+        self._base_font = self.font()
+
+    def fit_height(self, h: int) -> None:
+        """Fit the field to a row ``h`` px high: the full field where it fits, else a
+        frameless one without arrows (keys, wheel once focused and typing still work)
+        whose font is no taller than the row."""
+        compact = h < self.COMPACT_BELOW
+        if compact != self.compact:
+            self.compact = compact
+            self.setFrame(not compact)
+            self.setButtonSymbols(QAbstractSpinBox.ButtonSymbols.NoButtons if compact
+                                  else QAbstractSpinBox.ButtonSymbols.UpDownArrows)
+            self.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
+                              if compact else Qt.AlignmentFlag.AlignLeft
+                              | Qt.AlignmentFlag.AlignVCenter)
+        # The font goes through the field's own style sheet: the window's sheet sets a
+        # font size for every widget, which a plain setFont would not override.
+        px = max(7, h - 3)
+        sheet = ""
+        if compact and QFontMetrics(self._base_font).height() > px:
+            sheet = f"QAbstractSpinBox, QLineEdit {{ font-size: {px}px; }}"
+        if sheet != self.styleSheet():
+            self.setStyleSheet(sheet)
+        self.setFixedHeight(max(1, h - 1 if compact else min(h, self.sizeHint().height())))
 
     def wheelEvent(self, ev):  # noqa: N802 - Qt API
         if not self.hasFocus():
@@ -217,6 +246,15 @@ class RowHeader(QWidget):
             db = self.gain.value()
             self.gainChosen.emit(self.key, 1.0 if db <= GAIN_MIN_DB else db_to_gain(db))
 
+    #: the column's row height (rows alternate by a pixel where it is fractional; every
+    #: row's field follows the column's, so all rows look alike), None: the own height
+    row_height: float | None = None
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        h = self.height() if self.row_height is None else int(self.row_height)
+        self.gain.fit_height(min(h, self.height()))
+
     def mousePressEvent(self, ev):
         if ev.button() == Qt.MouseButton.LeftButton:
             self.clicked.emit(self.key, ev.modifiers())
@@ -272,7 +310,10 @@ class RowHeaderColumn(QWidget):
         for i, key in enumerate(self.order):
             y0 = int(round(top + i * row_height))
             y1 = int(round(top + (i + 1) * row_height))
-            self.headers[key].setGeometry(0, y0, self.width(), max(1, y1 - y0))
+            head = self.headers[key]
+            head.row_height = row_height
+            head.setGeometry(0, y0, self.width(), max(1, y1 - y0))
+            head.gain.fit_height(min(int(row_height), head.height()))
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
 
     def resizeEvent(self, ev):
