@@ -202,8 +202,8 @@ def _in_blocks(args):
     from scalesieve import memory_guard
 
     facts = memory_guard.probe_quietly(args.file)
-    if facts is None:
-        return None
+    if facts is None or int(facts["frames"]) <= 0:
+        return None  # an empty recording: the reader names it, as for every command
     spec = spec_from(args, int(facts["frames"]), args.file)
     if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
