@@ -322,6 +322,19 @@ def check_cross_fields(e: Edit, index: int = 1, source: str | None = None) -> No
                               f"{_num(e.stop_s)}", source)
 
 
+def _whole_level_numbers(e: Edit) -> bool:
+    """True where an edit names levels only by whole numbers from 1 (and 'a')."""
+    if e.bands is not None or isinstance(e.levels, str):
+        return False
+    try:
+        items = list(e.levels)
+    except TypeError:
+        return False
+    return bool(items) and all(
+        v == "a" if isinstance(v, str)
+        else isinstance(v, int) and not isinstance(v, bool) and v >= 1 for v in items)
+
+
 def check_against(recipe_edits: Iterable[Edit], level, duration_s: float | None = None,
                   channels: int | None = None, source: str | None = None) -> None:
     """Check edits against a resolved transform and recording; raise naming the edit.
@@ -338,6 +351,12 @@ def check_against(recipe_edits: Iterable[Edit], level, duration_s: float | None 
         raise ScalesieveError(f"{len(edits)} edits are more than a recipe may hold "
                               f"({MAX_EDITS})", source)
     for i, e in enumerate(edits, 1):
+        if _whole_level_numbers(e):
+            # a level past the limit is also past this transform: name its own levels
+            try:
+                resolve_bands(e, level)
+            except ValueError as exc:
+                raise ScalesieveError(f"edit {i} ({e.op}): {exc}", source) from None
         check_edit(e, i, source)
         try:
             resolve_bands(e, level)

@@ -202,13 +202,13 @@ def _in_blocks(args):
     from scalesieve import memory_guard
 
     facts = memory_guard.probe_quietly(args.file)
-    if facts is None:
-        return None
+    if facts is None or int(facts["frames"]) <= 0:
+        return None  # an empty recording: the reader names it, as for every command
     spec = spec_from(args, int(facts["frames"]), args.file)
     if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
         return None
-    from scalesieve.stream.choice import stream_bytes
+    from scalesieve.stream.choice import events_bytes
     from scalesieve.stream.events import events_stream
     from scalesieve.stream.sources import open_source
 
@@ -216,8 +216,9 @@ def _in_blocks(args):
     what = ("parsed in chunks into a temporary file, then read in blocks, four passes over "
             "the rows" if facts.get("kind") == "text"
             else "read in blocks, four passes over the file")
+    need = events_bytes(chans, spec, levels_from(args.levels, spec, int(facts["frames"])))
     print(f"scalesieve: note: {args.file}: {what}, about "
-          f"{stream_bytes(chans, spec) / 2**20:.0f} MiB of memory", file=sys.stderr)
+          f"{need / 2**20:.0f} MiB of memory", file=sys.stderr)
     # a text table's rows are counted as it is parsed: the level follows that count
     src = open_source(args.file, args.channel, args.rate)
     spec = spec_from(args, src.frames, args.file)

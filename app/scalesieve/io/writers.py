@@ -144,19 +144,33 @@ def _audio_bytes(fmt: str, sub: str, frames: int, channels: int) -> int | None:
     return frames * channels * width + _HEADER_BYTES
 
 
-def _free_bytes(path: str) -> int | None:
+def _usage(path: str):
+    """The disk usage of the folder ``path`` goes in; None when it cannot be asked."""
     import shutil
 
     try:
-        return int(shutil.disk_usage(os.path.dirname(os.path.abspath(path))).free)
+        return shutil.disk_usage(os.path.dirname(os.path.abspath(path)))
     except OSError:
         return None
 
 
-def _check_space(target: str, need: int) -> None:
-    """Refuse before writing when the target's disk cannot hold ``need`` bytes."""
-    free = _free_bytes(target)
-    if free is not None and free < need:
+def _free_bytes(path: str) -> int | None:
+    usage = _usage(path)
+    return None if usage is None else int(usage.free)
+
+
+def _check_space(target: str, need: int | None) -> None:
+    """Refuse before writing when the target's disk cannot hold ``need`` bytes (None:
+    a compressed format, size unknown) or cannot hold files at all."""
+    usage = _usage(target)
+    if usage is not None and usage.total == 0:
+        # a pseudo-filesystem (/proc, /sys) reports no size: it is not out of space
+        raise ScalesieveError(
+            f"the folder {os.path.dirname(os.path.abspath(target))} cannot hold files "
+            "(its filesystem reports no size, as system folders like /proc do); "
+            "choose another folder", source=target)
+    free = None if usage is None else int(usage.free)
+    if need is not None and free is not None and free < need:
         raise ScalesieveError(f"{_NO_SPACE} (needs {_megabytes(need)}, "
                               f"{_megabytes(free)} free)", source=target)
 
@@ -237,8 +251,7 @@ def write_audio(path: str | os.PathLike[str], samples, rate: float, *,
     clips = sub not in _FLOAT_SUBTYPES
     clipped = 0
     need = _audio_bytes(fmt, sub, n, channels)
-    if need is not None:
-        _check_space(target, need)
+    _check_space(target, need)
 
     def write(tmp: str) -> None:
         nonlocal clipped

@@ -12,6 +12,11 @@ from scalesieve.stream.sources import READ_FRAMES
 #: of coefficients (see stream_bytes; fitted to tests/perf/bench_long.py)
 SWT_COPIES = 5
 
+#: block-sized stretches of one channel ``events`` in blocks holds per band at its peak, by
+#: transform (see events_bytes; fitted to peaks measured as tests/perf/bench_long.py
+#: --only events --force-blocks runs the command)
+EVENTS_COPIES = {"swt": 6, "dwt": 4}
+
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
                    fill_gaps: str | None = None, channel=None, swt: bool = False,
@@ -99,4 +104,21 @@ def stream_bytes(channels: int, spec: tf.TransformSpec, clean: bool = True) -> i
         return int(channels * per_channel + (96 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
     per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
+    return int(channels * per_channel + (96 << 20))
+
+
+def events_bytes(channels: int, spec: tf.TransformSpec, levels: Sequence[int]) -> int:
+    """About what ``events`` in blocks holds (``stream.events``), whatever the length.
+
+    It transforms only to its deepest level, one read block at a time: per
+    channel, that level's bands and the approximation, each a block wide plus
+    the deepest coefficient's reach, a few times over; and the interpreter with
+    its libraries (about 96 MiB, as in :func:`stream_bytes`).  No inverse, so
+    nothing waits for the coarse levels.  Measured peaks (2**24 float32 samples, one
+    and two channels, SWT and DWT, levels 1-2 to 1-12) lie at most 1.6 times below it
+    (tests/cli/test_events_memory.py holds them).
+    """
+    top = max(levels)
+    reach = (tf.filter_length(spec.wavelet) - 1) * (2 ** top - 1) + 1
+    per_channel = 8 * EVENTS_COPIES[spec.kind] * (top + 1) * (READ_FRAMES + reach)
     return int(channels * per_channel + (96 << 20))
