@@ -16,6 +16,7 @@ from typing import Callable, Sequence
 import numpy as np
 
 from scalesieve.core import thresholds as th
+from scalesieve.core import transforms as tf
 
 BandState = "float | np.ndarray"
 
@@ -250,3 +251,14 @@ def chain_values(c: np.ndarray, edits: Sequence, ctx: BandContext, lams: Sequenc
             state = th.apply_shape(cur, lams[t], e.shape)
             t += 1
     return state
+
+
+def chains_for(edits: Sequence, channel: int, spec: tf.TransformSpec) -> dict:
+    """Every band's chain: the edits that apply to it, in recipe order."""
+    chains: dict = {key: [] for key in tf.spec_keys(spec)}
+    for e in edits:
+        if e.applies_to(channel):
+            for key in dict.fromkeys(e.band_keys(spec)):
+                if key in chains:
+                    chains[key].append(e)
+    return {key: tuple(v) for key, v in chains.items()}

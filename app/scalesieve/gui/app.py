@@ -169,23 +169,12 @@ def run_long_window(path: str, transform, edits=(), *, channel=None,
     window.resize(*size)
     window.show()
     window.open_long(path, transform, edits, channel)
-    if snapshot:
-        problem = window.wait_idle(sweep=True)     # the cleaned trace of the whole view too
-        if problem:
-            window.close()
-            raise ScalesieveError(problem)
-        window.snapshot(snapshot, force=force)
-        reporter.uninstall()
-        _dispose(app, window)
-        return 0
-    code = int(app.exec())
-    reporter.uninstall()
-    _dispose(app, window)
-    return code
+    # the cleaned trace of the whole view too
+    return _finish(app, window, reporter, snapshot, force,
+                   lambda: window.wait_idle(sweep=True))
 
 
 def _run(app, settings, window_args, impacts) -> int:
-    from scalesieve.errors import ScalesieveError
     from scalesieve.gui.failure_dialog import install_excepthook
     from scalesieve.gui.main_window import MainWindow
 
@@ -204,17 +193,29 @@ def _run(app, settings, window_args, impacts) -> int:
     window.show()
     _impacts_options(window, *impacts)
     window.open_recording(rec, spec, edits)
-    if snapshot:
+
+    def settle():
         problem = window.adapter.wait_idle()
+        if not problem:
+            window.resize(*size)
+        return problem
+
+    return _finish(app, window, reporter, snapshot, force, settle)
+
+
+def _finish(app, window, reporter, snapshot, force, settle) -> int:
+    """Either save the snapshot once ``settle()`` reports no problem, or run the window."""
+    from scalesieve.errors import ScalesieveError
+
+    if snapshot:
+        problem = settle()
         if problem:
             window.close()
             raise ScalesieveError(problem)
-        window.resize(*size)
         window.snapshot(snapshot, force=force)
-        reporter.uninstall()
-        _dispose(app, window)
-        return 0
-    code = int(app.exec())
+        code = 0
+    else:
+        code = int(app.exec())
     reporter.uninstall()
     _dispose(app, window)
     return code

@@ -9,7 +9,7 @@ change (a multiple of a cached time component), a window of coefficients
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Callable, Sequence
+from typing import Callable
 
 from scalesieve.core import edits as ed
 from scalesieve.core import transforms as tf
@@ -28,15 +28,7 @@ class Plan:
     window: tuple[int, int] = (0, 0)  # "window": coefficient indices k0, k1
 
 
-def chains_for(edits: Sequence, channel: int, spec: tf.TransformSpec) -> dict:
-    """Every band's chain: the edits that apply to it, in recipe order."""
-    chains: dict = {key: [] for key in tf.spec_keys(spec)}
-    for e in edits:
-        if e.applies_to(channel):
-            for key in dict.fromkeys(e.band_keys(spec)):
-                if key in chains:
-                    chains[key].append(e)
-    return {key: tuple(v) for key, v in chains.items()}
+chains_for = ed.chains_for  # every band's chain of edits (core.edits)
 
 
 def syntheses(plans: list[Plan], kind: str) -> int:

@@ -41,14 +41,7 @@ class _Band:
         return ed.state_values(c, ed.chain_values(c, self.chain[:i], self.ctx, self.lams[:t], k0))
 
 
-def _chains(edits, channel: int, spec: tf.TransformSpec) -> dict:
-    chains: dict = {key: [] for key in tf.spec_keys(spec)}
-    for e in edits:
-        if e.applies_to(channel):
-            for key in dict.fromkeys(e.band_keys(spec)):
-                if key in chains:
-                    chains[key].append(e)
-    return {key: tuple(v) for key, v in chains.items()}
+_chains = ed.chains_for  # the name stream.pipeline has re-exported
 
 
 class _Plan:
