@@ -137,3 +137,18 @@ def test_soft_is_gain_max_0_1_minus_lambda_over_c():
     x = np.array([-3.0, -0.5, 0.2, 1.0, 2.0, 4.0])
     gain = np.maximum(0, 1 - 1.0 / np.abs(x))
     assert np.allclose(th.apply_shape(x, 1.0, "soft"), gain * x)
+
+
+def test_soft_risk_takes_exp_from_the_c_library():
+    # The minimax threshold is a numerical search over this risk; NumPy's vector exp on
+    # some processors differs from the C library's in the last bit, which moved the
+    # search's end from machine to machine.  Reference: Python's math.exp, element by
+    # element, in the risk's closed form (Donoho & Johnstone 1994).
+    from scipy.special import ndtr
+
+    mu = np.linspace(0.0, 20.0, 4001)
+    lam = 2.3
+    phi = lambda z: np.array([math.exp(-0.5 * v * v) for v in z]) / math.sqrt(2 * math.pi)  # noqa: E731
+    want = (1 + lam ** 2 + (mu ** 2 - lam ** 2 - 1) * (ndtr(lam - mu) - ndtr(-lam - mu))
+            - (lam - mu) * phi(lam + mu) - (lam + mu) * phi(lam - mu))
+    assert np.array_equal(th.soft_risk(lam, mu), want)
