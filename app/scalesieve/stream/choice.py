@@ -28,8 +28,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
     Wavelet packets run in blocks for the commands that can take them
-    (``packets``: ``bands`` and ``clean``), in the modes that extend the signal from
-    samples near its edge (``stream.packet_tree``).
+    (``packets``: ``bands`` and ``clean``), in every boundary mode
+    (``stream.packet_tree``; the wrapping ones through ``stream.packet_wrap``).
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
@@ -58,13 +58,12 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
 
 def packet_refusal(spec: tf.TransformSpec, bands: bool) -> str | None:
     """Why wavelet packets of ``spec`` cannot run in blocks (``bands``: the command can)."""
-    from scalesieve.stream.dwt import STREAM_MODES
+    from scalesieve.stream.packet_tree import PACKET_MODES
 
     if not bands:
         return "wavelet packets are worked on in blocks by bands and clean only"
-    if spec.mode not in STREAM_MODES:
-        return (f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks, "
-                f"only in {', '.join(sorted(STREAM_MODES))}")
+    if spec.mode not in PACKET_MODES:  # pragma: no cover - TransformSpec checks the mode
+        return f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks"
     return None
 
 
