@@ -135,12 +135,13 @@ class PacketInverse:
             if edges is None:
                 raise ValueError("packets in mode periodization need the basis nodes' edges")
             known = up_edges(edges, wavelet, lengths)
+            w = pywt.Wavelet(wavelet)
         for q in inner:
             block = max(self.MIN_BLOCK, tf.BLOCK >> len(q))
             made = (lambda s0, seg, q=q: self._up(q, s0, seg))
             if mode == "periodization":
-                self.stages[q] = _WrapStep(pywt.Wavelet(wavelet), known[q + "a"],
-                                           known[q + "d"], lengths[len(q)], made, block)
+                self.stages[q] = _WrapStep(w, known[q + "a"], known[q + "d"], lengths[len(q)],
+                                           made, block)
             else:
                 self.stages[q] = InverseStream(lengths[len(q)], one, made, block=block)
         self.order = sorted(inner, key=len, reverse=True)     # children before parents
