@@ -19,6 +19,15 @@ side in this run (clean / bare time, long / short time and memory).
         --only bands_packet,bands_packet_whole,bands_packet_best,bands_packet_best_whole,clean_packet,clean_packet_whole
                                                            # packets: blocks vs whole array
 
+``--transform packet`` runs ``clean`` and ``bands`` as
+``--transform packet --level J`` (``--level``, default 6) and, for ``clean``, beside
+the bare whole-array script doing the same with ``pywt.WaveletPacket`` (VisuShrink
+from node ``d``, every band but the lowest); ``--mode MODE`` gives every command
+(and the bare scripts) that boundary mode:
+
+    python tests/perf/bench_long.py --samples 268435456 --transform packet \
+        --mode periodization --only clean,bands --no-bare --force-blocks
+
 ``--table`` writes the recordings as a logger's CSV instead (``time [ms]``,
 semicolon, decimal comma); the bare script then reads it with
 ``numpy.loadtxt``, and ``clean_whole`` / ``bands_whole`` run the command with
@@ -87,6 +96,23 @@ y = pywt.iswt(c, "db4", norm=True)[:n]
 sf.write(sys.argv[2], y, rate, subtype="FLOAT")
 """
 
+BARE_PACKET = r"""
+import sys, numpy as np, pywt, soundfile as sf
+x, rate = sf.read(sys.argv[1], dtype="float64")
+depth, mode = int(sys.argv[3]), sys.argv[4]
+tree = pywt.WaveletPacket(x, "db4", mode, maxlevel=depth)
+n = x.shape[0]
+d1 = np.abs(tree["d"].data)
+sigma = np.median(d1[d1 != 0]) / 0.6744897501960817
+lam = sigma * np.sqrt(2 * np.log(n))
+del x
+for i, node in enumerate(tree.get_level(depth, "freq")):
+    if i:
+        tree[node.path] = pywt.threshold(node.data, lam, mode="soft")
+y = tree.reconstruct(update=False)[:n]
+sf.write(sys.argv[2], y, rate, subtype="FLOAT")
+"""
+
 BARE_TABLE_READ = r"""
 import io
 def read(path):
@@ -146,14 +172,24 @@ def _run(cmd: list[str]) -> dict:
     return {"seconds": round(seconds, 3), "peak_mib": round(usage.ru_maxrss / 1024, 1)}
 
 
-def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
+def _commands(src: str, out: str, force_blocks: bool = False, transform: str | None = None,
+              mode: str | None = None, level: int = 6) -> dict:
     me = [sys.executable, "-c", IN_BLOCKS] if force_blocks else [sys.executable, "-m",
                                                                   "scalesieve"]
     swt = ["--transform", "swt"]
     whole = [sys.executable, "-c", IN_MEMORY]
     blocks = [sys.executable, "-c", IN_BLOCKS]
-    packet = ["--transform", "packet", "--level", "6"]
+    packet = ["--transform", "packet", "--level", str(level)]
     best = [*packet, "--basis", "best", "--cost", "shannon"]
+    chosen = [] if transform is None else (
+        packet if transform == "packet" else ["--transform", transform])
+    cmds = _named(src, out, me, whole, blocks, swt, packet, best, chosen)
+    if mode is not None:
+        cmds = {name: cmd + ["--mode", mode] for name, cmd in cmds.items()}
+    return cmds
+
+
+def _named(src, out, me, whole, blocks, swt, packet, best, chosen) -> dict:
     return {
         # wavelet packets: always in blocks, beside the whole-array model on the same file
         "bands_packet": blocks + ["bands", src, "--json", *packet],
@@ -169,12 +205,17 @@ def _commands(src: str, out: str, force_blocks: bool = False) -> dict:
         "bands_periodization": me + ["bands", src, "--json", "--mode", "periodization"],
         "clean_swt": me + ["clean", src, "-o", out, "--threshold", "universal", "--force", *swt],
         "bands_swt": me + ["bands", src, "--json", *swt],
-        "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force"],
+        "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force", *chosen],
         "clean_workers": me + ["clean", src, "-o", out, "--threshold", "universal", "--force",
                                "--workers", "2"],
-        "bands": me + ["bands", src, "--json"],
+        "bands": me + ["bands", src, "--json", *chosen],
         "events": me + ["events", src, "--json"],
     }
+
+
+def _moded(script: str, mode: str | None) -> str:
+    """The bare DWT script in boundary mode ``mode`` (default its own, symmetric)."""
+    return script if mode is None else script.replace('mode="symmetric"', f'mode="{mode}"')
 
 
 def _bare(script: str, table: bool) -> str:
@@ -353,6 +394,12 @@ def main() -> None:
                          "in blocks, bands_packet_whole and bands_packet_best_whole the same "
                          "on the whole array; clean_packet and clean_packet_whole: "
                          "`clean --threshold universal` of the same packet bands")
+    ap.add_argument("--transform", choices=("dwt", "swt", "packet"), default=None,
+                    help="clean and bands with this transform (packet: --level J, default 6; "
+                         "the bare script then walks the same packet tree)")
+    ap.add_argument("--mode", default=None,
+                    help="every command and bare script in this boundary mode")
+    ap.add_argument("--level", type=int, default=6, help="packet depth (default 6)")
     ap.add_argument("--table", action="store_true",
                     help="logger CSV inputs (time [ms], semicolon, decimal comma) instead of WAVs")
     ap.add_argument("--force-blocks", action="store_true",
@@ -379,14 +426,19 @@ def main() -> None:
             (_write_table if args.table else _write)(src, n)
             out = os.path.join(tmp, f"{label}-out.wav")
             row = {}
-            for name, cmd in _commands(src, out, args.force_blocks).items():
+            for name, cmd in _commands(src, out, args.force_blocks, args.transform, args.mode,
+                                       args.level).items():
                 if name in wanted:
                     row[name] = _run(cmd)
             if not args.no_bare and "clean" in wanted:
                 script = os.path.join(tmp, "bare.py")
+                packets = args.transform == "packet"
                 with open(script, "w") as fh:
-                    fh.write(_bare(BARE, args.table))
-                row["bare"] = _run([sys.executable, script, src, os.path.join(tmp, "bare.wav")])
+                    fh.write(_bare(BARE_PACKET if packets else _moded(BARE, args.mode),
+                                   args.table))
+                extra = [str(args.level), args.mode or "symmetric"] if packets else []
+                row["bare"] = _run([sys.executable, script, src, os.path.join(tmp, "bare.wav"),
+                                    *extra])
             if not args.no_bare and "clean_swt" in wanted:
                 script = os.path.join(tmp, "bare_swt.py")
                 with open(script, "w") as fh:

@@ -51,13 +51,20 @@ def test_too_long_for_memory_but_fine_in_blocks_is_not_refused(wav, monkeypatch)
 @pytest.mark.parametrize("spec,packets,why", [
     # a caller that does not take packets in blocks (events)
     (TransformSpec(kind="packet"), False, "wavelet packets are worked on in blocks by bands "
-                                          "and clean only"),
-    (TransformSpec(kind="packet", mode="periodization"), True,
-     "wavelet packets in boundary mode periodization are not worked on in blocks")])
+                                          "and clean only")])
 def test_what_blocks_cannot_do_is_refused_with_the_reason(wav, spec, packets, why):
     with pytest.raises(ScalesieveError, match=why):
         memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=1 << 20,
                            packets=packets)
+
+
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_packets_in_the_wrapping_modes_are_taken_in_blocks(wav, monkeypatch, mode):
+    monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 10)
+    spec = TransformSpec(kind="packet", level=6, mode=mode)
+    facts = memory_guard.check(wav, transform=spec, outputs=["out.wav"], available=8 << 30,
+                               packets=True)
+    assert facts["in_blocks"]["bytes"] > 0
 
 
 def test_the_swt_is_taken_in_blocks_and_its_cost_said(wav, monkeypatch):

@@ -1,5 +1,6 @@
 """Wavelet packets block by block (bands, clean) against PyWavelets' WaveletPacket, SciPy and
-the whole-array commands on the same recording."""
+the whole-array commands on the same recording (the wrapping modes:
+test_stream_packets_wrap.py)."""
 
 import json
 import os
@@ -18,7 +19,6 @@ from scipy import stats
 from scalesieve import memory_guard
 from scalesieve.cli import main
 from scalesieve.core.transforms import TransformSpec
-from scalesieve.errors import ScalesieveError
 from scalesieve.stream.bands import band_figures_stream
 from scalesieve.stream.dwt import STREAM_MODES
 from scalesieve.stream.packet_tree import PacketTree, inner_nodes
@@ -180,42 +180,6 @@ def test_the_best_basis_from_one_pass_is_the_least_cost_tiling(tmp_path, kind):
         cd, ld = best(p + "d")
         return (ca + cd, la + ld) if ca + cd < costs[p] else (costs[p], [p])
     assert sorted(chosen) == sorted(best("")[1])
-
-
-def _little_memory(monkeypatch):
-    """A machine with 1 MiB free: what cannot run in blocks is refused, not run whole."""
-    from scalesieve import memory_guard
-
-    monkeypatch.setattr(memory_guard, "available_memory", lambda: 1 << 20)
-
-
-@pytest.mark.parametrize("mode", ["periodic", "periodization"])
-def test_the_wrapping_modes_are_refused_in_one_line(tmp_path, monkeypatch, capsys, mode):
-    src = tmp_path / "long.wav"
-    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
-    why = f"wavelet packets in boundary mode {mode} are not worked on in blocks"
-    with pytest.raises(ScalesieveError, match=why):
-        band_figures_stream(str(src), TransformSpec("packet", "db4", 3, mode))
-    _little_memory(monkeypatch)
-    assert main(["bands", str(src), "--transform", "packet", "--level", "3",
-                 "--mode", mode]) == 2
-    err = capsys.readouterr().err.strip()
-    assert len(err.splitlines()) == 1 and "Traceback" not in err and why in err
-
-
-@pytest.mark.parametrize("mode", ["periodic", "periodization"])
-def test_a_packet_clean_in_a_wrapping_mode_is_refused_in_one_line(tmp_path, monkeypatch,
-                                                                  capsys, mode):
-    src = tmp_path / "long.wav"
-    sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
-    out = tmp_path / "out.wav"
-    _little_memory(monkeypatch)
-    assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
-                 "--mode", mode, "--threshold", "universal"]) == 2
-    err = capsys.readouterr().err.strip()
-    assert len(err.splitlines()) == 1
-    assert f"wavelet packets in boundary mode {mode} are not worked on in blocks" in err
-    assert not out.exists()
 
 
 # ---------------------------------------------------------------------------- clean

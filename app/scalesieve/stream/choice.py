@@ -28,8 +28,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
     Wavelet packets run in blocks for the commands that can take them
-    (``packets``: ``bands`` and ``clean``), in the modes that extend the signal from
-    samples near its edge (``stream.packet_tree``).
+    (``packets``: ``bands`` and ``clean``), in every boundary mode
+    (``stream.packet_tree``; the wrapping ones through ``stream.packet_wrap``).
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
@@ -58,13 +58,12 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
 
 def packet_refusal(spec: tf.TransformSpec, bands: bool) -> str | None:
     """Why wavelet packets of ``spec`` cannot run in blocks (``bands``: the command can)."""
-    from scalesieve.stream.dwt import STREAM_MODES
+    from scalesieve.stream.packet_tree import PACKET_MODES
 
     if not bands:
         return "wavelet packets are worked on in blocks by bands and clean only"
-    if spec.mode not in STREAM_MODES:
-        return (f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks, "
-                f"only in {', '.join(sorted(STREAM_MODES))}")
+    if spec.mode not in PACKET_MODES:  # pragma: no cover - TransformSpec checks the mode
+        return f"wavelet packets in boundary mode {spec.mode} are not worked on in blocks"
     return None
 
 
@@ -95,13 +94,18 @@ def stream_bytes(channels: int, spec: tf.TransformSpec, clean: bool = True) -> i
         # per channel: blocks of samples; at every depth of the tree the blocks its
         # stages hand on and keep (forward and inverse, about one read block's worth
         # per depth, several times over); at every node its stages' histories
-        # (stream.packet_tree).  Fitted to the peaks of clean in blocks, 1 and 2
-        # channels, depths 3, 6 and 8 (docs/performance.md); bands holds less.
+        # (stream.packet_tree; the wrapping modes' stages alike, stream.packet_wrap).
+        # Fitted to the peaks of clean in blocks, 1 and 2 channels, depths 3, 6 and 8,
+        # symmetric and periodization (docs/performance.md).
         nodes = 2 ** (level + 1) - 1
-        per_depth = 14 if clean else 2         # bands: the forward tree's blocks only
-        per_channel = 8 * (12 * READ_FRAMES + per_depth * level * READ_FRAMES
-                           + 4 * nodes * (1024 + MIN_STEP + 2 * tf.filter_length(spec.wavelet)))
-        return int(channels * per_channel + (96 << 20))
+        stages = 4 * nodes * (1024 + MIN_STEP + 2 * tf.filter_length(spec.wavelet))
+        if clean:
+            per_channel = 8 * (12 * READ_FRAMES + 14 * level * READ_FRAMES + stages)
+            return int(channels * per_channel + (96 << 20))
+        # bands: the forward tree's blocks only, no output, and a smaller interpreter
+        # (fitted alike: tests/stream/test_stream_packets_memory.py holds the peaks)
+        per_channel = 8 * (8 * READ_FRAMES + level * READ_FRAMES + stages)
+        return int(channels * per_channel + (56 << 20))
     lag = (MIN_STEP + 2 * tf.filter_length(spec.wavelet)) * 2 ** level
     per_channel = 8 * (12 * READ_FRAMES + 4 * lag)
     return int(channels * per_channel + (96 << 20))

@@ -19,6 +19,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.stream import statistics as st
 from scalesieve.stream.packet_tree import (NodeComponent, NodeCost, PacketTree, all_nodes,
                                            inner_nodes, with_basis)
+from scalesieve.stream.packet_wrap import node_edges, root_edges
 from scalesieve.stream.statistics import plain_dot
 
 
@@ -27,7 +28,7 @@ def _pass(src, spec, inner, put, progress, share: tuple[float, float], text: str
     n = src.frames
     energy = [0.0] * src.channels
     trees = [PacketTree(n, spec.wavelet, spec.mode, inner,
-                        lambda path, k0, c, k=k: put(k, path, k0, c))
+                        lambda path, k0, c, k=k: put(k, path, k0, c), root_edges(src, spec, k))
              for k in range(src.channels)]
     done = 0
     for block in src.blocks():
@@ -63,8 +64,13 @@ def packet_figures_stream(src, spec: tf.TransformSpec, progress=None) -> tuple[d
     basis = tf.basis_paths(spec)
     lengths = wp.node_lengths(n, spec.wavelet, spec.mode, spec.level)
     moments = [{p: st.Moments() for p in basis} for _ in range(src.channels)]
-    comps = [{p: NodeComponent(p, spec.wavelet, spec.mode, n, lengths[len(p)]) for p in basis}
-             for _ in range(src.channels)]
+    comps = []
+    for k in range(src.channels):
+        # periodization: each component's ends made from its node's edges (packet_wrap)
+        root = root_edges(src, spec, k) if spec.mode == "periodization" else None
+        edges = node_edges(root, spec.wavelet, basis) if root is not None else {}
+        comps.append({p: NodeComponent(p, spec.wavelet, spec.mode, n, lengths[len(p)],
+                                       edges.get(p)) for p in basis})
     wanted = set(basis)
 
     def put(k, path, k0, c):

@@ -13,6 +13,8 @@ from __future__ import annotations
 
 from scalesieve.core import transforms as tf
 from scalesieve.stream.packet_tree import PacketInverse, PacketTree, inner_nodes
+from scalesieve.stream.packet_wrap import as_bands, node_edges, root_edges
+from scalesieve.stream.wrap import _Known
 from scalesieve.stream.recipe_plan import FINEST
 
 
@@ -30,7 +32,8 @@ def packet_pass(src, spec: tf.TransformSpec, depth: int, puts, report, passes: i
         if key is not None:
             puts[k](key, k0, c)
     trees = [PacketTree(src.frames, spec.wavelet, spec.mode, inner,
-                        lambda path, k0, c, k=k: tree_put(k, path, k0, c))
+                        lambda path, k0, c, k=k: tree_put(k, path, k0, c),
+                        root_edges(src, spec, k))
              for k in range(src.channels)]
     done = 0
     for block in src.blocks():
@@ -47,16 +50,19 @@ def clean_packet(src, spec: tf.TransformSpec, plan, join, report, passes: int) -
     basis = tuple(keys)
     trees, inverses = [], []
     for k in range(src.channels):
-        inv = PacketInverse(n, spec.wavelet, spec.mode, basis,
-                            lambda s0, seg, k=k: join.put(k, s0, seg))
         bands = plan.bands[k]
+        root = root_edges(src, spec, k)
+        inv = PacketInverse(n, spec.wavelet, spec.mode, basis,
+                            lambda s0, seg, k=k: join.put(k, s0, seg),
+                            _edited_edges(root, spec, keys, bands)
+                            if spec.mode == "periodization" else None)
 
         def put(path, k0, c, inv=inv, bands=bands):
             key = keys.get(path)
             if key is not None:
                 inv.put(path, k0, bands[key].edited(c, k0))
         inverses.append(inv)
-        trees.append(PacketTree(n, spec.wavelet, spec.mode, inner_nodes(basis), put))
+        trees.append(PacketTree(n, spec.wavelet, spec.mode, inner_nodes(basis), put, root))
     done = 0
     for block in src.blocks():
         join.add_input(block)
@@ -66,3 +72,15 @@ def clean_packet(src, spec: tf.TransformSpec, plan, join, report, passes: int) -
         join.flush()
         done += block.shape[0]
         report(passes, done, "cleaning")
+
+
+def _edited_edges(root, spec: tf.TransformSpec, keys: dict, bands: dict) -> dict:
+    """Each basis node's head and tail as its edits leave them: the inverse's wrap."""
+    out = {}
+    for path, kn in node_edges(root, spec.wavelet, keys).items():
+        if path in keys:
+            band = bands[keys[path]]
+            kn = as_bands(kn)
+            out[path] = _Known(band.edited(kn.head, 0),
+                               band.edited(kn.tail, kn.m - kn.tail.shape[0]), kn.m, "periodic")
+    return out

@@ -12,6 +12,11 @@ component from its coefficients as they come, through the node's composite
 synthesis taps (``core.packets.composite``), without making the component:
 the same figures ``core.packets.component_figures`` takes from the whole
 array, up to round-off.
+
+In the modes that wrap (``periodic``, ``periodization``) the stages are
+wrapped one-level steps given every node's head and tail first
+(``stream.packet_wrap``), and a periodization component's ends are made
+exactly from them.
 """
 
 from __future__ import annotations
@@ -20,18 +25,24 @@ from dataclasses import replace
 from typing import Callable
 
 import numpy as np
+import pywt
 
 from scalesieve.core import packets as wp
 from scalesieve.core import transforms as tf
 from scalesieve.stream.dwt import STREAM_MODES, ForwardStream
+from scalesieve.stream.wrap import WRAP_MODES
 
 #: groups made first in a block whose bound is above the largest value found so far
 #: (as ``core.packets._Polyphase.peak`` does on the whole array)
 _FIRST = 256
 
 
+#: every boundary mode: the local ones through plain stages, the wrapping ones wrapped
+PACKET_MODES = frozenset(STREAM_MODES) | frozenset(WRAP_MODES)
+
+
 def can_stream(spec: tf.TransformSpec) -> bool:
-    return spec.kind == "packet" and spec.mode in STREAM_MODES
+    return spec.kind == "packet" and spec.mode in PACKET_MODES
 
 
 class PacketTree:
@@ -42,23 +53,40 @@ class PacketTree:
     n : int
         Samples the recording holds.
     wavelet, mode : str
-        The transform's (``mode`` one of ``STREAM_MODES``).
+        The transform's (``mode`` one of ``PACKET_MODES``).
     inner : set of str
         Node paths to split (every proper prefix of the paths wanted).
     put : callable(path, k0, values)
         Told each block of coefficients of every node (inner ones too), in order;
         ``values`` may be reused after the call.
+    edges : wrap._Known, optional
+        In a wrapping mode (required there): the recording's head and tail
+        (``packet_wrap.root_edges``).
     """
 
-    def __init__(self, n: int, wavelet: str, mode: str, inner, put: Callable):
-        if mode not in STREAM_MODES:
+    def __init__(self, n: int, wavelet: str, mode: str, inner, put: Callable, edges=None):
+        if mode not in PACKET_MODES:
             raise ValueError(f"packets in mode {mode} cannot run block by block")
         self.put = put
         depth = max((len(p) for p in inner), default=-1) + 1
         lengths = wp.node_lengths(n, wavelet, mode, max(depth, 0))
         one = tf.TransformSpec("dwt", wavelet, 1, mode)
         self.stages = {}
-        self.made = {}
+        if mode in WRAP_MODES:
+            from scalesieve.stream.packet_wrap import node_edges
+            from scalesieve.stream.wrap import _Level
+
+            if edges is None:
+                raise ValueError(f"packets in mode {mode} need the recording's edges")
+            known = node_edges(edges, wavelet, inner)
+            w = pywt.Wavelet(wavelet)
+            # deepest first: a stage hands its first blocks on as it is built
+            for path in sorted(inner, key=len, reverse=True):
+                self.stages[path] = _Level(
+                    known[path], w, lengths[len(path) + 1],
+                    lambda k0, c, p=path: self._deliver(p + "d", k0, c),
+                    lambda k0, c, p=path: self._deliver(p + "a", k0, c))
+            return
         for path in inner:
             self.stages[path] = ForwardStream(lengths[len(path)], one,
                                               lambda key, k0, c, p=path: self._child(p, key, k0, c))
@@ -89,8 +117,8 @@ class PacketInverse:
 
     MIN_BLOCK = 1024
 
-    def __init__(self, n: int, wavelet: str, mode: str, basis, out: Callable):
-        if mode not in STREAM_MODES:
+    def __init__(self, n: int, wavelet: str, mode: str, basis, out: Callable, edges=None):
+        if mode not in PACKET_MODES:
             raise ValueError(f"packets in mode {mode} cannot run block by block")
         from scalesieve.stream.dwt import InverseStream
 
@@ -100,11 +128,22 @@ class PacketInverse:
         one = tf.TransformSpec("dwt", wavelet, 1, mode)
         self.out = out
         self.stages = {}
+        if mode == "periodization":
+            # the periodic inverse is every other mode's; periodization's wraps (packet_wrap)
+            from scalesieve.stream.packet_wrap import up_edges
+
+            if edges is None:
+                raise ValueError("packets in mode periodization need the basis nodes' edges")
+            known = up_edges(edges, wavelet, lengths)
+            w = pywt.Wavelet(wavelet)
         for q in inner:
             block = max(self.MIN_BLOCK, tf.BLOCK >> len(q))
-            self.stages[q] = InverseStream(lengths[len(q)], one,
-                                           lambda s0, seg, q=q: self._up(q, s0, seg),
-                                           block=block)
+            made = (lambda s0, seg, q=q: self._up(q, s0, seg))
+            if mode == "periodization":
+                self.stages[q] = _WrapStep(w, known[q + "a"], known[q + "d"], lengths[len(q)],
+                                           made, block)
+            else:
+                self.stages[q] = InverseStream(lengths[len(q)], one, made, block=block)
         self.order = sorted(inner, key=len, reverse=True)     # children before parents
         self.root = "" in inner
 
@@ -124,6 +163,21 @@ class PacketInverse:
             self.stages[q].pump()
 
 
+class _WrapStep:
+    """One periodization synthesis step (``wrap._Up``) as an ``InverseStream`` is put to."""
+
+    def __init__(self, w, a, d, m_out: int, out: Callable, block: int):
+        from scalesieve.stream.wrap import _Up
+
+        self.up = _Up(w, a, d, m_out, out, block)
+
+    def put(self, key, k0: int, values: np.ndarray) -> None:
+        self.up.put(key, values)            # blocks come in order; _Up counts them
+
+    def pump(self) -> None:
+        """Outputs are made as the bands come (``put``)."""
+
+
 class NodeComponent:
     """Energy and peak |value| of one node's time-domain component, from its coefficients.
 
@@ -136,9 +190,14 @@ class NodeComponent:
     only the T x T sums of ``W^T W`` are kept); the two groups at the ends are
     made and cut.  The peak makes only the groups whose bound
     ``sum |c| max |G|`` can beat the largest value found so far: exact.
+
+    In ``periodization`` (``edges``: the node's coefficients' head and tail,
+    ``packet_wrap.node_edges``) the component's first and last samples, as
+    far as ``packet_wrap.reach``, are made exactly from the edges (the wrap and
+    each level's cut shape them), and the groups count only the samples between.
     """
 
-    def __init__(self, path: str, wavelet: str, mode: str, n: int, count: int):
+    def __init__(self, path: str, wavelet: str, mode: str, n: int, count: int, edges=None):
         g, s0 = wp.composite(path, wavelet, mode)
         P = 2 ** len(path)
         T = -(-g.shape[0] // P)
@@ -148,17 +207,37 @@ class NodeComponent:
         self.M = self.Gr @ self.Gr.T
         self.gmax = np.max(np.abs(self.Gr), axis=1)
         self.P, self.T, self.s0, self.n, self.N = P, T, s0, n, count
-        self.q_min = (-s0) // P
-        self.q_max = (n - s0 - 1) // P
+        self.edge = 0.0
+        self.top = 0.0
+        self.lo_t, self.hi_t = 0, n          # the samples the groups count
+        if mode == "periodization":
+            self._ends(path, wavelet, edges)
+        self.q_min = (self.lo_t - s0) // P
+        self.q_max = (self.hi_t - s0 - 1) // P
         self.hist = np.zeros(T - 1)
         self.k = 0
         self.S = np.zeros((T, T))
-        self.edge = 0.0
-        self.top = 0.0
+
+    def _ends(self, path: str, wavelet: str, edges) -> None:
+        """The first and last samples of a periodization component, made from the edges."""
+        from scalesieve.stream.packet_wrap import component_edges, reach
+
+        if edges is None:
+            raise ValueError("a component in mode periodization needs the node's edges")
+        n = self.n
+        k = component_edges(edges, path, wavelet, n)
+        h = min(k.head.shape[0], n)
+        t = min(k.tail.shape[0], n - h)
+        if n - t > h and min(h, t) < reach(wavelet, len(path)):  # pragma: no cover
+            raise AssertionError("the edges read do not reach past the wrap")
+        exact = np.concatenate([k.head[:h], k.tail[k.tail.shape[0] - t:]])
+        self.edge = float(np.dot(exact, exact))
+        self.top = float(np.max(np.abs(exact))) if exact.size else 0.0
+        self.lo_t, self.hi_t = h, max(h, n - t)
 
     def _valid(self, q: int) -> slice:
-        lo = max(0, -self.s0 - self.P * q)
-        hi = min(self.P, self.n - self.s0 - self.P * q)
+        lo = max(0, self.lo_t - self.s0 - self.P * q)
+        hi = min(self.P, self.hi_t - self.s0 - self.P * q)
         return slice(lo, max(lo, hi))
 
     def add(self, values: np.ndarray) -> None:

@@ -125,6 +125,8 @@ class _Level:
         if self.taken == self.m:
             self.step.feed(self.known.take(self.m, self.known.Np + self.after))
 
+    feed = take          # as ForwardStream, so a packet tree feeds either alike
+
 
 class WrapForward:
     """``pywt.wavedec`` in a wrapping mode of ``n`` samples given in blocks.
