@@ -23,7 +23,7 @@ import numpy as np
 
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
-from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
+from scalesieve.stream.piece_streams import piece
 from scalesieve.stream.pipeline import _prepare, _result, _thresholds
 from scalesieve.stream.recipe_plan import _Plan
 from scalesieve.stream.sources import READ_FRAMES, _Source
@@ -44,41 +44,33 @@ def clean_piece(job: dict) -> dict:
     for (k, key), lams in job["lams"].items():
         plan.bands[k][key].lams = list(lams)
     o0, o1 = job["start"], job["stop"]
-    first, last = stretch(n, spec, o0, o1)
-    level = spec.level
-    starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
     cleaned = [tf._Carry(o0, np.float64) for _ in range(src.channels)]
     with open(job["raw"], "wb") as fh:
-        inverses, forwards = [], []
-        for k in range(src.channels):
-            inv = InverseStream(n, spec, lambda s0, seg, k=k: cleaned[k].append(seg),
-                                start=o0, stop=o1, band_starts=starts)
-            bands = plan.bands[k]
-
-            def put(key, k0, c, inv=inv, bands=bands):
-                inv.put(key, k0, bands[key].edited(c, k0))
-            inverses.append(inv)
-            forwards.append(ForwardStream(n, spec, put, first=first, last=last))
         written = o0
-        for block in src.blocks(start=first[0], stop=last[0]):
-            for k in range(src.channels):
-                forwards[k].feed(block[:, k])
-                inverses[k].pump()
+
+        def emit(k, s0, seg):
+            nonlocal written
+            cleaned[k].append(seg)
             ready = min(c.hi for c in cleaned)
             if ready > written:
                 fh.write(np.stack([c.view(written, ready) for c in cleaned], axis=1).tobytes())
                 for c in cleaned:
                     c.drop_below(ready)
                 written = ready
+        piece(src, spec, plan, o0, o1, emit)
         if written != o1:  # pragma: no cover - the inverse makes every sample of the piece
             raise AssertionError(f"piece {o0}..{o1} made {written - o0} samples")
     return {"start": o0, "stop": o1, "seconds": round(time.perf_counter() - t0, 3),
             "host": socket.gethostname(), "pid": os.getpid()}
 
 
+#: the shortest piece worth a worker: one block of samples read
+MIN_PIECE = READ_FRAMES
+
+
 def cut(n: int, pieces: int) -> list[tuple[int, int]]:
-    """``pieces`` spans of about equal length covering 0 .. n."""
-    pieces = max(1, min(pieces, n // READ_FRAMES or 1))
+    """``pieces`` spans of about equal length covering 0 .. n (none shorter than MIN_PIECE)."""
+    pieces = max(1, min(pieces, n // MIN_PIECE or 1))
     bounds = [round(n * i / pieces) for i in range(pieces + 1)]
     return list(zip(bounds[:-1], bounds[1:]))
 
