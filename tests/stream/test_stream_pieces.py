@@ -95,8 +95,9 @@ def test_pieces_on_a_dask_cluster_and_the_command_reports_them(tmp_path, capsys)
         np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12)
 
 
-@pytest.mark.parametrize("opts,why", [(["--transform", "packet", "--level", "2"],
-                                       "one process only")])
+@pytest.mark.parametrize("opts,why", [(["--transform", "packet", "--level", "2", "--mode",
+                                        "periodic"], "boundary mode periodic"),
+                                      (["--fill-gaps", "linear"], "needs the whole recording")])
 def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, why):
     src = tmp_path / "in.wav"
     _two_channels(src, n=20_000)

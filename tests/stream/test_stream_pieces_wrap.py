@@ -169,7 +169,8 @@ def test_workers_2_on_the_command_line_in_periodization(tmp_path, monkeypatch, c
     np.testing.assert_array_equal(_read(out), _read(one))
 
 
-def test_packets_in_a_wrapping_mode_are_refused_in_one_line(tmp_path, capsys):
+@pytest.mark.parametrize("mode", ["periodic", "periodization"])
+def test_packets_in_a_wrapping_mode_are_refused_in_one_line(tmp_path, capsys, mode):
     src = tmp_path / "in.wav"
     _recording(src, 3_001, 1)
     assert main(["clean", str(src), "-o", str(tmp_path / "o.wav"), "--zero", "1",

@@ -132,7 +132,8 @@ def run(args) -> int:
     if res.get("pieces"):
         spans = "; ".join(f"{p['start']}-{p['stop']}: {p['seconds']:.2f} s on {p['host']}"
                           f" ({p['pid']})" for p in res["pieces"])
-        print(f"scalesieve: note: {args.file}: cleaned in {len(res['pieces'])} pieces on "
+        count = len(res["pieces"])
+        print(f"scalesieve: note: {args.file}: cleaned in {count} piece{'s' * (count != 1)} on "
               f"{res['where']} in {res['pieces_seconds']:.2f} s: {spans}", file=sys.stderr)
     if res.get("blocks"):
         b = res["blocks"]

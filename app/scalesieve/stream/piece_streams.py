@@ -301,10 +301,141 @@ def swt_piece(src, spec: tf.TransformSpec, plan, o0: int, o1: int, emit: Callabl
     _swt_feed(src, spec, level, o0 - d1, o1 - d0, puts, each_block)
 
 
+class _Clip:
+    """Hands on only indices ``lo .. hi`` of blocks that come in order from anywhere before."""
+
+    def __init__(self, lo: int, hi: int, give: Callable):
+        self.next, self.hi, self.give = lo, hi, give
+
+    def take(self, k0: int, values: np.ndarray) -> None:
+        lo, hi = max(k0, self.next), min(k0 + values.shape[0], self.hi)
+        if hi > lo:
+            if lo != self.next:
+                raise ValueError(f"block at {lo}, expected {self.next}")
+            self.give(lo, values[lo - k0:hi - k0])
+            self.next = hi
+
+
+def packet_reach(n: int, spec: tf.TransformSpec, basis, o0: int, o1: int) -> tuple:
+    """``(outputs, makes, reads, lengths)`` of a packet tree's stretch for outputs ``o0 .. o1``.
+
+    ``outputs[p]``: what the inverse tree makes (inner nodes) or reads (basis
+    nodes) of node p, top-down; ``makes[q]``: the children's coefficients inner
+    node q's forward stage works out (all the basis and the stages below need),
+    ``reads[q]``: the stretch of node q that takes (as ``dwt.stretch`` for one level).
+    """
+    from scalesieve.core import packets as wp
+    from scalesieve.stream.packet_tree import inner_nodes
+
+    inner = inner_nodes(basis)
+    lengths = wp.node_lengths(n, spec.wavelet, spec.mode, max(len(p) for p in basis))
+    one = tf.TransformSpec("dwt", spec.wavelet, 1, spec.mode)
+    L = pywt.Wavelet(spec.wavelet).dec_len
+    outputs = {"": (o0, o1)}
+    for q in sorted(inner, key=len):                      # parents first
+        k = InverseStream(lengths[len(q)], one, None)._needs(*outputs[q])[1]
+        outputs[q + "a"] = outputs[q + "d"] = k
+    wanted = {p: outputs[p] for p in basis}
+    makes, reads = {}, {}
+    for q in sorted(inner, key=len, reverse=True):        # children first
+        k0 = min(wanted[q + "a"][0], wanted[q + "d"][0])
+        k1 = max(wanted[q + "a"][1], wanted[q + "d"][1])
+        m, N = lengths[len(q)], lengths[len(q) + 1]
+        lo = max(0, 2 * k0 - L + 2)
+        hi = m if k1 >= N else min(m, 2 * k1)
+        makes[q], reads[q] = (k0, k1), (lo - lo % 2, hi)
+        wanted[q] = reads[q]
+    return outputs, makes, reads, lengths
+
+
+class PacketStretch:
+    """Outputs ``o0 .. o1`` of the packet tree's clean, from the stretch of samples they read.
+
+    Every inner node is a one-level forward stage over the stretch of the node
+    its children's coefficients read, and a one-level inverse stage making the
+    stretch of the node its parent reads (as ``stream.packet_tree``'s stages for
+    the whole recording); ``edit(path, k0, values)`` edits a basis node's blocks.
+    """
+
+    MIN_BLOCK = 1024          # as packet_tree.PacketInverse's stages
+
+    def __init__(self, n: int, spec: tf.TransformSpec, basis, o0: int, o1: int,
+                 edit: Callable, out: Callable):
+        from scalesieve.stream.packet_tree import inner_nodes
+
+        outputs, makes, reads, lengths = packet_reach(n, spec, basis, o0, o1)
+        one = tf.TransformSpec("dwt", spec.wavelet, 1, spec.mode)
+        inner = inner_nodes(basis)
+        self.inverse = {}
+        for q in inner:
+            r0, r1 = outputs[q + "a"]
+            block = max(self.MIN_BLOCK, tf.BLOCK >> len(q))
+            self.inverse[q] = InverseStream(lengths[len(q)], one,
+                                            lambda s0, seg, q=q: self._up(q, s0, seg),
+                                            start=outputs[q][0], stop=outputs[q][1],
+                                            block=block, band_starts=[r0, r0])
+        self.order = sorted(inner, key=len, reverse=True)    # children before parents
+        self.out, self.edit = out, edit
+        # a basis node's edited blocks go to its parent's inverse stage, clipped to what it reads
+        self.to_inverse = {p: _Clip(*outputs[p], lambda k0, v, p=p: self._up(p, k0, v))
+                           for p in basis}
+        self.forward = {q: ForwardStream(lengths[len(q)], one,
+                                         lambda key, k0, c, q=q: self._made(q, key, k0, c),
+                                         first=[reads[q][0], makes[q][0]],
+                                         last=[reads[q][1], makes[q][1]])
+                        for q in inner}
+        self.feeds = {q: _Clip(*reads[q], lambda k0, v, q=q: self.forward[q].feed(v))
+                      for q in inner}
+        # a best basis may be the recording itself (node "", edited as it comes)
+        self.samples = reads.get("", outputs[""])
+
+    def _made(self, parent: str, key, k0: int, values: np.ndarray) -> None:
+        path = parent + ("a" if key == "a" else "d")
+        if path in self.to_inverse:
+            self.to_inverse[path].take(k0, self.edit(path, k0, values))
+        feed = self.feeds.get(path)
+        if feed is not None:
+            feed.take(k0, values)
+
+    def _up(self, path: str, k0: int, values: np.ndarray) -> None:
+        if not path:
+            self.out(k0, values)
+            return
+        self.inverse[path[:-1]].put("a" if path[-1] == "a" else 1, k0, values)
+
+    def feed(self, k0: int, block: np.ndarray) -> None:
+        """The recording's next samples (from ``samples[0]`` on)."""
+        if "" in self.to_inverse:
+            self.to_inverse[""].take(k0, self.edit("", k0, block))
+        else:
+            self.feeds[""].take(k0, block)
+        for q in self.order:
+            self.inverse[q].pump()
+
+
+def packet_piece(src, spec: tf.TransformSpec, plan, o0: int, o1: int, emit: Callable) -> None:
+    """Cleaned samples ``o0 .. o1`` of wavelet packets in a mode that extends the signal
+    from its edge (``stream.packet_tree``'s modes)."""
+    keys = {key.path: key for key in tf.spec_keys(spec)}
+    trees = []
+    for k in range(src.channels):
+        bands = plan.bands[k]
+        trees.append(PacketStretch(src.frames, spec, tuple(keys), o0, o1,
+                                   lambda path, k0, c, bands=bands: bands[keys[path]].edited(c, k0),
+                                   lambda s0, seg, k=k: emit(k, s0, seg)))
+    at, stop = trees[0].samples
+    for block in src.blocks(start=at, stop=stop):
+        for k, t in enumerate(trees):
+            t.feed(at, block[:, k])
+        at += block.shape[0]
+
+
 def piece(src, spec: tf.TransformSpec, plan, o0: int, o1: int, emit: Callable) -> None:
     """Cleaned samples ``o0 .. o1`` of channel k, handed to ``emit(k, s0, samples)``."""
     if spec.kind == "swt":
         swt_piece(src, spec, plan, o0, o1, emit)
+    elif spec.kind == "packet":
+        packet_piece(src, spec, plan, o0, o1, emit)
     else:
         dwt_piece(src, spec, plan, o0, o1, emit)
 
