@@ -39,33 +39,43 @@ def _parts(lo: int, hi: int, m: int) -> tuple:
     return before, within, after
 
 
-class _Feed:
+class _Clip:
+    """Hands on only indices ``lo .. hi`` of blocks that come in order from anywhere before."""
+
+    def __init__(self, lo: int, hi: int, give: Callable):
+        self.next, self.hi, self.give = lo, hi, give
+
+    def take(self, k0: int, values: np.ndarray) -> None:
+        lo, hi = max(k0, self.next), min(k0 + values.shape[0], self.hi)
+        if hi > lo:
+            if lo != self.next:
+                raise ValueError(f"block at {lo}, expected {self.next}")
+            self.give(lo, values[lo - k0:hi - k0])
+            self.next = hi
+            if hi == self.hi:
+                self._reached()
+
+    def _reached(self) -> None:
+        """The last index handed on."""
+
+
+class _Feed(_Clip):
     """Hands a stage the indices lo .. hi of its wrapped input: the wrap from ``known``,
     the rest as it comes (``take``), clipped to what the stage reads."""
 
     def __init__(self, known: _Known, lo: int, hi: int, give: Callable):
-        self.known, self.give = known, give
+        self.known = known
         before, self.within, self.after = _parts(lo, hi, known.m)
-        self.next = self.within[0]
+        super().__init__(*self.within, give)
         if before is not None:
             give(before[0], known.take(*before))
         if self.within[1] <= self.within[0]:
-            self._finish()
+            self._reached()
 
-    def _finish(self) -> None:
+    def _reached(self) -> None:
         if self.after is not None:
             self.give(self.after[0], self.known.take(*self.after))
             self.after = None
-
-    def take(self, k0: int, values: np.ndarray) -> None:
-        lo, hi = max(k0, self.next), min(k0 + values.shape[0], self.within[1])
-        if hi > lo:
-            if lo != self.next:
-                raise ValueError(f"input at {lo}, expected {self.next}")
-            self.give(lo, values[lo - k0:hi - k0])
-            self.next = hi
-            if hi == self.within[1]:
-                self._finish()
 
 
 class _StretchLevel:
@@ -299,21 +309,6 @@ def swt_piece(src, spec: tf.TransformSpec, plan, o0: int, o1: int, emit: Callabl
         for inv in inverses:
             inv.pump()
     _swt_feed(src, spec, level, o0 - d1, o1 - d0, puts, each_block)
-
-
-class _Clip:
-    """Hands on only indices ``lo .. hi`` of blocks that come in order from anywhere before."""
-
-    def __init__(self, lo: int, hi: int, give: Callable):
-        self.next, self.hi, self.give = lo, hi, give
-
-    def take(self, k0: int, values: np.ndarray) -> None:
-        lo, hi = max(k0, self.next), min(k0 + values.shape[0], self.hi)
-        if hi > lo:
-            if lo != self.next:
-                raise ValueError(f"block at {lo}, expected {self.next}")
-            self.give(lo, values[lo - k0:hi - k0])
-            self.next = hi
 
 
 def packet_reach(n: int, spec: tf.TransformSpec, basis, o0: int, o1: int) -> tuple:
