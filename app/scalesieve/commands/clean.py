@@ -51,7 +51,8 @@ def configure(p) -> None:
                        help="clean time pieces on an existing Dask cluster (tcp:// or tls://; "
                             "its workers must reach FILE and OUT's folder under the same paths)")
     w.add_argument("--pieces", type=count, default=None, metavar="P",
-                   help="cut the recording into P pieces (default: one per worker)")
+                   help="cut the recording into P pieces (default: one per local worker, "
+                        "two per worker thread of a cluster)")
     add_transform_options(p)
     add_input_options(p)
 
