@@ -191,6 +191,7 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     from scalesieve.core.transforms import default_level
     from scalesieve.stream.pieces import clean_pieces
     from scalesieve.stream.choice import not_streamable
+    from scalesieve.stream.wrap import WRAP_MODES
 
     outputs = [output] + ([removed] if removed else [])
     facts = memory_guard.probe_quietly(input_path)
@@ -202,14 +203,10 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     if why is None and facts.get("kind") == "text":
         # each worker would parse the whole table again to find its piece's rows
         why = "a text table is parsed in one process only"
-    elif why is None and resolved.kind != "dwt":
-        # time pieces join the DWT's blocks; the SWT and packets in blocks run in one process
-        what = "wavelet packets are" if resolved.kind == "packet" else \
-            f"the {resolved.kind.upper()} is"
-        why = f"{what} cleaned in blocks in one process only"
-    elif why is None and resolved.mode in ("periodic", "periodization"):
-        # each level wraps its own ends: a piece in the middle cannot see them
-        why = f"boundary mode {resolved.mode} wraps every level around the recording's ends"
+    elif why is None and resolved.kind == "packet" and resolved.mode in WRAP_MODES:
+        # the pieces cut the packet tree of the modes that extend the signal from its edge
+        why = (f"wavelet packets in boundary mode {resolved.mode} are cleaned in blocks in "
+               "one process only")
     if why is not None:
         raise ScalesieveError(f"--workers and --scheduler clean in blocks, and this cannot be: "
                               f"{why}", input_path)

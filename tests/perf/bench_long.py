@@ -208,6 +208,16 @@ def _named(src, out, me, whole, blocks, swt, packet, best, chosen) -> dict:
         "clean": me + ["clean", src, "-o", out, "--threshold", "universal", "--force", *chosen],
         "clean_workers": me + ["clean", src, "-o", out, "--threshold", "universal", "--force",
                                "--workers", "2"],
+        # pieces where every level wraps, of the SWT and of packets, beside one process
+        "clean_periodization": me + ["clean", src, "-o", out, "--threshold", "universal",
+                                     "--force", "--mode", "periodization"],
+        "clean_periodization_workers": me + ["clean", src, "-o", out, "--threshold",
+                                             "universal", "--force", "--mode", "periodization",
+                                             "--workers", "2"],
+        "clean_swt_workers": me + ["clean", src, "-o", out, "--threshold", "universal",
+                                   "--force", *swt, "--workers", "2"],
+        "clean_packet_workers": me + ["clean", src, "-o", out, "--threshold", "universal",
+                                      "--force", *packet, "--workers", "2"],
         "bands": me + ["bands", src, "--json", *chosen],
         "events": me + ["events", src, "--json"],
     }
@@ -385,7 +395,9 @@ def main() -> None:
     ap.add_argument("--no-bare", action="store_true", help="leave out the bare script")
     ap.add_argument("--only", default="clean,bands,events",
                     help="commands to run, comma-separated: clean, clean_workers (the same "
-                         "clean in two local processes), bands, events (default "
+                         "clean in two local processes; also clean_periodization, "
+                         "clean_swt and clean_packet, each with its _workers twin), bands, "
+                         "events (default "
                          "clean,bands,events); clean_swt and bands_swt: the same with "
                          "--transform swt, clean_swt beside a bare whole-array SWT script; "
                          "bands_periodization; clean_whole and bands_whole: the whole-file "
@@ -455,9 +467,11 @@ def main() -> None:
     if "bare_swt" in long and "clean_swt" in long:
         ratios["clean_swt_over_bare_swt_time"] = round(
             long["clean_swt"]["seconds"] / long["bare_swt"]["seconds"], 3)
-    if "clean" in long and "clean_workers" in long:
-        ratios["clean_workers_over_clean_time"] = round(
-            long["clean_workers"]["seconds"] / long["clean"]["seconds"], 3)
+    for name in wanted:             # X_workers beside X: the same clean in two processes
+        one = name[:-len("_workers")]
+        if name.endswith("_workers") and name in long and one in long:
+            ratios[f"{name}_over_{one}_time"] = round(
+                long[name]["seconds"] / long[one]["seconds"], 3)
     for name in wanted:
         if name in long:
             ratios[f"{name}_long_over_short_time"] = round(

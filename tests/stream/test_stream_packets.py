@@ -330,16 +330,17 @@ def test_a_killed_packet_export_in_blocks_leaves_no_torn_file(tmp_path):
     assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
 
 
-def test_workers_do_not_cut_packets_in_pieces_and_say_so(tmp_path, capsys):
+def test_workers_cut_packets_in_pieces_with_the_one_process_samples(tmp_path, capsys):
+    # (more in tests/stream/test_stream_pieces_packets.py)
     src = tmp_path / "in.wav"
     sf.write(src, _two_channels(20_001), 16_000, subtype="DOUBLE")
-    out = tmp_path / "out.wav"
-    assert main(["clean", str(src), "-o", str(out), "--transform", "packet", "--level", "3",
-                 "--workers", "2", "--threshold", "universal"]) == 2
-    err = capsys.readouterr().err.strip()
-    assert len(err.splitlines()) == 1
-    assert "wavelet packets are cleaned in blocks in one process only" in err
-    assert not out.exists()
+    out, ref = tmp_path / "out.wav", tmp_path / "ref.wav"
+    args = ["--transform", "packet", "--level", "3", "--threshold", "universal",
+            "--subtype", "DOUBLE"]
+    assert main(["clean", str(src), "-o", str(out), "--workers", "2", *args]) == 0
+    assert "cleaned in 1 piece on 2 local processes" in capsys.readouterr().err
+    assert main(["clean", str(src), "-o", str(ref), *args]) == 0
+    np.testing.assert_allclose(sf.read(out)[0], sf.read(ref)[0], rtol=0, atol=1e-12)
 
 
 def test_a_best_basis_clean_counts_its_pass_and_its_progress_only_grows(tmp_path):

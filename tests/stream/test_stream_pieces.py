@@ -95,9 +95,9 @@ def test_pieces_on_a_dask_cluster_and_the_command_reports_them(tmp_path, capsys)
         np.testing.assert_allclose(y[:, k], want, rtol=0, atol=1e-12)
 
 
-@pytest.mark.parametrize("opts,why", [(["--transform", "swt"], "one process only"),
-                                      (["--mode", "periodic"], "wraps every level"),
-                                      (["--mode", "periodization"], "wraps every level")])
+@pytest.mark.parametrize("opts,why", [(["--transform", "packet", "--level", "2", "--mode",
+                                        "periodic"], "boundary mode periodic"),
+                                      (["--fill-gaps", "linear"], "needs the whole recording")])
 def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, why):
     src = tmp_path / "in.wav"
     _two_channels(src, n=20_000)
@@ -139,3 +139,29 @@ def test_pieces_on_a_tls_cluster_with_the_certificates_in_dasks_configuration(tm
     assert main(["clean", str(src), "-o", str(ref), "--zero", "1"]) == 0
     np.testing.assert_allclose(sf.read(tmp_path / "t.wav")[0], sf.read(ref)[0], rtol=0,
                                atol=1e-12)
+
+
+def test_a_cluster_whose_workers_cannot_see_the_input_is_refused_before_any_pass(
+        tmp_path, capsys, monkeypatch):
+    from dask.distributed import LocalCluster
+
+    from scalesieve import __version__
+    from scalesieve.batch import cluster as cluster_module
+    from scalesieve.stream import pieces as pieces_module
+
+    src = tmp_path / "in.wav"
+    _two_channels(src, n=20_000)
+    passes = []
+    monkeypatch.setattr(pieces_module, "_thresholds", lambda *a: passes.append(a) or 0)
+    # a worker on a machine without the shared folder (an in-process worker, so it runs this)
+    monkeypatch.setattr(cluster_module, "_worker_view", lambda outdir, probe: {
+        "scalesieve": __version__, "outdir": True, "input": False})
+    with LocalCluster(host="127.0.0.1", protocol="tcp://", dashboard_address=":0",
+                      n_workers=1, processes=False) as cluster:
+        rc = main(["clean", str(src), "-o", str(tmp_path / "o.wav"), "--zero", "1",
+                   "--scheduler", cluster.scheduler_address])
+    assert rc == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "cannot see the input" in err[0]
+    assert "at the same paths (a shared file system)" in err[0] and "--send-data" not in err[0]
+    assert passes == [] and sorted(p.name for p in tmp_path.iterdir()) == ["in.wav"]

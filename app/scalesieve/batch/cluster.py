@@ -62,8 +62,17 @@ def connect(address: str, timeout: float = 10.0):
         raise ScalesieveError(f"cannot reach the Dask scheduler: {exc}", address) from None
 
 
-def check_cluster(client, address: str, outdir: str | None, probe_input: str | None) -> dict:
-    """Refuse before any work when the workers cannot do it; return worker views."""
+#: what a batch's workers need to reach its files, or what it can do instead
+BATCH_REMEDY = ("the workers need the input and output folders at the same paths (a shared "
+                "file system), or use --send-data")
+
+
+def check_cluster(client, address: str, outdir: str | None, probe_input: str | None,
+                  remedy: str = BATCH_REMEDY) -> dict:
+    """Refuse before any work when the workers cannot do it; return worker views.
+
+    ``remedy`` ends the message when a worker cannot reach a file.
+    """
     try:
         views = client.run(_worker_view, outdir, probe_input)
     except Exception as exc:  # workers without scalesieve fail to unpickle the probe
@@ -79,14 +88,10 @@ def check_cluster(client, address: str, outdir: str | None, probe_input: str | N
                 "install the same version everywhere so outputs match", address)
         if not v["outdir"]:
             raise ScalesieveError(
-                f"worker {worker} cannot write the output folder {outdir}; the workers need "
-                "the input and output folders at the same paths (a shared file system), "
-                "or use --send-data", address)
+                f"worker {worker} cannot write the output folder {outdir}; {remedy}", address)
         if not v["input"]:
             raise ScalesieveError(
-                f"worker {worker} cannot see the input {probe_input}; the workers need the "
-                "input and output folders at the same paths (a shared file system), "
-                "or use --send-data", address)
+                f"worker {worker} cannot see the input {probe_input}; {remedy}", address)
     return views
 
 

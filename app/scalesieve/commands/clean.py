@@ -51,7 +51,8 @@ def configure(p) -> None:
                        help="clean time pieces on an existing Dask cluster (tcp:// or tls://; "
                             "its workers must reach FILE and OUT's folder under the same paths)")
     w.add_argument("--pieces", type=count, default=None, metavar="P",
-                   help="cut the recording into P pieces (default: one per worker)")
+                   help="cut the recording into P pieces (default: one per local worker, "
+                        "two per worker thread of a cluster)")
     add_transform_options(p)
     add_input_options(p)
 
@@ -132,7 +133,8 @@ def run(args) -> int:
     if res.get("pieces"):
         spans = "; ".join(f"{p['start']}-{p['stop']}: {p['seconds']:.2f} s on {p['host']}"
                           f" ({p['pid']})" for p in res["pieces"])
-        print(f"scalesieve: note: {args.file}: cleaned in {len(res['pieces'])} pieces on "
+        count = len(res["pieces"])
+        print(f"scalesieve: note: {args.file}: cleaned in {count} piece{'s' * (count != 1)} on "
               f"{res['where']} in {res['pieces_seconds']:.2f} s: {spans}", file=sys.stderr)
     if res.get("blocks"):
         b = res["blocks"]

@@ -23,7 +23,7 @@ import numpy as np
 
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
-from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
+from scalesieve.stream.piece_streams import piece
 from scalesieve.stream.pipeline import _prepare, _result, _thresholds
 from scalesieve.stream.recipe_plan import _Plan
 from scalesieve.stream.sources import READ_FRAMES, _Source
@@ -39,68 +39,97 @@ def clean_piece(job: dict) -> dict:
     t0 = time.perf_counter()
     src = _Source(job["input"], job["channel"])
     n = src.frames
-    spec = tf.TransformSpec(**job["spec"])
+    spec = job["spec"]
     plan = _Plan(job["edits"], src.channels, spec, n, src.rate)
     for (k, key), lams in job["lams"].items():
         plan.bands[k][key].lams = list(lams)
     o0, o1 = job["start"], job["stop"]
-    first, last = stretch(n, spec, o0, o1)
-    level = spec.level
-    starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
     cleaned = [tf._Carry(o0, np.float64) for _ in range(src.channels)]
     with open(job["raw"], "wb") as fh:
-        inverses, forwards = [], []
-        for k in range(src.channels):
-            inv = InverseStream(n, spec, lambda s0, seg, k=k: cleaned[k].append(seg),
-                                start=o0, stop=o1, band_starts=starts)
-            bands = plan.bands[k]
-
-            def put(key, k0, c, inv=inv, bands=bands):
-                inv.put(key, k0, bands[key].edited(c, k0))
-            inverses.append(inv)
-            forwards.append(ForwardStream(n, spec, put, first=first, last=last))
         written = o0
-        for block in src.blocks(start=first[0], stop=last[0]):
-            for k in range(src.channels):
-                forwards[k].feed(block[:, k])
-                inverses[k].pump()
+
+        def emit(k, s0, seg):
+            nonlocal written
+            cleaned[k].append(seg)
             ready = min(c.hi for c in cleaned)
             if ready > written:
                 fh.write(np.stack([c.view(written, ready) for c in cleaned], axis=1).tobytes())
                 for c in cleaned:
                     c.drop_below(ready)
                 written = ready
+        piece(src, spec, plan, o0, o1, emit)
         if written != o1:  # pragma: no cover - the inverse makes every sample of the piece
             raise AssertionError(f"piece {o0}..{o1} made {written - o0} samples")
     return {"start": o0, "stop": o1, "seconds": round(time.perf_counter() - t0, 3),
             "host": socket.gethostname(), "pid": os.getpid()}
 
 
+#: the shortest piece worth a worker: one block of samples read
+MIN_PIECE = READ_FRAMES
+
+
 def cut(n: int, pieces: int) -> list[tuple[int, int]]:
-    """``pieces`` spans of about equal length covering 0 .. n."""
-    pieces = max(1, min(pieces, n // READ_FRAMES or 1))
+    """``pieces`` spans of about equal length covering 0 .. n (none shorter than MIN_PIECE)."""
+    pieces = max(1, min(pieces, n // MIN_PIECE or 1))
     bounds = [round(n * i / pieces) for i in range(pieces + 1)]
     return list(zip(bounds[:-1], bounds[1:]))
 
 
-def _run_local(jobs: list[dict], workers: int) -> list[dict]:
+def _run_local(jobs: list[dict], workers: int, input_path: str) -> list[dict]:
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
 
     # spawned, not forked: the caller may hold threads (a progress bar, a pool)
-    with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")) as pool:
-        return list(pool.map(clean_piece, jobs))
+    try:
+        with ProcessPoolExecutor(workers,
+                                 mp_context=multiprocessing.get_context("spawn")) as pool:
+            return list(pool.map(clean_piece, jobs))
+    except BrokenProcessPool:
+        raise ScalesieveError("a worker process stopped before its piece was cleaned (killed, "
+                              "or out of memory); nothing was written", input_path) from None
 
 
-def _run_dask(jobs: list[dict], scheduler: str) -> list[dict]:
+def _open_cluster(scheduler: str, input_path: str, output: str):
+    """A client of the cluster whose workers can reach the input and the output's folder."""
     from scalesieve.batch import connect
+    from scalesieve.batch.cluster import check_cluster
 
     client = connect(scheduler)        # refuses a tls:// address without a certificate
     try:
-        futures = [client.submit(clean_piece, job, pure=False) for job in jobs]
-        return client.gather(futures)
-    finally:
+        check_cluster(client, scheduler, os.path.dirname(os.path.abspath(output)),
+                      os.path.abspath(input_path),
+                      remedy="the workers need the input and the output's folder at the same "
+                             "paths (a shared file system)")
+    except BaseException:
         client.close()
+        raise
+    return client
+
+
+def _run_dask(jobs: list[dict], client, scheduler: str) -> list[dict]:
+    futures = [client.submit(clean_piece, job, pure=False) for job in jobs]
+    try:
+        return client.gather(futures)
+    except ScalesieveError:
+        raise                          # a worker's own clear message (an unreadable input)
+    except Exception as exc:           # the cluster lost a piece (its workers kept dying)
+        client.cancel(futures)
+        raise ScalesieveError(f"the cluster could not clean every piece ({type(exc).__name__}: "
+                              f"{exc}); nothing was written", scheduler) from None
+
+
+def _raw_name(output: str, i: int) -> str:
+    """An empty file beside ``output`` for piece i, named as ``io.atomic`` names temporaries
+    (pid and host of this process), so a later write of ``output`` removes what a killed
+    run left."""
+    from scalesieve.io.atomic import _host_tag, _temp_prefix
+
+    folder, prefix, suffix = _temp_prefix(output)
+    fd, path = tempfile.mkstemp(dir=folder, suffix=suffix,
+                                prefix=f"{prefix}{os.getpid()}.{_host_tag()}-piece{i}-")
+    os.close(fd)
+    return path
 
 
 def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
@@ -120,6 +149,22 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
                                edits=edits, force=force, rate=rate, channel=channel,
                                fill_gaps=fill_gaps)
     n = src.frames
+    # the cluster first: one that cannot do the work is refused before the first passes
+    client = _open_cluster(scheduler, input_path, output) if scheduler else None
+    try:
+        if pieces is None:
+            pieces = (workers or 2) if client is None else \
+                2 * max(1, sum(client.nthreads().values()))
+        return _clean_pieces(src, spec, plan, input_path, outputs, client, scheduler,
+                             workers or 2, pieces, subtype, force, progress)
+    finally:
+        if client is not None:
+            client.close()
+
+
+def _clean_pieces(src, spec, plan, input_path, outputs, client, scheduler, workers, pieces,
+                  subtype, force, progress) -> dict:
+    n = src.frames
 
     def report(p, fed, text):
         if progress:
@@ -128,42 +173,33 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
     passes = _thresholds(src, spec, plan, report)
     lams = {(k, key): tuple(band.lams) for k, bands in enumerate(plan.bands)
             for key, band in bands.items() if band.lams}
-    if pieces is None:
-        pieces = workers or 2
     spans = cut(n, pieces)
-    folder = os.path.dirname(os.path.abspath(output))
     raws = []
     try:
-        for i in range(len(spans)):
-            fd, path = tempfile.mkstemp(dir=folder, suffix=".raw",
-                                        prefix=f".{os.path.basename(output)}.tmp-scalesieve-"
-                                               f"piece{i}-")
-            os.close(fd)
-            raws.append(path)
-        jobs = [{"input": os.path.abspath(input_path), "channel": src.pick,
-                 "spec": {"kind": spec.kind, "wavelet": spec.wavelet, "level": spec.level,
-                          "mode": spec.mode},
+        raws.extend(_raw_name(outputs[0], i) for i in range(len(spans)))
+        jobs = [{"input": os.path.abspath(input_path), "channel": src.pick, "spec": spec,
                  "edits": plan.edits, "lams": lams, "start": a, "stop": b, "raw": raw}
                 for (a, b), raw in zip(spans, raws)]
         if progress:
             progress(0.3, f"cleaning {len(jobs)} pieces")
         t0 = time.perf_counter()
-        done = _run_dask(jobs, scheduler) if scheduler else _run_local(jobs, workers or 2)
+        done = _run_dask(jobs, client, scheduler) if client is not None else \
+            _run_local(jobs, workers, input_path)
         spent = time.perf_counter() - t0
         with contextlib.ExitStack() as stack:
             targets = [_target(stack, out, src, n, subtype, force, [input_path])
                        for out in outputs]
-            join = _Join(src.channels, targets, removed is not None)
+            join = _Join(src.channels, targets, len(outputs) == 2)
             pieces_in = _raw_blocks(raws, spans, src.channels)
             fed = have = 0
             for block in src.blocks():
                 join.add_input(block)
                 fed += block.shape[0]
                 while have < fed:
-                    piece = next(pieces_in)
+                    cleaned = next(pieces_in)
                     for k in range(src.channels):
-                        join.put(k, 0, piece[:, k])
-                    have += piece.shape[0]
+                        join.put(k, 0, cleaned[:, k])
+                    have += cleaned.shape[0]
                 join.flush()
             reports = [t.finished() for t in targets]
     finally:
@@ -175,7 +211,7 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
     res = _result(src, reports, join, passes + 1, spec, plan.edits)
     res["pieces"] = sorted(done, key=lambda p: p["start"])
     res["pieces_seconds"] = round(spent, 3)
-    res["where"] = scheduler or f"{workers or 2} local processes"
+    res["where"] = scheduler or f"{workers} local processes"
     return res
 
 

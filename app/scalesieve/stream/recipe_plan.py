@@ -135,7 +135,9 @@ class _Plan:
         """How deep a pass must go to see band ``key`` (a packet band: its node's depth)."""
         if key == "a":
             return self.spec.level
-        return 1 if key == FINEST else int(key)
+        # a best basis may be the recording itself (w0.0, depth 0): a pass always runs
+        # the tree one level deep, which hands the root on too (0 would mean no pass)
+        return 1 if key == FINEST else max(1, int(key))
 
     def gatherer(self, k: int):
         """``put(key, k0, values)`` of a first pass, for channel k."""

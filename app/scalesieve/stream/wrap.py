@@ -237,6 +237,20 @@ def _up_edges(a: _Known, d: _Known, w: pywt.Wavelet, m_out: int) -> _Known:
     return _Known(part(0, hh), part(m_out - tt, m_out), m_out, "periodic")
 
 
+def approx_edges(edges: dict, n: int, spec: tf.TransformSpec) -> dict:
+    """``{j: head and tail of the approximation synthesis step j starts from}``, from the
+    edges of the bands as they are handed in (``band_edges``, edited)."""
+    w = pywt.Wavelet(spec.wavelet)
+    lengths = tf.band_lengths(n, spec)                   # a_J, d_J .. d_1
+    J = spec.level
+    a, knowns = edges["a"], {}
+    for j in range(J, 0, -1):
+        knowns[j] = a
+        m_out = n if j == 1 else lengths[J - j + 2]
+        a = _up_edges(_Known(a.head, a.tail, lengths[J - j + 1], "periodic"), edges[j], w, m_out)
+    return knowns
+
+
 class _Up:
     """One synthesis step of periodization, its bands handed in as they come."""
 
@@ -281,12 +295,7 @@ class WrapInverse:
         lengths = tf.band_lengths(n, spec)               # a_J, d_J .. d_1
         N = {j: lengths[J - j + 1] for j in range(1, J + 1)}
         self.steps: dict = {}
-        a = edges["a"]
-        knowns = {}
-        for j in range(J, 0, -1):                        # the approximation each step starts from
-            knowns[j] = a
-            m_out = n if j == 1 else N[j - 1]
-            a = _up_edges(_Known(a.head, a.tail, N[j], "periodic"), edges[j], w, m_out)
+        knowns = approx_edges(edges, n, spec)
         nxt = out
         for j in range(1, J + 1):
             m_out = n if j == 1 else N[j - 1]
