@@ -41,6 +41,10 @@ RAW_MEAN_SHARE = 1e-3
 MOMENT_BLOCK = pm.MOMENT_BLOCK
 #: fewest coefficients per piece at the deepest depth when the signal is cut in pieces
 PIECE_FROM = 1 << 12
+#: time pieces per thread, and tasks per thread at each depth (a piece's nodes in
+#: groups): a thread held up by other work leaves the rest to the others
+PIECES_PER_THREAD = 2
+TASKS_PER_THREAD = 4
 
 
 def _raw_sums(c: np.ndarray, buf: np.ndarray) -> np.ndarray:
@@ -135,8 +139,10 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     ``check()``, if given, is called before each depth and may raise to stop
     (the window's worker stops a table nobody waits for any more).
     ``threads`` (default ``core.threads.count()``) share the work from
-    ``THREADS_FROM`` samples on: the signal is cut in time pieces, one per
-    thread (``core.packet_moments``); the figures are the same for any count.
+    ``THREADS_FROM`` samples on: the signal is cut in time pieces
+    (``core.packet_moments``), each depth's work handed out in a few tasks per
+    thread, the next depth started before this one's figures are added up; the
+    figures are the same for any count.
     """
     x = np.asarray(x, dtype=np.float64)
     top = pywt.dwt_max_level(x.shape[0], pywt.Wavelet(wavelet).dec_len)
@@ -153,7 +159,7 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     pieces = 1
     if workers > 1 and pm.splittable(w, mode):
         deepest = pywt.dwt_coeff_len(n, w.dec_len, mode) >> (depth - 1)
-        pieces = max(1, min(workers, deepest // PIECE_FROM))
+        pieces = max(1, min(PIECES_PER_THREAD * workers, deepest // PIECE_FROM))
     plan = pm.Plan(n, w, mode, depth, pieces)
     edges = band_choice.dwt_edges(n, w.dec_len, depth)
     levels = []
@@ -175,31 +181,40 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
         piece, group, j, segments = item
         return piece, pm.advance(plan, piece, j, group, w, mode, segments, buffer())
 
+    def layout(j):
+        m = plan.lengths[j]
+        left, right = edges[j - 1]
+        short = m - right - left < max(4, band_choice.MIN_INTERIOR)
+        return ([] if m < 4 else [(0, m)] if short else [(left, m - right), (0, left),
+                                                          (m - right, m)]), short
+
+    def start(j, stretches):
+        """Depth j's work: each piece's parents, in groups when pieces are fewer than
+        threads (one piece: the nodes shared out); running in the pool if there is one."""
+        if check is not None:
+            check()
+        segments = layout(j)[0]
+        groups = max(1, TASKS_PER_THREAD * workers // plan.pieces) if pool else 1
+        items = []
+        for piece, parents in enumerate(stretches):
+            paths = sorted(parents)
+            size = -(-len(paths) // groups)
+            for g in range(0, len(paths), size):
+                items.append((piece, {p: parents[p] for p in paths[g:g + size]}, j, segments))
+        return [pool.submit(task, it) for it in items] if pool else [task(it) for it in items]
+
     try:
+        pending = start(1, stretches)
+        del stretches
         for j in range(1, depth + 1):
-            if check is not None:
-                check()
-            m = plan.lengths[j]
-            left, right = edges[j - 1]
-            stop = m - right
-            short = stop - left < max(4, band_choice.MIN_INTERIOR)
-            segments = [] if m < 4 else [(0, m)] if short else [(left, stop), (0, left),
-                                                                 (stop, m)]
-            # the work of this depth: each piece's parents, in groups when pieces are fewer
-            # than threads (one piece: the nodes shared out)
-            groups = max(1, workers // plan.pieces) if pool else 1
-            items = []
-            for piece, parents in enumerate(stretches):
-                paths = sorted(parents)
-                size = -(-len(paths) // groups)
-                for g in range(0, len(paths), size):
-                    items.append((piece, {p: parents[p] for p in paths[g:g + size]}, j,
-                                  segments))
-            made = [{} for _ in stretches]
-            for piece, part in (pool.map(task, items) if pool else map(task, items)):
+            made = [{} for _ in range(plan.pieces)]
+            for done in pending:
+                piece, part = done.result() if pool else done
                 made[piece].update(part)
-            del items
             stretches = [{p: c for p, (c, _) in part.items()} for part in made]
+            # the next depth is under way in the pool while this one's figures are added up
+            pending = start(j + 1, stretches) if j < depth else []
+            segments, short = layout(j)
             buf = buffer()
             rows = []
             for path in sorted(stretches[0], key=wp.freq_index):
@@ -217,12 +232,10 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
                         fallback is None or k > fallback[0]["kurtosis"]):
                     fallback = (dict(rows[-1], level=j), (j, mine) if keep_best else None)
             levels.append({"level": j, "bands": rows})
-            del made
-            if j == depth:
-                stretches = []
+            del made, stretches
     finally:
         if pool:
-            pool.shutdown()
+            pool.shutdown(cancel_futures=True)
     if best is None and fallback is not None:
         best, best_ref = fallback
     out = {"levels": levels, "best": best}

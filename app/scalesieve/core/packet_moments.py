@@ -1,7 +1,7 @@
 """Every packet node's raw moment sums, the tree walked in time pieces by several threads.
 
-The signal is cut at a few seams (multiples of 2^J samples) into pieces, one
-per thread.  Each piece walks the packet tree to depth J over its own stretch
+The signal is cut at a few seams (multiples of 2^J samples) into pieces, a
+few per thread.  Each piece walks the packet tree to depth J over its own stretch
 of every node, with the margin its deeper nodes' filters need, and keeps only
 coefficients that are PyWavelets' own: output i of ``pywt.dwt`` of a stretch
 starting at an even index s is output i + s/2 of the whole once its L taps lie
