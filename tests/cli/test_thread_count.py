@@ -45,3 +45,18 @@ def test_a_bad_thread_count_is_one_line(monkeypatch, capsys, argv, env, words):
     assert main(argv) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and err[0].startswith("scalesieve: error: ") and words in err[0]
+
+
+@pytest.mark.parametrize("argv", [["bands", FAN, "--transform", "packet", "--level", "3"],
+                                  ["kurtosis", FAN, "--threads", "2"]])
+def test_bands_and_kurtosis_import_no_heavy_library(argv):
+    # a fresh process: what the command leaves in sys.modules (start-up time counts)
+    import subprocess
+    import sys
+
+    code = ("import sys; from scalesieve.cli import main; main(%r); "
+            "print('heavy:' + ','.join(m for m in ('scipy', 'jsonschema', 'psutil', 'dask', 'PySide6', "
+            "'pyqtgraph', 'platformdirs') if m in sys.modules))" % (argv + ["--json"],))
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.strip().splitlines()[-1] == "heavy:"
