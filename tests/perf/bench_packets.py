@@ -10,12 +10,19 @@ Prints one JSON line of figures measured side by side in one run (medians of
   the target is a ratio within 1.5; ``*_cached_s`` the same pair with compiled
   modules cached for both (PYTHONDONTWRITEBYTECODE, where set, makes every
   start compile this package's modules, not the libraries' installed ones);
+  ``imports_s`` vs ``bare_imports_s``: a fresh process importing what the
+  ``bands`` command imports before its work, against one importing numpy,
+  pywt and soundfile (the part of the pair that is start-up);
 * ``kurtosis_s``, ``envelope_s`` (band ``best``: the kurtosis search is part of
-  it) and ``envelope_named_s`` (a named band) against ``forward_dwt_s``, one
-  forward DWT of the recording at its default depth, on ``--samples`` (10 M);
-  targets: within 3; this process keeps freed arrays for reuse, as the
-  ``kurtosis`` and ``envelope`` commands do (``--default-allocator``: not);
-  ``*_ratio_range``: the least and greatest of the ratios of each round;
+  it) and ``envelope_named_s`` (a named band) against ``wavedec_s``, one
+  forward DWT of the recording by ``pywt.wavedec`` (db4, symmetric, its default
+  level), on ``--samples`` (10 M); targets: within 3; each with the default
+  thread count (``core.threads.count()``, ``threads_default``) and, as
+  ``*_1thread_s``, with one thread; ``forward_dwt_s``: our own forward DWT
+  (two threads from 4 M samples) beside it; this process keeps freed arrays
+  for reuse, as the ``kurtosis`` and ``envelope`` commands do
+  (``--default-allocator``: not); ``*_ratio_range``: the least and greatest of
+  the ratios of each round;
 * with ``--window``: a packet band's gain change in the window at
   ``--samples``, from the click to the repainted 1600x1000 window (target
   150 ms), beside one pass over the signal's memory;
@@ -51,6 +58,10 @@ wp = pywt.WaveletPacket(x, "db4", "symmetric", maxlevel=6)
 nodes = wp.get_level(6, order="freq")
 print(len(nodes), sum(float((n.data ** 2).sum()) for n in nodes))
 """
+#: what ``bands`` imports before its work (cli, the command, the guard, the reader, the model)
+IMPORTS = ("import scalesieve.cli, scalesieve.commands.bands, scalesieve.api, "
+           "scalesieve.memory_guard, scalesieve.io.readers, scalesieve.commands.progress")
+BARE_IMPORTS = "import numpy, pywt, soundfile"
 
 
 def recording(n: int, rate: float) -> np.ndarray:
@@ -96,8 +107,11 @@ def main() -> None:
     from scalesieve.freed_memory import keep_freed_memory
 
     kept = False if args.default_allocator else keep_freed_memory()
+    import pywt
+
     from scalesieve.core import envelope as en
     from scalesieve.core import impulsive_bands as ib
+    from scalesieve.core import threads as th
     from scalesieve.core import transforms as tf
 
     res: dict = {"benchmark": "packets", "load_average": os.getloadavg()[0],
@@ -142,26 +156,45 @@ def main() -> None:
             res["bare_packet_cached_s"] = round(statistics.median(theirs_c), 3)
             res["ratio_bands_to_bare_cached"] = round(
                 res["bands_packet_cached_s"] / res["bare_packet_cached_s"], 2)
+            res["ratio_bands_to_bare_range"] = [
+                round(min(a / b for a, b in zip(ours, theirs)), 2),
+                round(max(a / b for a, b in zip(ours, theirs)), 2)]
+            ours_i, bare_i = [], []
+            for _ in range(args.repeat):
+                for code, acc in ((IMPORTS, ours_i), (BARE_IMPORTS, bare_i)):
+                    t = time.perf_counter()
+                    subprocess.run([sys.executable, "-c", code], check=True)
+                    acc.append(time.perf_counter() - t)
+            res["imports_s"] = round(statistics.median(ours_i), 3)
+            res["bare_imports_s"] = round(statistics.median(bare_i), 3)
 
     x = recording(args.samples, args.rate)
     spec = tf.TransformSpec().resolved(x.shape[0])
-    fwd, kur, env, named = [], [], [], []
+    default = th.count()
+    res.update({"samples": args.samples, "threads_default": default})
+    runs = {"wavedec": lambda: pywt.wavedec(x, "db4", "symmetric"),
+            "forward_dwt": lambda: tf.forward(x, spec)}
+    for suffix, threads in (("", default), ("_1thread", 1)):
+        runs["kurtosis" + suffix] = (lambda t=threads: ib.table(
+            x, args.rate, "db4", "symmetric", 6, threads=t))
+        runs["envelope" + suffix] = lambda t=threads: en.report(x, args.rate, "best", threads=t)
+        runs["envelope_named" + suffix] = lambda t=threads: en.report(
+            x, args.rate, "w3.2", threads=t)
+    got: dict = {k: [] for k in runs}
+    en.report(x[:1 << 16], args.rate, "best")      # SciPy's FFT imported before any timing
     for _ in range(args.repeat):
-        fwd.append(timed(lambda: tf.forward(x, spec), 1))
-        kur.append(timed(lambda: ib.table(x, args.rate, "db4", "symmetric", 6), 1))
-        env.append(timed(lambda: en.report(x, args.rate, "best"), 1))
-        named.append(timed(lambda: en.report(x, args.rate, "w3.2"), 1))
-    f = statistics.median(fwd)
-    res.update({"samples": args.samples, "forward_dwt_s": round(f, 3),
-                "kurtosis_s": round(statistics.median(kur), 3),
-                "envelope_s": round(statistics.median(env), 3),
-                "envelope_named_s": round(statistics.median(named), 3)})
-    res["ratio_kurtosis_to_dwt"] = round(res["kurtosis_s"] / f, 2)
-    res["ratio_envelope_to_dwt"] = round(res["envelope_s"] / f, 2)
-    res["ratio_envelope_named_to_dwt"] = round(res["envelope_named_s"] / f, 2)
-    for name, got in (("kurtosis", kur), ("envelope", env), ("envelope_named", named)):
-        paired = [g / d for g, d in zip(got, fwd)]
+        for name, fn in runs.items():      # side by side, alternating, in every round
+            got[name].append(timed(fn, 1))
+    f = statistics.median(got["wavedec"])
+    for name, times in got.items():
+        res[f"{name}_s"] = round(statistics.median(times), 3)
+    for name in runs:
+        if name in ("wavedec", "forward_dwt"):
+            continue
+        res[f"ratio_{name}_to_wavedec"] = round(statistics.median(got[name]) / f, 2)
+        paired = [g / d for g, d in zip(got[name], got["wavedec"])]
         res[f"{name}_ratio_range"] = [round(min(paired), 2), round(max(paired), 2)]
+    res["ratio_forward_dwt_to_wavedec"] = round(res["forward_dwt_s"] / f, 2)
     if args.window:
         res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
     if args.impacts:

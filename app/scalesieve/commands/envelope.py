@@ -20,6 +20,7 @@ import json
 import os
 import sys
 
+from scalesieve.commands.kurtosis import add_threads_option, packet_options, thread_count
 from scalesieve.commands.options import (add_input_options, add_transform_options, load_input,
                                          print_warnings)
 from scalesieve.errors import ScalesieveError
@@ -42,6 +43,7 @@ def configure(p) -> None:
     p.add_argument("--json", action="store_true", help="print JSON (shared contract)")
     p.add_argument("--csv", metavar="OUT", help="write the envelope spectrum (hz, amplitude)")
     p.add_argument("--force", action="store_true", help="replace an existing --csv file")
+    add_threads_option(p)
     add_transform_options(p, level_help="deepest packet depth looked at (default 6)")
     add_input_options(p)
 
@@ -70,7 +72,6 @@ def format_text(rep: dict) -> str:
 
 
 def run(args) -> int:
-    from scalesieve.commands.kurtosis import packet_options
     from scalesieve.core import bearing as br
     from scalesieve.core import envelope as en
 
@@ -88,13 +89,14 @@ def run(args) -> int:
         from scalesieve.io.atomic import check_target
 
         check_target(args.csv, force=args.force, protect=[args.file])
+    threads = thread_count(args)
     rec = load_input(args, args.file)
     source = rec.source or args.file
     print_warnings(rec, args.file)
     wavelet, mode, depth = packet_options(args, rec.n, source)
     try:
         rep = en.report(rec.samples[:, 0], rec.rate, args.band, wavelet, mode, depth,
-                        geometry, args.shaft, exact=args.exact)
+                        geometry, args.shaft, exact=args.exact, threads=threads)
     except ValueError as exc:
         raise ScalesieveError(str(exc), source) from None
     out = {"file": os.path.basename(args.file), "rate": rec.rate,

@@ -33,8 +33,28 @@ def configure(p) -> None:
     p.description = __doc__.strip()
     p.add_argument("file", metavar="FILE", help="recording (first channel unless --channel)")
     p.add_argument("--json", action="store_true", help="print JSON (shared contract)")
+    add_threads_option(p)
     add_transform_options(p, level_help="deepest packet depth looked at (default 6)")
     add_input_options(p)
+
+
+def add_threads_option(p) -> None:
+    """``--threads N``: the threads the work is shared among (the figures do not depend on it)."""
+    p.add_argument("--threads", type=int, default=None, metavar="N",
+                   help="threads to share the work among (default: every core, at most 4, "
+                        "or $SCALESIEVE_THREADS); 1 runs it in one; the figures are the same "
+                        "for any number")
+
+
+def thread_count(args) -> int:
+    """The --threads value, else $SCALESIEVE_THREADS, else the default (core/threads.py)."""
+    from scalesieve.core import threads as th
+
+    try:
+        return th.count(args.threads)
+    except ValueError as exc:
+        text = str(exc)
+        raise ScalesieveError(f"--{text}" if text.startswith("threads ") else text) from None
 
 
 def packet_options(args, n: int, source: str):
@@ -107,12 +127,13 @@ def run(args) -> int:
     from scalesieve.core import band_choice
     from scalesieve.core import impulsive_bands as ib
 
+    threads = thread_count(args)
     rec = load_input(args, args.file)
     source = rec.source or args.file
     print_warnings(rec, args.file)
     wavelet, mode, depth = packet_options(args, rec.n, source)
     try:
-        t = ib.table(rec.samples[:, 0], rec.rate, wavelet, mode, depth)
+        t = ib.table(rec.samples[:, 0], rec.rate, wavelet, mode, depth, threads=threads)
     except ValueError as exc:
         raise ScalesieveError(str(exc), source) from None
     report = {"file": os.path.basename(args.file), "rate": rec.rate,

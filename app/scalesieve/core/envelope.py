@@ -43,15 +43,23 @@ def envelope(x: np.ndarray) -> np.ndarray:
     return np.abs(analytic(x))
 
 
-def spectrum(env: np.ndarray, rate: float) -> tuple[np.ndarray, np.ndarray]:
-    """(frequencies in Hz, amplitudes) of an envelope, mean removed, Hann window."""
+def spectrum(env: np.ndarray, rate: float,
+             window: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """(frequencies in Hz, amplitudes) of an envelope, mean removed, Hann window.
+
+    ``window``, if given, is ``np.hanning(len(env))`` already made (``env`` is not changed).
+    """
     from scipy import fft as sfft
 
     env = np.asarray(env, dtype=np.float64)
     n = env.shape[0]
-    win = np.hanning(n)
+    win = np.hanning(n) if window is None else window
     gain = win.sum()
-    amp = np.abs(sfft.rfft((env - env.mean()) * win, workers=2)) * (2.0 / gain)
+    y = np.subtract(env, env.mean())
+    y *= win
+    amp = np.abs(sfft.rfft(y, workers=2))
+    del y
+    amp *= 2.0 / gain
     amp[0] = 0.0                            # the mean is taken out: no DC line
     freqs = np.arange(amp.shape[0]) * (rate / n)
     return freqs, amp
@@ -171,7 +179,16 @@ def over_recording(c: np.ndarray, depth: int, n: int, wavelet: str, mode: str) -
     return c[i0:i0 + m]
 
 
-def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
+def _magnitude(z: np.ndarray, scale: float) -> np.ndarray:
+    """``np.abs(z) * scale`` without a second full-length array."""
+    env = np.abs(z)
+    del z
+    env *= scale
+    return env
+
+
+def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float,
+                           threads: int | None = None) -> dict:
     """Envelope, spectrum and peaks of a packet band from its node's own coefficients.
 
     A node at depth J is its band filtered, moved down to 0 .. fs/2^(J+1)
@@ -188,11 +205,22 @@ def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
     Peaks of the envelope spectrum lie at the same frequencies; amplitudes
     differ by those flanks and the folded skirts.  ``band_envelope_spectrum``
     of ``packets.component`` is the component's own envelope.
+    With ``threads`` other than 1 the window is made in a second thread (the same numbers).
     """
     c = np.asarray(c, dtype=np.float64)
-    env = np.abs(analytic(c)) * (2.0 ** (-depth / 2.0))
+    window = None
+    if (threads is None or threads > 1) and c.shape[0] >= 1 << 16:
+        # the Hann window (cosines of every sample) is made beside the FFTs
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=1) as pool:
+            made = pool.submit(np.hanning, c.shape[0])
+            env = _magnitude(analytic(c), 2.0 ** (-depth / 2.0))
+            window = made.result()
+    else:
+        env = _magnitude(analytic(c), 2.0 ** (-depth / 2.0))
     env_rate = rate / 2 ** depth
-    freqs, amp = spectrum(env, env_rate)
+    freqs, amp = spectrum(env, env_rate, window)
     return {"resolution_hz": env_rate / env.shape[0], "freqs": freqs, "amplitude": amp,
             "peaks": largest_peaks(freqs, amp), "envelope_rate": env_rate,
             "left_out": None}
@@ -201,7 +229,7 @@ def node_envelope_spectrum(c: np.ndarray, depth: int, rate: float) -> dict:
 def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
            mode: str = "symmetric", depth: int = 6, geometry=None,
            shaft_hz: float | None = None, exact: bool = False, check=None,
-           table: dict | None = None) -> dict:
+           table: dict | None = None, threads: int | None = None) -> dict:
     """The envelope spectrum of one packet band of ``x``, with bearing lines if given.
 
     ``band`` is a name ``wJ.K`` or ``"best"`` (the band of largest interior kurtosis
@@ -218,6 +246,8 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
     ``table``, for ``best``: the kurtosis table of these samples already made
     (``impulsive_bands.table(..., keep_best=True)`` with this wavelet, mode and
     depth); it is read, not changed, and not made again.
+    ``threads``: as ``impulsive_bands.table`` (default ``core.threads.count()``); the
+    numbers do not depend on it.
     """
     from scalesieve.core import impulsive_bands as ib
     from scalesieve.core import packets as wp
@@ -228,7 +258,8 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
         table = None
     if band == "best":
         if table is None:
-            table = ib.table(x, rate, wavelet, mode, depth, keep_best=True, check=check)
+            table = ib.table(x, rate, wavelet, mode, depth, keep_best=True, check=check,
+                             threads=threads)
         table = dict(table)
         c = table.pop("best_coefficients")
         if table["best"] is None:
@@ -252,8 +283,12 @@ def report(x: np.ndarray, rate: float, band: str = "best", wavelet: str = "db4",
         spec = band_envelope_spectrum(comp, rate, lo, hi)
         del comp
     else:
+        if threads is None:
+            from scalesieve.core import threads as th
+
+            threads = th.count()
         spec = node_envelope_spectrum(over_recording(c, len(path), x.shape[0], wavelet, mode),
-                                      len(path), rate)
+                                      len(path), rate, threads)
     del c
     out = {"band": {"name": f"w{len(path)}.{wp.freq_index(path)}", "low_hz": lo,
                     "high_hz": hi, "path": path},

@@ -26,17 +26,25 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import pywt
 
+from scalesieve.core import packet_moments as pm
 from scalesieve.core import packets as wp
+from scalesieve.core import threads as th
 
 #: the depth the table goes to unless told
 DEFAULT_DEPTH = 6
-#: from this many samples the nodes of one depth are shared between two threads
+#: from this many samples the work is shared among threads (core/threads.py)
 THREADS_FROM = 1 << 20
 #: raw moments serve while mean^2 is at most this share of the mean square:
 #: cancellation then costs under 1e-14 relative (rel. error ~ eps (mean/sd)^4)
 RAW_MEAN_SHARE = 1e-3
 #: samples per block of the moment sums (cache-sized)
-MOMENT_BLOCK = 1 << 15
+MOMENT_BLOCK = pm.MOMENT_BLOCK
+#: fewest coefficients per piece at the deepest depth when the signal is cut in pieces
+PIECE_FROM = 1 << 12
+#: time pieces per thread, and tasks per thread at each depth (a piece's nodes in
+#: groups): a thread held up by other work leaves the rest to the others
+PIECES_PER_THREAD = 2
+TASKS_PER_THREAD = 4
 
 
 def _raw_sums(c: np.ndarray, buf: np.ndarray) -> np.ndarray:
@@ -44,20 +52,17 @@ def _raw_sums(c: np.ndarray, buf: np.ndarray) -> np.ndarray:
 
     ``c`` is read from memory once; each block's squares stay in cache.
     """
-    s1 = s2 = s3 = s4 = 0.0
-    for i in range(0, c.shape[0], MOMENT_BLOCK):
-        b = c[i:i + MOMENT_BLOCK]
-        sq = np.multiply(b, b, out=buf[:b.shape[0]])
-        s1 += float(b.sum())
-        s2 += float(sq.sum())
-        s3 += float(np.einsum("i,i->", sq, b))
-        s4 += float(np.einsum("i,i->", sq, sq))
-    return np.array([s1, s2, s3, s4])
+    return pm.add_blocks(pm.block_sums(c[a:b], buf) for a, b in pm.blocks(0, c.shape[0]))
 
 
 def _from_sums(c: np.ndarray, sums: np.ndarray, work: np.ndarray | None) -> float | None:
     """Pearson kurtosis of ``c`` given its raw sums (:func:`_raw_sums`)."""
-    n = c.shape[0]
+    return _kurtosis_of(c.shape[0], sums, lambda: c, work)
+
+
+def _kurtosis_of(n: int, sums: np.ndarray, data, work: np.ndarray | None) -> float | None:
+    """Pearson kurtosis of n values with raw sums ``sums``; ``data()`` makes the values,
+    called only when the mean is too large for the raw moments (a second pass)."""
     mean, s2, s3, s4 = sums[0] / n, sums[1] / n, sums[2] / n, sums[3] / n
     m2 = s2 - mean * mean
     if m2 > 0 and mean * mean <= RAW_MEAN_SHARE * s2:
@@ -65,6 +70,7 @@ def _from_sums(c: np.ndarray, sums: np.ndarray, work: np.ndarray | None) -> floa
         # from the raw ones lose nothing to cancellation
         m4 = s4 - 4 * mean * s3 + 6 * mean * mean * s2 - 3 * mean ** 4
         return m4 / (m2 * m2) if m4 > 0 else None
+    c = data()
     d = np.subtract(c, mean, out=None if work is None or work.shape[0] < n else work[:n])
     m2 = float(np.einsum("i,i->", d, d)) / n
     if not m2 > 0:
@@ -116,7 +122,8 @@ def kurtosis_pair(c: np.ndarray, left: int, right: int, minimum: int,
 
 
 def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetric",
-          depth: int = DEFAULT_DEPTH, keep_best: bool = False, check=None) -> dict:
+          depth: int = DEFAULT_DEPTH, keep_best: bool = False, check=None,
+          threads: int | None = None) -> dict:
     """Kurtosis of every packet band of depths 1 .. ``depth``, and the most impulsive.
 
     Returns ``{"levels": [{"level": j, "bands": [{"name", "low_hz", "high_hz",
@@ -131,6 +138,11 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     coefficients (``WaveletPacket(x)[path].data``), kept as the tree is walked.
     ``check()``, if given, is called before each depth and may raise to stop
     (the window's worker stops a table nobody waits for any more).
+    ``threads`` (default ``core.threads.count()``) share the work from
+    ``THREADS_FROM`` samples on: the signal is cut in time pieces
+    (``core.packet_moments``), each depth's work handed out in a few tasks per
+    thread, the next depth started before this one's figures are added up; the
+    figures are the same for any count.
     """
     x = np.asarray(x, dtype=np.float64)
     top = pywt.dwt_max_level(x.shape[0], pywt.Wavelet(wavelet).dec_len)
@@ -142,70 +154,120 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     w = pywt.Wavelet(wavelet)
     from scalesieve.core import band_choice
 
-    edges = band_choice.dwt_edges(x.shape[0], w.dec_len, depth)
+    n = x.shape[0]
+    workers = th.count(threads) if n >= THREADS_FROM else 1
+    pieces = 1
+    if workers > 1 and pm.splittable(w, mode):
+        deepest = pywt.dwt_coeff_len(n, w.dec_len, mode) >> (depth - 1)
+        pieces = max(1, min(PIECES_PER_THREAD * workers, deepest // PIECE_FROM))
+    plan = pm.Plan(n, w, mode, depth, pieces)
+    edges = band_choice.dwt_edges(n, w.dec_len, depth)
     levels = []
     best = None
-    best_data = None
+    best_ref = None
     fallback = None   # no band long enough for its interior: the largest kurtosis of all
-    nodes = [("", x)]
-    pool = ThreadPoolExecutor(max_workers=2) if x.shape[0] >= THREADS_FROM else None
-
+    # each piece's stretch of every node of the current depth
+    stretches = [{"": x[lo:hi]} for lo, hi in plan.need[0]]
+    pool = ThreadPoolExecutor(max_workers=workers) if workers > 1 else None
     local = threading.local()
 
-    def kurt(c, j):
-        # (all, interior) of one node of depth j, from one read of its coefficients
-        work = getattr(local, "work", None)
-        if work is None:
-            work = local.work = np.empty(MOMENT_BLOCK)   # one per thread, reused
-        return kurtosis_pair(c, *edges[j - 1], band_choice.MIN_INTERIOR, work)
+    def buffer():
+        buf = getattr(local, "buf", None)
+        if buf is None:
+            buf = local.buf = np.empty(MOMENT_BLOCK)   # one per thread, reused
+        return buf
 
-    def split(item):
-        path, data = item
-        a, d = pywt.dwt(data, w, mode)
-        j = len(path) + 1
-        return [(path + "a", a, kurt(a, j)), (path + "d", d, kurt(d, j))]
+    def task(item):
+        piece, group, j, segments = item
+        return piece, pm.advance(plan, piece, j, group, w, mode, segments, buffer())
 
-    def split_root(item):
-        # one node alone: its dwt in two halves, then the two moments, each in two threads
-        path, data = item
-        a, d = _dwt_halves(data, w, mode, pool)
-        ka, kd = pool.map(kurt, (a, d), (len(path) + 1,) * 2)
-        return [(path + "a", a, ka), (path + "d", d, kd)]
+    def layout(j):
+        m = plan.lengths[j]
+        left, right = edges[j - 1]
+        short = m - right - left < max(4, band_choice.MIN_INTERIOR)
+        return ([] if m < 4 else [(0, m)] if short else [(left, m - right), (0, left),
+                                                          (m - right, m)]), short
+
+    def start(j, stretches):
+        """Depth j's work: each piece's parents, in groups when pieces are fewer than
+        threads (one piece: the nodes shared out); running in the pool if there is one."""
+        if check is not None:
+            check()
+        segments = layout(j)[0]
+        groups = max(1, TASKS_PER_THREAD * workers // plan.pieces) if pool else 1
+        items = []
+        for piece, parents in enumerate(stretches):
+            paths = sorted(parents)
+            size = -(-len(paths) // groups)
+            for g in range(0, len(paths), size):
+                items.append((piece, {p: parents[p] for p in paths[g:g + size]}, j, segments))
+        return [pool.submit(task, it) for it in items] if pool else [task(it) for it in items]
 
     try:
+        pending = start(1, stretches)
+        del stretches
         for j in range(1, depth + 1):
-            if check is not None:
-                check()
-            if pool and len(nodes) == 1:
-                parts = [split_root(nodes[0])]
-            else:
-                parts = list(pool.map(split, nodes)) if pool else [split(n) for n in nodes]
-            made = [p for pair in parts for p in pair]
-            del parts
+            made = [{} for _ in range(plan.pieces)]
+            for done in pending:
+                piece, part = done.result() if pool else done
+                made[piece].update(part)
+            stretches = [{p: c for p, (c, _) in part.items()} for part in made]
+            # the next depth is under way in the pool while this one's figures are added up
+            pending = start(j + 1, stretches) if j < depth else []
+            segments, short = layout(j)
+            buf = buffer()
             rows = []
-            for path, data, (k, inner) in sorted(made, key=lambda m: wp.freq_index(m[0])):
+            for path in sorted(stretches[0], key=wp.freq_index):
+                mine = [part[path] for part in stretches]
+                sums = [part[path][1] for part in made]
+                k, inner = _node_kurtosis(plan, j, mine, sums, segments, short, buf)
                 lo, hi = wp.range_hz(path, rate)
                 rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo,
                              "high_hz": hi, "kurtosis": k, "interior_kurtosis": inner,
                              "path": path})
                 if inner is not None and (best is None or inner > best["interior_kurtosis"]):
                     best = dict(rows[-1], level=j)
-                    best_data = data if keep_best else None
+                    best_ref = (j, mine) if keep_best else None
                 elif best is None and k is not None and (
                         fallback is None or k > fallback[0]["kurtosis"]):
-                    fallback = (dict(rows[-1], level=j), data if keep_best else None)
+                    fallback = (dict(rows[-1], level=j), (j, mine) if keep_best else None)
             levels.append({"level": j, "bands": rows})
-            nodes = [(p, c) for p, c, _ in made] if j < depth else []
-            del made
+            del made, stretches
     finally:
         if pool:
-            pool.shutdown()
+            pool.shutdown(cancel_futures=True)
     if best is None and fallback is not None:
-        best, best_data = fallback
+        best, best_ref = fallback
     out = {"levels": levels, "best": best}
     if keep_best:
-        out["best_coefficients"] = best_data
+        out["best_coefficients"] = None if best_ref is None else pm.join(
+            pm.owned_parts(plan, best_ref[0], best_ref[1], 0, plan.lengths[best_ref[0]]))
     return out
+
+
+def _node_kurtosis(plan, j: int, stretches: list, sums: list, segments: list, short: bool,
+                   buf: np.ndarray) -> tuple[float | None, float | None]:
+    """(kurtosis, interior kurtosis) of one depth-j node from its pieces' block sums,
+    as :func:`kurtosis_pair` of the whole node gives them."""
+    n = plan.lengths[j]
+    if not segments:
+        return None, None
+    whole = []
+
+    def data():
+        if not whole:
+            whole.append(pm.join(pm.owned_parts(plan, j, stretches, 0, n)))
+        return whole[0]
+
+    seg = [pm.segment_sums(plan, j, segment, s, stretches, sums, buf)
+           for s, segment in enumerate(segments)]
+    if short:
+        return _kurtosis_of(n, seg[0], data, None), None
+    (left, stop), inside = segments[0], seg[0]
+    k = _kurtosis_of(n, inside + seg[1] + seg[2], data, None)
+    if k is None:
+        return None, None
+    return k, _kurtosis_of(stop - left, inside, lambda: data()[left:stop], None)
 
 
 def _dwt_halves(x: np.ndarray, w, mode: str, pool):

@@ -453,6 +453,8 @@ class _Polyphase:
         idx = qs[:, None] - np.arange(self.T)[None, :]
         if self.periodic:
             rows = self.c[idx % self.N]
+        elif qs.shape[0] and qs.min() >= self.T - 1 and qs.max() < self.N:
+            rows = self.c[idx]                # every coefficient inside: no mask needed
         else:
             inside = (idx >= 0) & (idx < self.N)
             rows = np.where(inside, self.c[np.clip(idx, 0, self.N - 1)], 0.0)
