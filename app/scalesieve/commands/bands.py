@@ -51,7 +51,8 @@ def _report_in_blocks(args, spec, progress) -> dict:
 
     facts, channels = band_figures_stream(
         args.file, spec, channel=args.channel, rate=args.rate,
-        progress=None if progress is None else (lambda f, t: progress(f, t)))
+        progress=None if progress is None else (lambda f, t: progress(f, t)),
+        fill_gaps=args.fill_gaps, group=args.group, dataset=args.dataset)
     pick, start = facts["pick"], facts["start_time"]
     return {
         "file": os.path.basename(args.file),

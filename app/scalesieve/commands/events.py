@@ -220,7 +220,8 @@ def _in_blocks(args):
     print(f"scalesieve: note: {args.file}: {what}, about "
           f"{need / 2**20:.0f} MiB of memory", file=sys.stderr)
     # a text table's rows are counted as it is parsed: the level follows that count
-    src = open_source(args.file, args.channel, args.rate)
+    src = open_source(args.file, args.channel, args.rate, fill_gaps=args.fill_gaps,
+                      group=args.group, dataset=args.dataset)
     spec = spec_from(args, src.frames, args.file)
     levels = levels_from(args.levels, spec, src.frames)
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,
