@@ -13,6 +13,7 @@ index, which is how ``io.gaps.fill_linear`` is defined.
 from __future__ import annotations
 
 import json
+import warnings
 
 import numpy as np
 import pytest
@@ -30,6 +31,7 @@ from test_stream_clean import _visushrink
 nptdms = pytest.importorskip("nptdms")
 h5py = pytest.importorskip("h5py")
 edfio = pytest.importorskip("edfio")
+asammdf = pytest.importorskip("asammdf")
 
 RATE = 1001                       # EDF keeps whole records of one second: 21 of them
 N = 21 * RATE                     # 21 021 samples, an odd length
@@ -85,6 +87,19 @@ def _edf(path, x):
     return names
 
 
+def _mdf(path, x):
+    names = ["accel", "torque"][:x.shape[1]]
+    t = np.arange(N) / RATE
+    m = asammdf.MDF(version="4.10")
+    m.append([asammdf.Signal(x[:, k], t, name=names[k], unit="g") for k in range(x.shape[1])],
+             acq_name="drive")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        m.save(path, overwrite=True)
+    m.close()
+    return names
+
+
 def _npy(path, x):
     np.save(path, x)
     return [f"ch{k}" for k in range(x.shape[1])]
@@ -114,7 +129,7 @@ def _npz_compressed_rows(path, x):
 
 
 MAKERS = {"tdms": (_tdms, ".tdms", []), "hdf5": (_hdf5, ".h5", []),
-          "mat73": (_mat73, ".mat", []), "edf": (_edf, ".edf", []),
+          "mat73": (_mat73, ".mat", []), "edf": (_edf, ".edf", []), "mdf": (_mdf, ".mf4", []),
           "npy": (_npy, ".npy", ["--rate", str(RATE)]),
           "npy-fortran": (_npy_fortran, ".npy", ["--rate", str(RATE)]),
           "npz": (_npz, ".npz", []), "npz-compressed": (_npz_compressed, ".npz", []),
@@ -126,6 +141,10 @@ def _library_read(kind, path, x):
     if kind == "edf":
         sigs = edfio.read_edf(path).signals
         return np.stack([s.data for s in sigs], axis=1)
+    if kind == "mdf":
+        with asammdf.MDF(path) as m:
+            return np.stack([m.get(c).samples for c in ("accel", "torque")[:x.shape[1]]],
+                            axis=1)
     if kind == "tdms":
         g = nptdms.TdmsFile.read(str(path))["rig"]
         return np.stack([c[:] for c in g.channels()], axis=1)
@@ -247,7 +266,7 @@ def _fill_reference(x):
     return y
 
 
-@pytest.mark.parametrize("kind", ["hdf5", "npy", "npz-compressed", "tdms"])
+@pytest.mark.parametrize("kind", ["hdf5", "npy", "npz-compressed", "tdms", "mdf"])
 @pytest.mark.parametrize("channels", [1, 2])
 def test_gaps_are_filled_in_blocks_sample_for_sample(tmp_path, kind, channels):
     path, names, opts, x = _file(tmp_path, kind, channels, _holes(_signal(channels)))
@@ -355,7 +374,7 @@ def _damage(path, kind):
     path.write_bytes(bytes(data))
 
 
-@pytest.mark.parametrize("kind", ["npz-compressed", "npy", "hdf5", "tdms", "edf"])
+@pytest.mark.parametrize("kind", ["npz-compressed", "npy", "hdf5", "tdms", "edf", "mdf"])
 def test_a_damaged_file_is_one_line_in_blocks(tmp_path, kind, capsys, monkeypatch):
     path, names, opts, x = _file(tmp_path, kind, 2)
     _damage(path, kind)
@@ -380,3 +399,27 @@ def test_formats_read_whole_are_refused_in_blocks_saying_why(tmp_path, capsys, m
         code = main(["clean", str(f), "-o", str(tmp_path / "o.wav"), "--zero", "1"])
         err = capsys.readouterr().err.strip().splitlines()
         assert code == 2 and len(err) == 1 and why in err[0], err
+
+
+@pytest.mark.parametrize("clock", ["jitter", "jump", "backwards"])
+def test_an_mdf_clock_is_checked_in_blocks_as_whole(tmp_path, clock):
+    # the time stamps' steps checked as io.time_column.analyse_steps checks them whole
+    t = np.arange(N) / RATE
+    if clock == "jitter":
+        t[7000] += 0.3 / RATE
+    elif clock == "jump":
+        t[9000:] += 2.0
+    else:
+        t[BLOCK * 3] = t[BLOCK * 3 - 1]
+    m = asammdf.MDF(version="4.10")
+    m.append([asammdf.Signal(_signal(1)[:, 0], t, name="accel")], acq_name="drive")
+    path = tmp_path / "drive.mf4"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        m.save(path, overwrite=True)
+    m.close()
+    with pytest.raises(ScalesieveError) as a:
+        read_recording(path)
+    with pytest.raises(ScalesieveError) as b:
+        open_source(str(path))
+    assert b.value.message == a.value.message and "time" in a.value.message

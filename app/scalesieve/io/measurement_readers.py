@@ -9,10 +9,7 @@ Each format opens as a :class:`Source`: names, units, rate, ``frames`` and
 ``read(start, stop)``, so the facts (for the memory guard) come without the
 samples, and a span can be read where the format allows it cheaply (TDMS,
 HDF5 slice on disk; the others read whole and cut).  ``Source.opened()`` keeps
-the file open for many ranges (``stream.measurement_source`` reads blocks through
-it): TDMS through ``TdmsFile.open`` and ``channel[a:b]``, HDF5 and MATLAB v7.3 by
-dataset slices, EDF by ``get_data_slice`` of a lazily loaded file, NumPy files
-through a memory map or an inflating stream (``io.numpy_arrays``).
+the file open for many ranges (``io.measurement_ranges`` says how, per format).
 """
 
 from __future__ import annotations
@@ -38,7 +35,7 @@ EXTENSIONS = {".tdms": "tdms", ".edf": "edf", ".bdf": "bdf", ".mat": "mat", ".h5
 
 #: Formats whose samples are read by range without loading a whole channel (the others
 #: are read whole: ``stream.choice`` says why when a command would need them in blocks).
-RANGED = frozenset({"TDMS", "HDF5", "MATLAB v7.3", "EDF", "NumPy"})
+RANGED = frozenset({"TDMS", "HDF5", "MATLAB v7.3", "EDF", "NumPy", "ASAM MDF"})
 
 #: What each format is called in messages, and the library that reads it.
 NAMES = {"tdms": ("TDMS", "npTDMS", "nptdms"), "edf": ("EDF", "edfio", "edfio"),
@@ -95,8 +92,7 @@ class _Notes(logging.Handler):
 
 @contextlib.contextmanager
 def _quiet_libraries(collect: bool = True):
-    """Library log lines and Python warnings gathered instead of printed (``collect``: and
-    the objects a failed opening left collected while quiet; not worth it per block)."""
+    """Library log lines and Python warnings gathered instead of printed (and collected)."""
     notes = _Notes()
     saved = []
     # npTDMS hangs a console handler on each of its module loggers: take them all.
@@ -329,43 +325,50 @@ def _edf(source: str, kind: str, channel) -> Source:
 
 # --------------------------------------------------------------------- HDF5 / MAT
 
-def _mdf(source: str, group: str | None) -> Source:
+def _mdf_open(source: str):
     asammdf = _library("mdf", source)
-    reason = None
     try:
-        mdf = asammdf.MDF(source)
+        return asammdf.MDF(source)
     except Exception as exc:  # asammdf raises many kinds on damaged files
         reason = _reason(exc)
-    if reason is not None:
-        gc.collect()  # the half-made object goes now, while its complaints are quietened
-        raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
+    gc.collect()  # the half-made object goes now, while its complaints are quietened
+    raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
+
+
+def _mdf_group(mdf, group: str | None, source: str):
+    """``(index, label, cycles, [(channel index, channel)])`` of the channel group to read."""
+    groups = []
+    for gi, g in enumerate(mdf.groups):
+        chans = [(ci, c) for ci, c in enumerate(g.channels) if c.channel_type != 2
+                 and getattr(c, "component_addr", 0) == 0 and c.name]
+        cycles = int(g.channel_group.cycles_nr)
+        if chans and cycles > 0:
+            label = (getattr(g.channel_group, "acq_name", "") or "").strip() or str(gi)
+            groups.append((gi, label, cycles, chans))
+    if not groups:
+        raise ScalesieveError("holds no channel group with samples", source=source)
+    if group is None and len(groups) > 1:
+        parts = "; ".join(f"{label!r} ({', '.join(c.name for _, c in chans[:4])}"
+                          f"{', ...' if len(chans) > 4 else ''}; {cycles} samples)"
+                          for _, label, cycles, chans in groups)
+        raise ScalesieveError(f"holds {len(groups)} channel groups on different time "
+                              f"bases: {parts}; choose one with --group NAME or number",
+                              source=source)
+    if group is None:
+        chosen = groups[0]
+    else:
+        chosen = next((x for x in groups if x[1] == group or str(x[0]) == group), None)
+        if chosen is None:
+            listed = ", ".join(f"{label!r} ({gi})" for gi, label, _, _ in groups)
+            raise ScalesieveError(f"--group {group!r} is not in the file; its channel "
+                                  f"groups: {listed}", source=source)
+    return chosen
+
+
+def _mdf(source: str, group: str | None) -> Source:
+    mdf = _mdf_open(source)
     try:
-        groups = []
-        for gi, g in enumerate(mdf.groups):
-            chans = [(ci, c) for ci, c in enumerate(g.channels) if c.channel_type != 2
-                     and getattr(c, "component_addr", 0) == 0 and c.name]
-            cycles = int(g.channel_group.cycles_nr)
-            if chans and cycles > 0:
-                label = (getattr(g.channel_group, "acq_name", "") or "").strip() or str(gi)
-                groups.append((gi, label, cycles, chans))
-        if not groups:
-            raise ScalesieveError("holds no channel group with samples", source=source)
-        if group is None and len(groups) > 1:
-            parts = "; ".join(f"{label!r} ({', '.join(c.name for _, c in chans[:4])}"
-                              f"{', ...' if len(chans) > 4 else ''}; {cycles} samples)"
-                              for _, label, cycles, chans in groups)
-            raise ScalesieveError(f"holds {len(groups)} channel groups on different time "
-                                  f"bases: {parts}; choose one with --group NAME or number",
-                                  source=source)
-        if group is None:
-            chosen = groups[0]
-        else:
-            chosen = next((x for x in groups if x[1] == group or str(x[0]) == group), None)
-            if chosen is None:
-                listed = ", ".join(f"{label!r} ({gi})" for gi, label, _, _ in groups)
-                raise ScalesieveError(f"--group {group!r} is not in the file; its channel "
-                                      f"groups: {listed}", source=source)
-        gi, label, cycles, chans = chosen
+        gi, label, cycles, chans = _mdf_group(mdf, group, source)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             sigs = [mdf.get(group=gi, index=ci) for ci, _ in chans]
@@ -451,11 +454,13 @@ def _reason(exc: Exception) -> str:
 
 
 def open_source(source: str, kind: str, *, group: str | None = None,
-                dataset: str | None = None, channel=None) -> Source:
-    """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`)."""
+                dataset: str | None = None, channel=None, lazy: bool = False) -> Source:
+    """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`);
+    ``lazy``: an MDF file's samples and time stamps left on disk (read by range)."""
     _library(kind, source)  # imported first: its loggers must exist to be quietened
     try:
         from scalesieve.io.matlab_hdf5 import _hdf5, _mat5
+        from scalesieve.io.measurement_ranges import mdf_by_range
 
         with _quiet_libraries() as notes:
             if kind == "tdms":
@@ -467,7 +472,7 @@ def open_source(source: str, kind: str, *, group: str | None = None,
             elif kind in ("mat73", "hdf5"):
                 src = _hdf5(source, dataset, matlab=kind == "mat73")
             elif kind == "mdf":
-                src = _mdf(source, group)
+                src = mdf_by_range(source, group) if lazy else _mdf(source, group)
             elif kind in ("npy", "npz"):
                 from scalesieve.io.numpy_arrays import numpy_source
 

@@ -26,7 +26,6 @@ WHOLE_FORMATS = {
     "MATLAB": "scipy.io reads a MATLAB v5 variable whole (save it as v7.3, which is HDF5, "
               "to have it read in blocks)",
     "BDF": "edfio reads BDF files whole (it loads only EDF lazily)",
-    "ASAM MDF": "MDF files are read whole here (a channel group at once)",
     "Excel": "an Excel workbook is read whole, as a text table",
 }
 
@@ -37,7 +36,7 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     """Why a command cannot run block by block, or None when it can.
 
     Audio files, text tables (CSV, TSV, TXT, DAT: ``stream.text_source``) and
-    the measurement formats read by range (TDMS, HDF5, MATLAB v7.3, EDF, NumPy:
+    the measurement formats read by range (TDMS, HDF5, MATLAB v7.3, EDF, MDF, NumPy:
     ``stream.measurement_source``) are read in blocks; ``--fill-gaps`` fills
     them block by block, except a text table's.  The SWT runs in blocks in every boundary mode
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
@@ -56,7 +55,7 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         return WHOLE_FORMATS.get(fmt, f"{fmt} files are read whole")
     if kind not in ("audio", "text", "measurement"):
         return ("only audio files (WAV, FLAC, AIFF, ...), text tables and measurement files "
-                "(TDMS, HDF5, MATLAB v7.3, EDF, NumPy) are read in blocks")
+                "(TDMS, HDF5, MATLAB v7.3, EDF, MDF, NumPy) are read in blocks")
     if kind == "audio" and not facts.get("frames_exact"):
         # (a text table's rows are counted as it is parsed in chunks: stream.text_source)
         return "its header's frame count cannot be trusted"

@@ -1,6 +1,6 @@
 """A measurement file's samples in blocks, and gaps filled block by block.
 
-``MeasurementSource`` reads TDMS, HDF5, MATLAB v7.3, EDF and NumPy files by
+``MeasurementSource`` reads TDMS, HDF5, MATLAB v7.3, EDF, MDF and NumPy files by
 range through their own libraries (``io.measurement_readers.Source.opened``),
 so no channel is loaded whole.  It makes the checks ``io.readers`` makes on the
 whole array, in one first pass over the blocks (``io.gaps.GapSurvey``), with the
@@ -68,6 +68,24 @@ def filled_blocks(read, total: int, channels: int, frames: int, start: int, stop
         yield np.concatenate(parts) if len(parts) > 1 else parts[0]
 
 
+def _rate_of_master(src, path: str) -> float:
+    """The rate the whole-file reader finds from an MDF group's time stamps (their steps
+    checked as ``time_column.analyse_steps`` checks them), from blocks of them."""
+    from scalesieve.stream.sources import READ_FRAMES
+    from scalesieve.stream.text_source import steps_rate
+
+    reader = src.opened()
+    try:
+        t0 = float(reader.times(0, 1)[0])
+
+        def times():
+            for a in range(0, src.frames, READ_FRAMES):
+                yield a, reader.times(a, min(src.frames, a + READ_FRAMES)) - t0
+        return steps_rate(times, src.frames, path, None, lambda i: None)
+    finally:
+        reader.close()
+
+
 class MeasurementSource:
     """A measurement file's samples in blocks, float64, as ``io.readers`` reads them whole.
 
@@ -85,7 +103,10 @@ class MeasurementSource:
         from scalesieve.io.input_check import check_channel, check_rate
 
         self.path = path
-        src = mr.open_source(path, kind, group=group, dataset=dataset, channel=channel)
+        src = mr.open_source(path, kind, group=group, dataset=dataset, channel=channel,
+                             lazy=True)
+        if src.detail.get("master") and src.frames >= 2:
+            src.rate = _rate_of_master(src, path)
         label = src.format
         pick = check_channel(channel, len(src.names), path, src.names)
         file_rate, frames = src.rate, src.frames
