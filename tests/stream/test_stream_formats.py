@@ -294,6 +294,7 @@ def test_gaps_are_filled_in_blocks_sample_for_sample(tmp_path, kind, channels):
 def test_the_commands_fill_gaps_in_blocks_as_the_whole_array(tmp_path, kind, capsys,
                                                              monkeypatch):
     x = _holes(_signal(2))
+    notes = {}
     if kind == "edf":
         x = np.nan_to_num(x, nan=0.0)         # EDF holds integers: its NaN-free twin
     path, names, opts, x = _file(tmp_path, kind, 2, x)
@@ -307,9 +308,12 @@ def test_the_commands_fill_gaps_in_blocks_as_the_whole_array(tmp_path, kind, cap
                                                       "--fill-gaps", "linear", *opts],
                                 blocks).out)
         outs[blocks] = (np.loadtxt(out, delimiter=",", skiprows=1), warned, bands)
+        notes[blocks] = [w for w in res.err.splitlines() if "note" in w]
     (y0, w0, b0), (y1, w1, b1) = outs[False], outs[True]
     np.testing.assert_allclose(y1, y0, rtol=0, atol=1e-12)
     assert w1 == w0 and b1["warnings"] == b0["warnings"]
+    # the pass that checks the file first is counted: it and the clean's one
+    assert "2 passes over the file" in notes[True][0]
     if kind == "npz":
         assert any("filled" in w for w in w0)
     for c0, c1 in zip(b0["channels"], b1["channels"]):

@@ -68,6 +68,13 @@ def _report_in_blocks(args, spec, progress) -> dict:
     }
 
 
+def _checked(facts: dict, args) -> str:
+    """What the note adds for the pass that checks a file before the work (stream.sources)."""
+    if facts.get("kind") == "measurement" or args.fill_gaps is not None:
+        return " after one that checks it"
+    return ""
+
+
 def _hz(v: float) -> str:
     """A band edge in Hz as a plain number: 12800, 5512.5, 0.390625 (no exponent)."""
     import numpy as np
@@ -107,7 +114,7 @@ def run(args) -> int:
                 else "one pass"
             what = (f"parsed in chunks into a temporary file, then read in blocks, {count} "
                     "over the rows" if facts.get("kind") == "text"
-                    else f"read in blocks, {count} over the file")
+                    else f"read in blocks, {count} over the file{_checked(facts, args)}")
             print(f"scalesieve: note: {args.file}: {what}, about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
                   file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)

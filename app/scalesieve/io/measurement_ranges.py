@@ -109,13 +109,26 @@ class QuietRanges:
         self._guard(self.inner.close)
 
 
+def _mdf_by_file(source: str):
+    """``(file, MDF)``: an MDF opened from a file object, so that asammdf reads only the
+    records a range needs (opened by name, its memory-mapped path reads the whole group
+    for every range, even one record)."""
+    from scalesieve.io.measurement_readers import _mdf_open
+
+    fh = open(source, "rb")
+    try:
+        return fh, _mdf_open(source, fh)
+    except BaseException:
+        fh.close()
+        raise
+
+
 class MdfRanges:
     """An MDF file open while ranges of one channel group are read by record offset."""
 
     def __init__(self, source: str, group: int, indexes: list[int]):
-        from scalesieve.io.measurement_readers import _mdf_open
-
-        self.mdf, self.group, self.indexes = _mdf_open(source), group, indexes
+        self.fh, self.mdf = _mdf_by_file(source)
+        self.group, self.indexes = group, indexes
 
     def read(self, a: int, b: int, cols: list[int]) -> np.ndarray:
         out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
@@ -134,6 +147,7 @@ class MdfRanges:
 
     def close(self) -> None:
         self.mdf.close()
+        self.fh.close()
 
 
 def mdf_by_range(source: str, group: str | None):
@@ -143,9 +157,9 @@ def mdf_by_range(source: str, group: str | None):
     record: learnt from each one's first record); its rate is left for the
     reader of the blocks to find from the time stamps (``detail["master"]``).
     """
-    from scalesieve.io.measurement_readers import Source, _mdf_group, _mdf_open
+    from scalesieve.io.measurement_readers import Source, _mdf_group
 
-    mdf = _mdf_open(source)
+    fh, mdf = _mdf_by_file(source)
     try:
         gi, label, cycles, chans = _mdf_group(mdf, group, source)
         keep, names, units = [], [], []
@@ -169,6 +183,7 @@ def mdf_by_range(source: str, group: str | None):
             start_time = None
     finally:
         mdf.close()
+        fh.close()
     if start_time is not None and cycles >= 2 and t0.size and float(t0[0]) != 0:
         start_time = start_time + timedelta(seconds=float(t0[0]))
 

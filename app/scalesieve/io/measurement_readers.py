@@ -325,10 +325,10 @@ def _edf(source: str, kind: str, channel) -> Source:
 
 # --------------------------------------------------------------------- HDF5 / MAT
 
-def _mdf_open(source: str):
+def _mdf_open(source: str, fh=None):
     asammdf = _library("mdf", source)
     try:
-        return asammdf.MDF(source)
+        return asammdf.MDF(source if fh is None else fh)
     except Exception as exc:  # asammdf raises many kinds on damaged files
         reason = _reason(exc)
     gc.collect()  # the half-made object goes now, while its complaints are quietened

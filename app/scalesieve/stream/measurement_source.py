@@ -95,6 +95,7 @@ class MeasurementSource:
 
     subtype = None
     parsed = False            # read as it is, no parse before the passes
+    checked = True            # one pass checks the file before the passes
 
     def __init__(self, path: str, kind: str, channel=None, rate: float | None = None,
                  fill_gaps: str | None = None, group: str | None = None,

@@ -110,7 +110,9 @@ def _result(src, reports, join, passes, spec, edits=()) -> dict:
         "outputs": reports,
         "clipped": int(sum(r["clipped"] for r in reports)),
         "energy_removed_fraction": join.removed_energy / join.energy if join.energy > 0 else 0.0,
-        "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
+        # a measurement file, or gaps to fill: one pass checks the file first (sources)
+        "blocks": {"passes": passes + int(bool(getattr(src, "checked", False))),
+                   "frames_per_block": READ_FRAMES,
                    "bytes": stream_bytes(src.channels, spec),
                    # a text table: parsed once in chunks into a temporary file of rows
                    "table_parsed": src.parsed},

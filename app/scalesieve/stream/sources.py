@@ -31,6 +31,7 @@ class _Source:
 
     start_time = clock = None        # audio files carry no clock
     parsed = False                   # read as it is, no parse before the passes
+    checked = False                  # no pass checks the file first (but to fill gaps)
 
     def __init__(self, path: str, channel: int | None, fill_gaps: str | None = None):
         from scalesieve.io.quiet_native import quiet_native_stderr
@@ -53,6 +54,7 @@ class _Source:
 
             if self.subtype not in _BOUNDED_SUBTYPES:    # integer samples hold no NaN
                 self._survey()
+                self.checked = True          # one pass checks the file before the passes
 
     def _survey(self) -> None:
         """``io.readers``' checks of the whole array with ``--fill-gaps``, in one pass."""
