@@ -99,6 +99,19 @@ EXT = {"npy": ".npy", "npz": ".npz", "hdf5": ".h5", "tdms": ".tdms", "edf": ".ed
        "mdf": ".mf4"}
 
 
+def _make(kind: str, path: str, n: int, gaps: bool) -> list[str]:
+    """The file written in a process of its own: a child's peak memory counts what its
+    parent held when it started (Linux carries it over the fork), so this one holds
+    nothing large; returns the options the clean needs."""
+    code = ("import json, sys; sys.path.insert(0, sys.argv[1]); import bench_formats as b; "
+            "print(json.dumps(b._write(sys.argv[2], sys.argv[3], "
+            "b._signal(int(sys.argv[4]), sys.argv[5] == '1'))))")
+    out = subprocess.run([sys.executable, "-c", code, os.path.dirname(os.path.abspath(__file__)),
+                          kind, path, str(n), "1" if gaps else "0"], check=True,
+                         capture_output=True, text=True).stdout
+    return json.loads(out.strip().splitlines()[-1])
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--samples", type=int, default=1 << 22)
@@ -106,14 +119,13 @@ def main() -> None:
     ap.add_argument("--fill-gaps", action="store_true",
                     help="drop-outs in the recording, filled by --fill-gaps linear")
     args = ap.parse_args()
-    x = _signal(args.samples, args.fill_gaps)
     rows = {}
     with tempfile.TemporaryDirectory(prefix="scalesieve-bench-") as d:
         for kind in args.only.split(","):
             if kind == "edf" and args.fill_gaps:
                 continue                               # EDF holds integers: no NaN
             path = os.path.join(d, "pump" + EXT[kind])
-            opts = _write(kind, path, x)
+            opts = _make(kind, path, args.samples, args.fill_gaps)
             if args.fill_gaps:
                 opts += ["--fill-gaps", "linear"]
             row = {"file_mib": round(os.path.getsize(path) / 2**20, 1)}
