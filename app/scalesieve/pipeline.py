@@ -120,7 +120,8 @@ def clean_file(input_path: str, output: str, *, recipe: Recipe | None = None,
 
         return clean_stream(input_path, output, recipe=recipe, transform=transform,
                             edits=edits, removed=removed, subtype=subtype, force=force,
-                            rate=rate, channel=channel, fill_gaps=fill_gaps, progress=progress)
+                            rate=rate, channel=channel, fill_gaps=fill_gaps, progress=progress,
+                            group=group, dataset=dataset)
     if len(outputs) == 2 and os.path.realpath(outputs[0]) == os.path.realpath(outputs[1]):
         raise ScalesieveError("-o and --removed name the same file", output)
     for out in outputs:
@@ -203,6 +204,10 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     if why is None and facts.get("kind") == "text":
         # each worker would parse the whole table again to find its piece's rows
         why = "a text table is parsed in one process only"
+    elif why is None and (facts.get("kind") == "measurement" or fill_gaps is not None):
+        # each worker opens its piece as audio (stream.pieces), without gaps to fill
+        why = ("measurement files are" if facts.get("kind") == "measurement" else
+               "--fill-gaps is") + " worked on in blocks in one process only"
     elif why is None and resolved.kind == "packet" and resolved.mode in WRAP_MODES:
         # the pieces cut the packet tree of the modes that extend the signal from its edge
         why = (f"wavelet packets in boundary mode {resolved.mode} are cleaned in blocks in "

@@ -134,10 +134,12 @@ def test_the_wrapping_modes_are_cleaned_in_blocks_by_the_command(tmp_path, monke
 
 def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monkeypatch,
                                                                    capsys):
-    src = tmp_path / "in.wav"
-    _recording(src, n=30_000, channels=1)
+    src = tmp_path / "in.csv"
+    x = np.random.default_rng(3).standard_normal(30_000)
+    src.write_text("time_s,strain\n"
+                   + "".join(f"{i / RATE!r},{v!r}\n" for i, v in enumerate(x.tolist())))
     monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
-    # filling gaps needs the whole recording: whole-array while memory allows ...
+    # a text table's gaps need the whole table: whole-array while memory allows ...
     out = tmp_path / "p.wav"
     assert main(["clean", str(src), "-o", str(out), "--zero", "1", "--fill-gaps",
                  "linear"]) == 0
@@ -152,7 +154,7 @@ def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monke
                  "--fill-gaps", "linear"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "cannot be worked on in blocks" in err[0]
-    assert "--fill-gaps" in err[0]
+    assert "--fill-gaps on a text table" in err[0]
     assert not (tmp_path / "q.wav").exists()
 
 

@@ -85,9 +85,14 @@ def test_blocks_take_audio_and_text_tables_but_not_npz_outputs(wav, tmp_path):
     ok, why = memory_guard.in_blocks(facts, transform=TransformSpec(), outputs=["o.npz"],
                                      available=1)
     assert not ok and "only audio and CSV outputs" in why
-    ok, why = memory_guard.in_blocks(dict(facts, kind="measurement"), transform=TransformSpec(),
+    # a measurement format whose library reads it whole (stream.choice.WHOLE_FORMATS)
+    ok, why = memory_guard.in_blocks(dict(facts, kind="measurement", format="MATLAB"),
+                                     transform=TransformSpec(), outputs=["o.wav"], available=1)
+    assert not ok and "scipy.io reads a MATLAB v5 variable whole" in why
+    ok, why = memory_guard.in_blocks(dict(facts, kind="video"), transform=TransformSpec(),
                                      outputs=["o.wav"], available=1)
-    assert not ok and "only audio files (WAV, FLAC, AIFF, ...) and text tables" in why
+    assert not ok and "only audio files (WAV, FLAC, AIFF, ...), text tables and measurement" \
+        in why
     # a text table's row count is an estimate from its first rows: it is counted as it is
     # parsed in chunks (stream.text_source), so blocks take it
     ok, why = memory_guard.in_blocks(dict(facts, kind="text", frames_exact=False),

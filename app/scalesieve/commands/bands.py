@@ -51,7 +51,8 @@ def _report_in_blocks(args, spec, progress) -> dict:
 
     facts, channels = band_figures_stream(
         args.file, spec, channel=args.channel, rate=args.rate,
-        progress=None if progress is None else (lambda f, t: progress(f, t)))
+        progress=None if progress is None else (lambda f, t: progress(f, t)),
+        fill_gaps=args.fill_gaps, group=args.group, dataset=args.dataset)
     pick, start = facts["pick"], facts["start_time"]
     return {
         "file": os.path.basename(args.file),
@@ -65,6 +66,13 @@ def _report_in_blocks(args, spec, progress) -> dict:
                       "bands": rows}
                      for k, rows in enumerate(channels)],
     }
+
+
+def _checked(facts: dict, args) -> str:
+    """What the note adds for the pass that checks a file before the work (stream.sources)."""
+    if facts.get("kind") == "measurement" or args.fill_gaps is not None:
+        return " after one that checks it"
+    return ""
 
 
 def _hz(v: float) -> str:
@@ -106,7 +114,7 @@ def run(args) -> int:
                 else "one pass"
             what = (f"parsed in chunks into a temporary file, then read in blocks, {count} "
                     "over the rows" if facts.get("kind") == "text"
-                    else f"read in blocks, {count} over the file")
+                    else f"read in blocks, {count} over the file{_checked(facts, args)}")
             print(f"scalesieve: note: {args.file}: {what}, about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
                   file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)

@@ -208,6 +208,7 @@ def _in_blocks(args):
     if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
                                   fill_gaps=args.fill_gaps, swt=True)[0]:
         return None
+    from scalesieve.commands.bands import _checked
     from scalesieve.stream.choice import events_bytes
     from scalesieve.stream.events import events_stream
     from scalesieve.stream.sources import open_source
@@ -215,12 +216,13 @@ def _in_blocks(args):
     chans = 1 if args.channel is not None else int(facts["channels"])
     what = ("parsed in chunks into a temporary file, then read in blocks, four passes over "
             "the rows" if facts.get("kind") == "text"
-            else "read in blocks, four passes over the file")
+            else "read in blocks, four passes over the file" + _checked(facts, args))
     need = events_bytes(chans, spec, levels_from(args.levels, spec, int(facts["frames"])))
     print(f"scalesieve: note: {args.file}: {what}, about "
           f"{need / 2**20:.0f} MiB of memory", file=sys.stderr)
     # a text table's rows are counted as it is parsed: the level follows that count
-    src = open_source(args.file, args.channel, args.rate)
+    src = open_source(args.file, args.channel, args.rate, fill_gaps=args.fill_gaps,
+                      group=args.group, dataset=args.dataset)
     spec = spec_from(args, src.frames, args.file)
     levels = levels_from(args.levels, spec, src.frames)
     events, noise, got = events_stream(args.file, spec, levels, args.k, channel=args.channel,

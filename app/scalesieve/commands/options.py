@@ -77,9 +77,11 @@ def add_input_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--group", default=None, metavar="NAME",
                    help="TDMS group or MDF channel group to read, when the file holds several")
     g.add_argument("--dataset", default=None, metavar="NAME",
-                   help="MATLAB variable or HDF5 dataset to read, when there are several")
+                   help="MATLAB variable, HDF5 dataset or .npz array to read, when there are "
+                        "several")
     g.add_argument("--fill-gaps", choices=("linear",), default=None, dest="fill_gaps",
-                   help="fill empty or NaN cells of a text file by linear interpolation")
+                   help="fill empty or NaN cells of a text file, or NaN samples, by linear "
+                        "interpolation")
 
 
 def load_input(args, path: str):

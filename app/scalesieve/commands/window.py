@@ -109,6 +109,9 @@ def _long(args, path: str, spec) -> bool:
     need = memory_guard.estimate(facts, channel=args.channel, transform=spec)
     why = (not_streamable(facts, spec, [], args.fill_gaps) if spec.kind == "dwt" else None) \
         or why_not_long(spec)
+    if why is None and args.fill_gaps is not None:
+        # the long view reads the file's samples as they are (longview.samples)
+        why = "--fill-gaps needs the whole recording in the window"
     if why is None and (args.impacts or args.band or args.bearing):
         why = "the Impacts dock needs the whole recording in memory"
     if why is not None:

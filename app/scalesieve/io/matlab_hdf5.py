@@ -124,18 +124,36 @@ def _hdf5(source: str, dataset: str | None, matlab: bool) -> Source:
         f.close()
 
     def read(a: int, b: int, cols: list[int]) -> np.ndarray:
-        with h5py.File(source, "r") as fh:
-            d = fh[name]
-            if d.ndim == 1:
-                block = d[a:b][:, None]
-            elif time_axis == 0:
-                block = d[a:b, :]
-            else:
-                block = d[:, a:b].T
-        return np.asarray(block, dtype=np.float64)[:, cols]
+        r = _Hdf5Ranges(h5py, source, name, time_axis)
+        try:
+            return r.read(a, b, cols)
+        finally:
+            r.close()
 
     return Source(names, [unit] * width, rate, int(frames), read,
-                  format="MATLAB v7.3" if matlab else "HDF5", detail={"dataset": name})
+                  format="MATLAB v7.3" if matlab else "HDF5", detail={"dataset": name},
+                  session=lambda: _Hdf5Ranges(h5py, source, name, time_axis))
+
+
+class _Hdf5Ranges:
+    """An HDF5 file open while ranges of one dataset are read, each a slice on disk."""
+
+    def __init__(self, h5py, source: str, name: str, time_axis: int):
+        self.file = h5py.File(source, "r")
+        self.d, self.time_axis = self.file[name], time_axis
+
+    def read(self, a: int, b: int, cols: list[int]) -> np.ndarray:
+        d = self.d
+        if d.ndim == 1:
+            block = d[a:b][:, None]
+        elif self.time_axis == 0:
+            block = d[a:b, :]
+        else:
+            block = d[:, a:b].T
+        return np.asarray(block, dtype=np.float64)[:, cols]
+
+    def close(self) -> None:
+        self.file.close()
 
 
 # zlib's deflate packs at most about 1032 bytes into one (its format's limit)

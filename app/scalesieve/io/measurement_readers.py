@@ -8,7 +8,8 @@ rate where the format stores it, else ``--rate``.
 Each format opens as a :class:`Source`: names, units, rate, ``frames`` and
 ``read(start, stop)``, so the facts (for the memory guard) come without the
 samples, and a span can be read where the format allows it cheaply (TDMS,
-HDF5 slice on disk; the others read whole and cut).
+HDF5 slice on disk; the others read whole and cut).  ``Source.opened()`` keeps
+the file open for many ranges (``io.measurement_ranges`` says how, per format).
 """
 
 from __future__ import annotations
@@ -32,11 +33,16 @@ EXTENSIONS = {".tdms": "tdms", ".edf": "edf", ".bdf": "bdf", ".mat": "mat", ".h5
               ".hdf5": "hdf5", ".hdf": "hdf5", ".he5": "hdf5", ".mf4": "mdf", ".mdf": "mdf",
               ".xlsx": "xlsx", ".xlsm": "xlsx"}
 
+#: Formats whose samples are read by range without loading a whole channel (the others
+#: are read whole: ``stream.choice`` says why when a command would need them in blocks).
+RANGED = frozenset({"TDMS", "HDF5", "MATLAB v7.3", "EDF", "NumPy", "ASAM MDF"})
+
 #: What each format is called in messages, and the library that reads it.
 NAMES = {"tdms": ("TDMS", "npTDMS", "nptdms"), "edf": ("EDF", "edfio", "edfio"),
          "bdf": ("BDF", "edfio", "edfio"), "mat": ("MATLAB", "scipy", "scipy.io"),
          "mat73": ("MATLAB v7.3", "h5py", "h5py"), "hdf5": ("HDF5", "h5py", "h5py"),
-         "mdf": ("ASAM MDF", "asammdf", "asammdf"), "xlsx": ("Excel", "openpyxl", "openpyxl")}
+         "mdf": ("ASAM MDF", "asammdf", "asammdf"), "xlsx": ("Excel", "openpyxl", "openpyxl"),
+         "npy": ("NumPy", "numpy", "numpy"), "npz": ("NumPy", "numpy", "numpy")}
 
 #: Names of a scalar that gives the rate in Hz (case-insensitive).
 RATE_NAMES = ("fs", "rate", "sample_rate", "samplerate", "sampling_rate")
@@ -54,6 +60,10 @@ def kind_of(head: bytes, ext: str) -> str | None:
         return "mat73"
     if head.startswith(b"MDF     ") or head.startswith(b"UnFinMF "):
         return "mdf"
+    if head.startswith(b"\x93NUMPY"):
+        return "npy"
+    if ext == ".npz" and head[:4] in (b"PK\x03\x04", b"PK\x05\x06"):
+        return "npz"
     if head.startswith(b"\xffBIOSEMI"):
         return "bdf"
     if head.startswith(b"0       ") and len(head) >= 256 and ext in (".edf", ".rec", ""):
@@ -81,8 +91,8 @@ class _Notes(logging.Handler):
 
 
 @contextlib.contextmanager
-def _quiet_libraries():
-    """Library log lines and Python warnings gathered instead of printed."""
+def _quiet_libraries(collect: bool = True):
+    """Library log lines and Python warnings gathered instead of printed (and collected)."""
     notes = _Notes()
     saved = []
     # npTDMS hangs a console handler on each of its module loggers: take them all.
@@ -102,7 +112,8 @@ def _quiet_libraries():
             warnings.simplefilter("ignore")
             yield notes
     finally:
-        gc.collect()
+        if collect:
+            gc.collect()
         sys.unraisablehook = hook
         for log, propagate, handlers in saved:
             log.handlers = handlers
@@ -135,12 +146,21 @@ class Source:
     warnings: list[str] = field(default_factory=list)
     format: str = ""
     detail: dict = field(default_factory=dict)
+    #: callable () -> an object with ``read(start, stop, columns)`` and ``close()`` that keeps
+    #: the file open over many ranges; None: ranges come from ``reader``
+    session: object = None
 
     def read(self, start: int = 0, stop: int | None = None,
              columns: list[int] | None = None) -> np.ndarray:
         stop = self.frames if stop is None else stop
         cols = list(range(len(self.names))) if columns is None else list(columns)
         return self.reader(start, stop, cols)
+
+    def opened(self):
+        """A reader of many ranges (``read(start, stop, columns)``, ``close()``)."""
+        from scalesieve.io.measurement_ranges import WholeReads
+
+        return WholeReads(self.reader) if self.session is None else self.session()
 
 
 def _float_array(a, what: str, source: str) -> np.ndarray:
@@ -243,16 +263,18 @@ def _tdms(source: str, group: str | None, dataset: str | None) -> Source:
     names = [c.name for c in numeric]
     units = [str(c.properties.get("unit_string", "") or "") for c in numeric]
 
+    from scalesieve.io.measurement_ranges import TdmsRanges
+
     def read(a: int, b: int, cols: list[int]) -> np.ndarray:
-        out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
-        with _CappedFile(source) as raw, nptdms.TdmsFile.open(raw) as fh:
-            grp = fh[name]
-            for j, k in enumerate(cols):
-                out[:, j] = grp[names[k]][a:b]
-        return out
+        r = TdmsRanges(nptdms, source, name, names)
+        try:
+            return r.read(a, b, cols)
+        finally:
+            r.close()
 
     return Source(names, units, rate, lengths.pop(), read, start_time, format="TDMS",
-                  detail={"group": name})
+                  detail={"group": name},
+                  session=lambda: TdmsRanges(nptdms, source, name, names))
 
 
 # ------------------------------------------------------------------------- EDF/BDF
@@ -288,53 +310,65 @@ def _edf(source: str, kind: str, channel) -> Source:
         return np.column_stack([np.asarray(signals[k].data, dtype=np.float64)[a:b]
                                 for k in cols]) if cols else np.empty((b - a, 0))
 
-    # at mixed rates the reader takes the chosen channel's own length
-    frames = min(len(s.data) for s in signals)
-    src = Source(names, units, rates[0], frames, read, start_time, format=NAMES[kind][0],
-                 detail=detail)
-    src.detail["lengths"] = [len(s.data) for s in signals]
+    # at mixed rates the reader takes the chosen channel's own length (from the header:
+    # a lazily loaded signal's data stays on disk until it is read)
+    lengths = [int(s.samples_per_data_record) * int(edf.num_data_records) for s in signals]
+    src = Source(names, units, rates[0], min(lengths), read, start_time,
+                 format=NAMES[kind][0], detail=detail)
+    src.detail["lengths"] = lengths
+    if kind == "edf":       # edfio loads BDF whole; an EDF file lazily, a slice at a time
+        from scalesieve.io.measurement_ranges import EdfRanges
+
+        src.session = lambda: EdfRanges(edfio, source)
     return src
 
 
 # --------------------------------------------------------------------- HDF5 / MAT
 
-def _mdf(source: str, group: str | None) -> Source:
+def _mdf_open(source: str, fh=None):
     asammdf = _library("mdf", source)
-    reason = None
     try:
-        mdf = asammdf.MDF(source)
+        return asammdf.MDF(source if fh is None else fh)
     except Exception as exc:  # asammdf raises many kinds on damaged files
         reason = _reason(exc)
-    if reason is not None:
-        gc.collect()  # the half-made object goes now, while its complaints are quietened
-        raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
+    gc.collect()  # the half-made object goes now, while its complaints are quietened
+    raise ScalesieveError(f"is not a readable MDF file ({reason})", source=source)
+
+
+def _mdf_group(mdf, group: str | None, source: str):
+    """``(index, label, cycles, [(channel index, channel)])`` of the channel group to read."""
+    groups = []
+    for gi, g in enumerate(mdf.groups):
+        chans = [(ci, c) for ci, c in enumerate(g.channels) if c.channel_type != 2
+                 and getattr(c, "component_addr", 0) == 0 and c.name]
+        cycles = int(g.channel_group.cycles_nr)
+        if chans and cycles > 0:
+            label = (getattr(g.channel_group, "acq_name", "") or "").strip() or str(gi)
+            groups.append((gi, label, cycles, chans))
+    if not groups:
+        raise ScalesieveError("holds no channel group with samples", source=source)
+    if group is None and len(groups) > 1:
+        parts = "; ".join(f"{label!r} ({', '.join(c.name for _, c in chans[:4])}"
+                          f"{', ...' if len(chans) > 4 else ''}; {cycles} samples)"
+                          for _, label, cycles, chans in groups)
+        raise ScalesieveError(f"holds {len(groups)} channel groups on different time "
+                              f"bases: {parts}; choose one with --group NAME or number",
+                              source=source)
+    if group is None:
+        chosen = groups[0]
+    else:
+        chosen = next((x for x in groups if x[1] == group or str(x[0]) == group), None)
+        if chosen is None:
+            listed = ", ".join(f"{label!r} ({gi})" for gi, label, _, _ in groups)
+            raise ScalesieveError(f"--group {group!r} is not in the file; its channel "
+                                  f"groups: {listed}", source=source)
+    return chosen
+
+
+def _mdf(source: str, group: str | None) -> Source:
+    mdf = _mdf_open(source)
     try:
-        groups = []
-        for gi, g in enumerate(mdf.groups):
-            chans = [(ci, c) for ci, c in enumerate(g.channels) if c.channel_type != 2
-                     and getattr(c, "component_addr", 0) == 0 and c.name]
-            cycles = int(g.channel_group.cycles_nr)
-            if chans and cycles > 0:
-                label = (getattr(g.channel_group, "acq_name", "") or "").strip() or str(gi)
-                groups.append((gi, label, cycles, chans))
-        if not groups:
-            raise ScalesieveError("holds no channel group with samples", source=source)
-        if group is None and len(groups) > 1:
-            parts = "; ".join(f"{label!r} ({', '.join(c.name for _, c in chans[:4])}"
-                              f"{', ...' if len(chans) > 4 else ''}; {cycles} samples)"
-                              for _, label, cycles, chans in groups)
-            raise ScalesieveError(f"holds {len(groups)} channel groups on different time "
-                                  f"bases: {parts}; choose one with --group NAME or number",
-                                  source=source)
-        if group is None:
-            chosen = groups[0]
-        else:
-            chosen = next((x for x in groups if x[1] == group or str(x[0]) == group), None)
-            if chosen is None:
-                listed = ", ".join(f"{label!r} ({gi})" for gi, label, _, _ in groups)
-                raise ScalesieveError(f"--group {group!r} is not in the file; its channel "
-                                      f"groups: {listed}", source=source)
-        gi, label, cycles, chans = chosen
+        gi, label, cycles, chans = _mdf_group(mdf, group, source)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             sigs = [mdf.get(group=gi, index=ci) for ci, _ in chans]
@@ -420,11 +454,13 @@ def _reason(exc: Exception) -> str:
 
 
 def open_source(source: str, kind: str, *, group: str | None = None,
-                dataset: str | None = None, channel=None) -> Source:
-    """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`)."""
+                dataset: str | None = None, channel=None, lazy: bool = False) -> Source:
+    """The :class:`Source` of a measurement file of ``kind`` (see :func:`kind_of`);
+    ``lazy``: an MDF file's samples and time stamps left on disk (read by range)."""
     _library(kind, source)  # imported first: its loggers must exist to be quietened
     try:
         from scalesieve.io.matlab_hdf5 import _hdf5, _mat5
+        from scalesieve.io.measurement_ranges import mdf_by_range
 
         with _quiet_libraries() as notes:
             if kind == "tdms":
@@ -436,7 +472,11 @@ def open_source(source: str, kind: str, *, group: str | None = None,
             elif kind in ("mat73", "hdf5"):
                 src = _hdf5(source, dataset, matlab=kind == "mat73")
             elif kind == "mdf":
-                src = _mdf(source, group)
+                src = mdf_by_range(source, group) if lazy else _mdf(source, group)
+            elif kind in ("npy", "npz"):
+                from scalesieve.io.numpy_arrays import numpy_source
+
+                src = numpy_source(source, kind, dataset)
             else:  # pragma: no cover - kind_of names only these
                 raise ValueError(f"unknown measurement format {kind!r}")
         label = NAMES[kind][1]
@@ -455,6 +495,11 @@ def open_source(source: str, kind: str, *, group: str | None = None,
                                       f"({_reason(exc)})", source=source) from None
 
         src.reader = quiet_reader
+        if src.session is not None:
+            opener = src.session
+            from scalesieve.io.measurement_ranges import QuietRanges
+
+            src.session = lambda: QuietRanges(opener, kind, source)
         return src
     except ScalesieveError:
         raise
@@ -547,6 +592,10 @@ def probe_facts(source: str, kind: str) -> dict:
                         names = [c.name for c in g.channels if c.channel_type != 2]
             finally:
                 mdf.close()
+        elif kind in ("npy", "npz"):
+            from scalesieve.io.numpy_arrays import probe_numpy
+
+            frames, names, rate = probe_numpy(source, kind)
         elif kind == "xlsx":
             openpyxl = _library(kind, source)
             wb = openpyxl.load_workbook(source, read_only=True)

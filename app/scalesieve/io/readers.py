@@ -18,7 +18,7 @@ from scalesieve.errors import ScalesieveError
 # read: an audio file's commands do not pay for it at start.
 from scalesieve.io import measurement_readers
 from scalesieve.io.input_check import check_channel, check_rate
-from scalesieve.io.gaps import check_fill_method, fill_linear
+from scalesieve.io.gaps import check_fill_method, describe_runs, fill_linear
 from scalesieve.io.input_check import (MAX_ABS_SAMPLE, check_readable, first_unusable,
                                        os_error_message)
 from scalesieve.io.quiet_native import quiet_native_stderr
@@ -371,11 +371,7 @@ def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype
     if np.isnan(samples).any():
         col = int(np.flatnonzero(np.isnan(samples).any(axis=0))[0])
         runs = _nan_runs(samples[:, col])
-        a, b = runs[0]
-        where = (f"channel {names[col]!r} holds NaN from sample {a} to {b} ({b - a + 1} "
-                 f"samples, at {a / file_rate:.6g} s)"
-                 + (f" and {len(runs) - 1} more run{'s' if len(runs) > 2 else ''}"
-                    if len(runs) > 1 else ""))
+        where = describe_runs(names[col], runs[0], len(runs), file_rate)
         if fill_gaps is None:
             raise ScalesieveError(f"{where}; use --fill-gaps linear to fill gaps",
                                   source=source)

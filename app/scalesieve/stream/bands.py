@@ -23,7 +23,8 @@ from scalesieve.stream.statistics import plain_dot
 
 
 def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None,
-                        rate: float | None = None, progress=None) -> tuple[dict, list]:
+                        rate: float | None = None, progress=None, fill_gaps=None,
+                        group=None, dataset=None) -> tuple[dict, list]:
     """The figures of ``bands --json`` for every band of every channel, in one pass.
 
     Returns ``(facts, channels)``: ``facts`` holds ``rate``, ``samples``,
@@ -35,7 +36,8 @@ def band_figures_stream(input_path: str, spec: tf.TransformSpec, *, channel=None
     component is synthesised block by block on its own and summed as it
     comes, so nothing is held at full length.
     """
-    src = open_source(input_path, channel, rate, progress)
+    src = open_source(input_path, channel, rate, progress, fill_gaps=fill_gaps, group=group,
+                      dataset=dataset)
     progress = after_parse(src, progress)
     n = src.frames
     try:

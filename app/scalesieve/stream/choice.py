@@ -17,14 +17,28 @@ SWT_COPIES = 5
 #: --only events --force-blocks runs the command)
 EVENTS_COPIES = {"swt": 6, "dwt": 4}
 
+#: why a text table's gaps are not filled in blocks
+TEXT_FILL_REFUSAL = ("--fill-gaps on a text table needs the whole table (a jump of its clock "
+                     "adds rows)")
+
+#: why a measurement format whose library reads it whole is not read in blocks
+WHOLE_FORMATS = {
+    "MATLAB": "scipy.io reads a MATLAB v5 variable whole (save it as v7.3, which is HDF5, "
+              "to have it read in blocks)",
+    "BDF": "edfio reads BDF files whole (it loads only EDF lazily)",
+    "Excel": "an Excel workbook is read whole, as a text table",
+}
+
 
 def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence[str],
                    fill_gaps: str | None = None, channel=None, swt: bool = False,
                    packets: bool = False) -> str | None:
     """Why a command cannot run block by block, or None when it can.
 
-    Audio files and text tables (CSV, TSV, TXT, DAT: ``stream.text_source``)
-    are read in blocks.  The SWT runs in blocks in every boundary mode
+    Audio files, text tables (CSV, TSV, TXT, DAT: ``stream.text_source``) and
+    the measurement formats read by range (TDMS, HDF5, MATLAB v7.3, EDF, MDF, NumPy:
+    ``stream.measurement_source``) are read in blocks; ``--fill-gaps`` fills
+    them block by block, except a text table's.  The SWT runs in blocks in every boundary mode
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
     Wavelet packets run in blocks for the commands that can take them
@@ -33,9 +47,15 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     """
     from scalesieve.io.writers import AUDIO_FORMAT_BY_EXTENSION, CSV_EXTENSIONS
 
+    from scalesieve.io.measurement_readers import RANGED
+
     kind = None if facts is None else facts.get("kind")
-    if kind not in ("audio", "text"):
-        return "only audio files (WAV, FLAC, AIFF, ...) and text tables are read in blocks"
+    if kind == "measurement" and facts.get("format") not in RANGED:
+        fmt = facts.get("format")
+        return WHOLE_FORMATS.get(fmt, f"{fmt} files are read whole")
+    if kind not in ("audio", "text", "measurement"):
+        return ("only audio files (WAV, FLAC, AIFF, ...), text tables and measurement files "
+                "(TDMS, HDF5, MATLAB v7.3, EDF, MDF, NumPy) are read in blocks")
     if kind == "audio" and not facts.get("frames_exact"):
         # (a text table's rows are counted as it is parsed in chunks: stream.text_source)
         return "its header's frame count cannot be trusted"
@@ -51,8 +71,8 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         ext = os.path.splitext(out)[1].lower()
         if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
             return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
-    if fill_gaps is not None:
-        return "--fill-gaps needs the whole recording"
+    if fill_gaps is not None and kind == "text":
+        return TEXT_FILL_REFUSAL
     return None
 
 

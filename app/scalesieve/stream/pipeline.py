@@ -39,7 +39,7 @@ from scalesieve.stream.wrap import forward_stream, inverse_stream
 
 
 def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force, rate,
-             channel, fill_gaps, progress=None):
+             channel, fill_gaps, progress=None, group=None, dataset=None):
     """Every check a clean makes before it reads a sample: ``(src, spec, plan)``."""
     from scalesieve.io.atomic import check_target
     from scalesieve.recipe import check_against
@@ -48,9 +48,8 @@ def _prepare(input_path: str, outputs: list, *, recipe, transform, edits, force,
         raise ScalesieveError("-o and --removed name the same file", outputs[0])
     for out in outputs:
         check_target(out, force=force, protect=[input_path])
-    if fill_gaps is not None:
-        raise ScalesieveError("--fill-gaps needs the whole recording", input_path)
-    src = open_source(input_path, channel, rate, progress)
+    src = open_source(input_path, channel, rate, progress, fill_gaps=fill_gaps, group=group,
+                      dataset=dataset)
     n = src.frames
     spec = transform or (recipe.transform if recipe is not None else None) or tf.TransformSpec()
     try:
@@ -111,10 +110,12 @@ def _result(src, reports, join, passes, spec, edits=()) -> dict:
         "outputs": reports,
         "clipped": int(sum(r["clipped"] for r in reports)),
         "energy_removed_fraction": join.removed_energy / join.energy if join.energy > 0 else 0.0,
-        "blocks": {"passes": passes, "frames_per_block": READ_FRAMES,
+        # a measurement file, or gaps to fill: one pass checks the file first (sources)
+        "blocks": {"passes": passes + int(bool(getattr(src, "checked", False))),
+                   "frames_per_block": READ_FRAMES,
                    "bytes": stream_bytes(src.channels, spec),
                    # a text table: parsed once in chunks into a temporary file of rows
-                   "table_parsed": src.format is None},
+                   "table_parsed": src.parsed},
         "recipe": Recipe(transform=spec, edits=edits),   # as applied: level resolved
         "warnings": src.warnings(),
     }
@@ -125,7 +126,8 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
                  transform: tf.TransformSpec | None = None, edits: Sequence = (),
                  removed: str | None = None, subtype: str | None = None, force: bool = False,
                  rate: float | None = None, channel: int | None = None,
-                 fill_gaps: str | None = None, progress=None) -> dict:
+                 fill_gaps: str | None = None, progress=None, group: str | None = None,
+                 dataset: str | None = None) -> dict:
     """``scalesieve.batch.clean_file`` block by block: the same arguments and report.
 
     The report also says ``"blocks": {"passes", "frames_per_block", "bytes"}``:
@@ -135,7 +137,8 @@ def clean_stream(input_path: str, output: str, *, recipe=None,
     outputs = [output] + ([removed] if removed else [])
     src, spec, plan = _prepare(input_path, outputs, recipe=recipe, transform=transform,
                                edits=edits, force=force, rate=rate, channel=channel,
-                               fill_gaps=fill_gaps, progress=progress)
+                               fill_gaps=fill_gaps, progress=progress, group=group,
+                               dataset=dataset)
     progress = after_parse(src, progress)
     n = src.frames
     # a threshold rule needs two passes for a median, one for band sums

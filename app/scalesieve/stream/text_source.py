@@ -396,54 +396,60 @@ class TextSource:
 
     def _time_rate(self) -> float:
         """``time_column.analyse_steps`` over the time column in blocks (no gaps filled)."""
-        from scalesieve.io import time_column as tc
+        return steps_rate(self._times, self.frames, self.path, self.start_time, self._line_of)
 
-        n, origin, src = self.frames, self.start_time, self.path
-        if n < 2:
-            raise tc.too_few_rows(src)
-        median = _StepMedian()
 
-        def steps():
-            before = None
-            for a, t in self._times():
-                joined = t if before is None else np.concatenate([[before], t])
-                s0 = a if before is None else a - 1          # row of joined[0]
-                yield s0, joined, np.diff(joined)
-                before = float(t[-1])
-        for s0, t, s in steps():
-            bad = np.flatnonzero(~(s > 0))
-            if bad.size:
-                i = int(bad[0]) + 1
-                raise tc.not_increasing(t[i - 1], t[i], self._line_of(s0 + i), src, origin)
-            median.add(s)
-        median.end_pass()
-        for _, _, s in steps():
-            median.add(s)
-        median.end_pass()
-        typical = median.value
-        lo = hi = None
-        worst, worst_at, first_jump, t0, t1 = -np.inf, None, None, None, None
-        for s0, t, s in steps():
-            if t0 is None:
-                t0 = float(t[0])
-            t1 = float(t[-1])
-            jump = s >= tc.JUMP_FACTOR * typical
-            regular = s[~jump]
-            if regular.size:
-                lo = regular.min() if lo is None else min(lo, regular.min())
-                hi = regular.max() if hi is None else max(hi, regular.max())
-            dev = np.abs(s - typical)
-            dev[jump] = -1.0
-            j = int(np.argmax(dev))
-            if dev[j] > worst:                       # the first largest, as numpy.argmax
-                worst, worst_at = dev[j], (s0 + j + 1, float(s[j]))
-            if first_jump is None and jump.any():
-                j = int(np.flatnonzero(jump)[0])
-                first_jump = (s0 + j + 1, float(t[j]), float(t[j + 1]))
-        spread = float(hi - lo) / typical
-        if not spread < tc.UNIFORM_STEP_TOLERANCE:
-            raise tc.not_uniform(spread, worst_at[1], typical, self._line_of(worst_at[0]), src)
-        if first_jump is not None:
-            row, before, here = first_jump
-            raise tc.clock_jump(before, here, typical, self._line_of(row), src, origin)
-        return tc.tidy_rate(float((n - 1) / (t1 - t0)), False)
+def steps_rate(times, n: int, src: str, origin, line_of) -> float:
+    """``time_column.analyse_steps(t, line_of, src, origin=origin).rate`` of a time axis of
+    ``n`` values that comes in blocks, without gaps filled: ``times()`` gives
+    ``(first row, seconds)`` of each block (it is called for each of three passes)."""
+    from scalesieve.io import time_column as tc
+
+    if n < 2:
+        raise tc.too_few_rows(src)
+    median = _StepMedian()
+
+    def steps():
+        before = None
+        for a, t in times():
+            joined = t if before is None else np.concatenate([[before], t])
+            s0 = a if before is None else a - 1          # row of joined[0]
+            yield s0, joined, np.diff(joined)
+            before = float(t[-1])
+    for s0, t, s in steps():
+        bad = np.flatnonzero(~(s > 0))
+        if bad.size:
+            i = int(bad[0]) + 1
+            raise tc.not_increasing(t[i - 1], t[i], line_of(s0 + i), src, origin)
+        median.add(s)
+    median.end_pass()
+    for _, _, s in steps():
+        median.add(s)
+    median.end_pass()
+    typical = median.value
+    lo = hi = None
+    worst, worst_at, first_jump, t0, t1 = -np.inf, None, None, None, None
+    for s0, t, s in steps():
+        if t0 is None:
+            t0 = float(t[0])
+        t1 = float(t[-1])
+        jump = s >= tc.JUMP_FACTOR * typical
+        regular = s[~jump]
+        if regular.size:
+            lo = regular.min() if lo is None else min(lo, regular.min())
+            hi = regular.max() if hi is None else max(hi, regular.max())
+        dev = np.abs(s - typical)
+        dev[jump] = -1.0
+        j = int(np.argmax(dev))
+        if dev[j] > worst:                       # the first largest, as numpy.argmax
+            worst, worst_at = dev[j], (s0 + j + 1, float(s[j]))
+        if first_jump is None and jump.any():
+            j = int(np.flatnonzero(jump)[0])
+            first_jump = (s0 + j + 1, float(t[j]), float(t[j + 1]))
+    spread = float(hi - lo) / typical
+    if not spread < tc.UNIFORM_STEP_TOLERANCE:
+        raise tc.not_uniform(spread, worst_at[1], typical, line_of(worst_at[0]), src)
+    if first_jump is not None:
+        row, before, here = first_jump
+        raise tc.clock_jump(before, here, typical, line_of(row), src, origin)
+    return tc.tidy_rate(float((n - 1) / (t1 - t0)), False)
