@@ -86,6 +86,10 @@ class LongRecording:
             raise ScalesieveError("the summary does not match the file (changed since?)", path)
         self.edits: tuple = ()
         self.plan = self._plan(())
+        from scalesieve.longview.edges import BandRanges
+
+        #: exact coefficients of any band over a range (a wide view's blocks at region edges)
+        self.ranges = BandRanges(self)
 
     # ------------------------------------------------------------------ edits
 

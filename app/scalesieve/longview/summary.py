@@ -68,14 +68,26 @@ class Series:
             t += 1
         return t
 
+    def blocks_in(self, t0: float, t1: float, columns: int) -> tuple[int, int, int]:
+        """``(table, a, b)``: blocks ``a .. b`` of the table fitting ``columns`` meet ``t0 .. t1``."""
+        t = self.table_for((t1 - t0) / max(1, columns))
+        width = self.block_samples(t)
+        a = max(0, int(np.floor((t0 - self.shift) / width)))
+        b = min(self.tables[t][0].shape[0], int(np.ceil((t1 - self.shift) / width)))
+        return t, a, b
+
+    def values_of(self, table: int, a: int, b: int) -> tuple[np.ndarray, np.ndarray]:
+        """``(starts, stops)``: the value indices blocks ``a .. b`` of ``table`` hold."""
+        size = self.block << (STEP * table)
+        starts = np.arange(a, b, dtype=np.int64) * size
+        return starts, np.minimum(starts + size, self.count)
+
     def window(self, t0: float, t1: float, columns: int):
         """``(centres, lo, hi, energy)`` of the blocks of the fitting table that meet ``t0 .. t1``;
         ``centres`` in samples (a full block's middle)."""
-        t = self.table_for((t1 - t0) / max(1, columns))
+        t, a, b = self.blocks_in(t0, t1, columns)
         lo, hi, en = self.tables[t]
         width = self.block_samples(t)
-        a = max(0, int(np.floor((t0 - self.shift) / width)))
-        b = min(lo.shape[0], int(np.ceil((t1 - self.shift) / width)))
         times = self.shift + width * (np.arange(a, b, dtype=np.float64) + 0.5)
         return times, lo[a:b], hi[a:b], en[a:b]
 
