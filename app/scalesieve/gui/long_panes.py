@@ -13,7 +13,8 @@ from PySide6.QtCore import QRectF, Signal
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QGridLayout, QHBoxLayout,
                                QLabel, QPushButton, QWidget)
 
-from scalesieve.gui.pane_frame import PaneFrame, make_plot
+from scalesieve.gui.map_regions import MapViewBox
+from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, palette
 from scalesieve.views.band_labels import gain_to_db, hz_range
 
@@ -22,7 +23,11 @@ MAP_FLOOR_DB = -50.0
 #: the Scale map's colour map (perceptual; resources/palette.json's default)
 MAP_COLOURS = palette()["default_colour_map"]
 #: height of one band row (px): row headers and map rows share it
-ROW_HEIGHT = 19
+ROW_HEIGHT = 22
+#: the map's rows start this far below the plot's top (its layout's top margin)
+MAP_TOP = 3
+#: the height of the map's time axis under its rows
+MAP_AXIS = 30
 
 
 def trace_xy(times: np.ndarray, lo: np.ndarray, hi: np.ndarray):
@@ -123,33 +128,60 @@ class LongScaleMap(PaneFrame):
 
     def __init__(self, parent=None):
         super().__init__("Scale map", parent)
+        from scalesieve.gui.long_regions import RegionLine
+
+        # the title and the edit lines above, across the pane; each band's controls beside
+        # its own row of the map
+        top = QWidget()
+        top.setObjectName("gutter")
+        line = QHBoxLayout(top)
+        line.setContentsMargins(8, 3, 8 + RIGHT_MARGIN, 3)
+        line.setSpacing(12)
+        self.gutter_layout.removeWidget(self.title)
+        line.addWidget(self.title)
         self.threshold = ThresholdLine()
-        self.gutter_layout.addWidget(self.threshold)
+        line.addWidget(self.threshold)
+        self.region_line = RegionLine()
+        line.addWidget(self.region_line, 1)
+        self.footer.insertWidget(0, top)
+        self.top = top
+        self.gutter_layout.setContentsMargins(8, MAP_TOP, 8, 0)
+        self.gutter_layout.setSpacing(0)
         self.rows = BandRows()
         self.gutter_layout.addWidget(self.rows)
-        self.gutter_layout.addStretch(1)
         self.legend = QLabel(f"colour: each column's largest |c| as edited, in dB below the "
                              f"view's largest (0 to {MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
         self.legend.setObjectName("hint")
         self.legend.setWordWrap(True)
         self.gutter_layout.addWidget(self.legend)
-        self.plot = make_plot()
-        self.plot.getPlotItem().getViewBox().invertY(True)
+        self.gutter_layout.addStretch(1)
+        # left-drag draws a region edit; shift-drag pans; the wheel zooms (as in memory)
+        self.view = MapViewBox()
+        self.view.invertY(True)
+        self.plot = make_plot(self.view)
+        self.plot.setToolTip("drag: a region edit (snapped to whole coefficient tiles) · "
+                             "shift-drag: pan · wheel: zoom · Del: remove the selected region")
         self.image = pg.ImageItem()
         self.image.setColorMap(pg.colormap.get(MAP_COLOURS))
         self.plot.addItem(self.image)
         self.content.addWidget(self.plot)
+        self.content.addStretch(1)          # the rows stay level with their controls
         self.plot.getPlotItem().getAxis("left").setLabel("band")
         self.plot.getPlotItem().getAxis("left").enableAutoSIPrefix(False)
         self.names: list = []
         self.waiting = pg.TextItem("", color=colour("plot", "foreground"), anchor=(0.5, 0.5))
         self.plot.addItem(self.waiting)
 
+    def height_needed(self) -> int:
+        """The edit lines, the rows with their controls and the time axis (set_rows first)."""
+        return self.top.sizeHint().height() + self.plot.maximumHeight() + 4
+
     def wait_for(self, text: str) -> None:
         """Say what is being prepared while there is nothing to draw (empty: drawing)."""
         self.waiting.setText(text)
         self.waiting.setVisible(bool(text))
         self.threshold.setEnabled(not text)
+        self.region_line.setEnabled(not text)
         if text:
             vb = self.plot.getPlotItem().getViewBox()
             vb.setRange(xRange=(0, 1), yRange=(0, 1), padding=0)
@@ -161,7 +193,8 @@ class LongScaleMap(PaneFrame):
         ax = self.plot.getPlotItem().getAxis("left")
         ax.setTicks([[(i + 0.5, n) for i, n in enumerate(names)]])
         self.plot.getPlotItem().getViewBox().setYRange(0, len(names), padding=0)
-        self.plot.setMinimumHeight(ROW_HEIGHT * len(names) + 40)
+        # rows of ROW_HEIGHT, beside their controls in the gutter
+        self.plot.setFixedHeight(ROW_HEIGHT * len(names) + MAP_TOP + MAP_AXIS)
 
     def draw(self, pic, t0_s: float, t1_s: float) -> None:
         m = np.asarray(pic.magnitudes)

@@ -21,7 +21,8 @@ from PySide6.QtWidgets import (QApplication, QComboBox, QFileDialog, QLabel, QMa
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.error_dialog import show_error
-from scalesieve.gui.long_panes import ROW_HEIGHT, LongOverview, LongScaleMap, LongTraces
+from scalesieve.gui.long_panes import LongOverview, LongScaleMap, LongTraces
+from scalesieve.gui.long_regions import LongRegions
 from scalesieve.gui.long_worker import LongWorker
 from scalesieve.recipe import Edit
 from scalesieve.views.long_picture import EXACT_MOST, rows_of
@@ -115,6 +116,8 @@ class LongWindow(QMainWindow):
         sb.addPermanentWidget(self.progress_bar)
         self.scale_map.rows.gain_changed.connect(lambda *_: self._ask())
         self.scale_map.threshold.changed.connect(self._ask)
+        self.regions = LongRegions(self.scale_map, self)
+        self.regions.changed.connect(self._ask)
         for plot in (self.scale_map.plot, self.traces.plot):
             plot.getPlotItem().getViewBox().sigXRangeChanged.connect(
                 lambda vb, rng: self._range_moved(rng))
@@ -140,12 +143,14 @@ class LongWindow(QMainWindow):
             bands.append((key, tf.band_name(key, level), lo, hi))
         self.scale_map.wait_for("")
         self.scale_map.rows.set_bands(bands)
-        # title, threshold line, the rows and the colour legend
-        need = 150 + ROW_HEIGHT * len(bands)
+        # the edit lines above, then the rows (as tall as their controls) and the time axis
+        self.scale_map.set_rows([b[1] for b in bands])
+        need = self.scale_map.height_needed()
         self.scale_map.setMinimumHeight(need)
+        self.scale_map.setMaximumHeight(need)
         total = sum(self.splitter.sizes())
         self.splitter.setSizes([need, max(120, total - need - 80), 80])
-        self.scale_map.set_rows([b[1] for b in bands])
+        self.regions.set_recording(lr, self.base_edits)
         self.channel_box.blockSignals(True)
         self.channel_box.clear()
         names = ([f"ch{lr.channel}"] if lr.channel is not None
@@ -178,7 +183,9 @@ class LongWindow(QMainWindow):
     # ------------------------------------------------------------------ edits
 
     def edits(self) -> tuple:
-        """The recipe's edits, then a gain per band changed here, then the threshold."""
+        """The recipe's edits, then a gain per band changed here, then the threshold, then the
+        region edits drawn here (after the threshold: a region never changes the noise a
+        threshold reads, so drawing one costs only the view)."""
         out = list(self.base_edits)
         if self.lr is None:
             return tuple(out)
@@ -192,6 +199,7 @@ class LongWindow(QMainWindow):
         if rule is not None:
             out.append(Edit("threshold", levels="details", rule=rule, noise="finest",
                             shape=self.scale_map.threshold.shape.currentData()))
+        out.extend(self.regions.edits)
         return tuple(out)
 
     # ------------------------------------------------------------------ view

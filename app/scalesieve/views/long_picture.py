@@ -203,3 +203,23 @@ def picture(lr, t0: int, t1: int, columns: int, channel: int = 0,
     if t1 - t0 <= exact_most:
         return _exact(lr, t0, t1, columns, channel)
     return _from_summary(lr, t0, t1, columns, channel, sweep)
+
+
+def snap_to_tiles(spec: tf.TransformSpec, n: int, rate: float, keys, t0_s: float,
+                  t1_s: float) -> tuple[float, float]:
+    """``[t0_s, t1_s]`` widened to whole coefficient tiles of the coarsest band in ``keys``.
+
+    A coefficient's tile is its time position ± half its band's spacing; the
+    finer bands' tiles nest inside the coarsest one's (as the in-memory
+    Scale map snaps a drawn region).
+    """
+    lengths = tf.band_lengths(n, spec)
+    key = max(keys, key=lambda k: tf._position_formula(k, spec)[0])
+    step, shift = tf._position_formula(key, spec)
+    count = max(1, lengths[tf.band_index(key, spec.level)])
+    k0 = int(np.clip(np.floor((t0_s * rate - shift) / step + 0.5), 0, count - 1))
+    k1 = int(np.clip(np.ceil((t1_s * rate - shift) / step - 0.5), k0, count - 1))
+    start = (shift + (k0 - 0.5) * step) / rate
+    stop = (shift + (k1 + 0.5) * step) / rate
+    dur = n / rate
+    return max(0.0, start), min(dur, stop) if stop > 0 else dur
