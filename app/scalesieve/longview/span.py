@@ -217,7 +217,10 @@ class LongRecording:
                             channel=self.channel, progress=progress)
 
     def close(self) -> None:
+        from scalesieve.longview.cache import let_go
+
         self.reader.close()
+        let_go(self.summary)
 
 
 def open_long(path: str, spec: tf.TransformSpec, channel: int | None = None,
