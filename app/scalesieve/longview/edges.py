@@ -20,6 +20,7 @@ import numpy as np
 import pywt
 
 from scalesieve.core import transforms as tf
+from scalesieve.longview.wrapped import WRAP_MODES
 
 #: raw coefficients kept for blocks asked for again (bytes)
 KEEP_BYTES = 64 << 20
@@ -76,6 +77,15 @@ class BandRanges:
         got = self._kept.get(tag)
         if got is not None:
             self._kept.move_to_end(tag)
+            return got
+        if lr.spec.mode in WRAP_MODES:
+            from scalesieve.longview.wrapped import WrappedStretch
+
+            ws = WrappedStretch(lambda a, b: lr.reader.read(a, b)[:, k], lr.n, lr.spec)
+            details, approx = ws.forward({key: [(c0, c1)]})
+            got = (approx[lr.spec.level] if key == "a" else details[key]).take(np.arange(c0, c1))
+            self.made += 1
+            self._keep(tag, got)
             return got
         j = lr.spec.level if key == "a" else int(key)
         first, last = reach(lr.n, lr.spec, j, c0, c1)

@@ -162,7 +162,7 @@ class Summary:
             return self._find(source, wanted, progress, cancelled)
 
     def _find(self, source, wanted, progress, cancelled) -> bool:
-        from scalesieve.stream.dwt import ForwardStream
+        from scalesieve.stream.wrap import forward_stream
 
         todo = self.missing(wanted)
         if not todo:
@@ -184,7 +184,8 @@ class Summary:
                     m.add(c)
             return put
         chans = sorted({k for k, _ in todo})
-        streams = {k: ForwardStream(self.n, self.spec, put_for(k), depth=depth) for k in chans}
+        streams = {k: forward_stream(source, self.spec, put_for(k), k, depth=depth)
+                   for k in chans}
         for block in source.blocks():
             if cancelled is not None and cancelled():
                 raise InterruptedError("noise pass cancelled")
@@ -212,12 +213,13 @@ def _sparse(m: st.MedianOfMagnitudes) -> tuple:
 
 def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summary:
     """The summary of ``source`` (``stream.pipeline._Source``: ``blocks()``, ``frames``,
-    ``rate``, ``channels``) under the resolved DWT ``spec`` in a mode that extends
-    the signal at its edges, in one pass; ``progress(fraction, text)`` as it goes;
+    ``rate``, ``channels``) under the resolved DWT ``spec`` in any mode, in one pass
+    (``periodic`` and ``periodization`` read the recording's ends first); ``progress(fraction, text)`` as it goes;
     ``cancelled()`` true stops it (``InterruptedError``)."""
-    from scalesieve.stream.dwt import ForwardStream, can_stream
+    from scalesieve.stream.dwt import can_stream
+    from scalesieve.stream.wrap import WRAP_MODES, forward_stream
 
-    if not can_stream(spec):
+    if not (can_stream(spec) or (spec.kind == "dwt" and spec.mode in WRAP_MODES)):
         raise ValueError(f"the {spec.kind} in mode {spec.mode} has no summary in blocks")
     n, level, chans = source.frames, spec.level, source.channels
     keys = tf.band_keys(level)
@@ -243,7 +245,7 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
                 count(k, key)
             blockers[k][key].add(c)
         return put
-    streams = [ForwardStream(n, spec, put_for(k)) for k in range(chans)]
+    streams = [forward_stream(source, spec, put_for(k), k) for k in range(chans)]
     for block in source.blocks():
         if cancelled is not None and cancelled():
             raise InterruptedError("summary cancelled")

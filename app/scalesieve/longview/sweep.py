@@ -38,8 +38,8 @@ class CleanedSweep:
 
         Returns False when ``cancelled()`` stopped it.
         """
-        from scalesieve.stream.dwt import ForwardStream, InverseStream
         from scalesieve.stream.pipeline import _Source
+        from scalesieve.stream.wrap import forward_stream, inverse_stream
 
         lr, k = self.lr, self.channel
         n, spec = lr.n, lr.spec
@@ -55,15 +55,15 @@ class CleanedSweep:
             made[0] = s0 + seg.shape[0]
             x_kept.drop_below(made[0])
 
-        inv = InverseStream(n, spec, out)
+        src = _Source(lr.path, lr.channel)
         bands = self.plan.bands[k]
+        inv = inverse_stream(src, spec, out, k, bands)     # any mode, as the export runs it
 
         def put(key, k0, c):
             inv.put(key, k0, bands[key].edited(c, k0))
-        fwd = ForwardStream(n, spec, put)
+        fwd = forward_stream(src, spec, put, k)
         last = time.perf_counter()
-        pick = lr.channel
-        for b in _Source(lr.path, pick).blocks():
+        for b in src.blocks():
             if cancelled():
                 return False
             col = np.ascontiguousarray(b[:, k])
