@@ -93,6 +93,7 @@ class LongRecording:
         if self.reader.frames != self.n or self.reader.channels != self.channels:
             raise ScalesieveError("the summary does not match the file (changed since?)", path)
         self.edits: tuple = ()
+        self._last_forward = None          # ((t0, t1), samples, raw coefficients)
         self.plan = self._plan(())
         from scalesieve.longview.edges import BandRanges
 
@@ -164,7 +165,7 @@ class LongRecording:
 
     def synthesise(self, t0: int, t1: int, keep_coefficients: bool = True) -> Span:
         """Exact original and cleaned samples ``t0 .. t1`` (clipped to the recording)."""
-        from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
+        from scalesieve.stream.dwt import InverseStream, stretch
 
         n, spec, level = self.n, self.spec, self.spec.level
         t0, t1 = max(0, int(t0)), min(n, int(t1))
@@ -175,7 +176,7 @@ class LongRecording:
             return self._wrapped(t0, t1, keep_coefficients)
         first, last = stretch(n, spec, t0, t1)
         starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
-        x = self.reader.read(first[0], last[0])
+        x, made = self._forward(t0, t1, first, last)
         cleaned = np.empty((t1 - t0, self.channels))
         kept: list = [{} for _ in range(self.channels)]
         for k in range(self.channels):
@@ -183,19 +184,38 @@ class LongRecording:
                 cleaned[s0 - t0:s0 - t0 + seg.shape[0], k] = seg
             inv = InverseStream(n, spec, out, start=t0, stop=t1, band_starts=starts)
             bands = self.plan.bands[k]
-
-            def put(key, k0, c, inv=inv, bands=bands, k=k):
+            for step in made[k]:
+                if step is None:                 # as the cascade was fed: pump between
+                    inv.pump()
+                    continue
+                key, k0, c = step
                 e = bands[key].edited(c, k0)
                 if keep_coefficients:
                     kept[k].setdefault(key, []).append((k0, np.array(e, dtype=np.float64)))
                 inv.put(key, k0, e)
-            fwd = ForwardStream(n, spec, put, first=first, last=last)
+        coefficients = [self._within(kept[k], t0, t1) for k in range(self.channels)]
+        return Span(t0, t1, x[t0 - first[0]:t1 - first[0]].copy(), cleaned, coefficients)
+
+    def _forward(self, t0: int, t1: int, first: list, last: list) -> tuple:
+        """The samples and every channel's raw coefficients for outputs ``t0 .. t1``, in the
+        order the cascade made them (``None`` where a block of samples ended); the last
+        stretch's are kept, so another edit on the same view only edits and synthesises."""
+        from scalesieve.stream.dwt import ForwardStream
+
+        if self._last_forward is not None and self._last_forward[0] == (t0, t1):
+            return self._last_forward[1], self._last_forward[2]
+        x = self.reader.read(first[0], last[0])
+        made: list = [[] for _ in range(self.channels)]
+        for k in range(self.channels):
+            def put(key, k0, c, steps=made[k]):
+                steps.append((key, k0, np.array(c, dtype=np.float64)))
+            fwd = ForwardStream(self.n, self.spec, put, first=first, last=last)
             col = np.ascontiguousarray(x[:, k])
             for a in range(0, col.shape[0], FEED):
                 fwd.feed(col[a:a + FEED])
-                inv.pump()
-        coefficients = [self._within(kept[k], t0, t1) for k in range(self.channels)]
-        return Span(t0, t1, x[t0 - first[0]:t1 - first[0]].copy(), cleaned, coefficients)
+                made[k].append(None)
+        self._last_forward = ((t0, t1), x, made)
+        return x, made
 
     def _shown(self, key, t0: int, t1: int) -> tuple[int, int]:
         """The coefficients of band ``key`` positioned in ``t0 .. t1`` (a coarse band seen
@@ -262,6 +282,7 @@ class LongRecording:
         from scalesieve.longview.cache import let_go
 
         self.reader.close()
+        self._last_forward = None
         let_go(self.summary)
 
 
