@@ -16,6 +16,7 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QGridLayout
 from scalesieve.gui.map_regions import MapViewBox
 from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, palette
+from scalesieve.longview.summary import BASE
 from scalesieve.views.band_labels import gain_to_db, hz_range
 
 #: the Scale map's colour range: this many dB below the view's largest magnitude
@@ -149,8 +150,9 @@ class LongScaleMap(PaneFrame):
         self.gutter_layout.setSpacing(0)
         self.rows = BandRows()
         self.gutter_layout.addWidget(self.rows)
-        self.legend = QLabel(f"colour: each column's largest |c| as edited, in dB below the "
-                             f"view's largest (0 to {MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
+        self.legend = QLabel(f"colour: each column's largest |c| as edited (exact, region "
+                             f"edges too), in dB below the view's largest (0 to "
+                             f"{MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
         self.legend.setObjectName("hint")
         self.legend.setWordWrap(True)
         self.gutter_layout.addWidget(self.legend)
@@ -262,7 +264,8 @@ class LongTraces(PaneFrame):
             note = (f"Drawn from the summary; cleaned and removed traces worked out over "
                     f"{100 * pic.cleaned_done:.0f} % of the recording so far.")
         else:
-            note = "Drawn from the summary (per-block lowest and highest values)."
+            note = ("Drawn from the summary: per-block lowest and highest values, each block "
+                    f"of {1 << BASE} samples or more in the column of its middle.")
         self.note.setText(note)
         self._visibility()
 
