@@ -163,3 +163,23 @@ def test_a_selected_region_is_removed_with_delete_and_moves_with_its_outline(lon
     assert w.wait_idle() is None
     assert [x.op for x in w.edits()] == ["gain", "region"]
     assert len(w.regions.outlines()) == 1
+
+
+def test_a_recipes_gains_and_regions_open_in_their_controls(long_window, long_file):
+    from scalesieve.recipe import Edit
+
+    path, _ = long_file
+    w = long_window
+    gain = Edit("gain", levels=(3,), gain=0.25)            # -12.04 dB: shown to 0.1 dB
+    region = Edit("region", levels=(1, 2), start_s=5.0, stop_s=6.0, gain=0.0)
+    w.open_long(path, SPEC, (gain, region))
+    assert w.wait_idle() is None
+    assert w.edits() == (gain, region) and w.base_edits == ()
+    assert w.scale_map.rows.gain(3) == 0.25                # applied as the recipe has it
+    assert w.scale_map.rows.rows[3][0].text() == "-12.0 dB"
+    assert w.regions.edits == [region]
+    # a region before a gain: the window's order (regions last) cannot give it back, so it
+    # stays the recipe's, outlined dotted; the gain after it is in its row
+    w.put_edits((region, gain))
+    assert w.edits() == (region, gain) and w.base_edits == (region,) and w.regions.edits == []
+    assert "1 more in the recipe as opened" in w.scale_map.region_line.count.text()

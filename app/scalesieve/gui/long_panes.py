@@ -76,13 +76,18 @@ class BandRows(QWidget):
             for c, w in enumerate((hz, label, spin, mute)):
                 w.setFixedHeight(ROW_HEIGHT)
                 self.grid.addWidget(w, r, c)
-            spin.valueChanged.connect(lambda _v, k=key: self._emit(k))
+            spin.valueChanged.connect(lambda _v, k=key: self._typed(k))
             mute.toggled.connect(lambda _v, k=key: self._emit(k))
             self.rows[key] = (spin, mute)
+        self.exact: dict = {}
 
     def gain(self, key) -> float:
         spin, mute = self.rows[key]
-        return 0.0 if mute.isChecked() else float(10 ** (spin.value() / 20.0))
+        if mute.isChecked():
+            return 0.0
+        if key in self.exact:          # a recipe's gain, shown to 0.1 dB, applied as it is
+            return self.exact[key]
+        return float(10 ** (spin.value() / 20.0))
 
     def set_gain(self, key, gain: float) -> None:
         spin, mute = self.rows[key]
@@ -91,8 +96,15 @@ class BandRows(QWidget):
         mute.setChecked(gain <= 0)
         if gain > 0:
             spin.setValue(gain_to_db(gain))
+            self.exact[key] = float(gain)
+        else:
+            self.exact.pop(key, None)
         for w in (spin, mute):
             w.blockSignals(False)
+
+    def _typed(self, key) -> None:
+        self.exact.pop(key, None)       # a gain typed or stepped: the field's own value
+        self._emit(key)
 
     def _emit(self, key) -> None:
         self.gain_changed.emit(key, self.gain(key))

@@ -174,12 +174,14 @@ class LongRegions(QObject):
 
     def _show_selected(self) -> None:
         n = len(self.edits)
+        fixed = (f" · {len(self.fixed)} more in the recipe as opened (dotted)"
+                 if self.fixed else "")
         if n == 0:
-            self.line.count.setText("none yet: drag over the map")
+            self.line.count.setText(f"none yet: drag over the map{fixed}")
         else:
             which = (f" · selected: {_words(self.edits[self.selected], self.lr.spec.level)}"
                      if self.selected >= 0 else " · click one to select it")
-            self.line.count.setText(f"{n} region edit{'s' if n != 1 else ''}{which}")
+            self.line.count.setText(f"{n} region edit{'s' if n != 1 else ''}{which}{fixed}")
         self.line.remove.setEnabled(self.selected >= 0)
         if self.selected >= 0:
             g = self.edits[self.selected].gain

@@ -222,7 +222,9 @@ class LongWindow(QMainWindow):
         self.export_menu_action.setEnabled(True)
         self.save_recipe_action.setEnabled(True)
         self._draw_overview()
-        self.show_all()
+        if self.base_edits:
+            self.put_edits(self.base_edits)      # the recipe's gains, threshold and regions
+        self.show_all()                          # in their controls where that is exact
         if self.pending_edits is not None:
             recipe, path, kept = self.pending_edits
             self.pending_edits = None
