@@ -105,10 +105,17 @@ def test_a_dragged_region_is_shown_at_once_and_exported_as_the_whole_array_clean
     assert np.all(pic.magnitudes[0][outside] > 0)
     assert np.all(pic.magnitudes[2][inside] > 0)
     # the field sets the selected region's gain
+    assert w.wait_idle(sweep=True) is None            # the wide view's pass, for the mute
     w.scale_map.region_line.gain.setValue(-20.0)
     assert w.regions.edits[0].gain == pytest.approx(10 ** (-20 / 20))   # dB definition
-    assert w.wait_idle() is None
+    assert w.wait_idle(sweep=True) is None            # the change patched into that pass
     e = w.regions.edits[0]
+    wide = w.picture
+    assert not wide.exact and wide.cleaned_done == 1.0
+    model = api.build_model(api.load(path), transform=spec, edits=w.edits())
+    y = model.cleaned()[:, 0]
+    np.testing.assert_allclose(np.nanmax(wide.cleaned[1]), y.max(), atol=1e-12)
+    np.testing.assert_allclose(np.nanmin(wide.removed[0]), (x - y).min(), atol=1e-12)
     # zoomed in: exact coefficients, d1 at -20 dB inside the region (PyWavelets' wavedec)
     t0, t1 = int(6.0 * RATE), int(6.5 * RATE)
     w.set_view(t0, t1)

@@ -182,3 +182,35 @@ def test_a_sweep_part_way_draws_only_what_it_has_done(tmp_path):
     drawn = np.isfinite(pic.cleaned[0])
     assert 0 < pic.cleaned_done < 1 and drawn.any() and not drawn.all()
     assert drawn[0] and not drawn[-1]
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "periodization"])
+def test_a_region_change_is_patched_into_a_finished_sweep_exactly(tmp_path, mode):
+    from dataclasses import replace
+
+    from scalesieve.longview.sweep import CleanedSweep, patched
+
+    n = 1 << 20
+    path, x = _wav(tmp_path, n)
+    lr, _ = open_long(path, TransformSpec(wavelet="db4", mode=mode, level=8))
+    region = Edit("region", levels=(1, 2), start_s=10.0, stop_s=12.5, gain=0.0)
+    lr.set_edits(EDITS + [region])
+    first = CleanedSweep(lr, 0)
+    assert first.run()
+    moved = replace(region, start_s=20.0, stop_s=21.0, gain=0.1)
+    more = Edit("region", levels=("a",), start_s=40.0, stop_s=41.0, gain=0.5)
+    lr.set_edits(EDITS + [moved, more])
+    got = patched(first, lr)
+    assert got is not None and got.finished and got.edits == lr.edits
+    full = CleanedSweep(lr, 0)                       # the whole pass for the new edits
+    assert full.run()
+    for a, b in ((got.cleaned, full.cleaned), (got.removed, full.removed)):
+        for ta, tb in zip(a.tables, b.tables):
+            for va, vb in zip(ta, tb):
+                np.testing.assert_allclose(va, vb, rtol=1e-12, atol=1e-12)
+    # a change in anything but trailing region edits needs the whole pass again
+    lr.set_edits(EDITS[:1] + [moved, more])
+    assert patched(full, lr) is None
+    # as does a region reaching further than the patch's limit
+    lr.set_edits(EDITS + [moved, replace(more, start_s=0.0, stop_s=50.0)])
+    assert patched(full, lr, most=1 << 16) is None

@@ -152,7 +152,7 @@ class LongWindow(QMainWindow):
         if self.lr is not None:
             self.lr.close()
         self.lr = self.worker.recording = None
-        self.worker.sweep = self.worker._sweeping = None
+        self.worker.sweep = self.worker._sweeping = self.worker._finished = None
         self.worker.hold_saves = True       # until the restored edits are in place
         self.pending_edits = (SimpleNamespace(transform=spec, edits=tuple(edits)), None, None)
         self.open_long(self.path, spec, (), self.open_channel, look=False)

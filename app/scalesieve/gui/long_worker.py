@@ -41,6 +41,7 @@ class LongWorker(QObject):
         self.recording = None
         self.sweep = None               # the latest published CleanedSweep
         self._sweeping = None           # the one running or last run
+        self._finished = None           # the last one that covered the whole recording
         self._sweep_number = 0
         self._sweep_running = False
         self.last_failure: str | None = None
@@ -203,10 +204,21 @@ class LongWorker(QObject):
         self._start(self._sweep, s, number)
 
     def _sweep(self, s, number: int) -> None:
+        from scalesieve.longview.sweep import patched
+
         def stale() -> bool:
             return self._stopping or self._sweep_number != number
 
         try:
+            base = self._finished
+            if base is not None and base.channel == s.channel and s.edits == s.lr.edits:
+                # only region edits changed since a finished pass: their stretch, at once
+                got = patched(base, s.lr)
+                if got is not None and not stale():
+                    self._finished = self.sweep = got
+                    self._sweeping = got
+                    self.swept.emit()
+                    return
             waited = time.monotonic() + self.SWEEP_AFTER_S
             while time.monotonic() < waited:
                 if stale():
@@ -216,6 +228,8 @@ class LongWorker(QObject):
             def publish(done):
                 if not stale():
                     self.sweep = done
+                    if done.finished:
+                        self._finished = done
                     self.swept.emit()
             s.run(stale, publish)
         except Exception as exc:  # noqa: BLE001 - as above

@@ -163,8 +163,11 @@ class LongRecording:
 
     # ------------------------------------------------------------------ stretches
 
-    def synthesise(self, t0: int, t1: int, keep_coefficients: bool = True) -> Span:
-        """Exact original and cleaned samples ``t0 .. t1`` (clipped to the recording)."""
+    def synthesise(self, t0: int, t1: int, keep_coefficients: bool = True,
+                   plan=None) -> Span:
+        """Exact original and cleaned samples ``t0 .. t1`` (clipped to the recording), with
+        the current edits (or those of ``plan``, one ``self.plan`` was)."""
+        plan = self.plan if plan is None else plan
         from scalesieve.stream.dwt import InverseStream, stretch
 
         n, spec, level = self.n, self.spec, self.spec.level
@@ -173,7 +176,7 @@ class LongRecording:
             empty = np.zeros((0, self.channels))
             return Span(t0, t0, empty, empty.copy(), [{} for _ in range(self.channels)])
         if spec.mode in WRAP_MODES:
-            return self._wrapped(t0, t1, keep_coefficients)
+            return self._wrapped(t0, t1, keep_coefficients, plan)
         first, last = stretch(n, spec, t0, t1)
         starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
         x, made = self._forward(t0, t1, first, last)
@@ -183,7 +186,7 @@ class LongRecording:
             def out(s0, seg, k=k):
                 cleaned[s0 - t0:s0 - t0 + seg.shape[0], k] = seg
             inv = InverseStream(n, spec, out, start=t0, stop=t1, band_starts=starts)
-            bands = self.plan.bands[k]
+            bands = plan.bands[k]
             for step in made[k]:
                 if step is None:                 # as the cascade was fed: pump between
                     inv.pump()
@@ -202,8 +205,9 @@ class LongRecording:
         stretch's are kept, so another edit on the same view only edits and synthesises."""
         from scalesieve.stream.dwt import ForwardStream
 
-        if self._last_forward is not None and self._last_forward[0] == (t0, t1):
-            return self._last_forward[1], self._last_forward[2]
+        got = self._last_forward              # one read: another thread may replace it
+        if got is not None and got[0] == (t0, t1):
+            return got[1], got[2]
         x = self.reader.read(first[0], last[0])
         made: list = [[] for _ in range(self.channels)]
         for k in range(self.channels):
@@ -228,7 +232,7 @@ class LongRecording:
         a = int(np.clip(np.rint((0.5 * (t0 + t1) - shift) / step), 0, count - 1))
         return a, a + 1
 
-    def _wrapped(self, t0: int, t1: int, keep_coefficients: bool) -> Span:
+    def _wrapped(self, t0: int, t1: int, keep_coefficients: bool, plan) -> Span:
         """``synthesise`` in a mode that wraps (``longview.wrapped``)."""
         from scalesieve.longview.wrapped import WrappedStretch
 
@@ -238,7 +242,7 @@ class LongRecording:
         shown = {key: self._shown(key, t0, t1) for key in keys}
         coefficients: list = []
         for k in range(self.channels):
-            bands = self.plan.bands[k]
+            bands = plan.bands[k]
             ws = WrappedStretch(lambda a, b, k=k: self.reader.read(a, b)[:, k], self.n,
                                 self.spec)
             out, edited = ws.synthesise(t0, t1, lambda key, k0, v, b=bands: b[key].edited(v, k0),
