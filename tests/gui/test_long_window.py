@@ -179,10 +179,15 @@ def test_long_mode_refuses_what_it_cannot_show(long_file, tmp_path, monkeypatch,
 
     path, _ = long_file
     monkeypatch.setattr(cmd, "LONG_ABOVE", 0)
-    code = main([path, "--snapshot", str(tmp_path / "x.png"), "--mode", "periodization"])
+    code = main([path, "--snapshot", str(tmp_path / "x.png"), "--transform", "swt"])
     err = capsys.readouterr().err
-    assert code == 2 and "long-recording view cannot show it" in err and "--mode" in err
-    assert "Traceback" not in err
+    assert code == 2 and "long-recording view cannot show it" in err
+    assert "SWT" in err and "--transform dwt" in err and "Traceback" not in err
+    assert not os.path.exists(tmp_path / "x.png")
+    # the modes that wrap are shown
+    out = str(tmp_path / "wrapped.png")
+    assert main([path, "--snapshot", out, "--mode", "periodization", "--level", "8"]) == 0
+    assert os.path.getsize(out) > 10_000
 
 
 def test_file_open_over_the_budget_opens_a_long_window(window, long_file, monkeypatch):

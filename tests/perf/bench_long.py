@@ -42,8 +42,10 @@ twice (the summary built, then read back from a cache in a temporary
 folder), and times a band mute to the repainted window (``grab``) on the
 whole view and on a 10 s view, then the first threshold (VisuShrink on every
 detail band: the first time, a pass to level 1 finds the finest band's noise)
-and changes of its shape on the 10 s view; beside it a window process opens a
-10 M-sample file (``--window-memory``) in memory and times the same mute.
+and changes of its shape on the 10 s view, and a region edit's gain (d1 and d2
+over 2 s mid-recording, muted and at -6 dB in turn) on the 10 s and the whole
+view; beside it a window process opens a 10 M-sample file
+(``--window-memory``) in memory and times the same mute and region edit.
 Prints each process's peak resident memory and the ratios long / in memory.
 
     python tests/perf/bench_long.py --window --samples 268435456   # 1 GiB float32 WAV
@@ -274,6 +276,22 @@ centre = w.lr.n // 2
 w.set_view(centre - int(5 * rate), centre + int(5 * rate))
 w.wait_idle()
 zoomed = [timed(mute.click) for _ in range(repeat)]
+from dataclasses import replace
+from scalesieve.recipe import Edit
+mid = centre / rate
+w.regions.add(Edit("region", levels=(1, 2), start_s=mid - 1.0, stop_s=mid + 1.0, gain=0.0))
+w.wait_idle()
+def region_gain(g):
+    return lambda: w.regions.replace_edit(0, replace(w.regions.edits[0], gain=g))
+region_10s = [timed(region_gain(g)) for g in (0.5, 0.0) * max(1, repeat // 2)]
+w.show_all()
+w.wait_idle()
+region_whole = [timed(region_gain(g)) for g in (0.5, 0.0) * max(1, repeat // 2)]
+w.regions.select(0)
+w.regions.remove_selected()
+w.wait_idle()
+w.set_view(centre - int(5 * rate), centre + int(5 * rate))
+w.wait_idle()
 th = w.scale_map.threshold
 first = timed(lambda: th.rule.setCurrentIndex(th.rule.findData("universal")))
 shapes = [timed(lambda s=s: th.shape.setCurrentIndex(th.shape.findData(s)))
@@ -283,6 +301,8 @@ print(json.dumps({"open_s": round(opened, 3), "summary": "kept" if "cache" in
                   "view_10s_exact": w.picture.exact,
                   "mute_whole_view_ms": round(1000 * statistics.median(whole), 2),
                   "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2),
+                  "region_gain_10s_view_ms": round(1000 * statistics.median(region_10s), 2),
+                  "region_gain_whole_view_ms": round(1000 * statistics.median(region_whole), 2),
                   "threshold_first_s": round(first, 3),
                   "threshold_shape_10s_view_ms": round(1000 * statistics.median(shapes), 2)}),
       flush=True)
@@ -327,9 +347,26 @@ mid = w.adapter.model.recording.duration_s / 2
 w.time_axis.set_range(mid - 5, mid + 5)
 w.adapter.wait_idle(600)
 zoomed = [timed(mute.click) for _ in range(repeat)]
+from dataclasses import replace
+from scalesieve.recipe import Edit
+mute.click()                                     # as it was: only the region below
+w.adapter.wait_idle(600)
+w.adapter.add_edit(Edit("region", levels=(1, 2), start_s=mid - 1.0, stop_s=mid + 1.0,
+                        gain=0.0))
+w.adapter.wait_idle(600)
+def region_gain(g):
+    i = len(w.adapter.model.edits) - 1
+    return lambda: w.adapter.replace_edit(i, replace(w.adapter.model.edits[i], gain=g))
+region_10s = [timed(region_gain(g)) for g in (0.5, 0.0) * max(1, repeat // 2)]
+w.time_axis.set_range(0, w.adapter.model.recording.duration_s)
+w.adapter.wait_idle(600)
+region_whole = [timed(region_gain(g)) for g in (0.5, 0.0) * max(1, repeat // 2)]
 print(json.dumps({"open_s": round(opened, 3),
                   "mute_whole_view_ms": round(1000 * statistics.median(whole), 2),
-                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2)}),
+                  "mute_10s_view_ms": round(1000 * statistics.median(zoomed), 2),
+                  "region_gain_10s_view_ms": round(1000 * statistics.median(region_10s), 2),
+                  "region_gain_whole_view_ms": round(1000 * statistics.median(region_whole),
+                                                     2)}),
       flush=True)
 w.close()
 app.processEvents()
@@ -385,6 +422,10 @@ def window_bench(args) -> None:
             again["mute_whole_view_ms"] / mem["mute_whole_view_ms"], 3),
         "mute_10s_view_long_over_in_memory": round(
             again["mute_10s_view_ms"] / mem["mute_10s_view_ms"], 3),
+        "region_gain_whole_view_long_over_in_memory": round(
+            again["region_gain_whole_view_ms"] / mem["region_gain_whole_view_ms"], 3),
+        "region_gain_10s_view_long_over_in_memory": round(
+            again["region_gain_10s_view_ms"] / mem["region_gain_10s_view_ms"], 3),
     }
     print(json.dumps(figures))
 

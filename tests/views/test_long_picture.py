@@ -89,18 +89,51 @@ def test_zoomed_out_view_from_the_summary(tmp_path):
 def test_edited_block_peaks_equal_editing_every_coefficient():
     rng = np.random.default_rng(9)
     c = rng.standard_normal(4096)
-    starts = np.arange(0, 4096, 16)
-    middles_s = (starts + 8) / 100.0                    # 16 coefficients a block, 100 a second
+    starts = np.arange(0, 4096, 16)                     # 16 coefficients a block
+    stops = starts + 16
+    sl = slice(500, 901)                                # the region's coefficients
+
+    def cover(e):
+        inside = (starts >= sl.start) & (stops <= sl.stop)
+        return inside, (starts < sl.stop) & (stops > sl.start) & ~inside
     for shape in ("hard", "soft", "garrote"):
         chain = [Edit("gain", levels=(1,), gain=-0.7),
                  Edit("threshold", levels=(1,), rule="manual", value=0.6, shape=shape),
                  Edit("region", levels=(1,), start_s=5.0, stop_s=9.0, gain=0.25)]
-        every = pywt.threshold(c * -0.7, 0.6, mode=shape)
-        every[496:896] *= 0.25                         # the blocks whose middle is in 5..9 s
+        every = pywt.threshold(c * -0.7, 0.6, mode=shape)      # PyWavelets' shapes
+        every[sl] *= 0.25
         want = np.maximum.reduceat(np.abs(every), starts)
         peaks = np.maximum.reduceat(np.abs(c), starts)
-        got = lp.edited_peaks(peaks, middles_s, chain, [0.6])
-        np.testing.assert_allclose(got, want, rtol=1e-12)
+        got, straddling = lp.edited_peaks(peaks, chain, [0.6], cover)
+        # blocks 31 (496..511) and 56 (896..911) hold coefficients on both sides of an edge
+        assert list(np.flatnonzero(straddling)) == [31, 56]
+        np.testing.assert_allclose(got[~straddling], want[~straddling], rtol=1e-12)
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "zero", "smooth"])
+def test_zoomed_out_region_edges_are_exact(tmp_path, mode):
+    """Every band's column peaks of a wide view with region edits equal the largest
+    |c| of PyWavelets' whole-array coefficients, edited, in the same blocks."""
+    n = 1 << 20
+    path, x = _wav(tmp_path, n)
+    rate = 20000
+    spec = TransformSpec(wavelet="db4", mode=mode, level=8)
+    lr, _ = open_long(path, spec)
+    edits = [Edit("gain", levels=(2,), gain=0.5),
+             Edit("region", levels=(1, 2, 3), start_s=10.0037, stop_s=23.3311, gain=0.0),
+             Edit("region", levels=("a", 8), start_s=30.01, stop_s=40.5, gain=0.1)]
+    lr.set_edits(edits)
+    model = api.build_model(api.load(path), transform=spec, edits=edits)
+    for key in lp.rows_of(8):
+        series = lr.summary.bands[0][key]
+        table, a, b = series.blocks_in(0, n, 256)
+        starts, stops = series.values_of(table, a, b)
+        c = np.abs(np.asarray(model.edited_coefficients(0, key, 0,
+                                                        model.coefficients(0, key).shape[0])))
+        want = np.maximum.reduceat(c, starts)
+        _, got = lp.band_peaks(lr, 0, key, 0, n, 256)
+        np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-15)
+    assert lr.ranges.made > 0           # the straddling blocks were read from the file
 
 
 def test_zoomed_out_cleaned_trace_from_a_sweep_equals_numpy(tmp_path):
@@ -149,3 +182,35 @@ def test_a_sweep_part_way_draws_only_what_it_has_done(tmp_path):
     drawn = np.isfinite(pic.cleaned[0])
     assert 0 < pic.cleaned_done < 1 and drawn.any() and not drawn.all()
     assert drawn[0] and not drawn[-1]
+
+
+@pytest.mark.parametrize("mode", ["symmetric", "periodization"])
+def test_a_region_change_is_patched_into_a_finished_sweep_exactly(tmp_path, mode):
+    from dataclasses import replace
+
+    from scalesieve.longview.sweep import CleanedSweep, patched
+
+    n = 1 << 20
+    path, x = _wav(tmp_path, n)
+    lr, _ = open_long(path, TransformSpec(wavelet="db4", mode=mode, level=8))
+    region = Edit("region", levels=(1, 2), start_s=10.0, stop_s=12.5, gain=0.0)
+    lr.set_edits(EDITS + [region])
+    first = CleanedSweep(lr, 0)
+    assert first.run()
+    moved = replace(region, start_s=20.0, stop_s=21.0, gain=0.1)
+    more = Edit("region", levels=("a",), start_s=40.0, stop_s=41.0, gain=0.5)
+    lr.set_edits(EDITS + [moved, more])
+    got = patched(first, lr)
+    assert got is not None and got.finished and got.edits == lr.edits
+    full = CleanedSweep(lr, 0)                       # the whole pass for the new edits
+    assert full.run()
+    for a, b in ((got.cleaned, full.cleaned), (got.removed, full.removed)):
+        for ta, tb in zip(a.tables, b.tables):
+            for va, vb in zip(ta, tb):
+                np.testing.assert_allclose(va, vb, rtol=1e-12, atol=1e-12)
+    # a change in anything but trailing region edits needs the whole pass again
+    lr.set_edits(EDITS[:1] + [moved, more])
+    assert patched(full, lr) is None
+    # as does a region reaching further than the patch's limit
+    lr.set_edits(EDITS + [moved, replace(more, start_s=0.0, stop_s=50.0)])
+    assert patched(full, lr, most=1 << 16) is None

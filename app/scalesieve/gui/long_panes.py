@@ -13,8 +13,10 @@ from PySide6.QtCore import QRectF, Signal
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QGridLayout, QHBoxLayout,
                                QLabel, QPushButton, QWidget)
 
-from scalesieve.gui.pane_frame import PaneFrame, make_plot
+from scalesieve.gui.map_regions import MapViewBox
+from scalesieve.gui.pane_frame import RIGHT_MARGIN, PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, palette
+from scalesieve.longview.summary import BASE
 from scalesieve.views.band_labels import gain_to_db, hz_range
 
 #: the Scale map's colour range: this many dB below the view's largest magnitude
@@ -22,7 +24,11 @@ MAP_FLOOR_DB = -50.0
 #: the Scale map's colour map (perceptual; resources/palette.json's default)
 MAP_COLOURS = palette()["default_colour_map"]
 #: height of one band row (px): row headers and map rows share it
-ROW_HEIGHT = 19
+ROW_HEIGHT = 22
+#: the map's rows start this far below the plot's top (its layout's top margin)
+MAP_TOP = 3
+#: the height of the map's time axis under its rows
+MAP_AXIS = 30
 
 
 def trace_xy(times: np.ndarray, lo: np.ndarray, hi: np.ndarray):
@@ -70,13 +76,18 @@ class BandRows(QWidget):
             for c, w in enumerate((hz, label, spin, mute)):
                 w.setFixedHeight(ROW_HEIGHT)
                 self.grid.addWidget(w, r, c)
-            spin.valueChanged.connect(lambda _v, k=key: self._emit(k))
+            spin.valueChanged.connect(lambda _v, k=key: self._typed(k))
             mute.toggled.connect(lambda _v, k=key: self._emit(k))
             self.rows[key] = (spin, mute)
+        self.exact: dict = {}
 
     def gain(self, key) -> float:
         spin, mute = self.rows[key]
-        return 0.0 if mute.isChecked() else float(10 ** (spin.value() / 20.0))
+        if mute.isChecked():
+            return 0.0
+        if key in self.exact:          # a recipe's gain, shown to 0.1 dB, applied as it is
+            return self.exact[key]
+        return float(10 ** (spin.value() / 20.0))
 
     def set_gain(self, key, gain: float) -> None:
         spin, mute = self.rows[key]
@@ -85,8 +96,15 @@ class BandRows(QWidget):
         mute.setChecked(gain <= 0)
         if gain > 0:
             spin.setValue(gain_to_db(gain))
+            self.exact[key] = float(gain)
+        else:
+            self.exact.pop(key, None)
         for w in (spin, mute):
             w.blockSignals(False)
+
+    def _typed(self, key) -> None:
+        self.exact.pop(key, None)       # a gain typed or stepped: the field's own value
+        self._emit(key)
 
     def _emit(self, key) -> None:
         self.gain_changed.emit(key, self.gain(key))
@@ -123,33 +141,61 @@ class LongScaleMap(PaneFrame):
 
     def __init__(self, parent=None):
         super().__init__("Scale map", parent)
+        from scalesieve.gui.long_regions import RegionLine
+
+        # the title and the edit lines above, across the pane; each band's controls beside
+        # its own row of the map
+        top = QWidget()
+        top.setObjectName("gutter")
+        line = QHBoxLayout(top)
+        line.setContentsMargins(8, 3, 8 + RIGHT_MARGIN, 3)
+        line.setSpacing(12)
+        self.gutter_layout.removeWidget(self.title)
+        line.addWidget(self.title)
         self.threshold = ThresholdLine()
-        self.gutter_layout.addWidget(self.threshold)
+        line.addWidget(self.threshold)
+        self.region_line = RegionLine()
+        line.addWidget(self.region_line, 1)
+        self.footer.insertWidget(0, top)
+        self.top = top
+        self.gutter_layout.setContentsMargins(8, MAP_TOP, 8, 0)
+        self.gutter_layout.setSpacing(0)
         self.rows = BandRows()
         self.gutter_layout.addWidget(self.rows)
-        self.gutter_layout.addStretch(1)
-        self.legend = QLabel(f"colour: each column's largest |c| as edited, in dB below the "
-                             f"view's largest (0 to {MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
+        self.legend = QLabel(f"colour: each column's largest |c| as edited (exact, region "
+                             f"edges too), in dB below the view's largest (0 to "
+                             f"{MAP_FLOOR_DB:g} dB, {MAP_COLOURS})")
         self.legend.setObjectName("hint")
         self.legend.setWordWrap(True)
         self.gutter_layout.addWidget(self.legend)
-        self.plot = make_plot()
-        self.plot.getPlotItem().getViewBox().invertY(True)
+        self.gutter_layout.addStretch(1)
+        # left-drag draws a region edit; shift-drag pans; the wheel zooms (as in memory)
+        self.view = MapViewBox()
+        self.view.invertY(True)
+        self.plot = make_plot(self.view)
+        self.plot.setToolTip("drag: a region edit (snapped to whole coefficient tiles) · "
+                             "shift-drag: pan · wheel: zoom · Del: remove the selected region")
         self.image = pg.ImageItem()
         self.image.setColorMap(pg.colormap.get(MAP_COLOURS))
         self.plot.addItem(self.image)
         self.content.addWidget(self.plot)
+        self.content.addStretch(1)          # the rows stay level with their controls
         self.plot.getPlotItem().getAxis("left").setLabel("band")
         self.plot.getPlotItem().getAxis("left").enableAutoSIPrefix(False)
         self.names: list = []
         self.waiting = pg.TextItem("", color=colour("plot", "foreground"), anchor=(0.5, 0.5))
         self.plot.addItem(self.waiting)
 
+    def height_needed(self) -> int:
+        """The edit lines, the rows with their controls and the time axis (set_rows first)."""
+        return self.top.sizeHint().height() + self.plot.maximumHeight() + 4
+
     def wait_for(self, text: str) -> None:
         """Say what is being prepared while there is nothing to draw (empty: drawing)."""
         self.waiting.setText(text)
         self.waiting.setVisible(bool(text))
         self.threshold.setEnabled(not text)
+        self.region_line.setEnabled(not text)
         if text:
             vb = self.plot.getPlotItem().getViewBox()
             vb.setRange(xRange=(0, 1), yRange=(0, 1), padding=0)
@@ -161,7 +207,8 @@ class LongScaleMap(PaneFrame):
         ax = self.plot.getPlotItem().getAxis("left")
         ax.setTicks([[(i + 0.5, n) for i, n in enumerate(names)]])
         self.plot.getPlotItem().getViewBox().setYRange(0, len(names), padding=0)
-        self.plot.setMinimumHeight(ROW_HEIGHT * len(names) + 40)
+        # rows of ROW_HEIGHT, beside their controls in the gutter
+        self.plot.setFixedHeight(ROW_HEIGHT * len(names) + MAP_TOP + MAP_AXIS)
 
     def draw(self, pic, t0_s: float, t1_s: float) -> None:
         m = np.asarray(pic.magnitudes)
@@ -229,7 +276,8 @@ class LongTraces(PaneFrame):
             note = (f"Drawn from the summary; cleaned and removed traces worked out over "
                     f"{100 * pic.cleaned_done:.0f} % of the recording so far.")
         else:
-            note = "Drawn from the summary (per-block lowest and highest values)."
+            note = ("Drawn from the summary: per-block lowest and highest values, each block "
+                    f"of {1 << BASE} samples or more in the column of its middle.")
         self.note.setText(note)
         self._visibility()
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import os
 import time
+from types import SimpleNamespace
 
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QApplication, QComboBox, QFileDialog, QLabel, QMainWindow,
@@ -21,7 +22,9 @@ from PySide6.QtWidgets import (QApplication, QComboBox, QFileDialog, QLabel, QMa
 from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui.error_dialog import show_error
-from scalesieve.gui.long_panes import ROW_HEIGHT, LongOverview, LongScaleMap, LongTraces
+from scalesieve.gui.long_panes import LongOverview, LongScaleMap, LongTraces
+from scalesieve.gui.long_regions import LongRegions
+from scalesieve.gui.long_sessions import LongSessions
 from scalesieve.gui.long_worker import LongWorker
 from scalesieve.recipe import Edit
 from scalesieve.views.long_picture import EXACT_MOST, rows_of
@@ -38,13 +41,15 @@ class LongWindow(QMainWindow):
 
     painted = Signal(int)       # a request drawn (its number)
 
-    def __init__(self, parent=None, keep_sessions: bool = False):
+    def __init__(self, parent=None, keep_sessions: bool = False, ask=None, tell=None):
         super().__init__(parent)
         self.setWindowTitle("Scalesieve — long recording")
         self.worker = LongWorker(self)
         # edits saved after each change and kept at close unless saved or exported
-        # (autosave; not for snapshots)
+        # (autosave; not for snapshots); an earlier session's offered back (``ask``)
         self.worker.keep_sessions = keep_sessions
+        self.sessions = LongSessions(self, ask, tell)
+        self.pending_edits = None        # (recipe, path, kept file) restored before opening
         self.captured = None             # the recipe as last saved or exported
         self.lr = None
         self.base_edits: tuple = ()      # the recipe's, as opened
@@ -64,6 +69,7 @@ class LongWindow(QMainWindow):
         self.worker.exported.connect(self._exported)
         self.worker.swept.connect(self._ask)
         self.worker.notice.connect(lambda text: self.progress_text.setText(text))
+        self.worker.restore_found.connect(self.sessions.found)
 
     # ------------------------------------------------------------------ layout
 
@@ -72,6 +78,11 @@ class LongWindow(QMainWindow):
         self.export_menu_action = menu.addAction("Export signal…", self.export_dialog)
         self.save_recipe_action = menu.addAction("Save recipe…", self.save_recipe_dialog)
         self.save_recipe_action.setEnabled(False)
+        from scalesieve.gui.kept_sessions import KeptEditsMenu
+
+        self.kept_menu = KeptEditsMenu(self)
+        menu.addMenu(self.kept_menu)
+        menu.addSeparator()
         menu.addAction("Close", self.close)
         panes = self.menuBar().addMenu("&View")
         for name in ("Impacts (Impulse map, Envelope spectrum)", "Events", "Band lanes"):
@@ -115,6 +126,8 @@ class LongWindow(QMainWindow):
         sb.addPermanentWidget(self.progress_bar)
         self.scale_map.rows.gain_changed.connect(lambda *_: self._ask())
         self.scale_map.threshold.changed.connect(self._ask)
+        self.regions = LongRegions(self.scale_map, self)
+        self.regions.changed.connect(self._ask)
         for plot in (self.scale_map.plot, self.traces.plot):
             plot.getPlotItem().getViewBox().sigXRangeChanged.connect(
                 lambda vb, rng: self._range_moved(rng))
@@ -122,14 +135,54 @@ class LongWindow(QMainWindow):
 
     # ------------------------------------------------------------------ opening
 
-    def open_long(self, path: str, spec: tf.TransformSpec, edits=(), channel=None) -> None:
-        """Open ``path`` in long-recording mode (its summary read back or built first)."""
+    def open_long(self, path: str, spec: tf.TransformSpec, edits=(), channel=None,
+                  look: bool = True) -> None:
+        """Open ``path`` in long-recording mode (its summary read back or built first);
+        ``look``: offer back edits an earlier session left (when sessions are kept)."""
         self.path = path
+        self.open_channel = channel
         self.base_edits = tuple(edits)
         self.facts.setText(f"{os.path.basename(path)} · long recording: preparing its summary")
         self.scale_map.wait_for("Preparing this long recording's summary: one pass over the "
                                 "file, kept for the next time (progress below, right)")
-        self.worker.open(path, spec, channel, self.base_edits)
+        self.worker.open(path, spec, channel, self.base_edits, look)
+
+    def reopen(self, spec: tf.TransformSpec, edits) -> None:
+        """The same recording under another transform (a restored session's), with ``edits``."""
+        if self.lr is not None:
+            self.lr.close()
+        self.lr = self.worker.recording = None
+        self.worker.sweep = self.worker._sweeping = self.worker._finished = None
+        self.worker.hold_saves = True       # until the restored edits are in place
+        self.pending_edits = (SimpleNamespace(transform=spec, edits=tuple(edits)), None, None)
+        self.open_long(self.path, spec, (), self.open_channel, look=False)
+
+    def put_edits(self, edits) -> None:
+        """Put ``edits`` in the window: band gains, the threshold and region edits in their
+        controls where the window's own order gives back exactly these edits, else all of
+        them as the recipe's (``base_edits``)."""
+        edits = tuple(edits)
+        base, gains, rule, regions = split_edits(edits, self.lr.spec.level)
+        self._set_controls(gains, rule)
+        self.base_edits = base
+        self.regions.set_recording(self.lr, base)
+        self.regions.edits = list(regions)
+        if self.edits() != edits:
+            self._set_controls({}, None)
+            self.base_edits = edits
+            self.regions.set_recording(self.lr, edits)
+        self.regions.redraw()
+        self._ask()
+
+    def _set_controls(self, gains: dict, rule) -> None:
+        rows, th = self.scale_map.rows, self.scale_map.threshold
+        for key in rows_of(self.lr.spec.level):
+            rows.set_gain(key, gains.get(key, 1.0))
+        for box, value in ((th.rule, None if rule is None else rule[0]),
+                           (th.shape, "soft" if rule is None else rule[1])):
+            box.blockSignals(True)
+            box.setCurrentIndex(max(0, box.findData(value)))
+            box.blockSignals(False)
 
     def _opened(self, lr, how: str) -> None:
         self.lr = lr
@@ -140,12 +193,14 @@ class LongWindow(QMainWindow):
             bands.append((key, tf.band_name(key, level), lo, hi))
         self.scale_map.wait_for("")
         self.scale_map.rows.set_bands(bands)
-        # title, threshold line, the rows and the colour legend
-        need = 150 + ROW_HEIGHT * len(bands)
+        # the edit lines above, then the rows (as tall as their controls) and the time axis
+        self.scale_map.set_rows([b[1] for b in bands])
+        need = self.scale_map.height_needed()
         self.scale_map.setMinimumHeight(need)
+        self.scale_map.setMaximumHeight(need)
         total = sum(self.splitter.sizes())
         self.splitter.setSizes([need, max(120, total - need - 80), 80])
-        self.scale_map.set_rows([b[1] for b in bands])
+        self.regions.set_recording(lr, self.base_edits)
         self.channel_box.blockSignals(True)
         self.channel_box.clear()
         names = ([f"ch{lr.channel}"] if lr.channel is not None
@@ -167,7 +222,15 @@ class LongWindow(QMainWindow):
         self.export_menu_action.setEnabled(True)
         self.save_recipe_action.setEnabled(True)
         self._draw_overview()
-        self.show_all()
+        if self.base_edits:
+            self.put_edits(self.base_edits)      # the recipe's gains, threshold and regions
+        self.show_all()                          # in their controls where that is exact
+        if self.pending_edits is not None:
+            recipe, path, kept = self.pending_edits
+            self.pending_edits = None
+            self.sessions.put_back(recipe, path, kept)
+            self.worker.hold_saves = False
+            self.worker.save_soon()
 
     def _draw_overview(self) -> None:
         lr = self.lr
@@ -178,7 +241,9 @@ class LongWindow(QMainWindow):
     # ------------------------------------------------------------------ edits
 
     def edits(self) -> tuple:
-        """The recipe's edits, then a gain per band changed here, then the threshold."""
+        """The recipe's edits, then a gain per band changed here, then the threshold, then the
+        region edits drawn here (after the threshold: a region never changes the noise a
+        threshold reads, so drawing one costs only the view)."""
         out = list(self.base_edits)
         if self.lr is None:
             return tuple(out)
@@ -192,6 +257,7 @@ class LongWindow(QMainWindow):
         if rule is not None:
             out.append(Edit("threshold", levels="details", rule=rule, noise="finest",
                             shape=self.scale_map.threshold.shape.currentData()))
+        out.extend(self.regions.edits)
         return tuple(out)
 
     # ------------------------------------------------------------------ view
@@ -356,7 +422,7 @@ class LongWindow(QMainWindow):
         self.worker.stop()
         if self.lr is not None:
             self.lr.close()
-            if self.worker.keep_sessions:
+            if self.worker.keep_sessions and not self.worker.hold_saves:
                 from scalesieve import autosave
 
                 # edits neither saved nor exported stay under File › Kept edits
@@ -393,3 +459,34 @@ def _duration(seconds: float) -> str:
 
 def _words(spec: tf.TransformSpec) -> list:
     return [spec.kind.upper(), spec.wavelet, f"{spec.level} levels", spec.mode]
+
+
+def split_edits(edits: tuple, level: int) -> tuple:
+    """``(base, gains, rule, regions)`` of ``edits`` as the window's controls hold them:
+    trailing region edits, before them a threshold on every detail band (``(rule,
+    shape)``), before it one gain per band; the rest is the recipe's.  The window puts
+    them back together in its own order (``LongWindow.edits``), checked by the caller."""
+    from scalesieve.gui.long_panes import ThresholdLine
+
+    rest = list(edits)
+
+    def plain(e):
+        return e.enabled and e.channels is None and e.bands is None
+    regions = []
+    while rest and rest[-1].op == "region" and plain(rest[-1]):
+        regions.insert(0, rest.pop())
+    rule = None
+    rules = {v for _, v in ThresholdLine.RULES if v is not None}
+    if rest and rest[-1].op == "threshold" and plain(rest[-1]) and rest[-1].levels == "details" \
+            and rest[-1].noise == "finest" and rest[-1].rule in rules \
+            and rest[-1].scale == 1.0:
+        e = rest.pop()
+        rule = (e.rule, e.shape)
+    gains: dict = {}
+    keys = set(rows_of(level))
+    while rest and rest[-1].op == "gain" and plain(rest[-1]) \
+            and isinstance(rest[-1].levels, tuple) and len(rest[-1].levels) == 1 \
+            and rest[-1].levels[0] in keys and rest[-1].levels[0] not in gains:
+        e = rest.pop()
+        gains[e.levels[0]] = float(e.gain)
+    return tuple(rest), gains, rule, regions

@@ -25,6 +25,7 @@ class LongWorker(QObject):
     exported = Signal(dict)             # the streaming pipeline's report
     swept = Signal()                    # more of the cleaned trace over the whole file
     notice = Signal(str)                # one line for the status bar
+    restore_found = Signal(object)      # autosave.RestoreInfo: saved edits to offer back
     failed = Signal(str)                # one line
 
     def __init__(self, parent=None):
@@ -40,11 +41,14 @@ class LongWorker(QObject):
         self.recording = None
         self.sweep = None               # the latest published CleanedSweep
         self._sweeping = None           # the one running or last run
+        self._finished = None           # the last one that covered the whole recording
         self._sweep_number = 0
         self._sweep_running = False
         self.last_failure: str | None = None
         #: save the edits after each change (autosave's sessions), as the main window does
         self.keep_sessions = False
+        #: saved edits of this recording wait for an answer: nothing is saved over them
+        self.hold_saves = False
         self.failed.connect(self._remember)
 
     def _remember(self, message: str) -> None:
@@ -57,19 +61,20 @@ class LongWorker(QObject):
 
     # ---------------------------------------------------------------- opening
 
-    def open(self, path: str, spec, channel, edits) -> None:
-        """Read back or build the summary of ``path``, then take ``edits``."""
+    def open(self, path: str, spec, channel, edits, look: bool = True) -> None:
+        """Read back or build the summary of ``path``, then take ``edits``; ``look``: first
+        look for saved edits an earlier session left (``restore_found``)."""
         self._opening = True
-        self._start(self._open, path, spec, channel, tuple(edits))
+        self._start(self._open, path, spec, channel, tuple(edits), look)
 
-    def _open(self, path, spec, channel, edits) -> None:
+    def _open(self, path, spec, channel, edits, look=True) -> None:
         from scalesieve.longview.span import open_long
 
         try:
+            if self.keep_sessions and look:
+                self._look_for_session(path)
             lr, how = open_long(path, spec, channel, progress=self.progress.emit,
                                 cancelled=lambda: self._stopping)
-            if self.keep_sessions:
-                self._keep_earlier(path)
             lr.set_edits(edits, progress=self.progress.emit)
             self._save_session(lr)
             self.recording = lr
@@ -106,21 +111,32 @@ class LongWorker(QObject):
 
     # ---------------------------------------------------------------- sessions
 
-    def _keep_earlier(self, path: str) -> None:
-        """Edits an earlier session left for this recording: kept aside, never written over."""
+    def _look_for_session(self, path: str) -> None:
+        """Edits an earlier session left for this recording (it did not end normally): held,
+        never written over, and offered back (``restore_found``)."""
         from scalesieve import autosave
+        from scalesieve.errors import ScalesieveError
 
-        kept = autosave.finish_session(path)
-        if kept:
-            self.notice.emit("edits left from an earlier session of this recording are kept "
-                             "(File › Kept edits in the window for recordings in memory)")
+        try:
+            info = autosave.pending_restore(path)
+        except ScalesieveError as exc:
+            self.notice.emit(f"saved edits not looked for: {exc.one_line()}")
+            return
+        if info is not None:
+            self.hold_saves = True
+            self.restore_found.emit(info)
+
+    def save_soon(self) -> None:
+        """Save the edits now in place (after a restore prompt's answer)."""
+        if self.recording is not None:
+            self._save_session(self.recording)
 
     def _save_session(self, lr) -> None:
         from scalesieve import autosave
         from scalesieve.errors import ScalesieveError
         from scalesieve.recipe import Recipe
 
-        if not self.keep_sessions:
+        if not self.keep_sessions or self.hold_saves:
             return
         try:
             autosave.save_session(lr.path, Recipe(transform=lr.spec, edits=lr.edits).to_json(),
@@ -188,10 +204,21 @@ class LongWorker(QObject):
         self._start(self._sweep, s, number)
 
     def _sweep(self, s, number: int) -> None:
+        from scalesieve.longview.sweep import patched
+
         def stale() -> bool:
             return self._stopping or self._sweep_number != number
 
         try:
+            base = self._finished
+            if base is not None and base.channel == s.channel and s.edits == s.lr.edits:
+                # only region edits changed since a finished pass: their stretch, at once
+                got = patched(base, s.lr)
+                if got is not None and not stale():
+                    self._finished = self.sweep = got
+                    self._sweeping = got
+                    self.swept.emit()
+                    return
             waited = time.monotonic() + self.SWEEP_AFTER_S
             while time.monotonic() < waited:
                 if stale():
@@ -201,6 +228,8 @@ class LongWorker(QObject):
             def publish(done):
                 if not stale():
                     self.sweep = done
+                    if done.finished:
+                        self._finished = done
                     self.swept.emit()
             s.run(stale, publish)
         except Exception as exc:  # noqa: BLE001 - as above

@@ -8,6 +8,15 @@ arrays, the file's size, modification time and the SHA-256 of its first MiB:
 a summary whose file has changed since (stale), or that does not read back
 whole and consistent (damaged), is built again, never trusted.  Writes are
 atomic (``io.atomic``), so a killed write leaves no half file under the name.
+
+The folder is pruned (``prune``) each time a summary is kept: summaries
+unused for ``KEEP_DAYS`` days go, then the least recently used ones until
+the rest fit in ``MAX_GIB`` GiB (``$SCALESIEVE_CACHE_MAX_GIB`` and
+``$SCALESIEVE_CACHE_DAYS`` change them).  Reading a summary back marks it
+used (its modification time).  A summary this process has open is never
+removed, nor one used in the last ``BUSY_S`` seconds (another window may
+hold it); each removal is one ``unlink``, so a summary is either whole or
+gone.
 """
 
 from __future__ import annotations
@@ -25,6 +34,14 @@ from scalesieve.longview import summary as sm
 FORMAT = 2
 #: bytes of the file's head hashed into the key
 HEAD_BYTES = 1 << 20
+#: summaries kept at most, in GiB (``$SCALESIEVE_CACHE_MAX_GIB``)
+MAX_GIB = 4.0
+#: a summary unused this many days is removed (``$SCALESIEVE_CACHE_DAYS``)
+KEEP_DAYS = 60.0
+#: a summary used this recently may be open in another window: kept
+BUSY_S = 3600.0
+#: the summaries this process has open (cache files), never pruned
+IN_USE: set = set()
 
 
 def cache_folder() -> str:
@@ -109,9 +126,14 @@ def load(path: str, spec: tf.TransformSpec, channel, facts: dict) -> sm.Summary 
                     or manifest.get("spec") != _spec_words(spec) \
                     or manifest.get("channel") != channel:
                 return None
-            return _rebuild(manifest, z, spec)
+            got = _rebuild(manifest, z, spec)
     except Exception:  # noqa: BLE001 - any damage at all: build it again
         return None
+    try:
+        os.utime(target)                 # used now: the last to go when the folder is pruned
+    except OSError:
+        pass
+    return got
 
 
 def _rebuild(manifest: dict, z, spec: tf.TransformSpec) -> sm.Summary:
@@ -167,6 +189,7 @@ def summary_for(path: str, spec: tf.TransformSpec, channel=None, progress=None,
     from scalesieve.stream.pipeline import _Source
 
     facts = file_facts(path)
+    IN_USE.add(cache_path(path, spec, channel))
     got = load(path, spec, channel, facts)
     if got is not None:
         got.kept_as = (path, channel, facts)
@@ -178,6 +201,70 @@ def summary_for(path: str, spec: tf.TransformSpec, channel=None, progress=None,
     return summary, "built"
 
 
+def let_go(summary: sm.Summary) -> None:
+    """The window is done with ``summary``: its cache file may be pruned from now on."""
+    if summary.kept_as is not None:
+        path, channel, _ = summary.kept_as
+        IN_USE.discard(cache_path(path, summary.spec, channel))
+
+
+def _setting(name: str, default: float) -> float:
+    try:
+        v = float(os.environ.get(name, ""))
+    except ValueError:
+        return default
+    return v if v >= 0 else default
+
+
+def prune(max_bytes: int | None = None, max_age_days: float | None = None,
+          now: float | None = None, keep: tuple = ()) -> list[str]:
+    """Remove summaries unused for ``max_age_days``, then the least recently used ones until
+    the rest hold at most ``max_bytes``; returns the files removed.
+
+    Never a summary in ``IN_USE`` or ``keep``, nor one used (or written) in the
+    last ``BUSY_S`` seconds; a file that cannot be removed is left.
+    """
+    import time
+
+    if max_bytes is None:
+        max_bytes = int(_setting("SCALESIEVE_CACHE_MAX_GIB", MAX_GIB) * (1 << 30))
+    if max_age_days is None:
+        max_age_days = _setting("SCALESIEVE_CACHE_DAYS", KEEP_DAYS)
+    now = time.time() if now is None else now
+    folder = os.path.join(cache_folder(), "summaries")
+    try:
+        names = os.listdir(folder)
+    except OSError:
+        return []
+    held = {os.path.realpath(p) for p in IN_USE | set(keep)}
+    files = []
+    for name in names:
+        if not name.endswith(".npz") or name.startswith("."):
+            continue                    # a write in progress has a hidden temporary name
+        full = os.path.join(folder, name)
+        try:
+            st = os.stat(full)
+        except OSError:
+            continue
+        files.append((st.st_mtime, st.st_size, full))
+    files.sort()                                         # least recently used first
+    total = sum(size for _, size, _ in files)
+    gone = []
+    for used, size, full in files:
+        old = now - used > max_age_days * 86400.0
+        if not old and total <= max_bytes:
+            break
+        if os.path.realpath(full) in held or now - used < BUSY_S:
+            continue
+        try:
+            os.unlink(full)
+        except OSError:
+            continue
+        total -= size
+        gone.append(full)
+    return gone
+
+
 def keep(summary: sm.Summary) -> None:
     """Write ``summary`` back where it came from (with the file's facts as they were when it
     was made, so a file changed since is still caught); a cache folder that cannot be
@@ -186,6 +273,7 @@ def keep(summary: sm.Summary) -> None:
 
     path, channel, facts = summary.kept_as
     try:
-        save(summary, path, channel, facts)
+        target = save(summary, path, channel, facts)
     except (OSError, ScalesieveError):
-        pass                           # a read-only cache: the summary still serves this time
+        return                         # a read-only cache: the summary still serves this time
+    prune(keep=(target,))

@@ -7,7 +7,9 @@ thresholds with the whole bands' noise from the summary, region edits) and
 synthesises outputs ``t0 .. t1``: the samples the whole-array
 ``pywt.waverec`` of the edited ``pywt.wavedec`` gives there, within float
 round-off, at a cost that follows the stretch, not the recording.
-``export`` runs the same edits over the whole file through the streaming
+In ``periodic`` and ``periodization`` the stretch is made by ``longview.wrapped``
+(a stretch near one end reads the other).  ``export`` runs the same edits over the
+whole file through the streaming
 pipeline (``stream.pipeline.clean_stream``), which works its thresholds out
 again from its own first passes: the same numbers the command line writes.
 """
@@ -23,6 +25,7 @@ from scalesieve.core import transforms as tf
 from scalesieve.errors import ScalesieveError
 from scalesieve.longview.samples import SampleReader
 from scalesieve.longview.summary import Summary
+from scalesieve.longview.wrapped import WRAP_MODES
 from scalesieve.stream import statistics as st
 
 #: feed the stretch to the cascade in blocks of this many samples
@@ -31,14 +34,19 @@ FEED = tf.BLOCK
 
 def why_not_long(spec: tf.TransformSpec) -> str | None:
     """Why a long recording cannot be shown under ``spec``, or None when it can."""
+    from scalesieve.longview.wrapped import WRAP_MODES
     from scalesieve.stream.dwt import STREAM_MODES
 
+    if spec.kind == "swt":
+        return ("a long recording is shown with the DWT: the SWT keeps every level at full "
+                "length, and its summary and exact stretches are not made in blocks yet "
+                "(use --transform dwt; `scalesieve clean --transform swt` runs in blocks)")
     if spec.kind != "dwt":
-        return (f"a long recording is shown with the DWT; the {spec.kind.upper()} keeps every "
-                "level at full length (use --transform dwt)")
-    if spec.mode not in STREAM_MODES:
-        return (f"a long recording is shown in a mode that extends the signal at its edges "
-                f"(symmetric, reflect, zero, ...), not {spec.mode} (use --mode symmetric)")
+        return ("a long recording is shown with the DWT: wavelet packets have no summary in "
+                "blocks yet (use --transform dwt; `scalesieve bands` and `clean` run packets "
+                "in blocks)")
+    if spec.mode not in STREAM_MODES and spec.mode not in WRAP_MODES:
+        return f"the DWT in mode {spec.mode} is not shown for a long recording"
     return None
 
 
@@ -85,7 +93,12 @@ class LongRecording:
         if self.reader.frames != self.n or self.reader.channels != self.channels:
             raise ScalesieveError("the summary does not match the file (changed since?)", path)
         self.edits: tuple = ()
+        self._last_forward = None          # ((t0, t1), samples, raw coefficients)
         self.plan = self._plan(())
+        from scalesieve.longview.edges import BandRanges
+
+        #: exact coefficients of any band over a range (a wide view's blocks at region edges)
+        self.ranges = BandRanges(self)
 
     # ------------------------------------------------------------------ edits
 
@@ -150,38 +163,95 @@ class LongRecording:
 
     # ------------------------------------------------------------------ stretches
 
-    def synthesise(self, t0: int, t1: int, keep_coefficients: bool = True) -> Span:
-        """Exact original and cleaned samples ``t0 .. t1`` (clipped to the recording)."""
-        from scalesieve.stream.dwt import ForwardStream, InverseStream, stretch
+    def synthesise(self, t0: int, t1: int, keep_coefficients: bool = True,
+                   plan=None) -> Span:
+        """Exact original and cleaned samples ``t0 .. t1`` (clipped to the recording), with
+        the current edits (or those of ``plan``, one ``self.plan`` was)."""
+        plan = self.plan if plan is None else plan
+        from scalesieve.stream.dwt import InverseStream, stretch
 
         n, spec, level = self.n, self.spec, self.spec.level
         t0, t1 = max(0, int(t0)), min(n, int(t1))
         if t1 <= t0:
             empty = np.zeros((0, self.channels))
             return Span(t0, t0, empty, empty.copy(), [{} for _ in range(self.channels)])
+        if spec.mode in WRAP_MODES:
+            return self._wrapped(t0, t1, keep_coefficients, plan)
         first, last = stretch(n, spec, t0, t1)
         starts = [first[level]] + [first[level - i + 1] for i in range(1, level + 1)]
-        x = self.reader.read(first[0], last[0])
+        x, made = self._forward(t0, t1, first, last)
         cleaned = np.empty((t1 - t0, self.channels))
         kept: list = [{} for _ in range(self.channels)]
         for k in range(self.channels):
             def out(s0, seg, k=k):
                 cleaned[s0 - t0:s0 - t0 + seg.shape[0], k] = seg
             inv = InverseStream(n, spec, out, start=t0, stop=t1, band_starts=starts)
-            bands = self.plan.bands[k]
-
-            def put(key, k0, c, inv=inv, bands=bands, k=k):
+            bands = plan.bands[k]
+            for step in made[k]:
+                if step is None:                 # as the cascade was fed: pump between
+                    inv.pump()
+                    continue
+                key, k0, c = step
                 e = bands[key].edited(c, k0)
                 if keep_coefficients:
                     kept[k].setdefault(key, []).append((k0, np.array(e, dtype=np.float64)))
                 inv.put(key, k0, e)
-            fwd = ForwardStream(n, spec, put, first=first, last=last)
+        coefficients = [self._within(kept[k], t0, t1) for k in range(self.channels)]
+        return Span(t0, t1, x[t0 - first[0]:t1 - first[0]].copy(), cleaned, coefficients)
+
+    def _forward(self, t0: int, t1: int, first: list, last: list) -> tuple:
+        """The samples and every channel's raw coefficients for outputs ``t0 .. t1``, in the
+        order the cascade made them (``None`` where a block of samples ended); the last
+        stretch's are kept, so another edit on the same view only edits and synthesises."""
+        from scalesieve.stream.dwt import ForwardStream
+
+        got = self._last_forward              # one read: another thread may replace it
+        if got is not None and got[0] == (t0, t1):
+            return got[1], got[2]
+        x = self.reader.read(first[0], last[0])
+        made: list = [[] for _ in range(self.channels)]
+        for k in range(self.channels):
+            def put(key, k0, c, steps=made[k]):
+                steps.append((key, k0, np.array(c, dtype=np.float64)))
+            fwd = ForwardStream(self.n, self.spec, put, first=first, last=last)
             col = np.ascontiguousarray(x[:, k])
             for a in range(0, col.shape[0], FEED):
                 fwd.feed(col[a:a + FEED])
-                inv.pump()
-        coefficients = [self._within(kept[k], t0, t1) for k in range(self.channels)]
-        return Span(t0, t1, x[t0 - first[0]:t1 - first[0]].copy(), cleaned, coefficients)
+                made[k].append(None)
+        self._last_forward = ((t0, t1), x, made)
+        return x, made
+
+    def _shown(self, key, t0: int, t1: int) -> tuple[int, int]:
+        """The coefficients of band ``key`` positioned in ``t0 .. t1`` (a coarse band seen
+        close up: the one nearest the stretch's middle)."""
+        count = tf.band_lengths(self.n, self.spec)[tf.band_index(key, self.spec.level)]
+        sl = tf.coefficient_slice(key, self.spec, count, t0, t1 - 1)
+        if sl.stop > sl.start:
+            return sl.start, sl.stop
+        step, shift = tf._position_formula(key, self.spec)
+        a = int(np.clip(np.rint((0.5 * (t0 + t1) - shift) / step), 0, count - 1))
+        return a, a + 1
+
+    def _wrapped(self, t0: int, t1: int, keep_coefficients: bool, plan) -> Span:
+        """``synthesise`` in a mode that wraps (``longview.wrapped``)."""
+        from scalesieve.longview.wrapped import WrappedStretch
+
+        x = self.reader.read(t0, t1)
+        cleaned = np.empty((t1 - t0, self.channels))
+        keys = [*range(1, self.spec.level + 1), "a"]
+        shown = {key: self._shown(key, t0, t1) for key in keys}
+        coefficients: list = []
+        for k in range(self.channels):
+            bands = plan.bands[k]
+            ws = WrappedStretch(lambda a, b, k=k: self.reader.read(a, b)[:, k], self.n,
+                                self.spec)
+            out, edited = ws.synthesise(t0, t1, lambda key, k0, v, b=bands: b[key].edited(v, k0),
+                                        {key: [ab] for key, ab in shown.items()}
+                                        if keep_coefficients else None)
+            cleaned[:, k] = out
+            coefficients.append({key: (a, edited[key].take(np.arange(a, b)))
+                                 for key, (a, b) in shown.items()} if keep_coefficients else {})
+        return Span(t0, t1, x.copy(), cleaned, coefficients)
 
     def _within(self, parts: dict, t0: int, t1: int) -> dict:
         out = {}
@@ -213,7 +283,11 @@ class LongRecording:
                             channel=self.channel, progress=progress)
 
     def close(self) -> None:
+        from scalesieve.longview.cache import let_go
+
         self.reader.close()
+        self._last_forward = None
+        let_go(self.summary)
 
 
 def open_long(path: str, spec: tf.TransformSpec, channel: int | None = None,

@@ -68,14 +68,26 @@ class Series:
             t += 1
         return t
 
+    def blocks_in(self, t0: float, t1: float, columns: int) -> tuple[int, int, int]:
+        """``(table, a, b)``: blocks ``a .. b`` of the table fitting ``columns`` meet ``t0 .. t1``."""
+        t = self.table_for((t1 - t0) / max(1, columns))
+        width = self.block_samples(t)
+        a = max(0, int(np.floor((t0 - self.shift) / width)))
+        b = min(self.tables[t][0].shape[0], int(np.ceil((t1 - self.shift) / width)))
+        return t, a, b
+
+    def values_of(self, table: int, a: int, b: int) -> tuple[np.ndarray, np.ndarray]:
+        """``(starts, stops)``: the value indices blocks ``a .. b`` of ``table`` hold."""
+        size = self.block << (STEP * table)
+        starts = np.arange(a, b, dtype=np.int64) * size
+        return starts, np.minimum(starts + size, self.count)
+
     def window(self, t0: float, t1: float, columns: int):
         """``(centres, lo, hi, energy)`` of the blocks of the fitting table that meet ``t0 .. t1``;
         ``centres`` in samples (a full block's middle)."""
-        t = self.table_for((t1 - t0) / max(1, columns))
+        t, a, b = self.blocks_in(t0, t1, columns)
         lo, hi, en = self.tables[t]
         width = self.block_samples(t)
-        a = max(0, int(np.floor((t0 - self.shift) / width)))
-        b = min(lo.shape[0], int(np.ceil((t1 - self.shift) / width)))
         times = self.shift + width * (np.arange(a, b, dtype=np.float64) + 0.5)
         return times, lo[a:b], hi[a:b], en[a:b]
 
@@ -150,7 +162,7 @@ class Summary:
             return self._find(source, wanted, progress, cancelled)
 
     def _find(self, source, wanted, progress, cancelled) -> bool:
-        from scalesieve.stream.dwt import ForwardStream
+        from scalesieve.stream.wrap import forward_stream
 
         todo = self.missing(wanted)
         if not todo:
@@ -172,7 +184,8 @@ class Summary:
                     m.add(c)
             return put
         chans = sorted({k for k, _ in todo})
-        streams = {k: ForwardStream(self.n, self.spec, put_for(k), depth=depth) for k in chans}
+        streams = {k: forward_stream(source, self.spec, put_for(k), k, depth=depth)
+                   for k in chans}
         for block in source.blocks():
             if cancelled is not None and cancelled():
                 raise InterruptedError("noise pass cancelled")
@@ -200,12 +213,13 @@ def _sparse(m: st.MedianOfMagnitudes) -> tuple:
 
 def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summary:
     """The summary of ``source`` (``stream.pipeline._Source``: ``blocks()``, ``frames``,
-    ``rate``, ``channels``) under the resolved DWT ``spec`` in a mode that extends
-    the signal at its edges, in one pass; ``progress(fraction, text)`` as it goes;
+    ``rate``, ``channels``) under the resolved DWT ``spec`` in any mode, in one pass
+    (``periodic`` and ``periodization`` read the recording's ends first); ``progress(fraction, text)`` as it goes;
     ``cancelled()`` true stops it (``InterruptedError``)."""
-    from scalesieve.stream.dwt import ForwardStream, can_stream
+    from scalesieve.stream.dwt import can_stream
+    from scalesieve.stream.wrap import WRAP_MODES, forward_stream
 
-    if not can_stream(spec):
+    if not (can_stream(spec) or (spec.kind == "dwt" and spec.mode in WRAP_MODES)):
         raise ValueError(f"the {spec.kind} in mode {spec.mode} has no summary in blocks")
     n, level, chans = source.frames, spec.level, source.channels
     keys = tf.band_keys(level)
@@ -231,7 +245,7 @@ def build(source, spec: tf.TransformSpec, progress=None, cancelled=None) -> Summ
                 count(k, key)
             blockers[k][key].add(c)
         return put
-    streams = [ForwardStream(n, spec, put_for(k)) for k in range(chans)]
+    streams = [forward_stream(source, spec, put_for(k), k) for k in range(chans)]
     for block in source.blocks():
         if cancelled is not None and cancelled():
             raise InterruptedError("summary cancelled")

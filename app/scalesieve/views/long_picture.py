@@ -8,10 +8,11 @@ draws.  A wider view is drawn from the summary: the original trace from the
 blocks' minima and maxima, the Scale map from the blocks' largest magnitude
 with the band's edits applied to it (a gain scales it; hard, soft and garrote
 thresholds grow with the magnitude, so the largest edited value is the edit
-of the largest value; a region edit counts for the blocks whose middle lies
-in the region); its cleaned and removed traces come from one pass over the
-whole file once the edits settle (``longview.sweep``), drawn as far as that
-pass has got.
+of the largest value; a region edit scales the blocks wholly inside it, and a
+block that straddles a region's edge is worked out from its own coefficients,
+read from the file (``longview.edges``): every block's figure is exact); its
+cleaned and removed traces come from one pass over the whole file once the
+edits settle (``longview.sweep``), drawn as far as that pass has got.
 """
 
 from __future__ import annotations
@@ -83,9 +84,16 @@ def _exact(lr, t0: int, t1: int, columns: int, k: int) -> Picture:
                    _columns_of(x - y, cols), [tf.band_name(key, level) for key in keys], mags)
 
 
-def edited_peaks(peaks: np.ndarray, starts_s: np.ndarray, chain, lams) -> np.ndarray:
-    """The largest |c| of each block after a band's chain of edits (see the module's words)."""
+def edited_peaks(peaks: np.ndarray, chain, lams, cover=None) -> tuple[np.ndarray, np.ndarray]:
+    """The largest |c| of each block after a band's chain of edits (see the module's words).
+
+    ``cover(edit)`` gives a region edit's ``(inside, straddling)`` masks over the
+    blocks (wholly inside the region; partly inside); returns ``(peaks, straddling)``:
+    the edited peaks, exact where ``straddling`` is False (those blocks need their
+    own coefficients).
+    """
     m = np.abs(np.asarray(peaks, dtype=np.float64))
+    straddling = np.zeros(m.shape[0], dtype=bool)
     t = 0
     for e in chain:
         if e.op == "gain":
@@ -93,10 +101,44 @@ def edited_peaks(peaks: np.ndarray, starts_s: np.ndarray, chain, lams) -> np.nda
         elif e.op == "threshold":
             m = np.abs(th.apply_shape(m, float(lams[t]), e.shape))
             t += 1
-        elif e.op == "region":
-            inside = (starts_s >= e.start_s) & (starts_s <= e.stop_s)
+        elif e.op == "region" and cover is not None:
+            inside, part = cover(e)
             m = np.where(inside, m * abs(float(e.gain)), m)
-    return m
+            straddling |= part
+    return m, straddling
+
+
+def region_cover(band, starts: np.ndarray, stops: np.ndarray):
+    """``cover`` for ``edited_peaks``: blocks holding coefficients ``starts .. stops`` of
+    ``band`` (a ``stream.recipe_plan._Band``) against a region edit's coefficients."""
+    from scalesieve.core.edits import region_slice
+
+    def cover(e):
+        sl = region_slice(e, band.ctx)
+        if sl.stop <= sl.start:
+            none = np.zeros(starts.shape[0], dtype=bool)
+            return none, none
+        inside = (starts >= sl.start) & (stops <= sl.stop)
+        meets = (starts < sl.stop) & (stops > sl.start)
+        return inside, meets & ~inside
+    return cover
+
+
+def band_peaks(lr, k: int, key, t0: int, t1: int, columns: int) -> tuple[np.ndarray, np.ndarray]:
+    """``(centres in samples, largest edited |c|)`` of band ``key``'s summary blocks in view;
+    blocks at a region's edge from their own coefficients (``longview.edges``)."""
+    series = lr.summary.bands[k][key]
+    table, a, b = series.blocks_in(t0, t1, columns)
+    times, blo, bhi, _ = series.window(t0, t1, columns)
+    band = lr.plan.bands[k][key]
+    starts, stops = series.values_of(table, a, b)
+    peaks, straddling = edited_peaks(np.maximum(np.abs(blo), np.abs(bhi)), band.chain,
+                                     band.lams, region_cover(band, starts, stops))
+    for i in np.flatnonzero(straddling):
+        c = lr.ranges.coefficients(k, key, int(starts[i]), int(stops[i]))
+        e = band.edited(c, int(starts[i]))
+        peaks[i] = float(np.max(np.abs(e))) if e.size else 0.0
+    return times, peaks
 
 
 def _binned(times: np.ndarray, lo: np.ndarray, hi: np.ndarray, t0: float, t1: float,
@@ -145,10 +187,7 @@ def _from_summary(lr, t0: int, t1: int, columns: int, k: int, sweep=None) -> Pic
     keys = rows_of(level)
     mags = np.zeros((len(keys), columns))
     for r, key in enumerate(keys):
-        bt, blo, bhi, _ = s.bands[k][key].window(t0, t1, columns)
-        band = lr.plan.bands[k][key]
-        peaks = edited_peaks(np.maximum(np.abs(blo), np.abs(bhi)), bt / rate, band.chain,
-                             band.lams)
+        bt, peaks = band_peaks(lr, k, key, t0, t1, columns)
         _, mags[r] = _binned(bt, peaks, peaks, t0, t1, columns)
     return Picture(t0, t1, False, 0.5 * (edges[:-1] + edges[1:]) / rate, original, cleaned,
                    removed, [tf.band_name(key, level) for key in keys], mags, done)
@@ -164,3 +203,23 @@ def picture(lr, t0: int, t1: int, columns: int, channel: int = 0,
     if t1 - t0 <= exact_most:
         return _exact(lr, t0, t1, columns, channel)
     return _from_summary(lr, t0, t1, columns, channel, sweep)
+
+
+def snap_to_tiles(spec: tf.TransformSpec, n: int, rate: float, keys, t0_s: float,
+                  t1_s: float) -> tuple[float, float]:
+    """``[t0_s, t1_s]`` widened to whole coefficient tiles of the coarsest band in ``keys``.
+
+    A coefficient's tile is its time position ± half its band's spacing; the
+    finer bands' tiles nest inside the coarsest one's (as the in-memory
+    Scale map snaps a drawn region).
+    """
+    lengths = tf.band_lengths(n, spec)
+    key = max(keys, key=lambda k: tf._position_formula(k, spec)[0])
+    step, shift = tf._position_formula(key, spec)
+    count = max(1, lengths[tf.band_index(key, spec.level)])
+    k0 = int(np.clip(np.floor((t0_s * rate - shift) / step + 0.5), 0, count - 1))
+    k1 = int(np.clip(np.ceil((t1_s * rate - shift) / step - 0.5), k0, count - 1))
+    start = (shift + (k0 - 0.5) * step) / rate
+    stop = (shift + (k1 + 0.5) * step) / rate
+    dur = n / rate
+    return max(0.0, start), min(dur, stop) if stop > 0 else dur
