@@ -236,10 +236,12 @@ def _main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # the last line of defence: a log, not a traceback
         if debug:
             raise
-        path = _log_failure(exc)
+        # a failure the window's reporter logged already says what failed and where its log is
+        logged = getattr(exc, "log_path", None)
+        path = logged or _log_failure(exc)
         where = f"; details in {path}" if path else ""
-        print(f"{PROG}: unexpected failure: {type(exc).__name__}: {exc}{where}",
-              file=sys.stderr)
+        what = str(exc) if logged else f"{type(exc).__name__}: {exc}"
+        print(f"{PROG}: unexpected failure: {what}{where}", file=sys.stderr)
         return 1
 
 
