@@ -34,10 +34,40 @@ class UsageError(Exception):
 
 
 class Parser(argparse.ArgumentParser):
-    """argparse with one-line errors in our format."""
+    """argparse with one-line errors in our format: the command, what was wrong, its usage."""
 
     def error(self, message):  # noqa: D401 - argparse API
-        raise UsageError(message)
+        command = self.prog[len(PROG):].strip()
+        where = f"{command}: " if command else ""
+        raise UsageError(f"{where}{message} (usage: {short_usage(self)}; "
+                         f"'{self.prog} --help' tells more)")
+
+
+def short_usage(parser: argparse.ArgumentParser) -> str:
+    """``scalesieve clean FILE -o OUT [options]``: the positionals and required options.
+
+    argparse's own usage line lists every option, many lines long; this one
+    fits the one-line error.
+    """
+    words = [parser.prog]
+    optional = False
+    for action in parser._actions:          # reading argparse's list, not writing it
+        if isinstance(action, (argparse._HelpAction, argparse._VersionAction)):
+            continue
+        name = action.metavar or (action.dest.upper() if not action.option_strings
+                                  else None)
+        if not action.option_strings:
+            word = {"?": f"[{name}]", "*": f"[{name} ...]", "+": f"{name} ..."}.get(
+                action.nargs, name)
+            words.append(word)
+        elif action.required:
+            flag = action.option_strings[0]
+            words.append(flag if action.nargs == 0 else f"{flag} {name or action.dest.upper()}")
+        else:
+            optional = True
+    if optional:
+        words.append("[options]")
+    return " ".join(words)
 
 
 def _version_text() -> str:
@@ -71,6 +101,18 @@ def build_parser(command: str | None) -> tuple[argparse.ArgumentParser, object]:
     p.add_argument("--debug", action="store_true", help="show full tracebacks")
     mod.configure(p)
     return p, mod
+
+
+def _refuse_unknown_command(first: str) -> None:
+    """A first word that is neither a command nor a file (a mistyped ``band``): say both."""
+    import os
+
+    if first.startswith("-") or os.path.exists(first) or os.path.splitext(first)[1] \
+            or os.sep in first:
+        return          # an option, or a file name: the reader names what is wrong with it
+    raise UsageError(f"{first!r} is neither a command ({', '.join(COMMANDS)}) nor a file "
+                     f"(usage: {PROG} COMMAND ... or {PROG} [FILE] [options]; "
+                     f"'{PROG} --help' tells more)")
 
 
 def _log_failure(exc: BaseException) -> str | None:
@@ -159,6 +201,8 @@ def _main(argv: list[str] | None = None) -> int:
         if command is None and rest and rest[0] in ("-h", "--help") and _module(WINDOW) is None:
             print(f"usage: {PROG} {{{','.join(COMMANDS)}}} ...")
             return 0
+        if command is None and rest:
+            _refuse_unknown_command(rest[0])
         parser, mod = build_parser(command)
         args = parser.parse_args(rest)
         if command is not None:
@@ -192,10 +236,12 @@ def _main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # the last line of defence: a log, not a traceback
         if debug:
             raise
-        path = _log_failure(exc)
+        # a failure the window's reporter logged already says what failed and where its log is
+        logged = getattr(exc, "log_path", None)
+        path = logged or _log_failure(exc)
         where = f"; details in {path}" if path else ""
-        print(f"{PROG}: unexpected failure: {type(exc).__name__}: {exc}{where}",
-              file=sys.stderr)
+        what = str(exc) if logged else f"{type(exc).__name__}: {exc}"
+        print(f"{PROG}: unexpected failure: {what}{where}", file=sys.stderr)
         return 1
 
 

@@ -30,8 +30,9 @@ BASE_BYTES = 64 << 20
 STREAM_ABOVE = 1 << 30
 
 
-def _gib(b: float) -> str:
-    return f"{b / 2**30:.1f} GiB"
+def _size(b: float) -> str:
+    """Bytes as the guard's messages say them: GiB from 1 GiB on, MiB below."""
+    return f"{b / 2**30:.1f} GiB" if b >= 2**30 else f"{max(b / 2**20, 1):.0f} MiB"
 
 
 def estimate(facts: dict, *, channel: int | None = None, dtype=np.float64,
@@ -118,7 +119,8 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
     """Whether a clean of ``facts`` runs block by block, and why not when it cannot.
 
     Returns ``(True, None)`` when the whole-array work would need more than
-    ``STREAM_ABOVE`` (or than is ``available``) and the blocks can do it;
+    ``STREAM_ABOVE`` (or than is ``available``, default :func:`available_memory`)
+    and the blocks can do it;
     ``(False, reason)`` when they cannot (``reason`` None: no need).
     ``swt``: the command takes the SWT in blocks too (``events``);
     ``packets``: it takes wavelet packets in blocks (``bands``).
@@ -129,21 +131,12 @@ def in_blocks(facts: dict | None, *, channel=None, transform=None, outputs=(),
     if facts is None or facts.get("frames") is None:
         return False, None
     spec = transform or TransformSpec()
-    limit = STREAM_ABOVE if available is None else min(STREAM_ABOVE, available)
+    if available is None:
+        available = available_memory()
+    limit = min(STREAM_ABOVE, available)
     if estimate(facts, channel=channel, transform=spec) <= limit:
         return False, None
-    if spec.level is None:
-        from dataclasses import replace
-
-        from scalesieve.core import transforms as tf
-
-        frames = max(int(facts["frames"]), 2)
-        if spec.kind == "packet":
-            from scalesieve.core import packets as wp
-
-            spec = replace(spec, level=wp.default_depth(frames, spec.wavelet))
-        else:
-            spec = replace(spec, level=tf.default_level(frames, spec.wavelet))
+    spec = _with_level(spec, int(facts["frames"]))
     why = not_streamable(facts, spec, list(outputs), fill_gaps, channel, swt, packets)
     return why is None, why
 
@@ -162,11 +155,10 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         Bytes free; default :func:`available_memory`.
 
     outputs : list of str, optional
-        Given (empty for ``bands`` and ``events``, the files a clean will
-        write) when the command can work block by block: a recording past
-        ``STREAM_ABOVE`` or too long for memory is then not refused when the
-        blocks can do it, and the facts say ``"in_blocks": {"bytes": ...}``
-        (about what that takes).
+        Given (empty for ``bands``, the files a clean will write) when the
+        command can work block by block: a recording past ``STREAM_ABOVE``
+        or too long for memory is then not refused when the blocks can do
+        it, and the facts say ``"in_blocks"`` (see :func:`weigh`).
     packets : bool
         The command takes wavelet packets in blocks (``bands``).
 
@@ -185,7 +177,7 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         Naming how much is needed and what would need less (one channel,
         float32 samples, the DWT instead of the SWT).
     """
-    from scalesieve.io.readers import TEXT_EXTENSIONS, probe
+    from scalesieve.io.readers import TEXT_EXTENSIONS
 
     if available is None:
         available = available_memory()
@@ -200,27 +192,48 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
         room = available if outputs is None else min(available, STREAM_ABOVE)
         if estimate(bound, dtype=dtype, transform=transform) <= room:
             return None
-    try:
-        facts = probe(source)
-    except ScalesieveError:
+    facts = probe_quietly(source)
+    if facts is None:
         return None
-    need = estimate(facts, channel=channel, dtype=dtype, transform=transform)
+    return weigh(facts, source, channel=channel, dtype=dtype, transform=transform,
+                 available=available, outputs=outputs, fill_gaps=fill_gaps, packets=packets)
+
+
+def weigh(facts: dict, source: str, *, channel=None, dtype=np.float64, transform=None,
+          available: int | None = None, outputs=None, fill_gaps: str | None = None,
+          packets: bool = False, levels=None) -> dict:
+    """:func:`check` on facts already probed: whole, in blocks, or refused.
+
+    ``levels``: the detail levels ``events`` searches (its blocks hold the
+    bands to the deepest of them and no inverse: ``stream.choice.events_bytes``);
+    otherwise the blocks cost what a clean holds (``outputs`` not empty) or
+    what ``bands`` holds (``stream.choice.stream_bytes``).
+
+    When the work runs block by block the facts gain ``"in_blocks"``:
+    ``{"bytes": ..., "whole_bytes": ..., "available_bytes": ...}`` (what the
+    blocks take, what the whole-array work would, the memory free); its
+    :func:`blocks_reason` says why, for the command's note.
+    """
+    if available is None:
+        available = available_memory()
+    spec = transform or _default_spec()
+    need = estimate(facts, channel=channel, dtype=dtype, transform=spec)
     facts = dict(facts, needed_bytes=need, available_bytes=int(available))
     blocks, why = (False, None) if outputs is None else in_blocks(
-        facts, channel=channel, transform=transform, outputs=outputs, fill_gaps=fill_gaps,
+        facts, channel=channel, transform=spec, outputs=outputs, fill_gaps=fill_gaps,
         available=available, packets=packets)
     if blocks:
-        from scalesieve.stream.choice import stream_bytes
-
         chans = 1 if channel is not None else int(facts["channels"])
-        cost = stream_bytes(chans, transform or _default_spec(), clean=bool(outputs))
-        facts["in_blocks"] = {"bytes": cost}
+        resolved = _with_level(spec, int(facts["frames"]))
+        cost = _blocks_bytes(chans, resolved, outputs, levels)
+        if cost > available and need <= available:
+            return facts        # past the budget, but it fits whole where blocks would not
+        facts["in_blocks"] = {"bytes": cost, "whole_bytes": need,
+                              "available_bytes": int(available)}
         if cost <= available:
             return facts
-        raise ScalesieveError(
-            f"needs about {_gib(cost)} of memory even in blocks, but only "
-            f"{_gib(available)} is available; close other programs or clean one channel "
-            "at a time (--channel K)", source=source)
+        raise ScalesieveError(_refusal_in_blocks(facts, resolved, cost, int(available),
+                                                 channel, outputs, levels), source=source)
     if need <= available:
         return facts
     chans = int(facts["channels"]) if channel is None else 1
@@ -229,24 +242,84 @@ def check(path: str | os.PathLike, *, channel: int | None = None, dtype=np.float
             f"in {np.dtype(dtype).name}")
     ways = []
     if channel is None and int(facts["channels"]) > 1:
-        one = estimate(facts, channel=0, dtype=dtype, transform=transform)
-        ways.append(f"one channel (--channel K) needs about {_gib(one)}")
+        one = estimate(facts, channel=0, dtype=dtype, transform=spec)
+        ways.append(f"one channel (--channel K) needs about {_size(one)}")
     if np.dtype(dtype) == np.float64:
-        half = estimate(facts, channel=channel, dtype=np.float32, transform=transform)
+        half = estimate(facts, channel=channel, dtype=np.float32, transform=spec)
         ways.append(f"float32 samples (scalesieve.api.load(path, dtype=numpy.float32)) "
-                    f"need about {_gib(half)}")
-    if transform is not None and transform.kind == "swt":
+                    f"need about {_size(half)}")
+    if spec.kind == "swt":
         from dataclasses import replace
 
-        dwt = estimate(facts, channel=channel, dtype=dtype,
-                       transform=replace(transform, kind="dwt"))
-        ways.append(f"the DWT (--transform dwt) needs about {_gib(dwt)}")
+        dwt = estimate(facts, channel=channel, dtype=dtype, transform=replace(spec, kind="dwt"))
+        ways.append(f"the DWT (--transform dwt) needs about {_size(dwt)}")
     if why is not None:
         ways.append(f"it cannot be worked on in blocks ({why})")
     ways.append("or cut the recording into shorter files")
     raise ScalesieveError(
-        f"needs about {_gib(need)} of memory ({what}), but only {_gib(available)} is "
-        f"available; " + "; ".join(ways), source=os.fspath(path))
+        f"needs about {_size(need)} of memory ({what}), but only {_size(available)} is "
+        f"available; " + "; ".join(ways), source=source)
+
+
+def blocks_reason(facts: dict) -> str:
+    """Why the facts' recording is worked on in blocks, for the command's note."""
+    blocks = facts["in_blocks"]
+    whole, free = blocks["whole_bytes"], blocks["available_bytes"]
+    if whole > free:
+        return f"whole it would need about {_size(whole)}, more than the {_size(free)} free"
+    return (f"whole it would need about {_size(whole)}, more than the "
+            f"{_size(STREAM_ABOVE)} a command holds at most")
+
+
+def _blocks_bytes(channels: int, spec, outputs, levels) -> int:
+    """What the command's blocks hold: ``events`` (``levels``), a clean or ``bands``."""
+    from scalesieve.stream.choice import events_bytes, stream_bytes
+
+    if levels is not None:
+        return events_bytes(channels, spec, levels)
+    return stream_bytes(channels, spec, clean=bool(outputs))
+
+
+def _refusal_in_blocks(facts: dict, spec, cost: int, available: int, channel, outputs,
+                       levels) -> str:
+    """What a command too large even in blocks says: the figure, and what needs less."""
+    from dataclasses import replace
+
+    chans = 1 if channel is not None else int(facts["channels"])
+    ways = []
+    if chans > 1:
+        one = _blocks_bytes(1, spec, outputs, levels)
+        ways.append(f"one channel at a time (--channel K) about {_size(one)}")
+    if spec.kind == "swt":
+        dwt = _blocks_bytes(chans, replace(spec, kind="dwt"), outputs, levels)
+        if dwt < cost:
+            ways.append(f"the DWT (--transform dwt) about {_size(dwt)}")
+    if levels is not None and max(levels) > 2:
+        fine = _blocks_bytes(chans, spec, outputs, [1, 2])
+        ways.append(f"levels 1 and 2 only (--levels 1,2) about {_size(fine)}")
+    elif levels is None and spec.level is not None and spec.level > 4:
+        fewer = _blocks_bytes(chans, replace(spec, level=4), outputs, levels)
+        if fewer < cost:
+            ways.append(f"4 levels (--level 4) about {_size(fewer)}")
+    less = f"these need less: {', '.join(ways)}; or " if ways else ""
+    return (f"needs about {_size(cost)} of memory even in blocks, but only "
+            f"{_size(available)} is available; {less}close other programs to free memory")
+
+
+def _with_level(spec, frames: int):
+    """``spec`` with its level as the work will choose it for ``frames`` samples."""
+    if spec.level is not None:
+        return spec
+    from dataclasses import replace
+
+    from scalesieve.core import transforms as tf
+
+    frames = max(frames, 2)
+    if spec.kind == "packet":
+        from scalesieve.core import packets as wp
+
+        return replace(spec, level=wp.default_depth(frames, spec.wavelet))
+    return replace(spec, level=tf.default_level(frames, spec.wavelet))
 
 
 def _default_spec():
@@ -272,8 +345,6 @@ def window_long(facts: dict | None, *, channel=None, transform=None,
     if facts is None or facts.get("frames") is None or facts.get("kind") != "audio":
         return False
     if available is None:
-        import psutil
-
-        available = int(psutil.virtual_memory().available)
+        available = available_memory()
     limit = min(WINDOW_ABOVE if budget is None else int(budget), available)
     return estimate(facts, channel=channel, transform=transform) > limit

@@ -1,11 +1,6 @@
 """`clean` block by block: the numbers of the whole-array computation, files that are whole."""
 
 import os
-import signal
-import subprocess
-import sys
-import textwrap
-import time
 
 import numpy as np
 import pytest
@@ -20,6 +15,8 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.recipe import Edit
 from scalesieve.stream.dwt import STREAM_MODES
 from scalesieve.stream.pipeline import clean_stream
+
+from killed_export import killed_audio_clean
 
 RATE = 8000
 
@@ -179,59 +176,11 @@ def test_an_existing_output_is_kept_without_force(tmp_path):
     assert out.read_bytes() == b"mine"
 
 
-_KILLED = textwrap.dedent("""
-    import sys
-    from scalesieve import memory_guard
-    from scalesieve.cli import main
-    memory_guard.STREAM_ABOVE = 1 << 16
-    sys.exit(main(sys.argv[1:]))
-""")
-
-
 def test_a_killed_export_in_blocks_leaves_no_torn_file(tmp_path):
     src = tmp_path / "in.wav"
     x = (np.random.default_rng(2).standard_normal((3_000_000, 1)) * 0.1).astype(np.float32)
     sf.write(src, x, 48000, subtype="FLOAT")
-    out = tmp_path / "out.wav"
-    old = b"an older export"
-    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
-    cmd = [sys.executable, "-c", _KILLED, "clean", str(src), "-o", str(out), "--force",
-           "--threshold", "universal"]
-    t0 = time.perf_counter()
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
-    took = time.perf_counter() - t0
-    assert done.returncode == 0, done.stderr
-    assert "cleaned in blocks" in done.stderr
-    whole = sf.read(out, dtype="float32")[0]
-
-    def intact():
-        # the old bytes, or the complete new samples (libsndfile stamps a time in the header)
-        if out.read_bytes() == old:
-            return True
-        y = sf.read(out, dtype="float32")[0]
-        return y.shape == whole.shape and np.array_equal(y, whole)
-
-    torn_temporaries = 0
-    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
-        out.write_bytes(old)
-        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        # kill while the new file is being written: once its temporary file appears
-        deadline = time.monotonic() + 10 * took + 30
-        while p.poll() is None and time.monotonic() < deadline:
-            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
-                break
-            time.sleep(0.005)
-        time.sleep(extra)
-        p.send_signal(signal.SIGKILL)
-        p.wait()
-        assert intact()
-        for name in os.listdir(tmp_path):
-            assert name in ("in.wav", "out.wav") or ".tmp-scalesieve-" in name
-            torn_temporaries += ".tmp-scalesieve-" in name
-    assert torn_temporaries >= 1                       # some kills did land mid-write
-    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
-    assert intact() and out.read_bytes() != old
-    assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+    killed_audio_clean(tmp_path, src, "--threshold", "universal")
 
 
 def test_one_channel_and_a_wrong_rate_in_blocks(tmp_path):

@@ -76,8 +76,13 @@ def test_the_swt_is_taken_in_blocks_and_its_cost_said(wav, monkeypatch):
     dwt = memory_guard.check(wav, transform=TransformSpec(level=8), outputs=["out.wav"],
                              available=8 << 30)["in_blocks"]["bytes"]
     assert dwt < cost
+    # too little for the blocks, but the whole array fits: worked on whole, not refused
+    need = facts["needed_bytes"]
+    assert need < cost
+    whole = memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=cost - 1)
+    assert "in_blocks" not in whole
     with pytest.raises(ScalesieveError, match="even in blocks"):
-        memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=cost - 1)
+        memory_guard.check(wav, transform=swt, outputs=["out.wav"], available=need - 1)
 
 
 def test_blocks_take_audio_and_text_tables_but_not_npz_outputs(wav, tmp_path):

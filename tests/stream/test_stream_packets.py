@@ -3,18 +3,11 @@ the whole-array commands on the same recording (the wrapping modes:
 test_stream_packets_wrap.py)."""
 
 import json
-import os
-import signal
-import subprocess
-import sys
-import textwrap
-import time
 
 import numpy as np
 import pytest
 import pywt
 import soundfile as sf
-from scipy import stats
 
 from scalesieve import memory_guard
 from scalesieve.cli import main
@@ -22,6 +15,9 @@ from scalesieve.core.transforms import TransformSpec
 from scalesieve.stream.bands import band_figures_stream
 from scalesieve.stream.dwt import STREAM_MODES
 from scalesieve.stream.packet_tree import PacketTree, inner_nodes
+
+from band_reference import assert_figures, band_row  # whole-array PyWavelets
+from killed_export import killed_audio_clean
 
 LOCAL_MODES = sorted(STREAM_MODES)
 
@@ -47,14 +43,7 @@ def _reference(x, wavelet, mode, depth, paths):
     for p in paths:
         c = tree[p].data
         comp = _node_alone(tree, wavelet, mode, p, c)
-        e = float(np.dot(comp, comp))
-        rows[p] = {"energy": e, "energy_fraction": e / total,
-                   "coef_energy": float(np.dot(c, c)),
-                   "rms": float(np.sqrt(np.mean(comp * comp))),
-                   "peak": float(np.max(np.abs(comp))),
-                   # Pearson kurtosis (3 for a Gaussian): scipy.stats, fisher=False
-                   "kurtosis": float(stats.kurtosis(c, fisher=False, bias=True)),
-                   "count": c.shape[0]}
+        rows[p] = band_row(c, comp, total)
     return rows
 
 
@@ -102,9 +91,7 @@ def test_packet_band_figures_in_blocks_are_the_whole_recording_ones(tmp_path, mo
             w = want[r["path"]]
             assert r["count"] == w["count"] and r["kind"] == "packet"
             assert r["low_hz"] == r["index"] * 16_000 / 2 ** (depth + 1)
-            for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
-                assert r[field] == pytest.approx(w[field], rel=1e-9, abs=1e-300), \
-                    (r["name"], field)
+            assert_figures(r, w)
 
 
 def _cli_bands(argv, capsys):
@@ -138,9 +125,7 @@ def test_the_command_in_blocks_gives_the_whole_array_table(tmp_path, monkeypatch
         for bw, bb in zip(cw["bands"], cb["bands"]):
             for field in ("low_hz", "high_hz", "count", "path", "level", "index", "kind"):
                 assert bb[field] == bw[field]
-            for field in ("energy", "energy_fraction", "coef_energy", "rms", "peak", "kurtosis"):
-                assert bb[field] == pytest.approx(bw[field], rel=1e-9, abs=1e-300), \
-                    (bb["name"], field)
+            assert_figures(bb, bw)
 
 
 def _costs_by_hand(channels, wavelet, mode, depth, kind):
@@ -275,59 +260,11 @@ def test_a_best_basis_clean_in_blocks_chooses_and_cleans_as_the_whole_array(tmp_
     assert np.max(np.abs(got[True] - got[False])) <= 1e-12 * np.max(np.abs(x))
 
 
-_KILLED = textwrap.dedent("""
-    import sys
-    from scalesieve import memory_guard
-    from scalesieve.cli import main
-    memory_guard.STREAM_ABOVE = 1 << 16
-    sys.exit(main(sys.argv[1:]))
-""")
-
-
 def test_a_killed_packet_export_in_blocks_leaves_no_torn_file(tmp_path):
     src = tmp_path / "in.wav"
     x = (np.random.default_rng(2).standard_normal((2_000_000, 1)) * 0.1).astype(np.float32)
     sf.write(src, x, 48000, subtype="FLOAT")
-    out = tmp_path / "out.wav"
-    old = b"an older export"
-    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
-    cmd = [sys.executable, "-c", _KILLED, "clean", str(src), "-o", str(out), "--force",
-           "--transform", "packet", "--level", "5", "--threshold", "universal"]
-    t0 = time.perf_counter()
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
-    took = time.perf_counter() - t0
-    assert done.returncode == 0, done.stderr
-    assert "cleaned in blocks" in done.stderr
-    whole = sf.read(out, dtype="float32")[0]
-
-    def intact():
-        # the old bytes, or the complete new samples (libsndfile stamps a time in the header)
-        if out.read_bytes() == old:
-            return True
-        y = sf.read(out, dtype="float32")[0]
-        return y.shape == whole.shape and np.array_equal(y, whole)
-
-    torn_temporaries = 0
-    for extra in (0.0, 0.05, 0.1, 0.2, 0.3):
-        out.write_bytes(old)
-        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        # kill while the new file is being written: once its temporary file appears
-        deadline = time.monotonic() + 10 * took + 30
-        while p.poll() is None and time.monotonic() < deadline:
-            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
-                break
-            time.sleep(0.005)
-        time.sleep(extra)
-        p.send_signal(signal.SIGKILL)
-        p.wait()
-        assert intact()
-        for name in os.listdir(tmp_path):
-            assert name in ("in.wav", "out.wav") or ".tmp-scalesieve-" in name
-            torn_temporaries += ".tmp-scalesieve-" in name
-    assert torn_temporaries >= 1                       # some kills did land mid-write
-    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
-    assert intact() and out.read_bytes() != old
-    assert sorted(os.listdir(tmp_path)) == ["in.wav", "out.wav"]
+    killed_audio_clean(tmp_path, src, "--transform", "packet", "--level", "5", "--threshold", "universal")
 
 
 def test_workers_cut_packets_in_pieces_with_the_one_process_samples(tmp_path, capsys):

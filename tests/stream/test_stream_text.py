@@ -9,10 +9,6 @@ same samples, rate, names and the same one-line messages for bad tables.
 import csv
 import json
 import os
-import signal
-import subprocess
-import sys
-import time
 
 import numpy as np
 import pytest
@@ -30,7 +26,9 @@ from scalesieve.stream.bands import band_figures_stream
 from scalesieve.stream.pipeline import clean_stream
 
 from test_stream_bands import _figures  # the whole-array PyWavelets references
-from test_stream_clean import _KILLED, _visushrink
+from test_stream_clean import _visushrink
+
+from killed_export import clean_command, first_run, kill_while_writing, run_again
 
 
 @pytest.fixture(autouse=True)
@@ -310,33 +308,14 @@ def test_a_killed_clean_of_a_table_leaves_no_torn_file(tmp_path):
     _write(path, "time [ms],x\n" + "".join(f"{i},{v:.5f}\n" for i, v in enumerate(x)))
     out = tmp_path / "out.csv"
     old = b"an older export"
-    env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
-    cmd = [sys.executable, "-c", _KILLED, "clean", str(path), "-o", str(out), "--force",
-           "--threshold", "universal"]
-    t0 = time.perf_counter()
-    done = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=300)
-    took = time.perf_counter() - t0
-    assert done.returncode == 0, done.stderr
-    assert "cleaned in blocks" in done.stderr
+    cmd = clean_command(str(path), "-o", str(out), "--force", "--threshold", "universal")
+    took = first_run(cmd)
     whole = out.read_bytes()
-    torn = 0
-    for extra in (0.0, 0.05, 0.2):
-        out.write_bytes(old)
-        p = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        deadline = time.monotonic() + 10 * took + 30
-        while p.poll() is None and time.monotonic() < deadline:
-            if any(".tmp-scalesieve-" in name for name in os.listdir(tmp_path)):
-                break
-            time.sleep(0.005)
-        time.sleep(extra)
-        p.send_signal(signal.SIGKILL)
-        p.wait()
-        assert out.read_bytes() in (old, whole)          # the old file or the whole new one
-        for name in os.listdir(tmp_path):
-            assert name in ("in.csv", "out.csv") or ".tmp-scalesieve-" in name
-            torn += ".tmp-scalesieve-" in name
+    torn = kill_while_writing(cmd, took, out, old, tmp_path, ("in.csv", "out.csv"),
+                              (0.0, 0.05, 0.2),
+                              lambda: out.read_bytes() in (old, whole))  # old, or whole new
     assert torn >= 1
-    assert subprocess.run(cmd, env=env, capture_output=True, timeout=300).returncode == 0
+    run_again(cmd)
     assert out.read_bytes() == whole
     assert sorted(os.listdir(tmp_path)) == ["in.csv", "out.csv"]
 

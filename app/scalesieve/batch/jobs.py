@@ -112,8 +112,9 @@ def run_job(job: FileJob) -> dict:
     The entry has the contract keys (``input``, ``output``, ``status``,
     ``error``, ``input_sha256``, ``samples``, ``rate``, ``seconds``) and
     ``channels``, ``clipped``, ``energy_removed_fraction``, ``warnings`` (the
-    reader's), ``output_warnings`` (the writer's, as ``clean`` prints them) and
-    ``worker``.
+    reader's), ``output_warnings`` (the writer's, as ``clean`` prints them),
+    ``worker``, and ``blocks`` when the file was cleaned block by block (as
+    ``scalesieve.api.clean`` reports it).
     In send-data mode the cleaned file's bytes come back as ``output_data``.
     """
     t0 = time.perf_counter()
@@ -154,6 +155,8 @@ def run_job(job: FileJob) -> dict:
                    energy_removed_fraction=res["energy_removed_fraction"],
                    warnings=list(res.get("warnings", ())),
                    output_warnings=_output_warnings(job, res["outputs"]))
+        if res.get("blocks"):
+            out["blocks"] = res["blocks"]       # cleaned block by block, and its memory
     except ScalesieveError as exc:
         out["error"] = exc.one_line()
     except MemoryError:

@@ -162,8 +162,11 @@ def check_output_folder(outdir: str, pairs: Sequence[tuple[str, str]],
         One line naming the folder and what is wrong.
     """
     import errno
-    import shutil
 
+    from scalesieve.io.folder_room import free_bytes
+
+    # a folder on a filesystem of no size (/proc, /sys) holds no files: said before the probe
+    free = free_bytes(outdir, hint="choose another output folder; nothing was cleaned")
     try:
         fd, probe = tempfile.mkstemp(prefix=".scalesieve-probe-", dir=outdir)
         os.close(fd)
@@ -181,11 +184,7 @@ def check_output_folder(outdir: str, pairs: Sequence[tuple[str, str]],
             need -= os.path.getsize(dst)        # replaced with --force: its room comes back
         except OSError:
             pass
-    try:
-        free = shutil.disk_usage(outdir).free
-    except OSError:
-        return
-    if free < need:
+    if free is not None and free < need:
         raise ScalesieveError(
             f"not enough disk space for the outputs: about {need / 1e6:.3g} MB needed, "
             f"{free / 1e6:.3g} MB free; nothing was cleaned", outdir)

@@ -115,8 +115,9 @@ def run(args) -> int:
             what = (f"parsed in chunks into a temporary file, then read in blocks, {count} "
                     "over the rows" if facts.get("kind") == "text"
                     else f"read in blocks, {count} over the file{_checked(facts, args)}")
-            print(f"scalesieve: note: {args.file}: {what}, about {facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory",
-                  file=sys.stderr)
+            print(f"scalesieve: note: {args.file}: {what}, about "
+                  f"{facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory "
+                  f"({memory_guard.blocks_reason(facts)})", file=sys.stderr)
             report = _report_in_blocks(args, spec, bar)
         else:
             rec = load_input(args, args.file)

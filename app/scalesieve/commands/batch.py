@@ -89,6 +89,11 @@ def run(args) -> int:
             print(f"scalesieve: warning: {e['input']}: {w}", file=sys.stderr)
         for w in e.get("output_warnings") or ():  # what the writers did (as clean says)
             print(f"scalesieve: warning: {w}", file=sys.stderr)
+        if e.get("blocks"):       # past the memory budget: what clean says of it
+            b = e["blocks"]
+            print(f"scalesieve: note: {e['input']}: cleaned in blocks, {b['passes']} pass"
+                  f"{'es' if b['passes'] > 1 else ''}, about {b['bytes'] / 2**20:.0f} MiB "
+                  "of memory", file=sys.stderr)
     print(f"batch: {report['ok']} of {total} files cleaned into {args.output} "
           f"in {report['seconds']:.3g} s; report {report_path}")
     if report["failed"]:

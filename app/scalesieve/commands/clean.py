@@ -83,6 +83,15 @@ def edits_from_args(args):
     return edits
 
 
+def _why_blocks(facts) -> str:
+    """Why the guard chose blocks, for the note (nothing when it did not choose them)."""
+    from scalesieve import memory_guard
+
+    if not facts or "in_blocks" not in facts:
+        return ""
+    return f" ({memory_guard.blocks_reason(facts)})"
+
+
 def run(args) -> int:
     from scalesieve import pipeline
     from scalesieve.commands import progress
@@ -142,7 +151,8 @@ def run(args) -> int:
         print(f"scalesieve: note: {args.file}: {parsed}cleaned in blocks of "
               f"{b['frames_per_block']} frames, {b['passes']} pass"
               f"{'es' if b['passes'] > 1 else ''} over the {'rows' if parsed else 'file'}, "
-              f"about {b['bytes'] / 2**20:.0f} MiB of memory", file=sys.stderr)
+              f"about {b['bytes'] / 2**20:.0f} MiB of memory{_why_blocks(facts)}",
+              file=sys.stderr)
     chans = f"{res['channels']} channel" + ("" if res["channels"] == 1 else "s")
     print(f"wrote {args.output}: {res['samples']} samples x {chans} at "
           f"{res['rate']:g} Hz; removed {100 * res['energy_removed_fraction']:.3g}% of the energy")

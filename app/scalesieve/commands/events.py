@@ -195,7 +195,11 @@ def format_report(report: dict, rows: bool = True) -> str:
 
 
 def _in_blocks(args):
-    """The events of a recording past the memory budget, found block by block; else None."""
+    """The events of a recording past the memory budget, found block by block; else None.
+
+    The memory guard decides, with what events in blocks hold
+    (``stream.choice.events_bytes``), and refuses what would not fit even so.
+    """
     from datetime import timedelta
     from types import SimpleNamespace
 
@@ -205,21 +209,21 @@ def _in_blocks(args):
     if facts is None or int(facts["frames"]) <= 0:
         return None  # an empty recording: the reader names it, as for every command
     spec = spec_from(args, int(facts["frames"]), args.file)
-    if not memory_guard.in_blocks(facts, channel=args.channel, transform=spec, outputs=(),
-                                  fill_gaps=args.fill_gaps, swt=True)[0]:
+    facts = memory_guard.weigh(facts, args.file, channel=args.channel, transform=spec,
+                               outputs=(), fill_gaps=args.fill_gaps,
+                               levels=levels_from(args.levels, spec, int(facts["frames"])))
+    if "in_blocks" not in facts:
         return None
     from scalesieve.commands.bands import _checked
-    from scalesieve.stream.choice import events_bytes
     from scalesieve.stream.events import events_stream
     from scalesieve.stream.sources import open_source
 
-    chans = 1 if args.channel is not None else int(facts["channels"])
     what = ("parsed in chunks into a temporary file, then read in blocks, four passes over "
             "the rows" if facts.get("kind") == "text"
             else "read in blocks, four passes over the file" + _checked(facts, args))
-    need = events_bytes(chans, spec, levels_from(args.levels, spec, int(facts["frames"])))
     print(f"scalesieve: note: {args.file}: {what}, about "
-          f"{need / 2**20:.0f} MiB of memory", file=sys.stderr)
+          f"{facts['in_blocks']['bytes'] / 2**20:.0f} MiB of memory "
+          f"({memory_guard.blocks_reason(facts)})", file=sys.stderr)
     # a text table's rows are counted as it is parsed: the level follows that count
     src = open_source(args.file, args.channel, args.rate, fill_gaps=args.fill_gaps,
                       group=args.group, dataset=args.dataset)

@@ -130,6 +130,7 @@ def run_window(recording, transform, edits=(), *, snapshot: str | None = None,
         # A snapshot neither reads nor changes the user's settings (a throwaway
         # file, removed again at the end).
         app.setProperty("scalesieve_quiet_errors", True)
+        app.setProperty("scalesieve_snapshot", True)
         tmp = tempfile.TemporaryDirectory(prefix="scalesieve-snap-")
         settings = ws.open_settings(os.path.join(tmp.name, "settings.ini"))
     else:
@@ -164,6 +165,7 @@ def run_long_window(path: str, transform, edits=(), *, channel=None,
     app = make_application()
     if snapshot:
         app.setProperty("scalesieve_quiet_errors", True)
+        app.setProperty("scalesieve_snapshot", True)
     window = LongWindow(keep_sessions=not snapshot)
     reporter = install_excepthook(app, lambda: window)
     window.resize(*size)
@@ -203,22 +205,54 @@ def _run(app, settings, window_args, impacts) -> int:
     return _finish(app, window, reporter, snapshot, force, settle)
 
 
+class SnapshotFailed(RuntimeError):
+    """The window failed while it drew a ``--snapshot``; ``log_path``: the reporter's log."""
+
+    def __init__(self, message: str, log_path: str | None = None):
+        super().__init__(message)
+        self.log_path = log_path
+
+
 def _finish(app, window, reporter, snapshot, force, settle) -> int:
-    """Either save the snapshot once ``settle()`` reports no problem, or run the window."""
+    """Either save the snapshot once ``settle()`` reports no problem, or run the window.
+
+    A snapshot during which the window failed (an exception in an event handler or a
+    slot, which the reporter logged) writes no PNG and raises :class:`SnapshotFailed`;
+    once the model is at rest the window is disposed of while Qt runs, however it ends.
+    """
     from scalesieve.errors import ScalesieveError
 
-    if snapshot:
-        problem = settle()
-        if problem:
-            window.close()
-            raise ScalesieveError(problem)
-        window.snapshot(snapshot, force=force)
-        code = 0
-    else:
+    if not snapshot:
         code = int(app.exec())
-    reporter.uninstall()
-    _dispose(app, window)
-    return code
+        reporter.uninstall()
+        _dispose(app, window)
+        return code
+    problem = settle()
+    if problem:
+        # the model did not come to rest: closed (its worker stopped), not deleted
+        window.close()
+        reporter.uninstall()
+        app.setProperty("scalesieve_snapshot", None)
+        raise ScalesieveError(problem)
+    try:
+        app.processEvents()                  # what the last resize left to do
+        _refuse_after_failure(reporter, "no PNG was written")
+        window.snapshot(snapshot, force=force)
+        app.processEvents()
+        _refuse_after_failure(reporter, f"{snapshot} may be incomplete")
+        return 0
+    finally:
+        # what the disposal still runs (a resize left pending, a timer) goes to the log too
+        _dispose(app, window)
+        reporter.uninstall()
+        app.setProperty("scalesieve_snapshot", None)
+
+
+def _refuse_after_failure(reporter, what: str) -> None:
+    """Raise :class:`SnapshotFailed` when the reporter (installed for this run) heard of a bug."""
+    if reporter.unexpected:
+        raise SnapshotFailed(f"the window failed while drawing the snapshot "
+                             f"({reporter.last_error}); {what}", reporter.last_log_path)
 
 
 def _impacts_options(window, impacts: bool, band: str | None, bearing: str | None,

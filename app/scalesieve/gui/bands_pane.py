@@ -26,6 +26,7 @@ from scalesieve.gui.pane_frame import AXIS_WIDTH, GUTTER_WIDTH, RIGHT_MARGIN, ma
 from scalesieve.gui.resource_files import colour
 from scalesieve.gui.scale_map import first_and_step
 from scalesieve.gui.threshold_spread import ThresholdSpread
+from scalesieve.gui.event_guard import reported
 
 ROW_HEIGHT = 90
 #: opacity (of 255) of the removed trace beneath a lane's as-edited one
@@ -432,6 +433,7 @@ class BandsPane(QFrame):
             except (AttributeError, RuntimeError):
                 pass
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self._fit_rows()

@@ -46,6 +46,7 @@ from scalesieve.core import events as ev
 from scalesieve.core.transforms import max_level
 from scalesieve.errors import ScalesieveError
 from scalesieve.recipe import Edit, parse_levels
+from scalesieve.gui.event_guard import reported
 
 #: pause after the last change of k or levels before detection reruns (ms)
 RERUN_DELAY_MS = 150
@@ -241,6 +242,7 @@ class _FittingTable(QTableView):
         self._pane = pane
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAsNeeded)
 
+    @reported
     def resizeEvent(self, ev):  # noqa: N802 - Qt API
         super().resizeEvent(ev)
         if ev.size().width() != ev.oldSize().width():

@@ -154,6 +154,9 @@ class FailureReporter(QObject):
         self.count = 0
         self.last_log_path: str | None = None
         self.last_message: str | None = None
+        #: unexpected failures (bugs, not bad input) heard of, and the last as ``Type: text``
+        self.unexpected = 0
+        self.last_error: str | None = None
         self._previous_hook = None
         self._previous_thread_hook = None
         self._handling = threading.local()
@@ -200,6 +203,9 @@ class FailureReporter(QObject):
             self.count += 1
             self.last_log_path = log or self.last_log_path
             self.last_message = message
+            if unexpected:
+                self.unexpected += 1
+                self.last_error = f"{etype.__name__}: {' '.join(str(value).split())}"[:300]
             # Queued: shown by the GUI thread whichever thread failed, after the
             # failing slot has unwound.
             self._report.emit(message, details, log or "", unexpected)
@@ -222,6 +228,8 @@ class FailureReporter(QObject):
     @Slot(str, str, str, bool)
     def _show(self, message: str, details: str, log: str, unexpected: bool) -> None:
         try:
+            if unexpected and self._app.property("scalesieve_snapshot"):
+                return      # the snapshot's own end says it, in one line (gui.app._finish)
             if self._app.property("scalesieve_quiet_errors"):
                 # Offscreen snapshots cannot click a dialog away: one line instead.
                 self._app.setProperty("scalesieve_last_error", message)

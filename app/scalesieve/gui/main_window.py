@@ -31,6 +31,7 @@ from scalesieve.io.atomic import atomic_write
 from scalesieve.io.readers import AUDIO_EXTENSIONS, TEXT_EXTENSIONS
 
 from scalesieve.io.measurement_readers import EXTENSIONS as MEASUREMENT_EXTENSIONS
+from scalesieve.gui.event_guard import reported
 
 OPEN_FILTER = ("Recordings (*.wav *.flac *.aiff *.aif *.ogg *.csv *.tsv *.txt *.dat "
                + " ".join("*" + e for e in MEASUREMENT_EXTENSIONS) + ");;"
@@ -379,6 +380,7 @@ class MainWindow(RecipeFiles, QMainWindow):
         if h is not None:
             h.set_lane_open(on)
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         if hasattr(self, "toolbars"):

@@ -10,6 +10,7 @@ from PySide6.QtWidgets import QHBoxLayout, QLabel, QToolButton
 from scalesieve.views.decimate import trace_points
 from scalesieve.gui.pane_frame import PaneFrame, make_plot
 from scalesieve.gui.resource_files import colour, icon
+from scalesieve.gui.event_guard import reported
 
 #: title and "all" on one line, the span shown below: two lines of text
 HEIGHT = 48
@@ -104,6 +105,7 @@ class OverviewStrip(PaneFrame):
         self.region.setBounds((0, dur))
         self._axis_moved(self.axis.t0, self.axis.t1)
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self.redraw()

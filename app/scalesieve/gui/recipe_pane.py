@@ -21,6 +21,7 @@ from scalesieve.views.band_labels import db_to_gain, levels_text
 from scalesieve.views.edit_words import db_text, edit_text
 from scalesieve.gui.resource_files import icon
 from scalesieve.recipe import parse_levels
+from scalesieve.gui.event_guard import reported
 
 #: the settings each kind of edit shows, in order
 FIELDS = {
@@ -277,6 +278,7 @@ class RecipePane(QWidget):
         chars = max(16, int(width / (1.3 * max(1, self.tree.fontMetrics().averageCharWidth()))))
         return "\n".join(textwrap.wrap(text, chars)) or text
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         if self.adapter.edits:

@@ -16,6 +16,7 @@ from PySide6.QtWidgets import (QAbstractSpinBox, QDoubleSpinBox, QHBoxLayout, QL
                                QWidget)
 
 from scalesieve.views.band_labels import db_to_gain, gain_to_db, hz_range
+from scalesieve.gui.event_guard import reported
 
 #: a row header's band name at least this wide, and it with the Hz range together this wide
 #: (the header's 390 px less its margins, spacing, share bar, mark, gain field and buttons)
@@ -250,6 +251,7 @@ class RowHeader(QWidget):
     #: row's field follows the column's, so all rows look alike), None: the own height
     row_height: float | None = None
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         h = self.height() if self.row_height is None else int(self.row_height)
@@ -316,6 +318,7 @@ class RowHeaderColumn(QWidget):
             head.gain.fit_height(min(int(row_height), head.height()))
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)

@@ -36,6 +36,7 @@ from scalesieve.gui.row_headers import GAIN_MIN_DB, GAIN_MAX_DB, MUTE_TEXT, RowH
 from scalesieve.gui.threshold_form import RULE_TIPS, ThresholdForm
 from scalesieve.gui.transform_line import TransformLine
 from scalesieve.recipe import Edit
+from scalesieve.gui.event_guard import reported
 
 #: shown dynamic range in dB below the reference magnitude
 DB_RANGE = 60.0
@@ -314,6 +315,7 @@ class ScaleMapPane(MapRegions, QFrame):
         top = self.header_column.mapFrom(self, top)
         self.header_column.place(top.y(), r.height() / len(self.keys))
 
+    @reported
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         QTimer.singleShot(0, self._place_headers)

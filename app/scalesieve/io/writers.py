@@ -144,32 +144,22 @@ def _audio_bytes(fmt: str, sub: str, frames: int, channels: int) -> int | None:
     return frames * channels * width + _HEADER_BYTES
 
 
-def _usage(path: str):
-    """The disk usage of the folder ``path`` goes in; None when it cannot be asked."""
-    import shutil
+def _free_bytes(path: str) -> int | None:
+    """Bytes free in the folder ``path`` goes in; None when unknown (or no size at all)."""
+    from scalesieve.io.folder_room import free_bytes
 
     try:
-        return shutil.disk_usage(os.path.dirname(os.path.abspath(path)))
-    except OSError:
+        return free_bytes(os.path.dirname(os.path.abspath(path)))
+    except ScalesieveError:
         return None
-
-
-def _free_bytes(path: str) -> int | None:
-    usage = _usage(path)
-    return None if usage is None else int(usage.free)
 
 
 def _check_space(target: str, need: int | None) -> None:
     """Refuse before writing when the target's disk cannot hold ``need`` bytes (None:
     a compressed format, size unknown) or cannot hold files at all."""
-    usage = _usage(target)
-    if usage is not None and usage.total == 0:
-        # a pseudo-filesystem (/proc, /sys) reports no size: it is not out of space
-        raise ScalesieveError(
-            f"the folder {os.path.dirname(os.path.abspath(target))} cannot hold files "
-            "(its filesystem reports no size, as system folders like /proc do); "
-            "choose another folder", source=target)
-    free = None if usage is None else int(usage.free)
+    from scalesieve.io.folder_room import free_bytes
+
+    free = free_bytes(os.path.dirname(os.path.abspath(target)), source=target)
     if need is not None and free is not None and free < need:
         raise ScalesieveError(f"{_NO_SPACE} (needs {_megabytes(need)}, "
                               f"{_megabytes(free)} free)", source=target)

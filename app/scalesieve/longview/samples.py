@@ -29,16 +29,10 @@ class SampleReader:
     """
 
     def __init__(self, path: str, channel: int | None = None, mapped: bool = True):
-        from scalesieve.io.quiet_native import quiet_native_stderr
+        from scalesieve.io.audio_facts import audio_facts
 
         self.path, self.pick = path, channel
-        try:
-            with quiet_native_stderr(), sf.SoundFile(path) as f:
-                self.rate = float(f.samplerate)
-                self.file_channels = int(f.channels)
-                self.frames = int(f.frames)
-        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
-            raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
+        self.rate, self.file_channels, self.frames = audio_facts(path)[:3]
         self.channels = 1 if channel is not None else self.file_channels
         self.layout = data_layout(path) if mapped else None
         self._map = None

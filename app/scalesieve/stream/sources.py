@@ -34,17 +34,11 @@ class _Source:
     checked = False                  # no pass checks the file first (but to fill gaps)
 
     def __init__(self, path: str, channel: int | None, fill_gaps: str | None = None):
-        from scalesieve.io.quiet_native import quiet_native_stderr
+        from scalesieve.io.audio_facts import audio_facts
 
         self.path, self.pick, self.filled = path, channel, 0
-        try:
-            with quiet_native_stderr(), sf.SoundFile(path) as f:
-                self.rate = float(f.samplerate)
-                self.file_channels = int(f.channels)
-                self.frames = int(f.frames)
-                self.format, self.subtype = f.format, f.subtype
-        except Exception as exc:  # noqa: BLE001 - soundfile's own errors vary by version
-            raise ScalesieveError(f"could not read the audio samples ({exc})", path) from None
+        self.rate, self.file_channels, self.frames, self.format, self.subtype = \
+            audio_facts(path)
         self.channels = 1 if channel is not None else self.file_channels
         # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
         self.names = ([f"ch{k}" for k in range(self.file_channels)] if channel is None

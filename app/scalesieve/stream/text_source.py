@@ -292,13 +292,13 @@ class TextSource:
     def _check_room(self, text_bytes: int, rows: int) -> None:
         """Refuse, before filling it, a temporary folder without room for the parsed rows
         (estimated from the first chunk's bytes per row)."""
-        import shutil
+        from scalesieve.io.folder_room import free_bytes
 
         folder = tempfile.gettempdir()
         need = int(1.1 * self._text.size / max(text_bytes / rows, 1.0)
                    * 8 * self.layout.columns)
-        free = shutil.disk_usage(folder).free
-        if need > free:
+        free = free_bytes(folder, source=self.path, hint="set TMPDIR to a folder with room")
+        if free is not None and need > free:
             raise ScalesieveError(
                 f"parsing it in blocks needs about {need / 2**30:.1f} GiB of temporary disk "
                 f"space in {folder}, which has {free / 2**30:.1f} GiB free; set TMPDIR to a "
