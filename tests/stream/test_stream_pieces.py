@@ -97,7 +97,7 @@ def test_pieces_on_a_dask_cluster_and_the_command_reports_them(tmp_path, capsys)
 
 @pytest.mark.parametrize("opts,why", [(["--transform", "packet", "--level", "2", "--mode",
                                         "periodic"], "boundary mode periodic"),
-                                      (["--fill-gaps", "linear"], "needs the whole recording")])
+                                      (["--fill-gaps", "linear"], "--fill-gaps is worked on in blocks in one process only")])
 def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, why):
     src = tmp_path / "in.wav"
     _two_channels(src, n=20_000)

@@ -38,3 +38,16 @@ def test_old_gui_names_are_the_same_modules():
         old = importlib.import_module("scalesieve.gui." + name)
         new = importlib.import_module("scalesieve.views." + name)
         assert old is new
+
+
+def test_envelope_thread_stops_and_joins():
+    # threading.Thread keeps a method of its own named _stop (CPython's threading
+    # module, from memory: join() calls it); a thread that shadowed it could not be joined
+    from scalesieve.views.band_envelopes import FIGURES, EnvelopeThread
+
+    done = []
+    t = EnvelopeThread([(0, FIGURES, lambda: ["rows"])], lambda *a: None, done.append)
+    t.start()
+    t.stop()
+    t.join(timeout=10)
+    assert not t.is_alive() and done == [None]

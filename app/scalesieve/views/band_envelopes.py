@@ -102,17 +102,17 @@ class EnvelopeThread(threading.Thread):
         self._jobs = jobs
         self._deliver = deliver
         self._done = done
-        self._stop = threading.Event()
+        self._halt = threading.Event()
 
     def stop(self) -> None:
-        self._stop.set()
+        self._halt.set()
 
     @property
     def stopped(self) -> bool:
-        return self._stop.is_set()
+        return self._halt.is_set()
 
     def _check(self) -> None:
-        if self._stop.is_set():
+        if self._halt.is_set():
             raise Stopped()
 
     def run(self) -> None:
