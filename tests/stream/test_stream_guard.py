@@ -94,7 +94,7 @@ def test_blocks_take_audio_and_text_tables_but_not_npz_outputs(wav, tmp_path):
     ok, why = memory_guard.in_blocks(dict(facts, kind="measurement", format="MATLAB"),
                                      transform=TransformSpec(), outputs=["o.wav"], available=1)
     assert not ok and "scipy.io reads a MATLAB v5 variable whole" in why
-    ok, why = memory_guard.in_blocks(dict(facts, kind="video"), transform=TransformSpec(),
+    ok, why = memory_guard.in_blocks(dict(facts, kind="unknown"), transform=TransformSpec(),
                                      outputs=["o.wav"], available=1)
     assert not ok and "only audio files (WAV, FLAC, AIFF, ...), text tables and measurement" \
         in why
