@@ -334,23 +334,23 @@ def _nan_runs(col: np.ndarray) -> list[tuple[int, int]]:
                     (np.flatnonzero(edges == -1) - 1).tolist()))
 
 
-def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype, group,
-                      dataset) -> Recording:
-    """A TDMS, EDF/BDF, MATLAB, HDF5 or MDF file through its own library."""
-    src = measurement_readers.open_source(source, kind, group=group, dataset=dataset,
-                                          channel=channel)
+def measurement_channel_rate(src, channel, rate, source: str) -> tuple:
+    """The channel picked, the rate and the frame count of a measurement Source.
+
+    Shared by the whole-file reader and the reader in blocks
+    (``stream.measurement_source``): signals at different rates need one chosen, a
+    file with no rate needs ``--rate``, and a ``--rate`` unlike the file's is refused.
+    """
     label = src.format
     pick = check_channel(channel, len(src.names), source, src.names)
-    file_rate = src.rate
-    frames = src.frames
+    file_rate, frames = src.rate, src.frames
     rates = src.detail.get("rates")
     if rates is not None and len(set(rates)) > 1:
         if pick is None:
             listed = ", ".join(f"{n!r} {r:g} Hz" for n, r in zip(src.names, rates))
             raise ScalesieveError(f"holds signals at different rates ({listed}); choose one "
                                   "with --channel NAME", source=source)
-        file_rate = rates[pick]
-        frames = src.detail["lengths"][pick]
+        file_rate, frames = rates[pick], src.detail["lengths"][pick]
     given = check_rate(rate, source)
     if file_rate is None:
         if given is None:
@@ -360,6 +360,16 @@ def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype
     elif given is not None and abs(given - file_rate) > 1e-9 * file_rate:
         raise ScalesieveError(f"the file says {file_rate:g} Hz; --rate {given:g} does not "
                               "match (leave out --rate)", source=source)
+    return pick, file_rate, frames
+
+
+def _read_measurement(source: str, kind: str, *, rate, channel, fill_gaps, dtype, group,
+                      dataset) -> Recording:
+    """A TDMS, EDF/BDF, MATLAB, HDF5 or MDF file through its own library."""
+    src = measurement_readers.open_source(source, kind, group=group, dataset=dataset,
+                                          channel=channel)
+    label = src.format
+    pick, file_rate, frames = measurement_channel_rate(src, channel, rate, source)
     cols = list(range(len(src.names))) if pick is None else [pick]
     # checked as float64 first: a value beyond float32's range is refused, not made inf
     samples = np.asarray(src.read(0, frames, cols), dtype=np.float64)

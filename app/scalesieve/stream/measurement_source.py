@@ -101,7 +101,7 @@ class MeasurementSource:
                  fill_gaps: str | None = None, group: str | None = None,
                  dataset: str | None = None):
         from scalesieve.io import measurement_readers as mr
-        from scalesieve.io.input_check import check_channel, check_rate
+        from scalesieve.io.readers import measurement_channel_rate
 
         self.path = path
         src = mr.open_source(path, kind, group=group, dataset=dataset, channel=channel,
@@ -109,24 +109,7 @@ class MeasurementSource:
         if src.detail.get("master") and src.frames >= 2:
             src.rate = _rate_of_master(src, path)
         label = src.format
-        pick = check_channel(channel, len(src.names), path, src.names)
-        file_rate, frames = src.rate, src.frames
-        rates = src.detail.get("rates")
-        if rates is not None and len(set(rates)) > 1:
-            if pick is None:
-                listed = ", ".join(f"{n!r} {r:g} Hz" for n, r in zip(src.names, rates))
-                raise ScalesieveError(f"holds signals at different rates ({listed}); choose "
-                                      "one with --channel NAME", source=path)
-            file_rate, frames = rates[pick], src.detail["lengths"][pick]
-        given = check_rate(rate, path)
-        if file_rate is None:
-            if given is None:
-                raise ScalesieveError(f"this {label} file stores no sampling rate (no scalar "
-                                      "fs, rate or sample_rate); give --rate HZ", source=path)
-            file_rate = given
-        elif given is not None and abs(given - file_rate) > 1e-9 * file_rate:
-            raise ScalesieveError(f"the file says {file_rate:g} Hz; --rate {given:g} does not "
-                                  "match (leave out --rate)", source=path)
+        pick, file_rate, frames = measurement_channel_rate(src, channel, rate, path)
         if frames == 0:
             raise ScalesieveError(f"this {label} file holds no samples", source=path)
         self._src, self.pick, self.fill = src, pick, fill_gaps
