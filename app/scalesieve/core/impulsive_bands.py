@@ -27,6 +27,7 @@ import numpy as np
 import pywt
 
 from scalesieve.core import packet_moments as pm
+from scalesieve.core import packet_walk
 from scalesieve.core import packets as wp
 from scalesieve.core import threads as th
 
@@ -139,10 +140,13 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     ``check()``, if given, is called before each depth and may raise to stop
     (the window's worker stops a table nobody waits for any more).
     ``threads`` (default ``core.threads.count()``) share the work from
-    ``THREADS_FROM`` samples on: the signal is cut in time pieces
-    (``core.packet_moments``), each depth's work handed out in a few tasks per
-    thread, the next depth started before this one's figures are added up; the
-    figures are the same for any count.
+    ``THREADS_FROM`` samples on; the figures are the same for any count.  Where
+    the compiled core is installed and the mode extends the edges, a long
+    signal's tree is walked piece by piece in the cache (``core.packet_walk``,
+    ``check()`` then called before each piece); otherwise the signal is cut in
+    a few time pieces (``core.packet_moments``), each depth's work handed out
+    in a few tasks per thread, the next depth started before this one's
+    figures are added up.
     """
     x = np.asarray(x, dtype=np.float64)
     top = pywt.dwt_max_level(x.shape[0], pywt.Wavelet(wavelet).dec_len)
@@ -156,6 +160,9 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
 
     n = x.shape[0]
     workers = th.count(threads) if n >= THREADS_FROM else 1
+    if packet_walk.usable(n, w, mode, depth):
+        return _walked_table(x, rate, w, mode, depth, keep_best, check, workers,
+                             band_choice.dwt_edges(n, w.dec_len, depth))
     pieces = 1
     if workers > 1 and pm.splittable(w, mode):
         deepest = pywt.dwt_coeff_len(n, w.dec_len, mode) >> (depth - 1)
@@ -242,6 +249,62 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
     if keep_best:
         out["best_coefficients"] = None if best_ref is None else pm.join(
             pm.owned_parts(plan, best_ref[0], best_ref[1], 0, plan.lengths[best_ref[0]]))
+    return out
+
+
+def _walked_table(x: np.ndarray, rate: float, w, mode: str, depth: int, keep_best: bool,
+                  check, workers: int, edges: list) -> dict:
+    """:func:`table` from ``packet_walk.node_sums`` (the same rows and choice of best)."""
+    from scalesieve.core import band_choice
+
+    lengths = [x.shape[0]]
+    for _ in range(depth):
+        lengths.append(pywt.dwt_coeff_len(lengths[-1], w.dec_len, mode))
+    layouts = []
+    for j in range(1, depth + 1):
+        m, (left, right) = lengths[j], edges[j - 1]
+        short = m - right - left < max(4, band_choice.MIN_INTERIOR)
+        layouts.append(([] if m < 4 else [(0, m)] if short else
+                        [(left, m - right), (0, left), (m - right, m)], short))
+    sums = packet_walk.node_sums(x, w, mode, depth, [seg for seg, _ in layouts], workers, check)
+    cache: dict[str, np.ndarray] = {"": x}
+
+    def data(path: str) -> np.ndarray:   # only for a second pass or the best band's data
+        if path not in cache:
+            cache[path] = packet_walk.node_data(data(path[:-1]), w, mode, path[-1])
+        return cache[path]
+
+    levels, best, fallback = [], None, None
+    for j in range(1, depth + 1):
+        segments, short = layouts[j - 1]
+        m = lengths[j]
+        paths = ["".join("ad"[(r >> (j - 1 - i)) & 1] for i in range(j)) for r in range(1 << j)]
+        rows = []
+        for r in sorted(range(1 << j), key=lambda r: wp.freq_index(paths[r])):
+            path = paths[r]
+            k = inner = None
+            if segments and short:
+                k = _kurtosis_of(m, sums[j - 1][r, 0], lambda: data(path), None)
+            elif segments:
+                (left, stop), seg = segments[0], sums[j - 1][r]
+                k = _kurtosis_of(m, seg[0] + seg[1] + seg[2], lambda: data(path), None)
+                if k is not None:
+                    inner = _kurtosis_of(stop - left, seg[0],
+                                         lambda: data(path)[left:stop], None)
+            lo, hi = wp.range_hz(path, rate)
+            rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo, "high_hz": hi,
+                         "kurtosis": k, "interior_kurtosis": inner, "path": path})
+            if inner is not None and (best is None or inner > best["interior_kurtosis"]):
+                best = dict(rows[-1], level=j)
+            elif best is None and k is not None and (
+                    fallback is None or k > fallback["kurtosis"]):
+                fallback = dict(rows[-1], level=j)
+        levels.append({"level": j, "bands": rows})
+    if best is None:
+        best = fallback
+    out = {"levels": levels, "best": best}
+    if keep_best:
+        out["best_coefficients"] = None if best is None else data(best["path"])
     return out
 
 

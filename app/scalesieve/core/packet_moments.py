@@ -57,15 +57,21 @@ class Plan:
 
     ``lengths[j]``: the node length at depth j (``lengths[0]`` the signal's);
     ``owned[j][p]`` and ``need[j][p]``: half-open index ranges of piece p at
-    depth j (``need[0][p]`` the samples it reads).
+    depth j (``need[0][p]`` the samples it reads).  The pieces are cut at
+    ``cuts`` (sample indices, multiples of 2^depth) when given, else at about
+    ``n / pieces`` apart.
     """
 
-    def __init__(self, n: int, wavelet: pywt.Wavelet, mode: str, depth: int, pieces: int):
+    def __init__(self, n: int, wavelet: pywt.Wavelet, mode: str, depth: int, pieces: int,
+                 cuts: list[int] | None = None):
         L = wavelet.dec_len
         self.lengths = [n]
         for _ in range(depth):
             self.lengths.append(pywt.dwt_coeff_len(self.lengths[-1], L, mode))
-        cuts = sorted({(p * n // pieces) >> depth << depth for p in range(1, pieces)} - {0})
+        if cuts is None:
+            cuts = sorted({(p * n // pieces) >> depth << depth for p in range(1, pieces)} - {0})
+        elif any(c <= 0 or c >= n or c % (1 << depth) for c in cuts) or cuts != sorted(set(cuts)):
+            raise ValueError("cuts must be ascending multiples of 2^depth inside the signal")
         seams = [0] + cuts
         self.pieces = len(seams)
         self.owned = [None]
