@@ -39,8 +39,12 @@ def test_open_filter_and_drops_take_measurement_files(window, tmp_path):
     _tdms(p)
     mime = QMimeData()
     mime.setUrls([QUrl.fromLocalFile(str(p))])
-    ev = QDragEnterEvent(QPointF(10, 10).toPoint(), Qt.DropAction.CopyAction, mime,
-                         Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier)
+    args = (Qt.DropAction.CopyAction, mime, Qt.MouseButton.LeftButton,
+            Qt.KeyboardModifier.NoModifier)
+    try:        # PySide6 6.12 takes a QPointF (the QPoint form is deprecated there)
+        ev = QDragEnterEvent(QPointF(10, 10), *args)
+    except TypeError:   # older PySide6: a QPoint
+        ev = QDragEnterEvent(QPointF(10, 10).toPoint(), *args)
     window.dragEnterEvent(ev)
     assert ev.isAccepted()
 

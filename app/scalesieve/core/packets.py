@@ -21,6 +21,7 @@ costs, bottom-up best-basis search).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 import pywt
@@ -112,7 +113,9 @@ def range_hz(path: str, rate: float) -> tuple[float, float]:
     return k * width, (k + 1) * width
 
 
+@lru_cache(maxsize=32)
 def full_basis(depth: int) -> tuple[str, ...]:
+    # cached: the window asks for a basis's keys for every band header it redraws
     return tuple(path_of(depth, k) for k in range(2 ** depth))
 
 
@@ -146,7 +149,13 @@ def check_basis(paths, depth: int) -> tuple[str, ...]:
 
 
 def keys(basis) -> list[PacketKey]:
-    return [PacketKey(p, i) for i, p in enumerate(basis)]
+    basis = tuple(basis)
+    return list(_keys(basis))
+
+
+@lru_cache(maxsize=64)
+def _keys(basis: tuple[str, ...]) -> tuple[PacketKey, ...]:
+    return tuple(PacketKey(p, i) for i, p in enumerate(basis))
 
 
 # --------------------------------------------------------------------------

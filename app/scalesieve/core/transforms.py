@@ -154,12 +154,25 @@ def table_keys(spec: TransformSpec) -> list:
 
 def key_named(spec: TransformSpec, name: str):
     """The band key of a name as ``bands --json`` lists it; ValueError naming the bands."""
-    for key in table_keys(spec):
-        if band_name(key, spec.level) == name:
-            return key
+    try:
+        named = _keys_by_name(spec)
+    except TypeError:       # a spec holding a list (unhashable): look through the keys
+        named = {band_name(k, spec.level): k for k in table_keys(spec)}
+    if name in named:
+        return named[name]
     names = [band_name(k, spec.level) for k in table_keys(spec)]
     shown = ", ".join(names) if len(names) <= 12 else ", ".join(names[:3] + ["…"] + names[-2:])
     raise ValueError(f"band {name!r} is not in the transform (its bands: {shown})")
+
+
+@lru_cache(maxsize=64)
+def _keys_by_name(spec: TransformSpec) -> dict:
+    # cached: the window resolves every edit's band names for each band header it
+    # redraws (64 packet bands: thousands of look-ups per click); the first key of a name wins
+    named: dict = {}
+    for key in table_keys(spec):
+        named.setdefault(band_name(key, spec.level), key)
+    return named
 
 
 @lru_cache(maxsize=256)
