@@ -162,3 +162,38 @@ def test_the_compiled_walk_refuses_a_plan_that_reads_outside_its_samples():
         pw._compiled.walk(x, np.array(w.dec_lo), np.array(w.dec_hi), geom.reshape(-1), 1,
                           units, np.array([0, 0, 2], dtype=np.int64), np.zeros(8),
                           np.zeros(2, dtype=np.int64), np.zeros(4000))
+
+
+@needs_core
+@pytest.mark.parametrize("seed", range(12))
+def test_random_wavelets_modes_depths_and_lengths_match_pywt(monkeypatch, seed):
+    # reference: kurtosis_pair and the data of pywt.WaveletPacket nodes, for a random
+    # even-length PyWavelets wavelet, edge-extending mode, depth, length, scale and offset
+    import random
+
+    monkeypatch.setattr(pw, "PIECE", 1 << 12)
+    monkeypatch.setattr(pw, "UNIT", 64)
+    rng = random.Random(seed)
+    wavelets = [w for w in pywt.wavelist(kind="discrete") if pywt.Wavelet(w).dec_len % 2 == 0]
+    modes = ["symmetric", "zero", "constant", "smooth", "reflect", "antisymmetric",
+             "antireflect"]
+    while True:
+        w = pywt.Wavelet(rng.choice(wavelets))
+        mode, depth = rng.choice(modes), rng.randint(1, 6)
+        n = rng.randint(4 * pw.step(depth), 9 * pw.step(depth)) + rng.randint(0, 7)
+        if depth <= pywt.dwt_max_level(n, w.dec_len) and pw.usable(n, w, mode, depth):
+            break
+    x = (np.random.default_rng(seed).standard_t(4, n) * rng.choice([1e-3, 1.0, 1e3])
+         + rng.choice([0.0, 0.5]))
+    t = ib.table(x, 1000.0, w.name, mode, depth, keep_best=True, threads=rng.choice([1, 2, 3]))
+    tree = pywt.WaveletPacket(x, w, mode, maxlevel=depth)
+    edges = bc.dwt_edges(n, w.dec_len, depth)
+    for lv in t["levels"]:
+        for b in lv["bands"]:
+            k, inner = ib.kurtosis_pair(tree[b["path"]].data, *edges[lv["level"] - 1],
+                                        bc.MIN_INTERIOR)
+            for got, want in ((b["kurtosis"], k), (b["interior_kurtosis"], inner)):
+                assert (got is None) == (want is None)
+                if got is not None:
+                    assert got == pytest.approx(want, rel=1e-10)
+    np.testing.assert_array_equal(t["best_coefficients"], tree[t["best"]["path"]].data)
