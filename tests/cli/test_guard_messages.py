@@ -142,28 +142,23 @@ def test_events_too_large_even_in_blocks_say_what_needs_less(stereo, monkeypatch
 
 def test_events_that_cannot_run_in_blocks_are_refused_whole_with_the_reason(
         tmp_path, monkeypatch, capsys):
-    # --fill-gaps on a text table needs the whole table; before, events read it whole
-    # whatever was free.  (Python's csv module writes the table; a text table's sample
-    # count is estimated from its size before it is parsed.)
-    import csv
+    # a MATLAB v5 file is read whole by its library (scipy.io, which writes it here);
+    # before, events read it whole whatever was free
+    from scipy import io as sio
 
-    from scalesieve.stream.choice import TEXT_FILL_REFUSAL
+    from scalesieve.stream.choice import WHOLE_FORMATS
 
-    table = tmp_path / "night.csv"
+    path = tmp_path / "night.mat"
     rng = np.random.default_rng(16)
-    with open(table, "w", newline="") as fh:
-        w = csv.writer(fh)
-        w.writerow(["time_s", "a", "b"])
-        for k, (a, b) in enumerate(0.05 * rng.standard_normal((FRAMES // 16, 2))):
-            w.writerow([f"{k / 8000:.6f}", "" if k % 997 == 5 else f"{a:.6f}", f"{b:.6f}"])
-    _free(monkeypatch, 10 * MIB)
-    assert main(["events", str(table), "--fill-gaps", "linear"]) == 2
+    sio.savemat(path, {"fs": 8000.0, "x": 0.05 * rng.standard_normal((FRAMES // 16, 2))})
+    _free(monkeypatch, 1 * MIB)
+    assert main(["events", str(path)]) == 2
     err = _lines(capsys)
     assert len(err) == 1, err
-    assert re.match(rf"scalesieve: error: {re.escape(str(table))}: needs about [\d.]+ [MG]iB "
-                    r"of memory \([\d,]+ samples x 2 channels in float64\), but only 10 MiB "
+    assert re.match(rf"scalesieve: error: {re.escape(str(path))}: needs about [\d.]+ [MG]iB "
+                    r"of memory \([\d,]+ samples x 2 channels in float64\), but only 1 MiB "
                     r"is available; ", err[0]), err[0]
-    assert f"it cannot be worked on in blocks ({TEXT_FILL_REFUSAL})" in err[0]
+    assert f"it cannot be worked on in blocks ({WHOLE_FORMATS['MATLAB']})" in err[0]
 
 
 #: a batch in its own process (one thread, so its workers are forked and keep the patch)

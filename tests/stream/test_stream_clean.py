@@ -136,22 +136,28 @@ def test_what_cannot_stream_falls_back_or_is_refused_in_one_line(tmp_path, monke
     src.write_text("time_s,strain\n"
                    + "".join(f"{i / RATE!r},{v!r}\n" for i, v in enumerate(x.tolist())))
     monkeypatch.setattr(memory_guard, "STREAM_ABOVE", 1 << 16)
-    # a text table's gaps need the whole table: whole-array while memory allows ...
+    # a table's gaps are filled in blocks too (tests/stream/test_stream_text_fill.py)
     out = tmp_path / "p.wav"
     assert main(["clean", str(src), "-o", str(out), "--zero", "1", "--fill-gaps",
                  "linear"]) == 0
+    assert "in blocks" in capsys.readouterr().err
+    # a MATLAB v5 file, which scipy.io reads whole: whole-array while memory allows ...
+    from scipy import io as sio
+
+    mat = tmp_path / "in.mat"
+    sio.savemat(mat, {"fs": float(RATE), "strain": x[:, None]})
+    assert main(["clean", str(mat), "-o", str(tmp_path / "m.wav"), "--zero", "1"]) == 0
     assert "in blocks" not in capsys.readouterr().err
 
     class Tight:
-        available = 8 << 20
+        available = 2 << 20
 
     monkeypatch.setattr(memory_guard, "available_memory", lambda: Tight.available)
     # ... and refused, saying why, when it does not fit
-    assert main(["clean", str(src), "-o", str(tmp_path / "q.wav"), "--zero", "1",
-                 "--fill-gaps", "linear"]) == 2
+    assert main(["clean", str(mat), "-o", str(tmp_path / "q.wav"), "--zero", "1"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "cannot be worked on in blocks" in err[0]
-    assert "--fill-gaps on a text table" in err[0]
+    assert "scipy.io reads a MATLAB v5 variable whole" in err[0]
     assert not (tmp_path / "q.wav").exists()
 
 

@@ -10,6 +10,7 @@ gives the recording's own clock (``start_time``).
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from datetime import datetime, timedelta
@@ -206,12 +207,12 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
         dev[jumps] = -1.0
         i = int(np.argmax(dev)) + 1
         raise not_uniform(spread, steps[i - 1], typical, line_of(i), source)
-    step = float(regular.mean())
     gaps: list[tuple[int, int]] = []
     if jumps.size:
         i = int(jumps[0]) + 1
         if fill is None:
             raise clock_jump(t[i - 1], t[i], typical, line_of(i), source, origin)
+        step = regular_step(float(t[0]), float(t[-1]), steps[jumps], regular.size)
         gaps = [(int(j) + 1, int(round(steps[j] / step)) - 1) for j in jumps]
         added = sum(m for _, m in gaps)
         if added > MOST_FILLED:
@@ -224,6 +225,16 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
         # The whole span is far more precise than any single printed step.
         rate = float((t.size - 1) / (t[-1] - t[0]))
     return TimeAxis(tidy_rate(rate, bool(jumps.size)), gaps)
+
+
+def regular_step(first: float, last: float, jump_steps, regular_count: int) -> float:
+    """The mean of a clock's regular steps: its span less the jumps, over their count.
+
+    The span is far more precise than adding up the printed steps, and the same
+    number comes out whether the column is read whole or in blocks
+    (``stream.text_source``): the jumps are added exactly (``math.fsum``).
+    """
+    return (last - first - math.fsum(float(v) for v in jump_steps)) / regular_count
 
 
 def too_few_rows(source: str) -> ScalesieveError:

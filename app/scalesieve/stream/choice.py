@@ -17,10 +17,6 @@ SWT_COPIES = 5
 #: --only events --force-blocks runs the command)
 EVENTS_COPIES = {"swt": 6, "dwt": 4}
 
-#: why a text table's gaps are not filled in blocks
-TEXT_FILL_REFUSAL = ("--fill-gaps on a text table needs the whole table (a jump of its clock "
-                     "adds rows)")
-
 #: why a measurement format whose library reads it whole is not read in blocks
 WHOLE_FORMATS = {
     "MATLAB": "scipy.io reads a MATLAB v5 variable whole (save it as v7.3, which is HDF5, "
@@ -38,7 +34,7 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
     Audio files, text tables (CSV, TSV, TXT, DAT: ``stream.text_source``) and
     the measurement formats read by range (TDMS, HDF5, MATLAB v7.3, EDF, MDF, NumPy:
     ``stream.measurement_source``) are read in blocks; ``--fill-gaps`` fills
-    them block by block, except a text table's.  The SWT runs in blocks in every boundary mode
+    them block by block (a text table's clock jumps too).  The SWT runs in blocks in every boundary mode
     (``stream.swt``); ``swt`` is kept for callers that passed it (``events``),
     and ``channel`` too: a channel, by number or by name, is read in blocks.
     Wavelet packets run in blocks for the commands that can take them
@@ -71,8 +67,6 @@ def not_streamable(facts: dict | None, spec: tf.TransformSpec, outputs: Sequence
         ext = os.path.splitext(out)[1].lower()
         if ext not in AUDIO_FORMAT_BY_EXTENSION and ext not in CSV_EXTENSIONS:
             return f"{os.path.basename(out)}: only audio and CSV outputs are written in blocks"
-    if fill_gaps is not None and kind == "text":
-        return TEXT_FILL_REFUSAL
     return None
 
 

@@ -174,15 +174,11 @@ def open_source(input_path: str, channel=None, rate: float | None = None, progre
     from scalesieve.io.input_check import check_readable
 
     if os.path.splitext(input_path)[1].lower() in TEXT_EXTENSIONS:
-        if fill_gaps is not None:
-            from scalesieve.stream.choice import TEXT_FILL_REFUSAL
-
-            raise ScalesieveError(TEXT_FILL_REFUSAL, input_path)
         from scalesieve.stream.text_source import TextSource
 
         told = None if progress is None else \
             (lambda f: progress(PARSE_SHARE * f, "parsing the table"))
-        return TextSource(input_path, channel, rate, progress=told)
+        return TextSource(input_path, channel, rate, progress=told, fill_gaps=fill_gaps)
     kind = _kind(check_readable(input_path)[0])
     if kind not in ("audio", "text"):
         from scalesieve.stream.measurement_source import MeasurementSource

@@ -12,8 +12,11 @@ found exactly in two passes, ``stream.statistics``), its jumps and the rate
 from its span.  Line numbers for a message are found again from the text
 only when a message needs one.  The passes of a clean, ``bands`` or
 ``events`` read the rows from that file by position, so nothing of the
-table is held whole.  ``--fill-gaps`` needs the whole table and is refused
-before this (``stream.choice``).
+table is held whole.  With ``--fill-gaps linear`` the empty cells are filled
+as the whole-file reader fills them (``io.gaps.LinearFill``: the same
+numbers, whatever the blocks) into a second temporary file, and a clock's
+jumps become rows made by linear interpolation (``time_column.fill_jumps``'
+formula, in blocks) with the whole-file reader's warnings.
 """
 
 from __future__ import annotations
@@ -172,12 +175,16 @@ class TextSource:
     format = subtype = None
     parsed = True            # parsed once before the passes (sources.after_parse)
 
-    def __init__(self, path: str, channel=None, rate: float | None = None, progress=None):
+    def __init__(self, path: str, channel=None, rate: float | None = None, progress=None,
+                 fill_gaps: str | None = None):
         from scalesieve.io import csv_reader as cr
+        from scalesieve.io.gaps import check_fill_method
         from scalesieve.io.input_check import (check_channel, check_rate, check_readable,
                                                os_error_message)
 
         rate = check_rate(rate, os.fspath(path))
+        self.fill = check_fill_method(fill_gaps)
+        self.filled, self._notes = 0, []
         self.path, size = check_readable(path)
         try:
             self._text = _Text(self.path, size, progress)
@@ -193,7 +200,10 @@ class TextSource:
         self.first = 1 if has_time else 0
         # with --rate the time column is neither checked nor read (as read_text)
         columns = list(range(1, k)) if (rate is not None and has_time) else list(range(k))
-        self._check_values(cr, columns)
+        try:
+            self._check_values(cr, columns)
+        except OSError as exc:
+            raise ScalesieveError(os_error_message(exc), source=self.path) from None
         self.start_time = layout.time_origin if layout.time_kind == "iso" else None
         self.clock = layout.clock_form.to_json() if self.start_time is not None else None
         if rate is None:
@@ -202,7 +212,10 @@ class TextSource:
                     "has no time column, so the sampling rate is unknown: give --rate HZ (or "
                     "name the first column time, t, or with a unit such as [s] or (ms))",
                     source=self.path)
-            rate = self._time_rate()
+            try:
+                rate = self._time_rate()
+            except OSError as exc:
+                raise ScalesieveError(os_error_message(exc), source=self.path) from None
         self.rate = float(rate)
         if layout.names is not None:
             names = [n or f"ch{j}" for j, n in enumerate(layout.names[self.first:])]
@@ -296,7 +309,7 @@ class TextSource:
 
         folder = tempfile.gettempdir()
         need = int(1.1 * self._text.size / max(text_bytes / rows, 1.0)
-                   * 8 * self.layout.columns)
+                   * 8 * self.layout.columns) * (2 if self.fill else 1)  # filled: a second file
         free = free_bytes(folder, source=self.path, hint="set TMPDIR to a folder with room")
         if free is not None and need > free:
             raise ScalesieveError(
@@ -340,7 +353,8 @@ class TextSource:
             yield np.ascontiguousarray(v[:, c0:c1])
 
     def warnings(self) -> list[str]:
-        return []        # a table read in blocks has no jumps filled (no --fill-gaps)
+        """The whole-file reader's warnings: one line per clock jump filled."""
+        return list(self._notes)
 
     # ------------------------------------------------------------------ checks
 
@@ -349,8 +363,11 @@ class TextSource:
         from scalesieve.io.input_check import MAX_ABS_SAMPLE, first_too_large
 
         inf = nan = big = None
+        present = np.zeros(len(columns), dtype=bool)     # columns holding a value
         for a, v in self._walk():
             part = v[:, columns]
+            if self.fill is not None:
+                present |= ~np.isnan(part).all(axis=0)
             if inf is None and np.isinf(part).any():
                 r, c = np.argwhere(np.isinf(part))[0]
                 inf = (a + int(r), int(c))
@@ -365,15 +382,92 @@ class TextSource:
         if inf is not None:
             raise ScalesieveError(f"{cr._column_label(layout, columns[inf[1]])}: value is "
                                   "infinite", source=self.path, line=self._line_of(inf[0]))
-        if nan is not None:
+        if nan is not None and self.fill is None:
             raise ScalesieveError(
                 f"{cr._column_label(layout, columns[nan[1]])} is empty or NaN; use --fill-gaps "
                 "linear to fill gaps", source=self.path, line=self._line_of(nan[0]))
+        if nan is not None:
+            empty = np.flatnonzero(~present)
+            if empty.size:
+                raise ScalesieveError(
+                    f"{cr._column_label(layout, columns[int(empty[0])])} holds no values to "
+                    "fill gaps from", source=self.path)
+            big = self._fill_cells(columns)
         if big is not None:
             raise ScalesieveError(
                 f"{cr._column_label(layout, columns[big[1]])}: value {big[2]:.6g} is too large "
                 f"to analyse (beyond ±{MAX_ABS_SAMPLE:g})", source=self.path,
                 line=self._line_of(big[0]))
+
+    def _replace(self, write) -> None:
+        """The rows made again by ``write(out)`` into a new temporary file (the old one goes)."""
+        out = tempfile.TemporaryFile(prefix="scalesieve-table-")
+        try:
+            write(out)
+            out.flush()
+        except BaseException:
+            out.close()
+            raise
+        self._values.close()
+        self._values = out
+
+    def _fill_cells(self, columns: list[int]):
+        """Every empty cell of ``columns`` filled as ``io.gaps.fill_linear`` fills the whole
+        table; returns ``(row, column, value)`` of the first value then too large, or None."""
+        from scalesieve.io.gaps import LinearFill
+        from scalesieve.io.input_check import first_too_large
+
+        k = self.layout.columns
+        fill = LinearFill(len(columns))
+        found, count, made = [], [0], [0]
+
+        def put(out, part):
+            if not part.shape[0]:
+                return
+            if not found:
+                big = first_too_large(part)
+                if big is not None:
+                    found.append((made[0] + big[0], big[1], float(part[big])))
+            rows = np.zeros((part.shape[0], k))   # a column not in ``columns`` is never read
+            rows[:, columns] = part
+            out.write(rows.tobytes())
+            made[0] += part.shape[0]
+
+        def write(out):
+            for _, v in self._walk():
+                part = np.ascontiguousarray(v[:, columns])
+                count[0] += int(np.isnan(part).sum())
+                put(out, fill.feed(part))
+            put(out, fill.end())
+
+        self._replace(write)
+        self.filled = count[0]
+        return found[0] if found else None
+
+    def _fill_jumps(self, gaps: list[tuple[int, int]]) -> None:
+        """The rows each clock jump leaves out, made as ``time_column.fill_jumps`` makes
+        them (the same formula, a few rows at a time), put in their places."""
+        def write(out):
+            g, last = 0, None
+            for a, v in self._walk():
+                start = 0
+                while g < len(gaps) and gaps[g][0] < a + v.shape[0]:
+                    row, missing = gaps[g]
+                    out.write(np.ascontiguousarray(v[start:row - a]).tobytes())
+                    lo = v[row - a - 1] if row > a else last
+                    hi = v[row - a]
+                    for i in range(1, missing + 1, CHECK_ROWS):
+                        w = (np.arange(i, min(missing + 1, i + CHECK_ROWS), dtype=np.float64)
+                             / (missing + 1))[:, None]
+                        out.write((lo[None, :] + w * (hi - lo)[None, :]).tobytes())
+                    start, g = row - a, g + 1
+                out.write(np.ascontiguousarray(v[start:]).tobytes())
+                last = v[-1].copy()
+
+        self._replace(write)
+        added = sum(m for _, m in gaps)
+        self.frames += added
+        self.filled += added * (self.layout.columns - 1)
 
     def _times(self):
         """``(first row, seconds)`` of the time column in blocks, as ``read_text`` makes it
@@ -395,14 +489,28 @@ class TextSource:
             yield a, t
 
     def _time_rate(self) -> float:
-        """``time_column.analyse_steps`` over the time column in blocks (no gaps filled)."""
-        return steps_rate(self._times, self.frames, self.path, self.start_time, self._line_of)
+        """``time_column.analyse_steps`` over the time column in blocks; with
+        ``--fill-gaps`` its jumps filled, with the whole-file reader's warnings."""
+        from scalesieve.io import time_column as tc
+
+        rate, gaps, at = steps_axis(self._times, self.frames, self.path, self.start_time,
+                                    self._line_of, fill=self.fill)
+        if gaps:
+            self._notes = tc.gap_warnings(at, gaps, rate, self._line_of, self.start_time)
+            self._fill_jumps(gaps)
+        return rate
 
 
 def steps_rate(times, n: int, src: str, origin, line_of) -> float:
     """``time_column.analyse_steps(t, line_of, src, origin=origin).rate`` of a time axis of
     ``n`` values that comes in blocks, without gaps filled: ``times()`` gives
     ``(first row, seconds)`` of each block (it is called for each of three passes)."""
+    return steps_axis(times, n, src, origin, line_of)[0]
+
+
+def steps_axis(times, n: int, src: str, origin, line_of, fill: str | None = None):
+    """``(rate, gaps, times at the gaps)`` as ``time_column.analyse_steps(..., fill=fill)``
+    gives rate and gaps; the times are ``{row: seconds}`` of each gap's two rows."""
     from scalesieve.io import time_column as tc
 
     if n < 2:
@@ -429,6 +537,7 @@ def steps_rate(times, n: int, src: str, origin, line_of) -> float:
     typical = median.value
     lo = hi = None
     worst, worst_at, first_jump, t0, t1 = -np.inf, None, None, None, None
+    jumps = []           # (row after the jump, its step, the times either side), with fill
     for s0, t, s in steps():
         if t0 is None:
             t0 = float(t[0])
@@ -446,10 +555,26 @@ def steps_rate(times, n: int, src: str, origin, line_of) -> float:
         if first_jump is None and jump.any():
             j = int(np.flatnonzero(jump)[0])
             first_jump = (s0 + j + 1, float(t[j]), float(t[j + 1]))
+        if fill is not None:
+            jumps.extend((s0 + int(j) + 1, float(s[j]), float(t[j]), float(t[j + 1]))
+                         for j in np.flatnonzero(jump))
     spread = float(hi - lo) / typical
     if not spread < tc.UNIFORM_STEP_TOLERANCE:
         raise tc.not_uniform(spread, worst_at[1], typical, line_of(worst_at[0]), src)
-    if first_jump is not None:
+    if first_jump is not None and fill is None:
         row, before, here = first_jump
         raise tc.clock_jump(before, here, typical, line_of(row), src, origin)
-    return tc.tidy_rate(float((n - 1) / (t1 - t0)), False)
+    if first_jump is None:
+        return tc.tidy_rate(float((n - 1) / (t1 - t0)), False), [], {}
+    step = tc.regular_step(t0, t1, [v for _, v, _, _ in jumps], n - 1 - len(jumps))
+    gaps = [(row, int(round(v / step)) - 1) for row, v, _, _ in jumps]
+    added = sum(m for _, m in gaps)
+    if added > tc.MOST_FILLED:
+        raise ScalesieveError(
+            f"the clock's jumps would need {added:,} filled samples (more than "
+            f"{tc.MOST_FILLED:,}); split the file at the jumps", source=src,
+            line=line_of(first_jump[0]))
+    at = {}
+    for row, _, before, here in jumps:
+        at[row - 1], at[row] = before, here
+    return tc.tidy_rate(1.0 / step, True), gaps, at
