@@ -174,7 +174,8 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
                     edits: Sequence[Edit] = (), removed: str | None = None,
                     subtype: str | None = None, force: bool = False,
                     rate: float | None = None, channel: int | str | None = None,
-                    fill_gaps: str | None = None, progress=None) -> dict:
+                    fill_gaps: str | None = None, progress=None, group: str | None = None,
+                    dataset: str | None = None) -> dict:
     """:func:`clean_file` with the recording cut in time pieces for several workers.
 
     ``workers`` local processes or the Dask cluster at ``scheduler``; the
@@ -204,10 +205,6 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     if why is None and facts.get("kind") == "text":
         # each worker would parse the whole table again to find its piece's rows
         why = "a text table is parsed in one process only"
-    elif why is None and (facts.get("kind") == "measurement" or fill_gaps is not None):
-        # each worker opens its piece as audio (stream.pieces), without gaps to fill
-        why = ("measurement files are" if facts.get("kind") == "measurement" else
-               "--fill-gaps is") + " worked on in blocks in one process only"
     elif why is None and resolved.kind == "packet" and resolved.mode in WRAP_MODES:
         # the pieces cut the packet tree of the modes that extend the signal from its edge
         why = (f"wavelet packets in boundary mode {resolved.mode} are cleaned in blocks in "
@@ -218,4 +215,5 @@ def clean_in_pieces(input_path: str, output: str, *, workers: int | None = None,
     return clean_pieces(input_path, output, workers=workers, scheduler=scheduler,
                         pieces=pieces, recipe=recipe, transform=transform, edits=edits,
                         removed=removed, subtype=subtype, force=force, rate=rate,
-                        channel=channel, fill_gaps=fill_gaps, progress=progress)
+                        channel=channel, fill_gaps=fill_gaps, progress=progress, group=group,
+                        dataset=dataset)

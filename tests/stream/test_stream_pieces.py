@@ -96,8 +96,7 @@ def test_pieces_on_a_dask_cluster_and_the_command_reports_them(tmp_path, capsys)
 
 
 @pytest.mark.parametrize("opts,why", [(["--transform", "packet", "--level", "2", "--mode",
-                                        "periodic"], "boundary mode periodic"),
-                                      (["--fill-gaps", "linear"], "--fill-gaps is worked on in blocks in one process only")])
+                                        "periodic"], "boundary mode periodic")])
 def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, why):
     src = tmp_path / "in.wav"
     _two_channels(src, n=20_000)
@@ -107,6 +106,54 @@ def test_workers_refuse_what_cannot_be_cut_in_one_line(tmp_path, capsys, opts, w
     assert len(err) == 1 and "--workers and --scheduler clean in blocks" in err[0]
     assert why in err[0]
     assert not (tmp_path / "o.wav").exists()
+
+
+def test_pieces_fill_gaps_as_the_one_process_run_does(tmp_path):
+    # reference: the one-process run in blocks (itself the whole-array fill, tested
+    # against numpy.interp in tests/io): NaN runs inside a piece, across the cut between
+    # two pieces and at the start, filled the same on every worker
+    src = tmp_path / "gappy.wav"
+    x = _two_channels(tmp_path / "base.wav", n=400_003)
+    x[100:140, 0] = np.nan
+    x[199_990:200_020, 1] = np.nan          # across the cut between pieces 1 and 2
+    x[:5, 1] = np.nan
+    sf.write(src, x, 48_000, subtype="DOUBLE")
+    spec = TransformSpec("dwt", "db4", 6, "symmetric")
+    edits = [Edit("threshold", levels="details", rule="universal", shape="soft")]
+    a = clean_stream(str(src), str(tmp_path / "a.wav"), transform=spec, edits=edits,
+                     subtype="DOUBLE", fill_gaps="linear")
+    b = clean_pieces(str(src), str(tmp_path / "b.wav"), workers=2, pieces=2, transform=spec,
+                     edits=edits, subtype="DOUBLE", fill_gaps="linear")
+    u, v = sf.read(tmp_path / "a.wav")[0], sf.read(tmp_path / "b.wav")[0]
+    assert not np.isnan(v).any()
+    np.testing.assert_allclose(v, u, rtol=0, atol=1e-13)
+    assert b["warnings"] == a["warnings"]
+
+
+def test_pieces_of_a_measurement_file_give_the_one_process_samples(tmp_path, capsys):
+    # an HDF5 file (h5py writes it) read by range on each worker; reference: the
+    # one-process run in blocks of the same file
+    h5py = pytest.importorskip("h5py")
+    rng = np.random.default_rng(8)
+    x = np.stack([0.1 * rng.standard_normal(300_001), 0.2 * rng.standard_normal(300_001)], 1)
+    x[150_000:150_100, 0] = np.nan
+    path = tmp_path / "rig.h5"
+    with h5py.File(path, "w") as f:
+        d = f.create_dataset("strain", data=x)
+        d.attrs["rate"] = 2000.0
+    args = ["--threshold", "universal", "--level", "6", "--subtype", "DOUBLE", "--fill-gaps",
+            "linear", "--rate", "2000"]
+    assert main(["clean", str(path), "-o", str(tmp_path / "one.wav")] + args) == 0
+    one_err = capsys.readouterr().err
+    assert main(["clean", str(path), "-o", str(tmp_path / "two.wav"), "--workers", "2"]
+                + args) == 0
+    err = capsys.readouterr().err
+    assert "pieces" in err
+    u, v = sf.read(tmp_path / "one.wav")[0], sf.read(tmp_path / "two.wav")[0]
+    np.testing.assert_allclose(v, u, rtol=0, atol=1e-12)
+    for line in one_err.splitlines():
+        if "filled" in line:
+            assert line in err
 
 
 def test_pieces_on_a_tls_cluster_with_the_certificates_in_dasks_configuration(tmp_path,

@@ -120,7 +120,8 @@ def run(args) -> int:
                 args.file, args.output, workers=args.workers, scheduler=args.scheduler,
                 pieces=args.pieces, recipe=recipe, transform=spec, edits=quick,
                 removed=args.removed, subtype=args.subtype, force=args.force, rate=args.rate,
-                channel=args.channel, fill_gaps=args.fill_gaps, progress=bar)
+                channel=args.channel, fill_gaps=args.fill_gaps, progress=bar,
+                group=args.group, dataset=args.dataset)
         else:
             res = pipeline.clean_file(args.file, args.output, recipe=recipe, transform=spec,
                                       edits=quick, removed=args.removed, subtype=args.subtype,

@@ -99,7 +99,7 @@ class MeasurementSource:
 
     def __init__(self, path: str, kind: str, channel=None, rate: float | None = None,
                  fill_gaps: str | None = None, group: str | None = None,
-                 dataset: str | None = None):
+                 dataset: str | None = None, survey: dict | None = None):
         from scalesieve.io import measurement_readers as mr
         from scalesieve.io.readers import measurement_channel_rate
 
@@ -126,7 +126,10 @@ class MeasurementSource:
                       if src.start_time is not None else None)
         self._notes = list(src.warnings)
         self.filled = 0
-        self._survey()
+        if survey is None:
+            self._survey()
+        else:                  # a worker's piece: the parent's pass checked the file
+            self.filled, self._notes = int(survey["filled"]), list(survey["notes"])
 
     def _survey(self) -> None:
         """``io.readers``' checks of the whole array, in one pass over the blocks."""

@@ -26,18 +26,19 @@ from scalesieve.errors import ScalesieveError
 from scalesieve.stream.piece_streams import piece
 from scalesieve.stream.pipeline import _prepare, _result, _thresholds
 from scalesieve.stream.recipe_plan import _Plan
-from scalesieve.stream.sources import READ_FRAMES, _Source
+from scalesieve.stream.sources import READ_FRAMES, open_source, survey_of
 from scalesieve.stream.targets import _Join, _target
 
 
 def clean_piece(job: dict) -> dict:
     """Clean samples ``job["start"] .. job["stop"]`` into the raw float64 file ``job["raw"]``.
 
-    Runs on a worker: it opens the input itself.  Returns the piece's span,
-    where it ran and how long it took.
+    Runs on a worker: it opens the input itself, as the parent opened it (``job["open"]``:
+    rate, gap filling, group, dataset, and what the parent's first pass found, so it is
+    not made again).  Returns the piece's span, where it ran and how long it took.
     """
     t0 = time.perf_counter()
-    src = _Source(job["input"], job["channel"])
+    src = open_source(job["input"], job["channel"], **job["open"])
     n = src.frames
     spec = job["spec"]
     plan = _Plan(job["edits"], src.channels, spec, n, src.rate)
@@ -137,7 +138,8 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
                  transform: tf.TransformSpec | None = None, edits: Sequence = (),
                  removed: str | None = None, subtype: str | None = None, force: bool = False,
                  rate: float | None = None, channel: int | None = None,
-                 fill_gaps: str | None = None, progress=None) -> dict:
+                 fill_gaps: str | None = None, progress=None, group: str | None = None,
+                 dataset: str | None = None) -> dict:
     """``pipeline.clean_stream`` with the cleaning shared out in time pieces.
 
     ``pieces`` defaults to the number of workers (local), or twice the
@@ -147,7 +149,9 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
     outputs = [output] + ([removed] if removed else [])
     src, spec, plan = _prepare(input_path, outputs, recipe=recipe, transform=transform,
                                edits=edits, force=force, rate=rate, channel=channel,
-                               fill_gaps=fill_gaps)
+                               fill_gaps=fill_gaps, group=group, dataset=dataset)
+    opened = {"rate": rate, "fill_gaps": fill_gaps, "group": group, "dataset": dataset,
+              "survey": survey_of(src)}
     n = src.frames
     # the cluster first: one that cannot do the work is refused before the first passes
     client = _open_cluster(scheduler, input_path, output) if scheduler else None
@@ -156,14 +160,14 @@ def clean_pieces(input_path: str, output: str, *, workers: int | None = None,
             pieces = (workers or 2) if client is None else \
                 2 * max(1, sum(client.nthreads().values()))
         return _clean_pieces(src, spec, plan, input_path, outputs, client, scheduler,
-                             workers or 2, pieces, subtype, force, progress)
+                             workers or 2, pieces, subtype, force, progress, opened)
     finally:
         if client is not None:
             client.close()
 
 
 def _clean_pieces(src, spec, plan, input_path, outputs, client, scheduler, workers, pieces,
-                  subtype, force, progress) -> dict:
+                  subtype, force, progress, opened) -> dict:
     n = src.frames
 
     def report(p, fed, text):
@@ -178,7 +182,8 @@ def _clean_pieces(src, spec, plan, input_path, outputs, client, scheduler, worke
     try:
         raws.extend(_raw_name(outputs[0], i) for i in range(len(spans)))
         jobs = [{"input": os.path.abspath(input_path), "channel": src.pick, "spec": spec,
-                 "edits": plan.edits, "lams": lams, "start": a, "stop": b, "raw": raw}
+                 "edits": plan.edits, "lams": lams, "start": a, "stop": b, "raw": raw,
+                 "open": opened}
                 for (a, b), raw in zip(spans, raws)]
         if progress:
             progress(0.3, f"cleaning {len(jobs)} pieces")

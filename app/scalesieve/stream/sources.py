@@ -33,7 +33,8 @@ class _Source:
     parsed = False                   # read as it is, no parse before the passes
     checked = False                  # no pass checks the file first (but to fill gaps)
 
-    def __init__(self, path: str, channel: int | None, fill_gaps: str | None = None):
+    def __init__(self, path: str, channel: int | None, fill_gaps: str | None = None,
+                 survey: dict | None = None):
         from scalesieve.io.audio_facts import audio_facts
 
         self.path, self.pick, self.filled = path, channel, 0
@@ -47,7 +48,10 @@ class _Source:
             from scalesieve.io.readers import _BOUNDED_SUBTYPES
 
             if self.subtype not in _BOUNDED_SUBTYPES:    # integer samples hold no NaN
-                self._survey()
+                if survey is None:
+                    self._survey()
+                else:                        # a worker: the parent's pass found them
+                    self.filled = int(survey["filled"])
                 self.checked = True          # one pass checks the file before the passes
 
     def _survey(self) -> None:
@@ -162,8 +166,12 @@ class _AudioRanges:
 
 def open_source(input_path: str, channel=None, rate: float | None = None, progress=None, *,
                 fill_gaps: str | None = None, group: str | None = None,
-                dataset: str | None = None):
+                dataset: str | None = None, survey: dict | None = None):
     """The recording to read in blocks, its channel and rate checked as the readers check them.
+
+    ``survey``: what :func:`survey_of` said of the same recording opened the same way
+    (a worker opening its piece): the pass that checks the samples and counts the
+    gaps is not made again.
 
     ``progress(fraction, text)``: told how a text table's parse goes, over the
     first ``PARSE_SHARE`` of the bar (``after_parse`` maps the passes onto the rest).
@@ -183,18 +191,24 @@ def open_source(input_path: str, channel=None, rate: float | None = None, progre
     if kind not in ("audio", "text"):
         from scalesieve.stream.measurement_source import MeasurementSource
 
-        return MeasurementSource(input_path, kind, channel, rate, fill_gaps, group, dataset)
+        return MeasurementSource(input_path, kind, channel, rate, fill_gaps, group, dataset,
+                                 survey=survey)
     whole = _Source(input_path, None)
     # an audio file's channels are named ch0, ch1, ... (as io.readers names them)
     names = [f"ch{k}" for k in range(whole.file_channels)]
     src = _Source(input_path, check_channel(channel, whole.file_channels, input_path, names),
-                  fill_gaps)
+                  fill_gaps, survey)
     given = check_rate(rate, input_path)
     if given is not None and abs(given - src.rate) > 1e-9 * src.rate:
         raise ScalesieveError(
             f"the file's header says {src.rate:g} Hz; --rate {given:g} does not match "
             "(the rate of an audio file comes from its header; leave out --rate)", input_path)
     return src
+
+
+def survey_of(src) -> dict:
+    """What the first pass over ``src`` found, for ``open_source(..., survey=)``."""
+    return {"filled": int(getattr(src, "filled", 0)), "notes": list(src.warnings())}
 
 
 def after_parse(src, progress):
