@@ -108,6 +108,7 @@ def main() -> None:
     ap.add_argument("--window-kind", default="packet,dwt",
                     help="transforms the window opens side by side (packet, dwt, swt)")
     ap.add_argument("--open-child", default=None, help=argparse.SUPPRESS)
+    ap.add_argument("--recording", default=None, help=argparse.SUPPRESS)
     ap.add_argument("--impacts", action="store_true")
     ap.add_argument("--only-window", action="store_true",
                     help="only the window figures (--window, --impacts)")
@@ -118,7 +119,7 @@ def main() -> None:
                          "arrays for reuse, scalesieve.freed_memory; by default so does this)")
     args = ap.parse_args()
     if args.open_child:
-        window_open_child(args.open_child, args.samples, args.rate, args.window_level)
+        window_open_child(args.open_child, args.recording, args.rate, args.window_level)
         return
     from scalesieve.freed_memory import keep_freed_memory
 
@@ -229,13 +230,18 @@ def window_opens(args) -> dict:
     got: dict = {k: [] for k in kinds}
     env = dict(os.environ)
     env.setdefault("QT_QPA_PLATFORM", "offscreen")
-    for _ in range(args.repeat):
-        for k in kinds:
-            out = subprocess.run([sys.executable, __file__, "--open-child", k,
-                                  "--samples", str(args.samples), "--rate", str(args.rate),
-                                  "--window-level", str(args.window_level)],
-                                 check=True, capture_output=True, text=True, env=env)
-            got[k].append(json.loads(out.stdout.strip().splitlines()[-1]))
+    with tempfile.TemporaryDirectory() as tmp:
+        # the recording made once and read back whole by each child: making it takes
+        # temporaries larger than the open's own peak
+        path = os.path.join(tmp, "recording.npy")
+        np.save(path, recording(args.samples, args.rate))
+        for _ in range(args.repeat):
+            for k in kinds:
+                out = subprocess.run([sys.executable, __file__, "--open-child", k,
+                                      "--rate", str(args.rate), "--recording", path,
+                                      "--window-level", str(args.window_level)],
+                                     check=True, capture_output=True, text=True, env=env)
+                got[k].append(json.loads(out.stdout.strip().splitlines()[-1]))
     res: dict = {"window_kinds": kinds}
     for k, runs in got.items():
         for field in runs[0]:
@@ -247,7 +253,7 @@ def window_opens(args) -> dict:
     return res
 
 
-def window_open_child(kind: str, samples: int, rate: float, level: int) -> None:
+def window_open_child(kind: str, path: str, rate: float, level: int) -> None:
     """One open in this fresh process: times, the longest pause, peak memory (one JSON line)."""
     import resource
 
@@ -261,7 +267,7 @@ def window_open_child(kind: str, samples: int, rate: float, level: int) -> None:
     from scalesieve.gui.app import SNAPSHOT_SIZE, make_application
     from scalesieve.gui.main_window import MainWindow
 
-    x = recording(samples, rate)
+    x = np.load(path)
     spec = (TransformSpec("packet", "db4", level, "symmetric") if kind == "packet"
             else TransformSpec(kind, "db4", None, "symmetric"))
     with tempfile.TemporaryDirectory() as tmp:
@@ -271,6 +277,7 @@ def window_open_child(kind: str, samples: int, rate: float, level: int) -> None:
         window.resize(*SNAPSHOT_SIZE)
         window.show()
         app.processEvents()
+        window.grab()                  # the empty window's first paint is not the open's
         rec = Recording(samples=x[:, None], rate=rate, channel_names=["ch0"], source="")
         before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
         marks: dict = {}
