@@ -35,7 +35,7 @@ def test_open_recipe_sets_transform_and_edits_in_one_undo_step(window, tmp_path)
     assert m.spec.wavelet == "sym6" and m.spec.level == 7 and m.spec.mode == "periodization"
     assert [e.op for e in m.edits] == ["gain", "region"]
     assert window.transform.level_spin.value() == 7
-    assert len(window.bands.rows) == 8
+    assert len(window.bands.band_keys) == 8
     window.adapter.undo()
     assert m.edits == ()
     # Applying a recipe adds its edits after the current ones, transform kept.

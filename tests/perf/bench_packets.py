@@ -26,6 +26,15 @@ Prints one JSON line of figures measured side by side in one run (medians of
 * with ``--window``: a packet band's gain change in the window at
   ``--samples``, from the click to the repainted 1600x1000 window (target
   150 ms), beside one pass over the signal's memory;
+* with ``--window``, for each transform of ``--window-kind`` (default
+  ``packet,dwt``: the packet depth ``--window-level`` beside the DWT of the same
+  recording), the window opening ``--samples`` in a fresh process of its own,
+  alternating kinds in every round: ``window_<kind>_map_s`` until the Scale map
+  is drawn (the model in place), ``window_<kind>_open_s`` until the adapter is
+  idle with the band figures and the open lanes' envelopes, the longest pause
+  of the event loop meanwhile (``window_<kind>_longest_pause_ms``, a 10 ms
+  timer's ticks) and the process's peak resident memory before and after the
+  open (``window_<kind>_rss_before_mb``/``_rss_mb``, ``peak_mb``);
 * with ``--impacts``: the Impacts dock opened on ``--samples``: the longest
   pause of the window's event loop (gap between ticks of a 10 ms timer) while
   its panes work, and the time until both have drawn, beside the pause the
@@ -34,6 +43,7 @@ Prints one JSON line of figures measured side by side in one run (medians of
 
     python tests/perf/bench_packets.py [--samples 10000000] [--bands-samples 4000000]
                                        [--repeat 3] [--window] [--impacts] [--only-window]
+                                       [--window-kind packet,dwt,swt]
                                        [--no-bands] [--default-allocator]
 """
 
@@ -95,6 +105,10 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--window", action="store_true")
     ap.add_argument("--window-level", type=int, default=6)
+    ap.add_argument("--window-kind", default="packet,dwt",
+                    help="transforms the window opens side by side (packet, dwt, swt)")
+    ap.add_argument("--open-child", default=None, help=argparse.SUPPRESS)
+    ap.add_argument("--recording", default=None, help=argparse.SUPPRESS)
     ap.add_argument("--impacts", action="store_true")
     ap.add_argument("--only-window", action="store_true",
                     help="only the window figures (--window, --impacts)")
@@ -104,6 +118,9 @@ def main() -> None:
                     help="leave glibc's allocator as it is (the commands ask it to keep freed "
                          "arrays for reuse, scalesieve.freed_memory; by default so does this)")
     args = ap.parse_args()
+    if args.open_child:
+        window_open_child(args.open_child, args.recording, args.rate, args.window_level)
+        return
     from scalesieve.freed_memory import keep_freed_memory
 
     kept = False if args.default_allocator else keep_freed_memory()
@@ -121,6 +138,7 @@ def main() -> None:
         res["samples"] = args.samples
         if args.window:
             res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
+            res.update(window_opens(args))
         if args.impacts:
             res.update(impacts_pause(x, args.rate, args.repeat))
         print(json.dumps(res))
@@ -197,9 +215,110 @@ def main() -> None:
     res["ratio_forward_dwt_to_wavedec"] = round(res["forward_dwt_s"] / f, 2)
     if args.window:
         res.update(window_gain(x, args.rate, args.window_level, args.repeat * 3))
+        res.update(window_opens(args))
     if args.impacts:
         res.update(impacts_pause(x, args.rate, args.repeat))
     print(json.dumps(res))
+
+
+def window_opens(args) -> dict:
+    """Each kind of ``--window-kind`` opened in fresh processes, alternating in every round."""
+    kinds = [k.strip() for k in args.window_kind.split(",") if k.strip()]
+    for k in kinds:
+        if k not in ("packet", "dwt", "swt"):
+            sys.exit(f"bench_packets: --window-kind {k!r}: use packet, dwt or swt")
+    got: dict = {k: [] for k in kinds}
+    env = dict(os.environ)
+    env.setdefault("QT_QPA_PLATFORM", "offscreen")
+    with tempfile.TemporaryDirectory() as tmp:
+        # the recording made once and read back whole by each child: making it takes
+        # temporaries larger than the open's own peak
+        path = os.path.join(tmp, "recording.npy")
+        np.save(path, recording(args.samples, args.rate))
+        for _ in range(args.repeat):
+            for k in kinds:
+                out = subprocess.run([sys.executable, __file__, "--open-child", k,
+                                      "--rate", str(args.rate), "--recording", path,
+                                      "--window-level", str(args.window_level)],
+                                     check=True, capture_output=True, text=True, env=env)
+                got[k].append(json.loads(out.stdout.strip().splitlines()[-1]))
+    res: dict = {"window_kinds": kinds}
+    for k, runs in got.items():
+        for field in runs[0]:
+            vals = [r[field] for r in runs]
+            res[f"window_{k}_{field}"] = round(statistics.median(vals), 3)
+    if "packet" in got and "dwt" in got:
+        res["ratio_window_open_packet_to_dwt"] = round(
+            res["window_packet_open_s"] / res["window_dwt_open_s"], 2)
+    return res
+
+
+def peak_mb() -> float:
+    """This process's peak resident memory in MiB.
+
+    Linux: ``VmHWM`` of /proc/self/status, the peak of this program's own memory;
+    ``ru_maxrss`` there keeps the peak of the process that started it (across exec),
+    here the benchmark's own.  Elsewhere ``ru_maxrss``.
+    """
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+def window_open_child(kind: str, path: str, rate: float, level: int) -> None:
+    """One open in this fresh process: times, the longest pause, peak memory (one JSON line)."""
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from PySide6.QtCore import QTimer
+    from PySide6.QtWidgets import QApplication
+
+    from scalesieve.core.recording import Recording
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.gui import window_settings as ws
+    from scalesieve.gui.app import SNAPSHOT_SIZE, make_application
+    from scalesieve.gui.main_window import MainWindow
+
+    x = np.load(path)
+    spec = (TransformSpec("packet", "db4", level, "symmetric") if kind == "packet"
+            else TransformSpec(kind, "db4", None, "symmetric"))
+    with tempfile.TemporaryDirectory() as tmp:
+        app = make_application()
+        app.setProperty("scalesieve_quiet_errors", True)
+        window = MainWindow(ws.open_settings(os.path.join(tmp, "settings.ini")))
+        window.resize(*SNAPSHOT_SIZE)
+        window.show()
+        app.processEvents()
+        window.grab()                  # the empty window's first paint is not the open's
+        rec = Recording(samples=x[:, None], rate=rate, channel_names=["ch0"], source="")
+        before = peak_mb()
+        marks: dict = {}
+        ticks: list[float] = []
+        timer = QTimer()
+        timer.setInterval(10)
+        timer.timeout.connect(lambda: ticks.append(time.perf_counter()))
+        window.adapter.modelReplaced.connect(
+            lambda: marks.setdefault("map", time.perf_counter()))
+        timer.start()
+        t = time.perf_counter()
+        ticks.append(t)
+        window.open_recording(rec, spec)
+        problem = window.adapter.wait_idle(1200)
+        if problem:
+            sys.exit(f"bench_packets: {problem}")
+        done = time.perf_counter()
+        timer.stop()
+        after = peak_mb()
+        print(json.dumps({"map_s": marks.get("map", done) - t, "open_s": done - t,
+                          "longest_pause_ms": 1000 * float(max(np.diff(ticks + [done]))),
+                          "rss_before_mb": before, "rss_mb": after}))
+        window.close()
+        app.processEvents()
 
 
 def impacts_pause(x: np.ndarray, rate: float, repeat: int) -> dict:

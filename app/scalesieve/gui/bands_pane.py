@@ -198,9 +198,10 @@ class BandRow(QWidget):
             env, unit = pictures.band_envelope(key), pictures.unit.get(key)
             span = (t1 - t0) * pictures.rate
             wide = span > 2 * pictures.block * width
-            if (env is None or unit is None) and wide:
-                # Still being made: without it only a zoomed view is drawn (from the
-                # samples in view); a wide one would synthesise the whole band here.
+            if (env is None or unit is None) and wide and n > EXACT_REMOVED_UPTO:
+                # Still being made: without it only a zoomed view of a long recording
+                # is drawn (from the samples in view); a wide one would synthesise
+                # the whole band here.
                 fe = fo = None
             xs, ys = trace_points(0.0, step, n, t0, t1, width, fe, env)
             if edited_any:
@@ -244,7 +245,8 @@ class BandsPane(QFrame):
         self.adapter = adapter
         self.axis = time_axis
         self.channel = 0
-        self.rows: dict = {}
+        self.rows: dict = {}             # band key -> its lane's row, made when first opened
+        self.band_keys: list = []        # the bands lanes may open for
         self.open_keys: list = []
         self._defaults_for = None
         self.impulsive_note: str | None = None   # why no lane opened for an impulsive band
@@ -324,12 +326,15 @@ class BandsPane(QFrame):
         self.redraw()
 
     def _ensure_rows(self, keys) -> None:
-        """One row per band, finest first (kept when the bands stay the same).
+        """The bands lanes may open for, finest first (kept when the bands stay the same).
 
-        The rows are made one per turn of the event loop, in order.
+        A lane's row is made when the lane first opens: a row's plot takes tens of
+        milliseconds to make, and 64 packet bands' rows made up front held the
+        window for seconds while the recording opened.  Rows of lanes still open
+        are made one per turn of the event loop, in order.
         """
         keys = list(keys)
-        if list(self.rows) + [key for _, key in self._to_build] == keys:
+        if keys == self.band_keys:
             return
         for row in self.rows.values():
             self.axis.unlink(row.plot.getViewBox())
@@ -339,29 +344,41 @@ class BandsPane(QFrame):
         while self.body_layout.count():
             self.body_layout.takeAt(0)
         self.body_layout.addStretch(1)
-        self._to_build = [(i == len(keys) - 1, key) for i, key in enumerate(keys)]
-        self._build_timer.start()
+        self.band_keys = keys
+        self._to_build = [key for key in keys if key in self.open_keys]
+        if self._to_build:
+            self._build_timer.start()
 
     def rows_pending(self) -> bool:
-        """Band rows are still being made."""
+        """Rows of open lanes are still being made."""
         return bool(self._to_build)
 
     def _build_next_row(self) -> None:
         if not self._to_build:
             return
-        last, key = self._to_build.pop(0)
-        row = BandRow(self, key, last=last)
+        key = self._to_build.pop(0)
+        if key not in self.rows:
+            self._make_row(key)
+        if self._to_build:
+            self._build_timer.start()
+
+    def _make_row(self, key) -> "BandRow":
+        """The row of one band's lane, put in its place among the rows made so far."""
+        keys = self.band_keys
+        row = BandRow(self, key, last=key == keys[-1])
         row.setVisible(key in self.open_keys)
-        self.body_layout.insertWidget(self.body_layout.count() - 1, row)   # before the stretch
+        place = keys.index(key)
+        at = sum(1 for k in self.rows if keys.index(k) < place)
+        self.body_layout.insertWidget(at, row)              # before the stretch
         self.rows[key] = row
+        self.rows = {k: self.rows[k] for k in keys if k in self.rows}   # in band order
         self._fit_rows()
         m = self.adapter.model
         pic = self.adapter.pictures(self.channel)
         if m is not None and pic is not None and key in pic.keys and key in self.open_keys:
             row.show_state(m, pic, self.channel)
             row.draw(m, pic, self.channel, self.mode.currentData(), self.axis.t0, self.axis.t1)
-        if self._to_build:
-            self._build_timer.start()
+        return row
 
     def _on_model(self) -> None:
         m = self.adapter.model
@@ -370,11 +387,13 @@ class BandsPane(QFrame):
         if self.channel >= m.recording.channels:
             self.channel = 0
         self._ensure_rows(m.band_keys)
+        self.adapter.want_envelopes(self.open_keys)
         self._sync_controls()
         self.redraw()
 
     def _fit_rows(self) -> None:
         """Share the drawer's height among the open lanes (scroll only when they do not fit)."""
+        self.empty.setVisible(not self.open_keys)
         if not self.rows:
             return
         room = self.scroll.viewport().height() - AXIS_HEIGHT
@@ -382,7 +401,6 @@ class BandsPane(QFrame):
         h = int(max(ROW_MIN, min(ROW_MAX, room // count)))
         for row in self.rows.values():
             row.set_row_height(h)
-        self.empty.setVisible(not self.open_keys)
 
     # ---------------------------------------------------------------- lanes
 
@@ -395,12 +413,15 @@ class BandsPane(QFrame):
             return
         m = self.adapter.model
         if on:
+            self.adapter.want_envelopes([key])
             self.open_keys.append(key)
             order = list(m.band_keys) if m is not None else list(self.rows)
             self.open_keys.sort(key=lambda k: order.index(k) if k in order else 0)
         else:
             self.open_keys.remove(key)
         row = self.rows.get(key)
+        if row is None and on and key in self.band_keys:
+            row = self._make_row(key)
         if row is not None:
             row.setVisible(on)
             if on:

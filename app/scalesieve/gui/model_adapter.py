@@ -238,6 +238,8 @@ class ModelAdapter(QObject):
         self._thread.start()
         self._bands_thread: EnvelopeThread | None = None
         self._bands_generation = 0
+        #: bands whose envelopes the panes draw (open lanes): only these are made
+        self._wanted: set = set()
         self._envelope.connect(self._on_envelope)
         self._envelopes_done.connect(self._on_envelopes_done)
         self._coalesce = QTimer(self)
@@ -419,10 +421,25 @@ class ModelAdapter(QObject):
             self.label = res.label
         self._hand_back(res.model, replace=True)
         self._idle_check()
-        self.modelReplaced.emit()
-        self._start_bands()
+        self._wanted = set()
+        self.modelReplaced.emit()        # the panes say which envelopes they draw
+        if self._bands_thread is None:
+            self._start_bands()
 
     # ------------------------------------------------- background envelopes
+
+    def want_envelopes(self, keys) -> None:
+        """Bands a pane draws (an open lane's): their envelopes are made when missing.
+
+        Only these are made: a band's envelope is a synthesis of the whole band
+        (64 packet bands of 10 M samples took seconds), and a closed lane draws none.
+        """
+        new = set(keys) - self._wanted
+        if not new:
+            return
+        self._wanted |= new
+        if self._bands_thread is None and self._running is None:
+            self._start_bands()
 
     def _start_bands(self) -> None:
         m = self._model
@@ -438,7 +455,8 @@ class ModelAdapter(QObject):
                 jobs.append((pic.channel, FIGURES,
                              lambda ch=pic.channel: m.band_table(ch)))
             for key in pic.missing_bands():
-                jobs.append((pic.channel, key, coeffs, m.spec, pic.n, pic.block))
+                if key in self._wanted:
+                    jobs.append((pic.channel, key, coeffs, m.spec, pic.n, pic.block))
         if not jobs:
             return
         self._bands_generation += 1
@@ -475,6 +493,8 @@ class ModelAdapter(QObject):
         self._bands_thread = None
         if problem:
             self.failed.emit(problem)
+        elif any(key in self._wanted for pic in self._pictures for key in pic.missing_bands()):
+            self._start_bands()      # lanes opened while it worked
 
     def _hand_back(self, model: DecompositionModel | None, replace: bool) -> None:
         if model is None:

@@ -10,7 +10,8 @@ The thread reads only the coefficient arrays, which the model never writes
 (an edit changes gains, not coefficients; a new transform makes new arrays),
 and uses pure transform functions, so it can run while the window edits the
 model in the GUI thread.  It synthesises a band block by block (the local
-synthesis of the coefficients reaching each block of samples): the memory
+synthesis of the coefficients reaching each block of samples, for the DWT and
+wavelet packets alike): the memory
 it needs follows the block, not the recording, and it can stop between blocks.
 """
 
@@ -49,17 +50,19 @@ def unit_envelope(coeffs: list[np.ndarray], key, spec: tf.TransformSpec, n: int,
     """Block envelope of one band's unit-gain time component.
 
     The same numbers as ``BlockEnvelope.of(tf.band_component(coeffs, key, spec, n), block)``
-    up to round-off (local synthesis adds the same products in another order).
+    up to round-off (local synthesis adds the same products in another order); a
+    packet node's window is carried up its own path (``packets.local_synthesis``),
+    so no full-length array is made.
     ``check()`` is called between chunks and may raise to stop.
     """
     level = spec.level
     c = coeffs[tf.band_index(key, level)]
-    if spec.kind != "dwt" or spec.mode == "periodization":
+    if spec.kind not in tf.LOCAL_KINDS or spec.mode == "periodization":
         # No local synthesis for the SWT; periodization wraps at the ends.
         check()
         return BlockEnvelope.of(tf.band_component(coeffs, key, spec, n), block)
     lengths = [a.shape[0] for a in coeffs]
-    j = level if key == "a" else int(key)
+    j = level if key == "a" else int(key)        # a packet node: its depth
     step = 2 ** j
     reach = tf.filter_length(spec.wavelet) * step
 
