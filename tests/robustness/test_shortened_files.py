@@ -247,7 +247,7 @@ def test_mat_values_of_an_unknown_data_type_are_refused_in_one_line(tmp_path, co
         raw[at:at + 4] = struct.pack("<I", code)
     path = _mat(tmp_path, f"type{code}.mat", {"fs": 100.0, "x": np.arange(64.0)}, patch)
     line = _one_error_line(_bands(path), path)
-    assert f"is not a readable MATLAB file (the variable at byte" in line
+    assert "is not a readable MATLAB file (the variable at byte" in line
     assert f"data type {code}" in line
 
 

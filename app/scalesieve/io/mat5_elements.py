@@ -112,8 +112,9 @@ class _Walk:
     def u32(self, raw: bytes, at: int = 0) -> int:
         return struct.unpack_from(self.end + "I", raw, at)[0]
 
-    def element(self, s, look: bool = False) -> tuple[int, int, bytes | None]:
-        """One element (a full tag or a small one): ``(data type, bytes, values if looked at)``."""
+    def element(self, s, look: bool = False, skip: bool = True) -> tuple[int, int, bytes | None]:
+        """One element (a full tag or a small one): ``(data type, bytes, values if looked at)``;
+        ``skip=False`` leaves the stream at its values (nothing after them is read)."""
         raw = s.take(8)
         first = self.u32(raw)
         if first >> 16:                      # small data element: 1..4 bytes in the tag
@@ -122,6 +123,8 @@ class _Walk:
                 raise _Damaged(f"is a small element of {n} bytes (at most 4)")
             return first & 0xFFFF, n, raw[4:4 + n]
         n = self.u32(raw, 4)
+        if not skip:
+            return first, n, None
         if look:
             if n > _MOST_LOOKED_AT:
                 raise _Damaged(f"declares {n} bytes where a few are expected")
@@ -132,8 +135,8 @@ class _Walk:
         s.skip((-n) % 8)
         return first, n, data
 
-    def values(self, s) -> None:
-        kind, _n, _ = self.element(s)
+    def values(self, s, skip: bool = True) -> None:
+        kind, _n, _ = self.element(s, skip=skip)
         if kind not in VALUE_TYPES:
             raise _Damaged(f"holds values of data type {kind}, which is no MATLAB value type")
 
@@ -170,12 +173,13 @@ class _Walk:
             raise _Damaged(f"has dimensions of data type {kind}")
         count = self.count(dims, n)
         self.element(s)                      # the name (SciPy checks its type)
-        if cls in _NUMBERS or cls == _CHAR:
-            for _ in range(2 if is_complex and cls != _CHAR else 1):
-                self.values(s)
-        elif cls == _SPARSE:
-            for _ in range(4 if is_complex else 3):
-                self.values(s)
+        if cls in (_CHAR, _SPARSE) or cls in _NUMBERS:
+            parts = (4 if is_complex else 3) if cls == _SPARSE else \
+                (2 if is_complex and cls != _CHAR else 1)
+            for k in range(parts):
+                # a variable's last values need not be inflated to be walked past: SciPy
+                # reads nothing of it after them
+                self.values(s, skip=depth > 0 or k < parts - 1)
         elif cls == _CELL:
             self.arrays(s, count, depth)
         elif cls in (_STRUCT, _OBJECT):
