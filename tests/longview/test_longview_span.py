@@ -157,12 +157,12 @@ def test_transforms_not_shown_long_are_refused(tmp_path):
 
 
 @pytest.mark.parametrize("subtype", ["PCM_16", "PCM_24", "PCM_32", "FLOAT", "DOUBLE"])
-def test_mapped_reads_equal_soundfile(tmp_path, subtype):
+def test_direct_reads_equal_soundfile(tmp_path, subtype):
     # soundfile (libsndfile) is the reference for how each sample format reads as float
     path, x = _wav(tmp_path, 4097, channels=3, subtype=subtype)
     x = np.clip(x, -1, 1)
     r = SampleReader(path)
-    assert r.mapped
+    assert r.direct
     np.testing.assert_array_equal(r.read(0, 4097), sf.read(path, dtype="float64",
                                                           always_2d=True)[0])
     np.testing.assert_array_equal(SampleReader(path, channel=2).read(100, 200),
@@ -172,18 +172,18 @@ def test_mapped_reads_equal_soundfile(tmp_path, subtype):
 def test_unmapped_formats_read_through_soundfile(tmp_path):
     path, x = _wav(tmp_path, 3001, subtype="PCM_16", name="a.flac")
     r = SampleReader(path)
-    assert not r.mapped
+    assert not r.direct
     np.testing.assert_array_equal(r.read(10, 2000), x[10:2000])
 
 
-def test_rf64_is_mapped_too(tmp_path):
+def test_rf64_is_read_directly_too(tmp_path):
     # an RF64 file (the WAV form past 4 GiB), written by libsndfile, read back by it
     rng = np.random.default_rng(4)
     x = rng.uniform(-1, 1, (3000, 2))
     path = str(tmp_path / "big.wav")
     sf.write(path, x, 48000, subtype="PCM_24", format="RF64")
     r = SampleReader(path)
-    assert r.mapped
+    assert r.direct
     np.testing.assert_array_equal(r.read(7, 2999), sf.read(path, dtype="float64")[0][7:2999])
 
 

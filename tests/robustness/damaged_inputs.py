@@ -530,3 +530,34 @@ def damaged_measurement(rng: random.Random, kind: str | None = None) -> tuple[by
     if rng.random() < 0.35:
         return raw, suffix
     return damage_bytes(rng, raw, header=512), suffix
+
+
+def numpy_file(rng: random.Random) -> tuple[bytes, str]:
+    """A ``.npy`` or ``.npz`` file written by NumPy (1-D or 2-D, C or Fortran order, several
+    types, an archive stored or compressed, with a rate or not), then often damaged or cut."""
+    frames = rng.choice([3, 64, 200])
+    x = _signal(rng, frames, rng.choice([1, 2, 3]))
+    x = x.astype(rng.choice(["<f8", ">f8", "<f4", "<i2", ">i4", "u1", "?"]))
+    if rng.random() < 0.3:
+        x = np.asfortranarray(x)
+    if rng.random() < 0.2:
+        x = x.T.copy() if rng.random() < 0.5 else x[:, 0].copy()
+    buf = io.BytesIO()
+    if rng.random() < 0.4:
+        np.save(buf, x)
+        suffix = ".npy"
+    else:
+        arrays = {"x": x}
+        if rng.random() < 0.6:
+            arrays["fs"] = np.float64(rng.choice([100.0, 1000.0, -1.0, float("nan")]))
+        if rng.random() < 0.2:
+            arrays["channel_names"] = np.array([f"c{k}" for k in range(x.shape[-1])])
+        (np.savez_compressed if rng.random() < 0.4 else np.savez)(buf, **arrays)
+        suffix = ".npz"
+    raw = buf.getvalue()
+    how = rng.random()
+    if how < 0.3:
+        return raw, suffix
+    if how < 0.55:                      # cut short anywhere: a header that declares more
+        return raw[:rng.randrange(len(raw) + 1)], suffix
+    return damage_bytes(rng, raw, header=256), suffix

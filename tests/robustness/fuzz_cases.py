@@ -105,6 +105,11 @@ def _cli_measurement(rng):
     return "cli", data, suffix, {"argv": argv}
 
 
+def _numpy(rng):
+    data, suffix = di.numpy_file(rng)
+    return "read", data, suffix, _read_options(rng, False)
+
+
 #: name -> (weight, maker)
 FAMILIES = {
     "wav_header": (4, _audio(["wav16", "wav8", "wav24", "wavfloat", "wavdouble", "wavex"])),
@@ -121,6 +126,7 @@ FAMILIES = {
     "cli_events": (1, _cli_events),
     "measurement_formats": (2, _measurement),
     "cli_measurement": (1, _cli_measurement),
+    "numpy_files": (1, _numpy),
 }
 
 

@@ -373,6 +373,10 @@ def _damage(path, kind):
         data[252:256] = b"x9 ?"                # the header's count of signals garbled
     elif kind == "tdms":
         del data[len(data) * 3 // 4:]          # the last segment cut short
+    elif kind == "npy":
+        # the header's text garbled (a .npy cut short is read up to what it holds, with
+        # a warning: tests/robustness/test_shortened_files.py)
+        data[12:24] = b"\xff" * 12
     else:
         del data[len(data) // 2:]
     path.write_bytes(bytes(data))

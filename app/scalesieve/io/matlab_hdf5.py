@@ -240,6 +240,10 @@ def _mat5(source: str, dataset: str | None) -> Source:
     with open(source, "rb") as fh:
         v5 = fh.read(128)[:10] == b"MATLAB 5.0"
     wrong = _mat5_sizes_fit(source) if v5 else None
+    if v5 and wrong is None:
+        from scalesieve.io.mat5_elements import mat5_damage
+
+        wrong = mat5_damage(source)   # an element SciPy would read unchecked kills the process
     if wrong is not None:
         raise ScalesieveError(f"is not a readable MATLAB file ({wrong})", source=source)
     try:

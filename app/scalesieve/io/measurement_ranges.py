@@ -6,13 +6,14 @@ long recording (``stream.measurement_source``) are read through it: TDMS
 through ``TdmsFile.open`` and ``channel[a:b]``, HDF5 and MATLAB v7.3 by dataset
 slices (``io.matlab_hdf5``), EDF by ``get_data_slice`` of a lazily loaded file,
 ASAM MDF by ``MDF.get``'s record offset and count (its time stamps too, by
-``get_master``), NumPy files through a memory map or an inflating stream
-(``io.numpy_arrays``).  BDF (edfio loads it whole) and MATLAB v5 (scipy.io)
-are read whole.
+``get_master``), NumPy files by plain file reads (no memory map) or an
+inflating stream (``io.numpy_arrays``).  BDF (edfio loads it whole) and MATLAB
+v5 (scipy.io) are read whole.
 """
 
 from __future__ import annotations
 
+import os
 import warnings
 from datetime import timedelta
 
@@ -57,14 +58,34 @@ class TdmsRanges:
 
 class EdfRanges:
     """An EDF file loaded lazily (edfio memory-maps its data records): ranges by
-    ``get_data_slice``, which reads only the records that hold them."""
+    ``get_data_slice``, which reads only the records that hold them.
+
+    A mapped file that another program shortens kills the process with a bus error
+    when a page past its new end is touched, so each range first checks that the
+    file still holds every byte it held when it was opened (one clear message if not).
+    """
 
     def __init__(self, edfio, source: str):
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            self.signals = list(edfio.read_edf(source, lazy_load_data=True).signals)
+        self.source = source
+        self.fh = open(source, "rb")
+        try:
+            self.size = os.fstat(self.fh.fileno()).st_size
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                self.signals = list(edfio.read_edf(source, lazy_load_data=True).signals)
+        except BaseException:
+            self.fh.close()
+            raise
+
+    def _still_whole(self) -> None:
+        now = os.fstat(self.fh.fileno()).st_size
+        if now < self.size:
+            raise ScalesieveError(f"the file became shorter while it was read (it held "
+                                  f"{self.size} bytes when opened, it now holds {now})",
+                                  source=self.source)
 
     def read(self, a: int, b: int, cols: list[int]) -> np.ndarray:
+        self._still_whole()
         out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
         for j, k in enumerate(cols):
             s = self.signals[k]
@@ -77,6 +98,7 @@ class EdfRanges:
 
     def close(self) -> None:
         self.signals = []
+        self.fh.close()
 
 
 class QuietRanges:

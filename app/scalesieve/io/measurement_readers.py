@@ -58,7 +58,7 @@ def kind_of(head: bytes, ext: str) -> str | None:
         return "hdf5"
     if head.startswith(b"MATLAB 7.3 MAT-file"):
         return "mat73"
-    if head.startswith(b"MDF     ") or head.startswith(b"UnFinMF "):
+    if head.startswith((b"MDF     ", b"UnFinMF ")):
         return "mdf"
     if head.startswith(b"\x93NUMPY"):
         return "npy"
@@ -68,10 +68,8 @@ def kind_of(head: bytes, ext: str) -> str | None:
         return "bdf"
     if head.startswith(b"0       ") and len(head) >= 256 and ext in (".edf", ".rec", ""):
         return "edf"
-    kind = EXTENSIONS.get(ext)
-    if kind == "mat" and head.startswith(b"MATLAB 5.0 MAT-file"):
-        return "mat"
-    return kind
+    # a MATLAB 5.0 header or not, a .mat file is read as MATLAB (SciPy names what is wrong)
+    return EXTENSIONS.get(ext)
 
 
 _LIBRARY_LOGGERS = ("nptdms", "asammdf", "edfio", "h5py", "openpyxl")
@@ -487,6 +485,8 @@ def open_source(source: str, kind: str, *, group: str | None = None,
             try:
                 with _quiet_libraries():
                     return reader(a, b, cols)
+            except ScalesieveError:
+                raise
             except MemoryError:
                 raise ScalesieveError("is too large to load into memory",
                                       source=source) from None

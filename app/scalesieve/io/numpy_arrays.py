@@ -2,9 +2,12 @@
 
 Part of the measurement readers (``scalesieve.io.measurement_readers``).  Only the
 ``.npy`` header is read to know an array's shape and type; its samples are read
-by range: a ``.npy`` file, and a ``.npz`` member stored uncompressed, through a
-memory map at the array's offset; a compressed member by inflating it as a
-stream (a range before the stream's position starts it again).  A 2-D array's
+by range: a ``.npy`` file, and a ``.npz`` member stored uncompressed, by plain
+file reads at the array's offset (no memory map: each read checks the file's
+size first, so a file shortened meanwhile is a message, never a bus error); a
+compressed member by inflating it as a stream (a range before the stream's
+position starts it again).  A file shorter than its header declares is read up
+to the whole frames it holds, with a warning, as a shortened WAV is.  A 2-D array's
 longer axis is time, as for HDF5; ``--dataset`` picks the member of a ``.npz``
 when it holds several numeric arrays, a scalar member named ``fs``, ``rate`` or
 ``sample_rate`` gives the rate, and a text member ``channel_names`` the names.
@@ -13,6 +16,7 @@ Nothing is unpickled.
 
 from __future__ import annotations
 
+import os
 import struct
 import zipfile
 
@@ -67,33 +71,56 @@ def _raw_header(fh, what: str, source: str) -> tuple[tuple, bool, np.dtype]:
     return tuple(shape), bool(fortran), np.dtype(dtype)
 
 
-def _pick(view: np.ndarray, lay: _Layout, a: int, b: int, cols: list[int]) -> np.ndarray:
-    """Frames ``a .. b`` of columns ``cols`` of an array of ``lay``'s shape, as float64."""
-    if view.ndim == 1:
-        block = view[a:b][:, None]
-    elif lay.time_axis == 0:
-        block = view[a:b, :]
-    else:
-        block = view[:, a:b].T
-    return np.asarray(block[:, cols], dtype=np.float64)
+class _FileReads:
+    """Samples read with ordinary file reads at ``offset`` (a file or a stored member).
 
-
-class _Mapped:
-    """Samples read through a memory map of the bytes at ``offset`` (a file or a stored member)."""
+    No memory map: a map of a file that another program shortens afterwards kills
+    the process with a bus error when a page past the new end is touched, and a
+    map buys nothing here (every range is one contiguous read per lane).  Each read
+    checks the file's size first, and a short read is one clear message too.
+    """
 
     def __init__(self, path: str, offset: int, lay: _Layout):
-        self.lay = lay
-        self.view = np.memmap(path, dtype=lay.dtype, mode="r", offset=offset, shape=lay.shape,
-                              order="F" if lay.fortran else "C")
+        self.path, self.offset, self.lay = path, offset, lay
+        self.fh = open(path, "rb", buffering=0)
+
+    def _bytes(self, start: int, count: int, into: np.ndarray, frames: tuple) -> None:
+        need = self.offset + start + count
+        size = os.fstat(self.fh.fileno()).st_size
+        got = 0
+        if size >= need:
+            view = memoryview(into).cast("B")
+            self.fh.seek(self.offset + start)
+            while got < count:
+                n = self.fh.readinto(view[got:])
+                if not n:
+                    break
+                got += n
+        if got < count:
+            size = os.fstat(self.fh.fileno()).st_size
+            raise ScalesieveError(f"the file became shorter while it was read (frames "
+                                  f"{frames[0]} to {frames[1]} need its first {need} bytes, "
+                                  f"it now holds {size})", source=self.path)
 
     def read(self, a: int, b: int, cols: list[int]) -> np.ndarray:
-        return _pick(self.view, self.lay, a, b, cols)
+        lay = self.lay
+        out = np.empty((max(0, b - a), len(cols)), dtype=np.float64)
+        if b <= a:
+            return out
+        size = lay.dtype.itemsize
+        if lay.frame_major:
+            rows = np.empty((b - a, lay.width), dtype=lay.dtype)
+            self._bytes(a * lay.width * size, rows.nbytes, rows, (a, b))
+            out[:] = rows[:, cols]
+        else:
+            lane = np.empty(b - a, dtype=lay.dtype)
+            for j, k in enumerate(cols):
+                self._bytes((k * lay.frames + a) * size, lane.nbytes, lane, (a, b))
+                out[:, j] = lane
+        return out
 
     def close(self) -> None:
-        mm = getattr(self.view, "_mmap", None)
-        self.view = None
-        if mm is not None:
-            mm.close()
+        self.fh.close()
 
 
 class _Inflating:
@@ -168,19 +195,41 @@ def _stored_offset(path: str, info: zipfile.ZipInfo) -> int:
     return info.header_offset + 30 + name_len + extra_len
 
 
+def _held(lay: _Layout, held_bytes: int, whose: str, holder: str,
+          source: str) -> tuple[int, str | None]:
+    """``(frames to read, a warning or None)`` when ``held_bytes`` of the samples are there.
+
+    As for a shortened WAV: the whole frames a short file holds are read, with a
+    warning giving both counts.  An array stored channel after channel is refused
+    instead (its last channels would be missing, not its last frames).
+    """
+    if held_bytes >= lay.nbytes:
+        return lay.frames, None
+    if not lay.frame_major:
+        raise ScalesieveError(f"{whose} declares {lay.frames} frames of {lay.width} channels "
+                              f"({lay.nbytes} bytes) but {holder} holds {max(0, held_bytes)} "
+                              "bytes of them; its channels are stored one after another, so "
+                              "the last ones are missing", source=source)
+    held = max(0, held_bytes) // (lay.width * lay.dtype.itemsize)
+    return held, (f"{whose} declares {lay.frames} frames but {holder} holds {held}; the "
+                  "recording is incomplete (read what is there)")
+
+
 def _npy(source: str) -> Source:
     with open(source, "rb") as fh:
         lay = _header(fh, "the file", source)
         offset = fh.tell()
-        fh.seek(0, 2)
-        if fh.tell() < offset + lay.nbytes:
-            raise ScalesieveError(f"is not a readable NumPy file (its header declares "
-                                  f"{lay.nbytes} bytes of samples, the file holds "
-                                  f"{fh.tell() - offset})", source=source)
-    if lay.frames * lay.width < 2:
-        raise ScalesieveError("holds fewer than two samples", source=source)
+        size = os.fstat(fh.fileno()).st_size
+    # the header's shape and type declare the bytes that follow it (numpy.lib.format)
+    frames, warning = _held(lay, size - offset, "the header", "the file", source)
+    if frames * lay.width < 2:
+        raise ScalesieveError("holds fewer than two samples" + (f" ({warning})" if warning
+                                                                 else ""), source=source)
     names = [f"ch{k}" for k in range(lay.width)]
-    return _source(names, None, lay, lambda: _Mapped(source, offset, lay), "npy", "")
+    src = _source(names, None, lay, lambda: _FileReads(source, offset, lay), "npy", "", frames)
+    if warning:
+        src.warnings.append(warning)
+    return src
 
 
 def _member_array(zf: zipfile.ZipFile, name: str, source: str) -> np.ndarray:
@@ -240,20 +289,29 @@ def _npz(source: str, dataset: str | None) -> Source:
                 fh.seek(start)
                 _header(fh, f"array {name!r}", source)
                 offset = fh.tell()
-            if offset - start + lay.nbytes > info.file_size:
-                raise ScalesieveError(f"array {name!r} declares more samples than it holds",
+                size = os.fstat(fh.fileno()).st_size
+            # what the member's zip entry holds, and no more than the file itself does
+            held_bytes = min(start + info.file_size, size) - offset
+            frames, warning = _held(lay, held_bytes, f"the header of array {name!r}",
+                                    "the archive", source)
+            if frames * lay.width < 2:
+                raise ScalesieveError(f"array {name!r} holds fewer than two samples ({warning})",
                                       source=source)
+        else:
+            frames, warning = lay.frames, None
     if names is None:
         names = [name] if lay.width == 1 else [f"{name}[{k}]" for k in range(lay.width)]
     what = f"array {name!r}"
-    opener = (lambda: _Mapped(source, offset, lay)) if stored else \
+    opener = (lambda: _FileReads(source, offset, lay)) if stored else \
         (lambda: _Inflating(source, info.filename, lay, what))
-    src = _source(names, rate, lay, opener, "npz", name)
+    src = _source(names, rate, lay, opener, "npz", name, frames)
     src.detail["compressed"] = not stored
+    if warning:
+        src.warnings.append(warning)
     return src
 
 
-def _source(names, rate, lay: _Layout, opener, kind: str, member: str) -> Source:
+def _source(names, rate, lay: _Layout, opener, kind: str, member: str, frames: int) -> Source:
     def read(a: int, b: int, cols: list[int]) -> np.ndarray:
         r = opener()
         try:
@@ -262,7 +320,7 @@ def _source(names, rate, lay: _Layout, opener, kind: str, member: str) -> Source
             r.close()
 
     detail = {"dataset": member} if member else {}
-    src = Source(names, [""] * len(names), rate, lay.frames, read, format="NumPy",
+    src = Source(names, [""] * len(names), rate, frames, read, format="NumPy",
                  detail=detail)
     src.session = opener
     return src

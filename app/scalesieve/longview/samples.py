@@ -1,13 +1,17 @@
 """Any stretch of a long recording's samples, read when asked for, as float64.
 
 A WAV holding 16-, 24- or 32-bit integer PCM or 32- or 64-bit float samples
-is read through a memory map of its data chunk (``io.wav_header.data_layout``),
-scaled as libsndfile scales it, so the numbers equal what ``soundfile.read``
-gives; any other file is read with soundfile, seeking to the stretch.  The
-map holds no pages of its own: what was read may be dropped by the system.
+is read straight from its data chunk (``io.wav_header.data_layout``) with plain
+file reads, scaled as libsndfile scales it, so the numbers equal what
+``soundfile.read`` gives; any other file is read with soundfile, seeking to the
+stretch.  No memory map: a mapped file that another program shortens kills the
+process with a bus error at the first page past its new end; each read here
+checks the file's size first and a short read is one clear message.
 """
 
 from __future__ import annotations
+
+import os
 
 import numpy as np
 import soundfile as sf
@@ -24,18 +28,18 @@ class SampleReader:
     path : str
     channel : int, optional
         Only this channel (0-based); default every channel.
-    mapped : bool
-        Use a memory map where the format allows (``False``: soundfile always).
+    direct : bool
+        Read the data chunk straight where the format allows (``False``: soundfile always).
     """
 
-    def __init__(self, path: str, channel: int | None = None, mapped: bool = True):
+    def __init__(self, path: str, channel: int | None = None, direct: bool = True):
         from scalesieve.io.audio_facts import audio_facts
 
         self.path, self.pick = path, channel
         self.rate, self.file_channels, self.frames = audio_facts(path)[:3]
         self.channels = 1 if channel is not None else self.file_channels
-        self.layout = data_layout(path) if mapped else None
-        self._map = None
+        self.layout = data_layout(path) if direct else None
+        self._file = None
         if self.layout is not None and self.layout["channels"] == self.file_channels \
                 and self.layout["frames"] >= self.frames:
             lay = self.layout
@@ -47,25 +51,24 @@ class SampleReader:
             else:
                 dtype = np.dtype(order + lay["kind"])
                 shape = (self.frames, self.file_channels)
-            if self.frames:
-                self._map = np.memmap(path, dtype=dtype, mode="r", offset=lay["offset"],
-                                      shape=shape)
+            self._file = open(path, "rb", buffering=0)
+            self._dtype, self._frame_bytes = dtype, shape[1] * dtype.itemsize
             self._width, self._order = width, order
         else:
             self.layout = None
 
     @property
-    def mapped(self) -> bool:
-        """Whether the samples come from a memory map."""
-        return self._map is not None
+    def direct(self) -> bool:
+        """Whether the samples are read straight from the data chunk (not through soundfile)."""
+        return self._file is not None
 
     def read(self, start: int, stop: int) -> np.ndarray:
         """Frames ``start .. stop`` (clipped to the recording), float64, (m, channels)."""
         start, stop = max(0, int(start)), min(self.frames, int(stop))
         if stop <= start:
             return np.zeros((0, self.channels))
-        if self._map is not None:
-            return self._mapped(start, stop)
+        if self._file is not None:
+            return self._direct(start, stop)
         try:
             with sf.SoundFile(self.path) as f:
                 f.seek(start)
@@ -78,9 +81,30 @@ class SampleReader:
                                   f"says {self.frames} (truncated?)", self.path)
         return x if self.pick is None else x[:, self.pick:self.pick + 1].copy()
 
-    def _mapped(self, start: int, stop: int) -> np.ndarray:
+    def _chunk(self, start: int, stop: int) -> np.ndarray:
+        """The data chunk's bytes of frames ``start .. stop``, the file's size checked first."""
+        first = self.layout["offset"] + start * self._frame_bytes
+        count = (stop - start) * self._frame_bytes
+        raw = np.empty(count // self._dtype.itemsize, dtype=self._dtype)
+        got = 0
+        if os.fstat(self._file.fileno()).st_size >= first + count:
+            view = memoryview(raw).cast("B")
+            self._file.seek(first)
+            while got < count:
+                n = self._file.readinto(view[got:])
+                if not n:
+                    break
+                got += n
+        if got < count:
+            size = os.fstat(self._file.fileno()).st_size
+            raise ScalesieveError(f"the file became shorter while it was read (frames {start} "
+                                  f"to {stop} need its first {first + count} bytes, it now "
+                                  f"holds {size})", self.path)
+        return raw.reshape(stop - start, -1)
+
+    def _direct(self, start: int, stop: int) -> np.ndarray:
         lay = self.layout
-        raw = self._map[start:stop]
+        raw = self._chunk(start, stop)
         if lay["kind"] == "i3":
             b = np.asarray(raw).reshape(stop - start, self.file_channels, 3).astype(np.int32)
             if self._order == "<":
@@ -96,5 +120,7 @@ class SampleReader:
         return x if self.pick is None else x[:, self.pick:self.pick + 1].copy()
 
     def close(self) -> None:
-        """Let the map go (the file may then be replaced or removed)."""
-        self._map = None
+        """Let the file go (it may then be replaced or removed)."""
+        if self._file is not None:
+            self._file.close()
+            self._file = None
