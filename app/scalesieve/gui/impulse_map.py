@@ -26,6 +26,7 @@ from scalesieve.core import packets as wp
 from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.gui.thread_priority import lower_this_thread
+from scalesieve.gui.event_guard import reported
 
 CAUTION = ("Figures support a judgement about a machine; decisions follow the applicable "
            "standards and qualified people.")
@@ -256,6 +257,7 @@ class ImpulseMapPane(QWidget):
         if self.isVisible():
             self.redraw()
 
+    @reported
     def showEvent(self, ev):  # noqa: N802 - Qt API
         super().showEvent(ev)
         # measured once shown: the axes know their fonts and heights only then

@@ -315,11 +315,12 @@ class ScaleMapPane(MapRegions, QFrame):
         top = self.header_column.mapFrom(self, top)
         self.header_column.place(top.y(), r.height() / len(self.keys))
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         QTimer.singleShot(0, self._place_headers)
 
+    @reported
     def showEvent(self, ev):
         super().showEvent(ev)
         QTimer.singleShot(0, self._place_headers)
