@@ -231,7 +231,7 @@ class LongWindow(QMainWindow):
             self.pending_edits = None
             self.sessions.put_back(recipe, path, kept)
             self.worker.hold_saves = False
-            self.worker.save_soon()
+            self.worker.save_soon(self.edits())     # not the recording's: it has them later
 
     def _draw_overview(self) -> None:
         lr = self.lr
