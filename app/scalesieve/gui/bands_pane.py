@@ -12,7 +12,7 @@ import html
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtCore import QSize, Qt, QTimer, Signal
 from PySide6.QtWidgets import (QComboBox, QFrame, QHBoxLayout, QLabel, QScrollArea,
                                QStyle, QToolButton, QVBoxLayout, QWidget)
 
@@ -313,6 +313,7 @@ class BandsPane(QFrame):
         adapter.figuresKnown.connect(lambda channel: self._sync_controls())
         adapter.busyChanged.connect(lambda busy: self.setEnabled(not busy))
 
+    @reported(fallback=QSize(), once=True)   # an invalid size: no hint
     def sizeHint(self):
         hint = super().sizeHint()
         hint.setHeight(ROW_HEIGHT * 12 + AXIS_HEIGHT + 32)
@@ -454,7 +455,7 @@ class BandsPane(QFrame):
             except (AttributeError, RuntimeError):
                 pass
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self._fit_rows()
@@ -503,6 +504,7 @@ class BandsPane(QFrame):
             if key in self.rows:
                 self.rows[key].draw(m, pic, self.channel, mode, self.axis.t0, self.axis.t1)
 
+    @reported
     def showEvent(self, ev):
         super().showEvent(ev)
         self._schedule()

@@ -6,6 +6,8 @@ from PySide6.QtCore import Qt
 from PySide6.QtGui import QPainter
 from PySide6.QtWidgets import QLabel, QSizePolicy
 
+from scalesieve.gui.event_guard import reported
+
 
 class ElidedLabel(QLabel):
     """Plain text on one line; when narrower than the text, it ends in "…" and the
@@ -25,6 +27,7 @@ class ElidedLabel(QLabel):
         room = self.contentsRect().width()
         return self.fontMetrics().elidedText(self.text(), Qt.TextElideMode.ElideRight, room)
 
+    @reported(once=True)
     def paintEvent(self, ev):  # noqa: N802 - Qt API
         p = QPainter(self)
         p.setPen(self.palette().color(self.foregroundRole()))

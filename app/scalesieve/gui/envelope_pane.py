@@ -28,6 +28,7 @@ from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, keep_lines
 from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.io.atomic import atomic_write
+from scalesieve.gui.event_guard import reported
 
 #: marker colours per line family (our own; readable on the light plot background)
 LINE_COLOURS = {"ftf": "#7a5195", "bpfo": "#d1495b", "bpfi": "#00798c", "bsf": "#c98a12"}
@@ -130,6 +131,7 @@ class EnvelopePane(QWidget):
         self.shaft.setValue(shaft_hz)
         self.redraw(force=True)
 
+    @reported
     def showEvent(self, ev):  # noqa: N802 - Qt API
         super().showEvent(ev)
         # measured once shown: the axes know their fonts and heights only then

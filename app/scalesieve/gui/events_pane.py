@@ -119,12 +119,15 @@ class EventTable(QAbstractTableModel):
         self.events = list(events)
         self.endResetModel()
 
+    @reported(fallback=0, once=True)
     def rowCount(self, parent=QModelIndex()) -> int:  # noqa: N802 - Qt API
         return 0 if parent.isValid() else len(self.events)
 
+    @reported(fallback=0, once=True)
     def columnCount(self, parent=QModelIndex()) -> int:  # noqa: N802 - Qt API
         return 0 if parent.isValid() else len(COLUMNS)
 
+    @reported(once=True)
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
         if not index.isValid():
             return None
@@ -149,6 +152,7 @@ class EventTable(QAbstractTableModel):
                     f"peak {e.peak:.4g}")
         return None
 
+    @reported(once=True)
     def headerData(self, section, orientation, role=Qt.ItemDataRole.DisplayRole):  # noqa: N802
         if orientation != Qt.Orientation.Horizontal:
             return None
@@ -176,6 +180,7 @@ class _ChannelFilter(QSortFilterProxyModel):
             self.channel = channel
             self.invalidateFilter()
 
+    @reported(fallback=True, once=True)
     def filterAcceptsRow(self, row, parent) -> bool:  # noqa: N802 - Qt API
         if self.channel is None:
             return True
@@ -242,7 +247,7 @@ class _FittingTable(QTableView):
         self._pane = pane
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAsNeeded)
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):  # noqa: N802 - Qt API
         super().resizeEvent(ev)
         if ev.size().width() != ev.oldSize().width():

@@ -26,6 +26,8 @@ from scalesieve.core import packets as wp
 from scalesieve.gui import shared_kurtosis
 from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.gui.thread_priority import lower_this_thread
+from scalesieve.gui.event_guard import reported
+from scalesieve.gui.thread_results import post
 
 CAUTION = ("Figures support a judgement about a machine; decisions follow the applicable "
            "standards and qualified people.")
@@ -64,7 +66,6 @@ class BackgroundRun(QObject):
     """
 
     finished = Signal(object, object, object)
-    _done = Signal(int, object, object, object)      # token, key, result, problem
 
     def __init__(self, name: str, parent=None):
         super().__init__(parent)
@@ -72,7 +73,6 @@ class BackgroundRun(QObject):
         self._token = 0
         self._running: int | None = None
         self._pending: tuple | None = None
-        self._done.connect(self._on_done, Qt.ConnectionType.QueuedConnection)
 
     @property
     def busy(self) -> bool:
@@ -110,10 +110,8 @@ class BackgroundRun(QObject):
             problem = "not enough memory for this on the whole recording"
         except Exception as exc:  # a bug: the pane says so in one line, the window goes on
             problem = f"{self.name} failed: {type(exc).__name__}: {exc}"
-        try:
-            self._done.emit(token, key, result, problem)
-        except RuntimeError:               # the window closed meanwhile
-            pass
+        # not a signal of this object, which the window may be deleting meanwhile
+        post(self._on_done, token, key, result, problem)
 
     def _on_done(self, token: int, key, result, problem) -> None:
         self._running = None
@@ -256,6 +254,7 @@ class ImpulseMapPane(QWidget):
         if self.isVisible():
             self.redraw()
 
+    @reported
     def showEvent(self, ev):  # noqa: N802 - Qt API
         super().showEvent(ev)
         # measured once shown: the axes know their fonts and heights only then

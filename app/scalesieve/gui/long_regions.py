@@ -29,6 +29,7 @@ from scalesieve.gui.row_headers import GAIN_MAX_DB, GAIN_MIN_DB, MUTE_TEXT
 from scalesieve.recipe import Edit
 from scalesieve.views.band_labels import db_to_gain, gain_to_db
 from scalesieve.views.long_picture import rows_of, snap_to_tiles
+from scalesieve.gui.event_guard import reported
 
 #: a drag narrower than this many pixels is a click, not a region
 LEAST_PX = 3
@@ -273,6 +274,7 @@ class LongRegions(QObject):
             menu.addAction(a)
         menu.popup(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
 
+    @reported(fallback=False, once=True)
     def eventFilter(self, obj, ev):  # noqa: N802 - Qt API
         from PySide6.QtCore import QEvent
 

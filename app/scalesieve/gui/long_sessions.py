@@ -59,7 +59,7 @@ class LongSessions(QObject):
             # restored before the recording is open: held until the edits are in place
             if w.pending_edits is None:
                 w.worker.hold_saves = False
-                w.worker.save_soon()
+                w.worker.save_soon(w.edits())
 
     def put_back(self, recipe, path: str | None, kept_file: str | None = None) -> tuple:
         """Put saved edits in place: those that fit; say which do not, and why (the pending

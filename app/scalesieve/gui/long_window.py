@@ -28,6 +28,7 @@ from scalesieve.gui.long_sessions import LongSessions
 from scalesieve.gui.long_worker import LongWorker
 from scalesieve.recipe import Edit
 from scalesieve.views.long_picture import EXACT_MOST, rows_of
+from scalesieve.gui.event_guard import reported
 
 #: width of every pane's gutter, so that the time axes line up
 GUTTER = 400
@@ -230,7 +231,7 @@ class LongWindow(QMainWindow):
             self.pending_edits = None
             self.sessions.put_back(recipe, path, kept)
             self.worker.hold_saves = False
-            self.worker.save_soon()
+            self.worker.save_soon(self.edits())     # not the recording's: it has them later
 
     def _draw_overview(self) -> None:
         lr = self.lr
@@ -408,6 +409,7 @@ class LongWindow(QMainWindow):
                 raise ScalesieveError("could not write the PNG", path)
         atomic_write(path, write, force=force)
 
+    @reported
     def closeEvent(self, ev) -> None:
         if self.worker._exporting and not QApplication.instance().property(
                 "scalesieve_quiet_errors"):

@@ -126,20 +126,22 @@ class LongWorker(QObject):
             self.hold_saves = True
             self.restore_found.emit(info)
 
-    def save_soon(self) -> None:
-        """Save the edits now in place (after a restore prompt's answer)."""
+    def save_soon(self, edits=None) -> None:
+        """Save the edits now in place (after a restore prompt's answer): ``edits``, the
+        window's, which the recording itself takes only when the next view is drawn."""
         if self.recording is not None:
-            self._save_session(self.recording)
+            self._save_session(self.recording, edits)
 
-    def _save_session(self, lr) -> None:
+    def _save_session(self, lr, edits=None) -> None:
         from scalesieve import autosave
         from scalesieve.errors import ScalesieveError
         from scalesieve.recipe import Recipe
 
         if not self.keep_sessions or self.hold_saves:
             return
+        edits = lr.edits if edits is None else tuple(edits)
         try:
-            autosave.save_session(lr.path, Recipe(transform=lr.spec, edits=lr.edits).to_json(),
+            autosave.save_session(lr.path, Recipe(transform=lr.spec, edits=edits).to_json(),
                                   {"long_recording": True})
         except ScalesieveError as exc:
             self.notice.emit(f"edits not kept: {exc.one_line()}")

@@ -321,13 +321,16 @@ class MainWindow(RecipeFiles, QMainWindow):
         if isinstance(st, (QByteArray, bytes)):
             self.restoreState(st)
 
+    @reported
     def closeEvent(self, ev):
-        self.settings.setValue("window/geometry", self.saveGeometry())
-        self.settings.setValue("window/state", self.saveState())
-        self.settings.sync()
-        self._player.stop()
-        self.adapter.shutdown()
-        super().closeEvent(ev)
+        try:
+            self.settings.setValue("window/geometry", self.saveGeometry())
+            self.settings.setValue("window/state", self.saveState())
+            self.settings.sync()
+        finally:   # whatever failed above, the workers stop
+            self._player.stop()
+            self.adapter.shutdown()
+            super().closeEvent(ev)
 
     # ------------------------------------------------------------ the model
 
@@ -380,7 +383,7 @@ class MainWindow(RecipeFiles, QMainWindow):
         if h is not None:
             h.set_lane_open(on)
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         if hasattr(self, "toolbars"):
@@ -487,6 +490,7 @@ class MainWindow(RecipeFiles, QMainWindow):
             a.triggered.connect(lambda _=False, q=p: self.open_path(q))
         self.recent_menu.setEnabled(bool(items))
 
+    @reported
     def dragEnterEvent(self, ev):
         urls = ev.mimeData().urls() if ev.mimeData().hasUrls() else []
         if urls and urls[0].isLocalFile():
@@ -497,6 +501,7 @@ class MainWindow(RecipeFiles, QMainWindow):
                 return
         ev.ignore()
 
+    @reported
     def dropEvent(self, ev):
         path = ev.mimeData().urls()[0].toLocalFile()
         ev.acceptProposedAction()

@@ -23,6 +23,7 @@ from scalesieve.gui.resource_files import colour
 from scalesieve.gui.row_headers import GAIN_MIN_DB
 from scalesieve.recipe import Edit
 from scalesieve.views.band_labels import db_to_gain, gain_to_db
+from scalesieve.gui.event_guard import reported
 
 
 class MapViewBox(TimeViewBox):
@@ -43,6 +44,7 @@ class MapViewBox(TimeViewBox):
         self._band.hide()
         self.addItem(self._band, ignoreBounds=True)
 
+    @reported(once=True)
     def mouseDragEvent(self, ev, axis=None):
         shift = bool(ev.modifiers() & Qt.KeyboardModifier.ShiftModifier)
         if ev.button() != Qt.MouseButton.LeftButton or shift or not self.drawing:
@@ -59,11 +61,13 @@ class MapViewBox(TimeViewBox):
             self._band.setRect(rect)
             self._band.show()
 
+    @reported
     def mouseClickEvent(self, ev):
         p = self.mapToView(ev.pos())
         ev.accept()
         self.clicked.emit(p.x(), p.y(), ev.button())
 
+    @reported(once=True)
     def hoverEvent(self, ev):
         if ev.isExit():
             self.hovered.emit(math.nan, math.nan)
@@ -280,6 +284,7 @@ class MapRegions:
             self.adapter.remove_edit(index)
             self.regionSelected.emit(-1)
 
+    @reported
     def keyPressEvent(self, ev):
         if ev.key() in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace) and self.selected >= 0:
             self.remove_selected()

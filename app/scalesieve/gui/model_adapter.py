@@ -28,6 +28,7 @@ from scalesieve.core.recording import Recording
 from scalesieve.core import transforms as tf
 from scalesieve.core.transforms import TransformSpec
 from scalesieve.errors import ScalesieveError
+from scalesieve.gui.worker_stop import WorkerStop
 from scalesieve.views.band_envelopes import FIGURES, EnvelopeThread, coefficient_list
 from scalesieve.views.display_data import ChannelPictures, Superseded
 from scalesieve.views.thread_priority import lower_this_thread
@@ -229,13 +230,15 @@ class ModelAdapter(QObject):
         self.this_channel_only = False
         self._thread = QThread()
         self._thread.setObjectName("scalesieve-worker")
-        self._worker = _Worker(lambda token: token < self._cancel_below)
+        stop = self._stop = WorkerStop(self._thread)
+        self._worker = _Worker(lambda token: token < self._cancel_below or stop.stopped)
         self._worker.moveToThread(self._thread)
         self._submit.connect(self._worker.run)
         self._worker.finished.connect(self._on_finished)
         self._worker.progress.connect(self._on_progress)
         self._worker.built.connect(self._on_built)
         self._thread.start()
+        stop.watch(self)     # a window that goes away unclosed stops it too (worker_stop.py)
         self._bands_thread: EnvelopeThread | None = None
         self._bands_generation = 0
         #: bands whose envelopes the panes draw (open lanes): only these are made
@@ -464,6 +467,7 @@ class ModelAdapter(QObject):
         self._bands_thread = EnvelopeThread(
             jobs, lambda ch, key, env: self._envelope.emit(gen, ch, key, env),
             lambda problem: self._envelopes_done.emit(gen, problem))
+        self._stop.bands = self._bands_thread
         self._bands_thread.start()
 
     def _stop_bands(self) -> None:
@@ -540,13 +544,12 @@ class ModelAdapter(QObject):
         return self.last_failure
 
     def shutdown(self) -> None:
-        """Stop the worker thread (the window is closing)."""
+        """Stop the worker threads and wait for them (the window is closing)."""
         self._coalesce.stop()
         self._stop_bands()
         self._token += 1
         self._cancel_below = self._token
-        self._thread.quit()
-        self._thread.wait(10000)
+        self._stop.stop(10000)
 
     # ---------------------------------------------------------------- edits
 

@@ -25,11 +25,13 @@ class _OverviewBox(pg.ViewBox):
         self.setMouseEnabled(x=False, y=False)
         self.setMenuEnabled(False)
 
+    @reported
     def mouseClickEvent(self, ev):
         if ev.button() == Qt.MouseButton.LeftButton:
             ev.accept()
             self.strip.centre_on(self.mapToView(ev.pos()).x())
 
+    @reported(once=True)
     def wheelEvent(self, ev, axis=None):
         ev.accept()
         self.strip.axis.zoom(0.8 if ev.delta() > 0 else 1.25)
@@ -105,7 +107,7 @@ class OverviewStrip(PaneFrame):
         self.region.setBounds((0, dur))
         self._axis_moved(self.axis.t0, self.axis.t1)
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self.redraw()

@@ -115,6 +115,7 @@ def parse_db(text: str) -> float:
 class _Delegate(QStyledItemDelegate):
     """Choice lists for rule, shape and noise; plain text for the rest."""
 
+    @reported
     def createEditor(self, parent, option, index):
         name = index.siblingAtColumn(0).data(FIELD_ROLE)
         if name in CHOICES:
@@ -123,6 +124,7 @@ class _Delegate(QStyledItemDelegate):
             return box
         return super().createEditor(parent, option, index)
 
+    @reported
     def setEditorData(self, editor, index):
         if isinstance(editor, QComboBox):
             editor.setCurrentText(index.data())
@@ -132,6 +134,7 @@ class _Delegate(QStyledItemDelegate):
         if name == "gain" and hasattr(editor, "setText"):
             editor.setText(str(index.data()).replace(" dB", ""))
 
+    @reported
     def setModelData(self, editor, model, index):
         if isinstance(editor, QComboBox):
             model.setData(index, editor.currentText())
@@ -278,7 +281,7 @@ class RecipePane(QWidget):
         chars = max(16, int(width / (1.3 * max(1, self.tree.fontMetrics().averageCharWidth()))))
         return "\n".join(textwrap.wrap(text, chars)) or text
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         if self.adapter.edits:
@@ -362,6 +365,7 @@ class RecipePane(QWidget):
         if i >= 0:
             self.adapter.remove_edit(i)
 
+    @reported
     def keyPressEvent(self, ev):
         if ev.key() == Qt.Key.Key_Delete and self.selected_index() >= 0 \
                 and self.tree.state() != QAbstractItemView.State.EditingState:

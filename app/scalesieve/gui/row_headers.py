@@ -59,6 +59,7 @@ class ShareBar(QWidget):
     def text(self) -> str:
         return percent_text(self.share)
 
+    @reported(once=True)
     def paintEvent(self, ev):
         p = QPainter(self)
         h = min(self.height() - 2, 14)
@@ -111,6 +112,7 @@ class GainField(QDoubleSpinBox):
             self.setStyleSheet(sheet)
         self.setFixedHeight(max(1, h - 1 if compact else min(h, self.sizeHint().height())))
 
+    @reported(once=True)
     def wheelEvent(self, ev):  # noqa: N802 - Qt API
         if not self.hasFocus():
             ev.ignore()
@@ -251,12 +253,13 @@ class RowHeader(QWidget):
     #: row's field follows the column's, so all rows look alike), None: the own height
     row_height: float | None = None
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         h = self.height() if self.row_height is None else int(self.row_height)
         self.gain.fit_height(min(h, self.height()))
 
+    @reported
     def mousePressEvent(self, ev):
         if ev.button() == Qt.MouseButton.LeftButton:
             self.clicked.emit(self.key, ev.modifiers())
@@ -318,7 +321,7 @@ class RowHeaderColumn(QWidget):
             head.gain.fit_height(min(int(row_height), head.height()))
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)

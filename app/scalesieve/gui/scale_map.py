@@ -37,6 +37,7 @@ from scalesieve.gui.threshold_form import RULE_TIPS, ThresholdForm
 from scalesieve.gui.transform_line import TransformLine
 from scalesieve.recipe import Edit
 from scalesieve.gui.event_guard import reported
+from scalesieve.gui.thread_results import post
 
 #: shown dynamic range in dB below the reference magnitude
 DB_RANGE = 60.0
@@ -76,7 +77,6 @@ class ScaleMapPane(MapRegions, QFrame):
     laneToggled = Signal(object, bool)     # band key, open
     rowsSelected = Signal(object)           # band keys
     figuresKnown = Signal(object)
-    _tableReady = Signal(object, object, object)     # tag, band keys, rows (from a thread)           # band key -> the model's band_table row
 
     def __init__(self, adapter, time_axis, settings=None, parent=None):
         super().__init__(parent)
@@ -92,7 +92,7 @@ class ScaleMapPane(MapRegions, QFrame):
         self.keys: list = []
         self.selected_rows: list = []
         self._anchor = None
-        self._table: dict = {}
+        self._table: dict = {}           # band key -> the model's band_table row
         self._table_for = None
         self._table_job = None
         self._orig_rows: dict = {}
@@ -186,7 +186,6 @@ class ScaleMapPane(MapRegions, QFrame):
         self._table_timer.setSingleShot(True)
         self._table_timer.setInterval(0)
         self._table_timer.timeout.connect(self._read_table)
-        self._tableReady.connect(self._table_ready, Qt.ConnectionType.QueuedConnection)
         adapter.add_pending_check(self.table_pending)
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
@@ -315,11 +314,12 @@ class ScaleMapPane(MapRegions, QFrame):
         top = self.header_column.mapFrom(self, top)
         self.header_column.place(top.y(), r.height() / len(self.keys))
 
-    @reported
+    @reported(once=True)
     def resizeEvent(self, ev):
         super().resizeEvent(ev)
         QTimer.singleShot(0, self._place_headers)
 
+    @reported
     def showEvent(self, ev):
         super().showEvent(ev)
         QTimer.singleShot(0, self._place_headers)
@@ -349,7 +349,7 @@ class ScaleMapPane(MapRegions, QFrame):
                 rows = m.band_table(channel)
             except Exception:  # the model changed under it: the next model asks again
                 rows = None
-            self._tableReady.emit(tag, list(m.band_keys), rows)
+            post(self._table_ready, tag, list(m.band_keys), rows)   # gui/thread_results.py
 
         threading.Thread(target=work, name="scalesieve-band-table", daemon=True).start()
 

@@ -23,6 +23,7 @@ from PySide6.QtCore import QEvent, QObject, QTimer
 from scalesieve import autosave
 from scalesieve.errors import ScalesieveError
 from scalesieve.recipe import check_against
+from scalesieve.gui.event_guard import reported
 
 #: a change of view alone is saved this long after it settles
 SAVE_DELAY_MS = 250
@@ -95,6 +96,7 @@ class SessionKeeper(QObject):
         src = getattr(rec, "source", "") if rec is not None else ""
         return src if src and os.path.isfile(src) else None
 
+    @reported(fallback=False, once=True)
     def eventFilter(self, obj, event):  # noqa: N802 - Qt API
         if obj is self.window and event.type() == QEvent.Type.Close:
             self.finish()
