@@ -84,23 +84,10 @@ class _FileReads:
         self.path, self.offset, self.lay = path, offset, lay
         self.fh = open(path, "rb", buffering=0)
 
-    def _bytes(self, start: int, count: int, into: np.ndarray, frames: tuple) -> None:
-        need = self.offset + start + count
-        size = os.fstat(self.fh.fileno()).st_size
-        got = 0
-        if size >= need:
-            view = memoryview(into).cast("B")
-            self.fh.seek(self.offset + start)
-            while got < count:
-                n = self.fh.readinto(view[got:])
-                if not n:
-                    break
-                got += n
-        if got < count:
-            size = os.fstat(self.fh.fileno()).st_size
-            raise ScalesieveError(f"the file became shorter while it was read (frames "
-                                  f"{frames[0]} to {frames[1]} need its first {need} bytes, "
-                                  f"it now holds {size})", source=self.path)
+    def _bytes(self, start: int, into: np.ndarray, frames: tuple) -> None:
+        from scalesieve.io.exact_reads import read_range
+
+        read_range(self.fh, self.offset + start, into, frames, self.path)
 
     def read(self, a: int, b: int, cols: list[int]) -> np.ndarray:
         lay = self.lay
@@ -110,12 +97,12 @@ class _FileReads:
         size = lay.dtype.itemsize
         if lay.frame_major:
             rows = np.empty((b - a, lay.width), dtype=lay.dtype)
-            self._bytes(a * lay.width * size, rows.nbytes, rows, (a, b))
+            self._bytes(a * lay.width * size, rows, (a, b))
             out[:] = rows[:, cols]
         else:
             lane = np.empty(b - a, dtype=lay.dtype)
             for j, k in enumerate(cols):
-                self._bytes((k * lay.frames + a) * size, lane.nbytes, lane, (a, b))
+                self._bytes((k * lay.frames + a) * size, lane, (a, b))
                 out[:, j] = lane
         return out
 

@@ -11,12 +11,12 @@ checks the file's size first and a short read is one clear message.
 
 from __future__ import annotations
 
-import os
 
 import numpy as np
 import soundfile as sf
 
 from scalesieve.errors import ScalesieveError
+from scalesieve.io.exact_reads import read_range
 from scalesieve.io.wav_header import data_layout
 
 
@@ -86,20 +86,7 @@ class SampleReader:
         first = self.layout["offset"] + start * self._frame_bytes
         count = (stop - start) * self._frame_bytes
         raw = np.empty(count // self._dtype.itemsize, dtype=self._dtype)
-        got = 0
-        if os.fstat(self._file.fileno()).st_size >= first + count:
-            view = memoryview(raw).cast("B")
-            self._file.seek(first)
-            while got < count:
-                n = self._file.readinto(view[got:])
-                if not n:
-                    break
-                got += n
-        if got < count:
-            size = os.fstat(self._file.fileno()).st_size
-            raise ScalesieveError(f"the file became shorter while it was read (frames {start} "
-                                  f"to {stop} need its first {first + count} bytes, it now "
-                                  f"holds {size})", self.path)
+        read_range(self._file, first, raw, (start, stop), self.path)
         return raw.reshape(stop - start, -1)
 
     def _direct(self, start: int, stop: int) -> np.ndarray:
