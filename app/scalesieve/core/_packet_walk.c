@@ -166,12 +166,10 @@ static int unit_sums(const double *rows, Py_ssize_t nodes, Py_ssize_t w, Py_ssiz
     return 0;
 }
 
-static int get(PyObject *obj, Py_buffer *view, int writable, const char *what)
+/* a C-contiguous buffer of obj (writable if asked); -1 with Python's error set */
+static int get(PyObject *obj, Py_buffer *view, int writable)
 {
-    if (PyObject_GetBuffer(obj, view, PyBUF_C_CONTIGUOUS | (writable ? PyBUF_WRITABLE : 0)) < 0)
-        return -1;
-    (void)what;
-    return 0;
+    return PyObject_GetBuffer(obj, view, PyBUF_C_CONTIGUOUS | (writable ? PyBUF_WRITABLE : 0));
 }
 
 #define REQUIRE(cond, msg)                               \
@@ -205,10 +203,10 @@ static PyObject *walk(PyObject *self, PyObject *args)
     if (!PyArg_ParseTuple(args, "OOOOiOOOOO", &ox, &olo, &ohi, &ogeom, &depth, &ounits, &ouoff,
                           &oout, &obase, &owork))
         return NULL;
-    if (get(ox, &x, 0, "x") || get(olo, &lo, 0, "lo") || get(ohi, &hi, 0, "hi") ||
-        get(ogeom, &geom, 0, "geom") || get(ounits, &units, 0, "units") ||
-        get(ouoff, &uoff, 0, "unit_off") || get(oout, &out, 1, "out") ||
-        get(obase, &base, 0, "out_base") || get(owork, &work, 1, "work"))
+    if (get(ox, &x, 0) || get(olo, &lo, 0) || get(ohi, &hi, 0) ||
+        get(ogeom, &geom, 0) || get(ounits, &units, 0) ||
+        get(ouoff, &uoff, 0) || get(oout, &out, 1) ||
+        get(obase, &base, 0) || get(owork, &work, 1))
         goto done;
     {
         const Py_ssize_t n = x.len / 8, F = lo.len / 8, nu = units.len / 8;
@@ -283,8 +281,8 @@ static PyObject *sums(PyObject *self, PyObject *args)
     (void)self;
     if (!PyArg_ParseTuple(args, "OnnnnOO", &orows, &nodes, &c0, &olo, &ohi, &ounits, &oout))
         return NULL;
-    if (get(orows, &rows, 0, "rows") || get(ounits, &units, 0, "units") ||
-        get(oout, &out, 1, "out"))
+    if (get(orows, &rows, 0) || get(ounits, &units, 0) ||
+        get(oout, &out, 1))
         goto done;
     {
         const Py_ssize_t total = rows.len / 8, count = units.len / 8 - 1;

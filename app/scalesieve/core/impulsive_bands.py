@@ -160,19 +160,16 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
 
     n = x.shape[0]
     workers = th.count(threads) if n >= THREADS_FROM else 1
+    edges = band_choice.dwt_edges(n, w.dec_len, depth)
     if packet_walk.usable(n, w, mode, depth):
-        return _walked_table(x, rate, w, mode, depth, keep_best, check, workers,
-                             band_choice.dwt_edges(n, w.dec_len, depth))
+        return _walked_table(x, rate, w, mode, depth, keep_best, check, workers, edges)
     pieces = 1
     if workers > 1 and pm.splittable(w, mode):
         deepest = pywt.dwt_coeff_len(n, w.dec_len, mode) >> (depth - 1)
         pieces = max(1, min(PIECES_PER_THREAD * workers, deepest // PIECE_FROM))
     plan = pm.Plan(n, w, mode, depth, pieces)
-    edges = band_choice.dwt_edges(n, w.dec_len, depth)
     levels = []
-    best = None
-    best_ref = None
-    fallback = None   # no band long enough for its interior: the largest kurtosis of all
+    choice = _Choice()
     # each piece's stretch of every node of the current depth
     stretches = [{"": x[lo:hi]} for lo, hi in plan.need[0]]
     pool = ThreadPoolExecutor(max_workers=workers) if workers > 1 else None
@@ -189,11 +186,7 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
         return piece, pm.advance(plan, piece, j, group, w, mode, segments, buffer())
 
     def layout(j):
-        m = plan.lengths[j]
-        left, right = edges[j - 1]
-        short = m - right - left < max(4, band_choice.MIN_INTERIOR)
-        return ([] if m < 4 else [(0, m)] if short else [(left, m - right), (0, left),
-                                                          (m - right, m)]), short
+        return _segments(plan.lengths[j], *edges[j - 1])
 
     def start(j, stretches):
         """Depth j's work: each piece's parents, in groups when pieces are fewer than
@@ -228,23 +221,14 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
                 mine = [part[path] for part in stretches]
                 sums = [part[path][1] for part in made]
                 k, inner = _node_kurtosis(plan, j, mine, sums, segments, short, buf)
-                lo, hi = wp.range_hz(path, rate)
-                rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo,
-                             "high_hz": hi, "kurtosis": k, "interior_kurtosis": inner,
-                             "path": path})
-                if inner is not None and (best is None or inner > best["interior_kurtosis"]):
-                    best = dict(rows[-1], level=j)
-                    best_ref = (j, mine) if keep_best else None
-                elif best is None and k is not None and (
-                        fallback is None or k > fallback[0]["kurtosis"]):
-                    fallback = (dict(rows[-1], level=j), (j, mine) if keep_best else None)
+                rows.append(_row(j, path, rate, k, inner))
+                choice.offer(rows[-1], j, (j, mine) if keep_best else None)
             levels.append({"level": j, "bands": rows})
             del made, stretches
     finally:
         if pool:
             pool.shutdown(cancel_futures=True)
-    if best is None and fallback is not None:
-        best, best_ref = fallback
+    best, best_ref = choice.result()
     out = {"levels": levels, "best": best}
     if keep_best:
         out["best_coefficients"] = None if best_ref is None else pm.join(
@@ -255,17 +239,10 @@ def table(x: np.ndarray, rate: float, wavelet: str = "db4", mode: str = "symmetr
 def _walked_table(x: np.ndarray, rate: float, w, mode: str, depth: int, keep_best: bool,
                   check, workers: int, edges: list) -> dict:
     """:func:`table` from ``packet_walk.node_sums`` (the same rows and choice of best)."""
-    from scalesieve.core import band_choice
-
     lengths = [x.shape[0]]
     for _ in range(depth):
         lengths.append(pywt.dwt_coeff_len(lengths[-1], w.dec_len, mode))
-    layouts = []
-    for j in range(1, depth + 1):
-        m, (left, right) = lengths[j], edges[j - 1]
-        short = m - right - left < max(4, band_choice.MIN_INTERIOR)
-        layouts.append(([] if m < 4 else [(0, m)] if short else
-                        [(left, m - right), (0, left), (m - right, m)], short))
+    layouts = [_segments(lengths[j], *edges[j - 1]) for j in range(1, depth + 1)]
     sums = packet_walk.node_sums(x, w, mode, depth, [seg for seg, _ in layouts], workers, check)
     cache: dict[str, np.ndarray] = {"": x}
 
@@ -274,7 +251,7 @@ def _walked_table(x: np.ndarray, rate: float, w, mode: str, depth: int, keep_bes
             cache[path] = packet_walk.node_data(data(path[:-1]), w, mode, path[-1])
         return cache[path]
 
-    levels, best, fallback = [], None, None
+    levels, choice = [], _Choice()
     for j in range(1, depth + 1):
         segments, short = layouts[j - 1]
         m = lengths[j]
@@ -282,26 +259,12 @@ def _walked_table(x: np.ndarray, rate: float, w, mode: str, depth: int, keep_bes
         rows = []
         for r in sorted(range(1 << j), key=lambda r: wp.freq_index(paths[r])):
             path = paths[r]
-            k = inner = None
-            if segments and short:
-                k = _kurtosis_of(m, sums[j - 1][r, 0], lambda: data(path), None)
-            elif segments:
-                (left, stop), seg = segments[0], sums[j - 1][r]
-                k = _kurtosis_of(m, seg[0] + seg[1] + seg[2], lambda: data(path), None)
-                if k is not None:
-                    inner = _kurtosis_of(stop - left, seg[0],
-                                         lambda: data(path)[left:stop], None)
-            lo, hi = wp.range_hz(path, rate)
-            rows.append({"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo, "high_hz": hi,
-                         "kurtosis": k, "interior_kurtosis": inner, "path": path})
-            if inner is not None and (best is None or inner > best["interior_kurtosis"]):
-                best = dict(rows[-1], level=j)
-            elif best is None and k is not None and (
-                    fallback is None or k > fallback["kurtosis"]):
-                fallback = dict(rows[-1], level=j)
+            k, inner = _pair_from_sums(m, sums[j - 1][r], segments, short,
+                                       lambda: data(path))
+            rows.append(_row(j, path, rate, k, inner))
+            choice.offer(rows[-1], j)
         levels.append({"level": j, "bands": rows})
-    if best is None:
-        best = fallback
+    best = choice.result()[0]
     out = {"levels": levels, "best": best}
     if keep_best:
         out["best_coefficients"] = None if best is None else data(best["path"])
@@ -324,13 +287,62 @@ def _node_kurtosis(plan, j: int, stretches: list, sums: list, segments: list, sh
 
     seg = [pm.segment_sums(plan, j, segment, s, stretches, sums, buf)
            for s, segment in enumerate(segments)]
+    return _pair_from_sums(n, seg, segments, short, data)
+
+
+def _segments(m: int, left: int, right: int) -> tuple[list[tuple[int, int]], bool]:
+    """(segments, short) of a node of m coefficients, ``left`` and ``right`` of them
+    touched by the extension: the interior and the two edges, or the whole node when the
+    interior is too short to judge (``short``), or none under 4 coefficients."""
+    from scalesieve.core import band_choice
+
+    short = m - right - left < max(4, band_choice.MIN_INTERIOR)
+    return ([] if m < 4 else [(0, m)] if short else
+            [(left, m - right), (0, left), (m - right, m)]), short
+
+
+def _pair_from_sums(m: int, seg, segments: list, short: bool,
+                    data) -> tuple[float | None, float | None]:
+    """(kurtosis, interior kurtosis) of a node of m coefficients from its segments' raw
+    sums ``seg`` (as :func:`_segments` lays them out); ``data()`` gives the node's values
+    for a second pass."""
+    if not segments:
+        return None, None
     if short:
-        return _kurtosis_of(n, seg[0], data, None), None
+        return _kurtosis_of(m, seg[0], data, None), None
     (left, stop), inside = segments[0], seg[0]
-    k = _kurtosis_of(n, inside + seg[1] + seg[2], data, None)
+    k = _kurtosis_of(m, inside + seg[1] + seg[2], data, None)
     if k is None:
         return None, None
     return k, _kurtosis_of(stop - left, inside, lambda: data()[left:stop], None)
+
+
+def _row(j: int, path: str, rate: float, k, inner) -> dict:
+    lo, hi = wp.range_hz(path, rate)
+    return {"name": f"w{j}.{wp.freq_index(path)}", "low_hz": lo, "high_hz": hi,
+            "kurtosis": k, "interior_kurtosis": inner, "path": path}
+
+
+class _Choice:
+    """The most impulsive band as rows come: the largest interior kurtosis, else (no band
+    long enough for its interior) the largest kurtosis of all; ties to the first offered."""
+
+    def __init__(self):
+        self.best = self.best_ref = self.fallback = None
+
+    def offer(self, row: dict, j: int, ref=None) -> None:
+        inner, k = row["interior_kurtosis"], row["kurtosis"]
+        if inner is not None and (self.best is None or inner > self.best["interior_kurtosis"]):
+            self.best, self.best_ref = dict(row, level=j), ref
+        elif self.best is None and k is not None and (
+                self.fallback is None or k > self.fallback[0]["kurtosis"]):
+            self.fallback = (dict(row, level=j), ref)
+
+    def result(self) -> tuple[dict | None, object]:
+        """(best row, its ref)."""
+        if self.best is None and self.fallback is not None:
+            return self.fallback
+        return self.best, self.best_ref
 
 
 def _dwt_halves(x: np.ndarray, w, mode: str, pool):

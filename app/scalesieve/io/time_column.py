@@ -214,12 +214,7 @@ def analyse_steps(t: np.ndarray, line_of, source: str, *, origin: datetime | Non
             raise clock_jump(t[i - 1], t[i], typical, line_of(i), source, origin)
         step = regular_step(float(t[0]), float(t[-1]), steps[jumps], regular.size)
         gaps = [(int(j) + 1, int(round(steps[j] / step)) - 1) for j in jumps]
-        added = sum(m for _, m in gaps)
-        if added > MOST_FILLED:
-            raise ScalesieveError(
-                f"the clock's jumps would need {added:,} filled samples (more than "
-                f"{MOST_FILLED:,}); split the file at the jumps", source=source,
-                line=line_of(i))
+        check_filled(gaps, source, lambda: line_of(i))
         rate = 1.0 / step
     else:
         # The whole span is far more precise than any single printed step.
@@ -235,6 +230,25 @@ def regular_step(first: float, last: float, jump_steps, regular_count: int) -> f
     (``stream.text_source``): the jumps are added exactly (``math.fsum``).
     """
     return (last - first - math.fsum(float(v) for v in jump_steps)) / regular_count
+
+
+def check_filled(gaps: list[tuple[int, int]], source: str, line) -> None:
+    """Refuse jumps that would need more than ``MOST_FILLED`` made-up samples
+    (``line()``: the line of the first jump, for the message)."""
+    added = sum(m for _, m in gaps)
+    if added > MOST_FILLED:
+        raise ScalesieveError(
+            f"the clock's jumps would need {added:,} filled samples (more than "
+            f"{MOST_FILLED:,}); split the file at the jumps", source=source, line=line())
+
+
+def jump_rows(a: np.ndarray, b: np.ndarray, missing: int, first: int = 1,
+              stop: int | None = None) -> np.ndarray:
+    """Rows ``first .. stop - 1`` (default all ``missing``) of the ``missing`` rows a jump
+    leaves out between rows ``a`` and ``b``, made by linear interpolation."""
+    stop = missing + 1 if stop is None else stop
+    w = (np.arange(first, stop, dtype=np.float64) / (missing + 1))[:, None]
+    return a[None, :] + w * (b - a)[None, :]
 
 
 def too_few_rows(source: str) -> ScalesieveError:
@@ -254,9 +268,7 @@ def fill_jumps(values: np.ndarray, gaps: list[tuple[int, int]]) -> np.ndarray:
     for row, missing in gaps:
         pieces.append(values[prev:row])
         if missing > 0:
-            a, b = values[row - 1], values[row]
-            w = (np.arange(1, missing + 1, dtype=np.float64) / (missing + 1))[:, None]
-            pieces.append(a[None, :] + w * (b - a)[None, :])
+            pieces.append(jump_rows(values[row - 1], values[row], missing))
         prev = row
     pieces.append(values[prev:])
     return np.concatenate(pieces, axis=0)

@@ -446,7 +446,9 @@ class TextSource:
 
     def _fill_jumps(self, gaps: list[tuple[int, int]]) -> None:
         """The rows each clock jump leaves out, made as ``time_column.fill_jumps`` makes
-        them (the same formula, a few rows at a time), put in their places."""
+        them (``time_column.jump_rows``, a few rows at a time), put in their places."""
+        from scalesieve.io import time_column as tc
+
         def write(out):
             g, last = 0, None
             for a, v in self._walk():
@@ -457,9 +459,8 @@ class TextSource:
                     lo = v[row - a - 1] if row > a else last
                     hi = v[row - a]
                     for i in range(1, missing + 1, CHECK_ROWS):
-                        w = (np.arange(i, min(missing + 1, i + CHECK_ROWS), dtype=np.float64)
-                             / (missing + 1))[:, None]
-                        out.write((lo[None, :] + w * (hi - lo)[None, :]).tobytes())
+                        out.write(tc.jump_rows(lo, hi, missing, i,
+                                               min(missing + 1, i + CHECK_ROWS)).tobytes())
                     start, g = row - a, g + 1
                 out.write(np.ascontiguousarray(v[start:]).tobytes())
                 last = v[-1].copy()
@@ -568,12 +569,7 @@ def steps_axis(times, n: int, src: str, origin, line_of, fill: str | None = None
         return tc.tidy_rate(float((n - 1) / (t1 - t0)), False), [], {}
     step = tc.regular_step(t0, t1, [v for _, v, _, _ in jumps], n - 1 - len(jumps))
     gaps = [(row, int(round(v / step)) - 1) for row, v, _, _ in jumps]
-    added = sum(m for _, m in gaps)
-    if added > tc.MOST_FILLED:
-        raise ScalesieveError(
-            f"the clock's jumps would need {added:,} filled samples (more than "
-            f"{tc.MOST_FILLED:,}); split the file at the jumps", source=src,
-            line=line_of(first_jump[0]))
+    tc.check_filled(gaps, src, lambda: line_of(first_jump[0]))
     at = {}
     for row, _, before, here in jumps:
         at[row - 1], at[row] = before, here
