@@ -1,5 +1,7 @@
 import os
+import sys
 
+import pytest
 from hypothesis import settings
 
 from fuzz_budget import campaign_count
@@ -18,3 +20,15 @@ if _CAMPAIGN is not None:
     settings.load_profile("fuzz-campaign")
 elif os.environ.get("CI"):
     settings.load_profile("ci")
+
+
+@pytest.hookimpl(wrapper=True)
+def pytest_runtest_teardown(item, nextitem):
+    yield
+    # After the test's fixtures are gone: where a GUI test moved cycle
+    # collection to the window's thread (scalesieve.gui.window_thread_gc),
+    # what fell due during the test is collected here, in the main thread,
+    # before the next test starts its threads.
+    gcmod = sys.modules.get("scalesieve.gui.window_thread_gc")
+    if gcmod is not None and gcmod.active():
+        gcmod.collect_due()

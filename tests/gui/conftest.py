@@ -13,6 +13,16 @@ from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons  # noqa
 guard_leaked_singletons()
 
 
+@pytest.fixture(autouse=True, scope="session")
+def _collect_in_window_thread(qapp):
+    """Cycle collection in the window's thread, as make_application sets it up."""
+    from scalesieve.gui.window_thread_gc import collect_in_window_thread, stop
+
+    collect_in_window_thread(qapp)
+    yield
+    stop()
+
+
 @pytest.fixture
 def window(qtbot, qapp, tmp_path):
     """A main window with its own settings file; error dialogs are recorded, not shown."""

@@ -81,12 +81,14 @@ def make_application(argv: list[str] | None = None):
     from scalesieve.freed_memory import keep_freed_memory
     from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons
     from scalesieve.gui.resource_files import colour, icon, style_sheet
+    from scalesieve.gui.window_thread_gc import collect_in_window_thread
 
     guard_leaked_singletons()   # before the first signal: see the module for the versions
     app = QApplication.instance()
     if app is None:
         keep_freed_memory()     # an edit's temporaries are reused, not fresh pages each time
         app = QApplication(argv or [sys.argv[0] if sys.argv else "scalesieve"])
+    collect_in_window_thread(app)   # never in a worker thread: see the module
     app.setOrganizationName("Scalesieve")
     app.setApplicationName("Scalesieve")
     pg.setConfigOptions(antialias=False, imageAxisOrder="row-major",
