@@ -6,7 +6,11 @@ by range: a ``.npy`` file, and a ``.npz`` member stored uncompressed, by plain
 file reads at the array's offset (no memory map: each read checks the file's
 size first, so a file shortened meanwhile is a message, never a bus error); a
 compressed member by inflating it as a stream (a range before the stream's
-position starts it again).  A file shorter than its header declares is read up
+position starts it again).  A stored member's CRC-32 (the zip entry's own
+checksum, which range reads never reach) is checked once when the archive
+is opened, up to ``CRC_CHECK_BYTES``: a mismatch is a warning that some
+samples are damaged (a compressed member's is checked by ``zipfile`` as it
+is inflated to its end).  A file shorter than its header declares is read up
 to the whole frames it holds, with a warning, as a shortened WAV is.  A 2-D array's
 longer axis is time, as for HDF5; ``--dataset`` picks the member of a ``.npz``
 when it holds several numeric arrays, a scalar member named ``fs``, ``rate`` or
@@ -19,6 +23,7 @@ from __future__ import annotations
 import os
 import struct
 import zipfile
+import zlib
 
 import numpy as np
 
@@ -27,6 +32,9 @@ from scalesieve.io.measurement_readers import RATE_NAMES, Source, _choose, _reas
 
 #: bytes inflated at a time while a compressed member is skipped forward
 _SKIP_BYTES = 1 << 22
+#: a stored member up to this size has its CRC-32 checked at open (about 1 s of reading
+#: here; a larger one is read by range unchecked, its ``detail["crc_checked"]`` False)
+CRC_CHECK_BYTES = 2 << 30
 
 
 class _Layout:
@@ -182,6 +190,24 @@ def _stored_offset(path: str, info: zipfile.ZipInfo) -> int:
     return info.header_offset + 30 + name_len + extra_len
 
 
+def _crc_warning(path: str, start: int, info: zipfile.ZipInfo, name: str) -> str | None:
+    """A warning when the stored member's bytes do not give the CRC-32 its zip entry holds."""
+    crc, left = 0, info.file_size
+    with open(path, "rb", buffering=0) as fh:
+        fh.seek(start)
+        while left > 0:
+            got = fh.read(min(left, _SKIP_BYTES))
+            if not got:
+                return None        # shorter than the entry: the shortened-file warning says so
+            crc = zlib.crc32(got, crc)
+            left -= len(got)
+    if crc == info.CRC:
+        return None
+    return (f"array {name!r} fails the archive's checksum (CRC-32 {crc:08x}, its entry "
+            f"says {info.CRC:08x}): some of its bytes are damaged, so samples or figures "
+            "may be wrong")
+
+
 def _held(lay: _Layout, held_bytes: int, whose: str, holder: str,
           source: str) -> tuple[int, str | None]:
     """``(frames to read, a warning or None)`` when ``held_bytes`` of the samples are there.
@@ -219,6 +245,22 @@ def _npy(source: str) -> Source:
     return src
 
 
+def _why_unreadable(source: str, exc: Exception) -> str:
+    """Why ``zipfile`` could not open an archive; a cut one said so in words."""
+    try:
+        with open(source, "rb") as fh:
+            head = fh.read(4)
+            size = os.fstat(fh.fileno()).st_size
+    except OSError:
+        return _reason(exc)
+    if head == b"PK\x03\x04" and isinstance(exc, zipfile.BadZipFile):
+        # members start the file, but the table of them that ends every zip archive
+        # (its "end of central directory" record) is not there
+        return (f"its members begin but the table of contents that ends every archive is "
+                f"missing: the file ({size} bytes) looks cut short or still being written")
+    return _reason(exc)
+
+
 def _member_array(zf: zipfile.ZipFile, name: str, source: str) -> np.ndarray:
     """A small member (a rate, the names) read whole, never unpickled."""
     with zf.open(name) as fh:
@@ -229,7 +271,8 @@ def _npz(source: str, dataset: str | None) -> Source:
     try:
         zf = zipfile.ZipFile(source)
     except (zipfile.BadZipFile, OSError, ValueError) as exc:
-        raise ScalesieveError(f"is not a readable NumPy .npz archive ({_reason(exc)})",
+        why = _why_unreadable(source, exc)
+        raise ScalesieveError(f"is not a readable NumPy .npz archive ({why})",
                               source=source) from None
     with zf:
         found, small, refused = {}, {}, []
@@ -284,6 +327,9 @@ def _npz(source: str, dataset: str | None) -> Source:
             if frames * lay.width < 2:
                 raise ScalesieveError(f"array {name!r} holds fewer than two samples ({warning})",
                                       source=source)
+            checked = warning is None and info.file_size <= CRC_CHECK_BYTES
+            if checked:
+                warning = _crc_warning(source, start, info, name)
         else:
             frames, warning = lay.frames, None
     if names is None:
@@ -293,6 +339,8 @@ def _npz(source: str, dataset: str | None) -> Source:
         (lambda: _Inflating(source, info.filename, lay, what))
     src = _source(names, rate, lay, opener, "npz", name, frames)
     src.detail["compressed"] = not stored
+    if stored:
+        src.detail["crc_checked"] = checked
     if warning:
         src.warnings.append(warning)
     return src
