@@ -55,3 +55,69 @@ def test_rows_made_late_show_the_recipe(window, qtbot):
     assert 2 in window.bands.rows and "muted" in window.bands.rows[2].info.text()
     assert window.scale_map.headers[2].mute.isChecked()
     assert not window.scale_map.headers[1].mute.isChecked()
+
+
+def test_row_headers_of_many_bands_come_a_few_per_turn(window, qtbot):
+    # 64 packet bands: the first headers come with the model, the rest in later turns
+    # of the event loop, another timer running between them; all end up in band order,
+    # one per row, top to bottom.
+    from scalesieve import api
+    from scalesieve.core.transforms import TransformSpec
+    from scalesieve.gui.row_headers import HEADERS_PER_TURN
+
+    from sample_files import sample
+
+    column = window.scale_map.header_column
+    seen = []
+    window.adapter.modelReplaced.connect(
+        lambda: seen.append((len(column.headers), column.filling(),
+                             window.adapter.bands_pending())))
+    ticks = []
+    timer = QTimer()
+    timer.setInterval(0)
+    timer.timeout.connect(lambda: ticks.append(len(column.headers)))
+    timer.start()
+    window.open_recording(api.load(sample("fan_bearing.wav")),
+                          TransformSpec("packet", "db4", 6, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    timer.stop()
+    m = window.adapter.model
+    assert seen == [(HEADERS_PER_TURN, True, True)]
+    assert not column.filling()
+    assert list(window.scale_map.headers) == list(m.band_keys)
+    assert [h.name.text() for h in window.scale_map.headers.values()] == \
+        [f"w6.{k}" for k in range(64)]
+    tops = [h.geometry().top() for h in window.scale_map.headers.values()]
+    assert tops == sorted(tops) and len(set(tops)) == 64
+    # the loop ran between turns: other timers saw the column part filled
+    assert len({t for t in ticks if HEADERS_PER_TURN <= t < 64}) >= 3
+
+
+def test_a_lane_opened_before_its_header_is_made_shows_open_on_it(window, qtbot):
+    from scalesieve import api
+    from scalesieve.core.transforms import TransformSpec
+
+    from sample_files import sample
+
+    column = window.scale_map.header_column
+    late = []
+
+    def mark_late_lane():
+        key = window.adapter.model.band_keys[-1]     # w6.63: its header comes last
+        assert key not in column.headers
+        column.set_lane_open(key, True)
+        late.append(key)
+
+    window.adapter.modelReplaced.connect(mark_late_lane)
+    window.open_recording(api.load(sample("fan_bearing.wav")),
+                          TransformSpec("packet", "db4", 6, "symmetric"))
+    assert window.adapter.wait_idle(60) is None
+    [key] = late
+    assert window.scale_map.headers[key].lane.isChecked()
+    window.adapter.modelReplaced.disconnect(mark_late_lane)
+    # the lanes the window opened itself (the most impulsive band, the largest share)
+    # show open on their headers, whichever turn made them
+    column.set_lane_open(key, False)
+    assert not window.scale_map.headers[key].lane.isChecked()
+    opened = {k for k, h in window.scale_map.headers.items() if h.lane.isChecked()}
+    assert opened == set(window.bands.open_keys) and len(opened) >= 1

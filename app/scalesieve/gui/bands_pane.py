@@ -408,8 +408,9 @@ class BandsPane(QFrame):
     def lane_open(self, key) -> bool:
         return key in self.open_keys
 
-    def set_lane(self, key, on: bool) -> None:
-        """Open or close a band's lane."""
+    def set_lane(self, key, on: bool, later: bool = False) -> None:
+        """Open or close a band's lane; ``later``: a row not yet made comes in a later
+        turn of the event loop (as the rows of lanes left open do)."""
         if on == (key in self.open_keys):
             return
         m = self.adapter.model
@@ -422,7 +423,12 @@ class BandsPane(QFrame):
             self.open_keys.remove(key)
         row = self.rows.get(key)
         if row is None and on and key in self.band_keys:
-            row = self._make_row(key)
+            if later:
+                if key not in self._to_build:
+                    self._to_build.append(key)
+                self._build_timer.start()
+            else:
+                row = self._make_row(key)
         if row is not None:
             row.setVisible(on)
             if on:
@@ -448,7 +454,7 @@ class BandsPane(QFrame):
         largest = max(table, key=lambda k: table[k]["energy_fraction"])
         for key in (impulsive, largest):
             if key is not None:
-                self.set_lane(key, True)
+                self.set_lane(key, True, later=True)   # the window answers between rows
         if self.impulsive_note:
             try:
                 self.window().statusBar().showMessage(self.impulsive_note, 10000)

@@ -379,9 +379,7 @@ class MainWindow(RecipeFiles, QMainWindow):
         self.transform_line.showMenu()
 
     def _lane_toggled(self, key, on: bool) -> None:
-        h = self.scale_map.headers.get(key)
-        if h is not None:
-            h.set_lane_open(on)
+        self.scale_map.header_column.set_lane_open(key, on)
 
     @reported(once=True)
     def resizeEvent(self, ev):

@@ -10,7 +10,7 @@ from ``model.band_table(channel)`` only.
 
 from __future__ import annotations
 
-from PySide6.QtCore import QRectF, Qt, Signal
+from PySide6.QtCore import QRectF, Qt, QTimer, Signal
 from PySide6.QtGui import QColor, QFontMetrics, QPainter
 from PySide6.QtWidgets import (QAbstractSpinBox, QDoubleSpinBox, QHBoxLayout, QLabel, QSizePolicy, QToolButton,
                                QWidget)
@@ -268,13 +268,34 @@ class RowHeader(QWidget):
         super().mousePressEvent(ev)
 
 
+#: row headers made in one turn of the event loop: each, with its controls, takes
+#: about a millisecond to make and as long again to lay out and paint the first time,
+#: so 64 packet bands made at once held the window for a fifth of a second
+HEADERS_PER_TURN = 8
+
+
 class RowHeaderColumn(QWidget):
-    """The headers of every row, placed to line up with the map's rows."""
+    """The headers of every row, placed to line up with the map's rows.
+
+    Headers are made ``HEADERS_PER_TURN`` at a time, the top rows at once and the
+    rest in the next turns of the event loop; ``filled(keys)`` says which came.
+    """
+
+    filled = Signal(list)
 
     def __init__(self, parent=None):
         super().__init__(parent)
         self.headers: dict = {}
         self.order: list = []
+        self._row_of: dict = {}
+        self._lanes_open: set = set()         # kept for headers still to be made
+        self._to_make: list = []
+        self._make = None
+        self._placed = (0.0, 0.0)
+        self._fill_timer = QTimer(self)       # a timer, so other timers run between turns
+        self._fill_timer.setSingleShot(True)
+        self._fill_timer.setInterval(0)
+        self._fill_timer.timeout.connect(self._make_some)
         self.empty = QLabel("Open a recording (File ▸ Open, or drop a file here): its bands "
                             "appear as rows, finest on top.", self)
         self.empty.setObjectName("hint")
@@ -289,12 +310,36 @@ class RowHeaderColumn(QWidget):
             h.deleteLater()
         self.headers = {}
         self.order = keys
-        for key in keys:
-            h = make(key)
-            h.setParent(self)
-            h.show()
-            self.headers[key] = h
+        self._row_of = {k: i for i, k in enumerate(keys)}
+        self._make, self._to_make = make, list(keys)
         self.empty.setVisible(not keys)
+        self._make_some()
+
+    def set_lane_open(self, key, on: bool) -> None:
+        """Show a band's lane as open or closed, now or when its header is made."""
+        (self._lanes_open.add if on else self._lanes_open.discard)(key)
+        h = self.headers.get(key)
+        if h is not None:
+            h.set_lane_open(on)
+
+    def filling(self) -> bool:
+        """Headers are still to be made."""
+        return bool(self._to_make)
+
+    def _make_some(self) -> None:
+        batch, self._to_make = self._to_make[:HEADERS_PER_TURN], self._to_make[HEADERS_PER_TURN:]
+        top, height = self._placed
+        for key in batch:
+            h = self._make(key)
+            h.setParent(self)
+            self.headers[key] = h
+            h.set_lane_open(key in self._lanes_open)
+            self._place_one(key, top, height)
+            h.show()
+        if self._to_make:
+            self._fill_timer.start()
+        if batch:
+            self.filled.emit(batch)
 
     def fit_text_columns(self) -> None:
         """One width for every row's band name (wide enough for ``w6.63``), the Hz range
@@ -312,14 +357,19 @@ class RowHeaderColumn(QWidget):
 
     def place(self, top: float, row_height: float) -> None:
         """Put header i at ``top + i * row_height`` (widget coordinates)."""
-        for i, key in enumerate(self.order):
-            y0 = int(round(top + i * row_height))
-            y1 = int(round(top + (i + 1) * row_height))
-            head = self.headers[key]
-            head.row_height = row_height
-            head.setGeometry(0, y0, self.width(), max(1, y1 - y0))
-            head.gain.fit_height(min(int(row_height), head.height()))
+        self._placed = (top, row_height)
+        for key in self.headers:
+            self._place_one(key, top, row_height)
         self.empty.setGeometry(8, 8, max(10, self.width() - 16), 80)
+
+    def _place_one(self, key, top: float, row_height: float) -> None:
+        i = self._row_of[key]
+        y0 = int(round(top + i * row_height))
+        y1 = int(round(top + (i + 1) * row_height))
+        head = self.headers[key]
+        head.row_height = row_height
+        head.setGeometry(0, y0, self.width(), max(1, y1 - y0))
+        head.gain.fit_height(min(int(row_height), head.height()))
 
     @reported(once=True)
     def resizeEvent(self, ev):

@@ -187,6 +187,8 @@ class ScaleMapPane(MapRegions, QFrame):
         self._table_timer.setInterval(0)
         self._table_timer.timeout.connect(self._read_table)
         adapter.add_pending_check(self.table_pending)
+        adapter.add_pending_check(self.header_column.filling)
+        self.header_column.filled.connect(lambda keys: self._show_headers())
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
