@@ -281,7 +281,7 @@ class RowHeaderColumn(QWidget):
     rest in the next turns of the event loop; ``filled(keys)`` says which came.
     """
 
-    filled = Signal(list)
+    filled = Signal(object)      # the keys whose headers were just made (a list)
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -317,7 +317,10 @@ class RowHeaderColumn(QWidget):
 
     def set_lane_open(self, key, on: bool) -> None:
         """Show a band's lane as open or closed, now or when its header is made."""
-        (self._lanes_open.add if on else self._lanes_open.discard)(key)
+        if on:
+            self._lanes_open.add(key)
+        else:
+            self._lanes_open.discard(key)
         h = self.headers.get(key)
         if h is not None:
             h.set_lane_open(on)
