@@ -121,3 +121,25 @@ def test_a_lane_opened_before_its_header_is_made_shows_open_on_it(window, qtbot)
     assert not window.scale_map.headers[key].lane.isChecked()
     opened = {k for k, h in window.scale_map.headers.items() if h.lane.isChecked()}
     assert opened == set(window.bands.open_keys) and len(opened) >= 1
+
+
+def test_the_most_impulsive_band_is_found_off_the_window_thread(window, monkeypatch):
+    import threading
+
+    from scalesieve.gui import bands_pane
+
+    threads = []
+    find = bands_pane._most_impulsive_key
+
+    def watched(*args):
+        threads.append(threading.current_thread())
+        return find(*args)
+
+    monkeypatch.setattr(bands_pane, "_most_impulsive_key", watched)
+    m = open_sample(window, "pump_bearing.wav")
+    assert threads and threading.main_thread() not in threads
+    # and the lanes it chose opened: the largest share's band among them
+    shares = {k: r["energy_fraction"] for k, r in window.scale_map._table.items()}
+    assert max(shares, key=shares.get) in window.bands.open_keys
+    assert set(window.bands.rows) == set(window.bands.open_keys)
+    assert all(k in m.band_keys for k in window.bands.open_keys)

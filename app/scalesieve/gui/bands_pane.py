@@ -250,6 +250,12 @@ class BandsPane(QFrame):
         self.open_keys: list = []
         self._defaults_for = None
         self.impulsive_note: str | None = None   # why no lane opened for an impulsive band
+        from scalesieve.gui.impulse_map import BackgroundRun
+
+        # the most impulsive band reads every band's coefficients: not in the window's thread
+        self._defaults_run = BackgroundRun("default lanes", self)
+        self._defaults_run.finished.connect(self._defaults_found)
+        adapter.add_pending_check(lambda: self._defaults_run.busy)
         self.scrollbar_width = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
         outer = QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
@@ -441,17 +447,29 @@ class BandsPane(QFrame):
         self.laneToggled.emit(key, on)
 
     def open_default_lanes(self, table: dict) -> None:
-        """Open the most impulsive band and the one with the largest share (once per model)."""
+        """Open the most impulsive band and the one with the largest share (once per model).
+
+        The most impulsive band is found in a worker thread; the lanes open when it is.
+        """
         m = self.adapter.model
         tag = (id(m), self.channel)
         if m is None or tag == self._defaults_for or not table:
             return
         self._defaults_for = tag
+        details = {k: r for k, r in table.items() if k != "a"} or table
+        largest = max(table, key=lambda k: table[k]["energy_fraction"])
+        channel = self.channel
+        self._defaults_run.request((tag, largest),
+                                   lambda check: _most_impulsive_key(m, channel, details))
+
+    def _defaults_found(self, job, found, problem) -> None:
+        tag, largest = job
+        m = self.adapter.model
+        if m is None or tag != (id(m), self.channel):
+            return                         # another recording or channel meanwhile
+        impulsive, self.impulsive_note = found if problem is None else (None, None)
         for key in list(self.open_keys):
             self.set_lane(key, False)
-        details = {k: r for k, r in table.items() if k != "a"} or table
-        impulsive, self.impulsive_note = _most_impulsive_key(m, self.channel, details)
-        largest = max(table, key=lambda k: table[k]["energy_fraction"])
         for key in (impulsive, largest):
             if key is not None:
                 self.set_lane(key, True, later=True)   # the window answers between rows
