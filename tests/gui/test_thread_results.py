@@ -23,7 +23,7 @@ from scalesieve.gui.pyside_refcount_guard import guard_leaked_singletons
 
 guard_leaked_singletons()
 app = QApplication([])
-from scalesieve.gui.impulse_map import BackgroundRun
+from scalesieve.gui.background_run import BackgroundRun
 
 got = []
 for i in range(int(sys.argv[1])):

@@ -250,7 +250,7 @@ class BandsPane(QFrame):
         self.open_keys: list = []
         self._defaults_for = None
         self.impulsive_note: str | None = None   # why no lane opened for an impulsive band
-        from scalesieve.gui.impulse_map import BackgroundRun
+        from scalesieve.gui.background_run import BackgroundRun
 
         # the most impulsive band reads every band's coefficients: not in the window's thread
         self._defaults_run = BackgroundRun("default lanes", self)

@@ -25,7 +25,8 @@ from scalesieve.core import bearing as br
 from scalesieve.core import envelope as en
 from scalesieve.errors import ScalesieveError
 from scalesieve.gui import shared_kurtosis
-from scalesieve.gui.impulse_map import BackgroundRun, busy_bar, keep_lines
+from scalesieve.gui.background_run import BackgroundRun
+from scalesieve.gui.impulse_map import busy_bar, keep_lines
 from scalesieve.gui.pane_frame import plot_min_height, small_axis_labels
 from scalesieve.io.atomic import atomic_write
 from scalesieve.gui.event_guard import reported

@@ -188,7 +188,7 @@ class ScaleMapPane(MapRegions, QFrame):
         self._table_timer.timeout.connect(self._read_table)
         adapter.add_pending_check(self.table_pending)
         adapter.add_pending_check(self.header_column.filling)
-        self.header_column.filled.connect(lambda keys: self._show_headers())
+        self.header_column.filled.connect(self._show_headers)   # the new ones
         adapter.modelReplaced.connect(self._on_model)
         adapter.recipeChanged.connect(self._on_recipe)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
@@ -377,12 +377,13 @@ class ScaleMapPane(MapRegions, QFrame):
         return self._table.get(key) if self._table_for == (id(self.adapter.model),
                                                            self.channel) else None
 
-    def _show_headers(self) -> None:
+    def _show_headers(self, keys=None) -> None:
         m = self.adapter.model
         if m is None:
             return
         scope = self.adapter.edit_channels(self.channel)
-        for key, h in self.headers.items():
+        for key in self.headers if keys is None else keys:
+            h = self.headers[key]
             lo, hi = m.band_range_hz(key)
             row = self.band_figures(key)
             h.show_band(m.band_name(key), lo, hi, row["energy_fraction"] if row else 0.0, row)

@@ -67,7 +67,7 @@ class SessionKeeper(QObject):
         self._opened: autosave.Fingerprint | None = None  # the recording as opened (hashed aside)
         self._checking: str | None = None    # the recording whose saved edits are being looked for
         self._owed_save = False              # an edit came while they were: saved after the answer
-        from scalesieve.gui.impulse_map import BackgroundRun
+        from scalesieve.gui.background_run import BackgroundRun
 
         self._look = BackgroundRun("restore check", self)
         self._look.finished.connect(self._looked)

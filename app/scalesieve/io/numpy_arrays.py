@@ -190,17 +190,17 @@ def _stored_offset(path: str, info: zipfile.ZipInfo) -> int:
     return info.header_offset + 30 + name_len + extra_len
 
 
-def _crc_warning(path: str, start: int, info: zipfile.ZipInfo, name: str) -> str | None:
-    """A warning when the stored member's bytes do not give the CRC-32 its zip entry holds."""
+def _crc_warning(fh, start: int, info: zipfile.ZipInfo, name: str) -> str | None:
+    """A warning when the stored member's bytes (from ``start`` in the open archive ``fh``)
+    do not give the CRC-32 its zip entry holds."""
     crc, left = 0, info.file_size
-    with open(path, "rb", buffering=0) as fh:
-        fh.seek(start)
-        while left > 0:
-            got = fh.read(min(left, _SKIP_BYTES))
-            if not got:
-                return None        # shorter than the entry: the shortened-file warning says so
-            crc = zlib.crc32(got, crc)
-            left -= len(got)
+    fh.seek(start)
+    while left > 0:
+        got = fh.read(min(left, _SKIP_BYTES))
+        if not got:
+            return None            # shorter than the entry: the shortened-file warning says so
+        crc = zlib.crc32(got, crc)
+        left -= len(got)
     if crc == info.CRC:
         return None
     return (f"array {name!r} fails the archive's checksum (CRC-32 {crc:08x}, its entry "
@@ -320,16 +320,16 @@ def _npz(source: str, dataset: str | None) -> Source:
                 _header(fh, f"array {name!r}", source)
                 offset = fh.tell()
                 size = os.fstat(fh.fileno()).st_size
-            # what the member's zip entry holds, and no more than the file itself does
-            held_bytes = min(start + info.file_size, size) - offset
-            frames, warning = _held(lay, held_bytes, f"the header of array {name!r}",
-                                    "the archive", source)
-            if frames * lay.width < 2:
-                raise ScalesieveError(f"array {name!r} holds fewer than two samples ({warning})",
-                                      source=source)
-            checked = warning is None and info.file_size <= CRC_CHECK_BYTES
-            if checked:
-                warning = _crc_warning(source, start, info, name)
+                # what the member's zip entry holds, and no more than the file itself does
+                held_bytes = min(start + info.file_size, size) - offset
+                frames, warning = _held(lay, held_bytes, f"the header of array {name!r}",
+                                        "the archive", source)
+                if frames * lay.width < 2:
+                    raise ScalesieveError(f"array {name!r} holds fewer than two samples "
+                                          f"({warning})", source=source)
+                checked = warning is None and info.file_size <= CRC_CHECK_BYTES
+                if checked:
+                    warning = _crc_warning(fh, start, info, name)
         else:
             frames, warning = lay.frames, None
     if names is None:
